@@ -1,0 +1,201 @@
+"""The values that flow through the pipeline: a panel, its openings, supports, loads and material.
+
+Everything here is in the panel's *local frame*: millimetres, origin at the envelope's lower-left corner,
+x along its bottom edge, y along its left edge. Forces are in N, line loads in N/mm, stresses in MPa.
+A :class:`Frame` maps drawing coordinates (in the drawing's own unit, possibly rotated and far from the
+origin) to the local frame and back; only the readers and writers at the edges use it.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Union
+
+import numpy as np
+import shapely
+from shapely.geometry import Polygon, box
+
+from .errors import LacunaError
+
+Point = tuple[float, float]
+
+
+@dataclass(frozen=True)
+class Frame:
+    """Drawing coordinates <-> the panel's local frame.
+
+    ``origin`` is the drawing position (drawing units) of the local origin; ``angle_deg`` turns the drawing's
+    x axis onto the local x axis (counter-clockwise); ``mm_per_unit`` scales drawing units to mm. The origin is
+    subtracted before anything else, so site coordinates millions of mm from zero lose no precision.
+    """
+
+    origin: Point = (0.0, 0.0)
+    angle_deg: float = 0.0
+    mm_per_unit: float = 1.0
+    unit: str = "mm"
+
+    def _rotation(self) -> np.ndarray:
+        a = math.radians(self.angle_deg)
+        c, s = math.cos(a), math.sin(a)
+        return np.array([[c, -s], [s, c]])
+
+    def to_local(self, xy) -> np.ndarray:
+        """Drawing points (drawing units), shape (2,) or (n, 2) -> local mm."""
+        p = np.asarray(xy, dtype=float) - np.asarray(self.origin, dtype=float)
+        return (p * self.mm_per_unit) @ self._rotation()
+
+    def to_drawing(self, xy) -> np.ndarray:
+        """Local points (mm) -> drawing units."""
+        p = np.asarray(xy, dtype=float) @ self._rotation().T
+        return p / self.mm_per_unit + np.asarray(self.origin, dtype=float)
+
+    def vector_to_local(self, v) -> np.ndarray:
+        """Turn a direction or force given along the drawing's axes onto the local axes (no scaling)."""
+        return np.asarray(v, dtype=float) @ self._rotation()
+
+    def vector_to_drawing(self, v) -> np.ndarray:
+        return np.asarray(v, dtype=float) @ self._rotation().T
+
+    def length_to_local(self, length: float) -> float:
+        return float(length) * self.mm_per_unit
+
+    def length_to_drawing(self, length_mm: float) -> float:
+        return float(length_mm) / self.mm_per_unit
+
+
+@dataclass(frozen=True)
+class Material:
+    E_MPa: float
+    nu: float
+    density_kg_m3: float | None = None
+    name: str = ""
+
+    def __post_init__(self):
+        if not (self.E_MPa > 0 and math.isfinite(self.E_MPa)):
+            raise LacunaError(f"Young's modulus must be positive, got E = {self.E_MPa} MPa.", where="[material] E_MPa")
+        if not (0.0 <= self.nu < 0.5):
+            raise LacunaError(
+                f"Poisson's ratio must lie in [0, 0.5) for plane stress, got nu = {self.nu}.", where="[material] nu"
+            )
+        if self.density_kg_m3 is not None and not self.density_kg_m3 >= 0:
+            raise LacunaError(
+                f"density must not be negative, got {self.density_kg_m3} kg/m3.", where="[material] density_kg_m3"
+            )
+
+
+@dataclass(frozen=True)
+class Region:
+    """A closed shape in the panel: an existing opening or a zone that must stay solid (local mm)."""
+
+    shape: Polygon
+    layer: str = ""
+    handle: str | None = None
+
+    @property
+    def source(self) -> str:
+        return f"layer {self.layer}, handle {self.handle}" if self.handle else f"layer {self.layer}"
+
+
+@dataclass(frozen=True)
+class Support:
+    """A support at one point, or along a straight piece of the outline (two end points), local mm.
+
+    ``fix`` names the restrained local directions: "xy", "x" or "y".
+    """
+
+    points: tuple[Point, ...]
+    fix: str = "xy"
+    source: str = ""
+
+    def __post_init__(self):
+        if self.fix not in ("xy", "x", "y"):
+            raise LacunaError(f'support fixity must be "xy", "x" or "y", got {self.fix!r}.', where=self.source or None)
+        if len(self.points) not in (1, 2):
+            raise LacunaError("a support is one point or a segment of two points.", where=self.source or None)
+
+    @property
+    def is_point(self) -> bool:
+        return len(self.points) == 1
+
+
+@dataclass(frozen=True)
+class PointLoad:
+    at: Point
+    force_N: Point
+    case: str = "main"
+    source: str = ""
+
+
+@dataclass(frozen=True)
+class LineLoad:
+    """A load spread uniformly along a straight segment: intensity in N per mm of segment length."""
+
+    start: Point
+    end: Point
+    intensity_N_per_mm: Point
+    case: str = "main"
+    source: str = ""
+
+    @property
+    def length_mm(self) -> float:
+        return math.dist(self.start, self.end)
+
+
+Load = Union[PointLoad, LineLoad]
+
+
+@dataclass(frozen=True)
+class Panel:
+    """A rectangular panel in its local frame, with everything the analysis needs."""
+
+    width_mm: float
+    height_mm: float
+    thickness_mm: float
+    material: Material
+    openings: tuple[Region, ...] = ()
+    keep: tuple[Region, ...] = ()
+    supports: tuple[Support, ...] = ()
+    loads: tuple[Load, ...] = ()
+    case_weights: tuple[tuple[str, float], ...] = ()
+    self_weight: bool = False
+    element_size_mm: float | None = None
+    frame: Frame = field(default_factory=Frame)
+    name: str = "panel"
+    source: str = ""
+
+    def __post_init__(self):
+        if not (self.thickness_mm > 0 and math.isfinite(self.thickness_mm)):
+            raise LacunaError(
+                f"panel thickness must be positive, got {self.thickness_mm} mm.", where="[panel] thickness"
+            )
+        if not (self.width_mm > 0 and self.height_mm > 0):
+            raise LacunaError(f"panel envelope {self.width_mm} x {self.height_mm} mm has no area.")
+        if self.element_size_mm is not None and not self.element_size_mm > 0:
+            raise LacunaError(
+                f"element size must be positive, got {self.element_size_mm} mm.", where="[panel] element_size"
+            )
+
+    @property
+    def envelope(self) -> Polygon:
+        return box(0.0, 0.0, self.width_mm, self.height_mm)
+
+    @property
+    def solid(self) -> Polygon:
+        """The envelope less its openings: the material the drawing shows."""
+        if not self.openings:
+            return self.envelope
+        return shapely.difference(self.envelope, shapely.union_all([o.shape for o in self.openings]))
+
+    @property
+    def cases(self) -> tuple[str, ...]:
+        """Load-case names in the order they first appear (loads, then weights)."""
+        names: dict[str, None] = {}
+        for load in self.loads:
+            names.setdefault(load.case, None)
+        for name, _ in self.case_weights:
+            names.setdefault(name, None)
+        return tuple(names) or ("main",)
+
+    def case_weight(self, case: str) -> float:
+        return dict(self.case_weights).get(case, 1.0)

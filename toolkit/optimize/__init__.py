@@ -1,0 +1,1 @@
+"""optimize stage (see docs/architecture.md)."""

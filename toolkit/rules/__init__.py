@@ -1,0 +1,1 @@
+"""rules stage (see docs/architecture.md)."""

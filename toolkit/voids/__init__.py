@@ -1,0 +1,1 @@
+"""voids stage (see docs/architecture.md)."""
