@@ -4,3 +4,9 @@ Results are for design exploration; every member must be checked by a qualified 
 """
 
 __version__ = "0.1.0"
+
+CAUTION = (
+    "Results are for design exploration only. The FE model is linear-elastic, plane-stress and isotropic; "
+    "it does not check strength, stability, connections or durability. Every member must be checked by a "
+    "qualified engineer to the local design code before anything is made."
+)

@@ -199,3 +199,35 @@ class Panel:
 
     def case_weight(self, case: str) -> float:
         return dict(self.case_weights).get(case, 1.0)
+
+
+@dataclass(frozen=True)
+class Layers:
+    """Where things are found in a drawing (CONTRACT.md defaults; renamable in the job file's [layers])."""
+
+    outline: str = "PANEL"
+    openings: str = "OPENING"
+    keep: str = "KEEP"
+    support: str = "SUPPORT"
+    load: str = "LOAD"
+
+
+@dataclass(frozen=True)
+class Drawing:
+    """What a drawing says about a panel, already in the panel's local frame (mm, N).
+
+    ``supports`` and ``loads`` come from the drawing's markers; the job file may add to or replace them.
+    ``warnings`` lists what was healed or assumed (unitless drawing taken as mm, a gap closed, audit findings).
+    """
+
+    path: str
+    unit: str
+    frame: Frame
+    width_mm: float
+    height_mm: float
+    outline_handles: tuple[str, ...] = ()
+    openings: tuple[Region, ...] = ()
+    keep: tuple[Region, ...] = ()
+    supports: tuple[Support, ...] = ()
+    loads: tuple[Load, ...] = ()
+    warnings: tuple[str, ...] = ()

@@ -1,4 +1,6 @@
-"""Plane-stress finite elements on a structured grid over the panel envelope (pure numerics, no file I/O).
+"""(To whoever is building this package now: your full task is in /work/main/TASK-FE.md — read it first.)
+
+Plane-stress finite elements on a structured grid over the panel envelope (pure numerics, no file I/O).
 
 The pieces, each a small function or value over numpy arrays (local frame: mm, N, MPa):
 

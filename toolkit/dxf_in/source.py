@@ -1,0 +1,140 @@
+"""Opening a drawing file, its length unit, and walking its model space with block references resolved."""
+
+from __future__ import annotations
+
+import os
+from dataclasses import dataclass
+from typing import Iterable, Iterator
+
+import ezdxf
+from ezdxf import recover
+from ezdxf.document import Drawing as DxfDocument
+from ezdxf.lldxf import validator
+from ezdxf.lldxf.const import DXFError, DXFStructureError
+
+from ..errors import LacunaError
+from ..units import INSUNITS_TO_UNIT, MM_PER_UNIT, UNIT_TO_INSUNITS
+
+# Block references nested deeper than this are almost surely a reference cycle in a damaged file.
+MAX_BLOCK_DEPTH = 32
+
+
+@dataclass(frozen=True)
+class Item:
+    """One graphic entity of the model space, block contents already placed in drawing coordinates.
+
+    ``handle`` is the entity's own handle, or for block contents the path of handles from the model-space
+    INSERT down to the entity in the block definition, joined by "/" (e.g. "2F/1A").
+    ``layer`` is the effective layer: contents of a block drawn on layer "0" take the INSERT's layer.
+    """
+
+    entity: object
+    layer: str
+    handle: str
+
+    @property
+    def kind(self) -> str:
+        return self.entity.dxftype()
+
+
+def open_document(path: str) -> tuple[DxfDocument, list[str]]:
+    """Read a DXF file (ASCII or binary, any version ezdxf reads) without ever writing to it.
+
+    A file that does not load cleanly is read again through ezdxf's recover module; what its audit fixed or
+    could not fix comes back as warnings.
+    """
+    where = str(path)
+    if not os.path.isfile(path):
+        raise LacunaError("no such file.", where=where, hint="Check the path and the file name.")
+    if validator.is_dwg_file(path):
+        raise LacunaError(
+            "the file is a DWG, not a DXF drawing.", where=where, hint="Save or export the drawing as DXF."
+        )
+    looks_like_dxf = validator.is_binary_dxf_file(path) or validator.is_dxf_file(path)
+    if looks_like_dxf:
+        try:
+            doc = ezdxf.readfile(path)
+        except (DXFError, UnicodeDecodeError, ValueError):
+            pass  # damaged: the recover reader below says what it had to repair
+        else:
+            return doc, []
+    try:
+        doc, auditor = recover.readfile(path)
+    except (DXFError, UnicodeDecodeError, ValueError, IndexError, OSError) as error:
+        raise LacunaError(
+            f"the file is not a DXF drawing, or is too damaged to read ({error}).",
+            where=where,
+            hint="Open it in the drafting program it came from and save it again as DXF.",
+        ) from None
+    warnings = [f"{where}: the file was damaged and has been read in recovery mode."]
+    warnings += [f"{where}: repaired: {fix.message}" for fix in auditor.fixes]
+    warnings += [f"{where}: damage left as found: {err.message}" for err in auditor.errors]
+    return doc, warnings
+
+
+def drawing_unit(doc: DxfDocument, where: str) -> tuple[str, list[str]]:
+    """The drawing's length unit from $INSUNITS; unitless or missing is taken as mm with a warning."""
+    code = doc.header.get("$INSUNITS", None)
+    if code is None or int(code) == 0:
+        said = "has no length unit ($INSUNITS is missing)" if code is None else "is unitless ($INSUNITS = 0)"
+        return "mm", [
+            f"{where}: the drawing {said}; its lengths are taken as millimetres. "
+            f"Set $INSUNITS ({', '.join(f'{c} = {u}' for u, c in UNIT_TO_INSUNITS.items())}) to say otherwise."
+        ]
+    code = int(code)
+    if code not in INSUNITS_TO_UNIT:
+        known = ", ".join(f"{c} = {u}" for c, u in INSUNITS_TO_UNIT.items())
+        raise LacunaError(
+            f"the drawing's length unit is $INSUNITS = {code}, which this program does not read.",
+            where=f"{where}, header $INSUNITS",
+            hint=f"Set the drawing's units to one of {known} (0 = unitless is read as mm) and save again.",
+        )
+    unit = INSUNITS_TO_UNIT[code]
+    assert unit in MM_PER_UNIT
+    return unit, []
+
+
+def model_items(doc: DxfDocument, keep_whole_layers: Iterable[str], where: str, warnings: list[str]) -> list[Item]:
+    """Every graphic entity of the model space, block references resolved (nested and arrayed ones too).
+
+    An INSERT on one of ``keep_whole_layers`` (case-insensitive) is kept as it is: there it is a marker whose
+    insertion point and attributes matter, not a container of geometry.
+    """
+    keep = {name.casefold() for name in keep_whole_layers}
+    return list(_walk(doc.modelspace(), "", "", keep, 0, where, warnings))
+
+
+def _walk(entities, parent: str, parent_layer: str, keep: set[str], depth: int, where: str, warnings: list[str]) -> Iterator[Item]:
+    for entity in entities:
+        layer = entity.dxf.get("layer", "0")
+        if parent_layer and layer == "0":
+            layer = parent_layer  # the DXF convention for block contents on layer 0
+        own = entity.dxf.handle
+        if own is None and entity.source_of_copy is not None:
+            own = entity.source_of_copy.dxf.handle
+        handle = f"{parent}/{own}" if parent else str(own)
+        if entity.dxftype() != "INSERT" or layer.casefold() in keep:
+            yield Item(entity, layer, handle)
+            continue
+        if depth >= MAX_BLOCK_DEPTH:
+            raise LacunaError(
+                f"block references are nested more than {MAX_BLOCK_DEPTH} deep (a block that contains itself?).",
+                where=f"{where}, INSERT {handle}",
+                hint="Explode or redefine the block.",
+            )
+        arrayed = list(entity.multi_insert()) if entity.mcount > 1 else [entity]
+        for k, insert in enumerate(arrayed):
+            label = f"{handle}[{k}]" if len(arrayed) > 1 else handle
+
+            def skipped(e, reason, label=label):
+                warnings.append(f"{where}: a {e.dxftype()} in block reference {label} was skipped ({reason}).")
+
+            try:
+                contents = list(insert.virtual_entities(skipped_entity_callback=skipped))
+            except DXFStructureError as error:
+                raise LacunaError(
+                    f"block reference of {entity.dxf.name!r} cannot be resolved ({error}).",
+                    where=f"{where}, layer {layer}, INSERT {handle}",
+                    hint="Redefine the block or explode the reference.",
+                ) from None
+            yield from _walk(contents, label, layer, keep, depth + 1, where, warnings)

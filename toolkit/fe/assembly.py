@@ -1,0 +1,63 @@
+"""Global stiffness assembly with a sparsity pattern built once and reused every call."""
+
+from __future__ import annotations
+
+import numpy as np
+import scipy.sparse as sp
+
+from .grid import Grid
+
+
+class Assembler:
+    """Assembles K = sum_e scale_e * ke over a grid; the CSC pattern and the scatter map are built once.
+
+    Every matrix returned shares ``indices`` and ``indptr`` (same pattern, same order), so a solver can keep
+    its symbolic analysis from one call to the next.
+    """
+
+    def __init__(self, grid: Grid):
+        self.grid = grid
+        nn = grid.n_nodes
+        # The pattern is found on node pairs (16 per element, a quarter of the dof pairs) and then expanded:
+        # the node pair (p, q) owns the 2 x 2 dof block rows 2p+a, columns 2q+b.
+        en = grid.enodes
+        rows = np.repeat(en, 4, axis=1).ravel()
+        cols = np.tile(en, (1, 4)).ravel()
+        # Column-major key: sorted unique keys come out in CSC order (by column node, then row node).
+        unique, pair = np.unique(cols.astype(np.int64) * nn + rows, return_inverse=True)
+        pair = pair.ravel()
+        row_node = unique % nn
+        col_node = unique // nn
+        start = np.searchsorted(col_node, np.arange(nn + 1))
+        count = np.diff(start)
+        # Dof column 2q starts at 4 start[q] and holds 2 count[q] rows; column 2q+1 follows it.
+        indptr = np.empty(2 * nn + 1, dtype=np.int64)
+        indptr[0:-1:2] = 4 * start[:-1]
+        indptr[1::2] = 4 * start[:-1] + 2 * count
+        indptr[-1] = 4 * start[-1]
+        rank = np.arange(unique.size) - start[col_node]
+        indices = np.empty(4 * unique.size, dtype=np.int64)
+        for b in (0, 1):
+            for a in (0, 1):
+                indices[4 * start[col_node] + b * 2 * count[col_node] + 2 * rank + a] = 2 * row_node + a
+        # Slot in the data array of entry (2lp+a, 2lq+b) of each element: ke.ravel() order is (lp, a, lq, b).
+        k = pair.reshape(-1, 4, 1, 4, 1)
+        q = col_node[k]
+        a = np.arange(2).reshape(1, 1, 2, 1, 1)
+        b = np.arange(2).reshape(1, 1, 1, 1, 2)
+        slot = 4 * start[q] + b * 2 * count[q] + 2 * (k - start[q]) + a
+        self._slot = slot.reshape(-1)
+        self.indices = indices.astype(np.int32)
+        self.indptr = indptr.astype(np.int32)
+        self.nnz = indices.size
+
+    def matrix(self, ke: np.ndarray, scale: np.ndarray | None = None) -> sp.csc_matrix:
+        """Global stiffness (CSC) for element matrix ``ke`` (8, 8) times per-element factors ``scale`` (ne,)."""
+        ne = self.grid.n_elements
+        if scale is None:
+            values = np.tile(np.asarray(ke, dtype=float).ravel(), ne)
+        else:
+            values = (np.asarray(scale, dtype=float)[:, None] * np.asarray(ke, dtype=float).ravel()[None, :]).ravel()
+        data = np.bincount(self._slot, weights=values, minlength=self.nnz)
+        n = self.grid.n_dofs
+        return sp.csc_matrix((data, self.indices, self.indptr), shape=(n, n))

@@ -1,0 +1,178 @@
+"""Supports on the grid, and the check that they hold every part of the panel before anything is solved."""
+
+from __future__ import annotations
+
+import numpy as np
+import shapely
+from scipy import ndimage
+from shapely.geometry import LineString, Point
+
+from ..errors import LacunaError
+from ..model import Frame, Support
+from .grid import Grid
+
+
+def where_text(xy, frame: Frame | None = None) -> str:
+    """A local point (mm) as a drafter reads it: in drawing coordinates and unit when a frame is given."""
+    if frame is None:
+        return f"({xy[0]:.6g}, {xy[1]:.6g}) mm"
+    x, y = frame.to_drawing(np.asarray(xy, dtype=float))
+    return f"({x:.6g}, {y:.6g}) {frame.unit}"
+
+
+def _support_name(support: Support, frame: Frame | None) -> str:
+    if support.source:
+        return support.source
+    if support.is_point:
+        return f"support at {where_text(support.points[0], frame)}"
+    return f"support from {where_text(support.points[0], frame)} to {where_text(support.points[1], frame)}"
+
+
+def fixed_dofs(
+    grid: Grid,
+    supports,
+    solid=None,
+    active_nodes: np.ndarray | None = None,
+    frame: Frame | None = None,
+) -> np.ndarray:
+    """(n_dofs,) True where a support holds the dof.
+
+    A point support holds the nearest node carrying material; a segment support holds every such node within
+    half an element of the segment, which must lie on the outline of ``solid`` (an opening's edge counts).
+    """
+    solid = solid if solid is not None else shapely.box(0.0, 0.0, grid.width_mm, grid.height_mm)
+    outline = shapely.boundary(solid)
+    shapely.prepare(solid)
+    tol = 0.5 * max(grid.dx, grid.dy)
+    band = 0.5 * min(grid.dx, grid.dy) * (1.0 + 1e-9)
+    usable = np.flatnonzero(active_nodes) if active_nodes is not None else np.arange(grid.n_nodes)
+    if usable.size == 0:
+        raise LacunaError("the panel has no material on the grid to support.")
+    node_points = shapely.points(grid.node_xy[usable])
+    fixed = np.zeros(grid.n_dofs, dtype=bool)
+    for support in supports:
+        name = _support_name(support, frame)
+        if support.is_point:
+            p = Point(support.points[0])
+            if shapely.distance(solid, p) > tol:
+                raise LacunaError(
+                    f"the support point {where_text(support.points[0], frame)} is off the panel "
+                    "(outside its outline or inside an opening).",
+                    where=name,
+                    hint="Move the point onto the panel's material, on its outline where it bears.",
+                )
+            nodes = usable[[int(np.argmin(shapely.distance(node_points, p)))]]
+        else:
+            segment = LineString(support.points)
+            if segment.length == 0:
+                raise LacunaError("the support segment has zero length.", where=name,
+                                  hint="Give two different end points, or a single point with `at`.")
+            if not shapely.buffer(outline, tol).covers(segment):
+                raise LacunaError(
+                    f"the support from {where_text(support.points[0], frame)} to "
+                    f"{where_text(support.points[1], frame)} does not lie on the panel's outline "
+                    f"(allowed gap: half an element, {tol:.3g} mm).",
+                    where=name,
+                    hint="Draw the support along an edge of the panel or of an opening, or use a point support.",
+                )
+            near = shapely.distance(node_points, segment) <= band
+            if near.any():
+                nodes = usable[near]
+            else:
+                nodes = usable[[int(np.argmin(shapely.distance(node_points, segment.interpolate(0.5, True))))]]
+        if "x" in support.fix:
+            fixed[2 * nodes] = True
+        if "y" in support.fix:
+            fixed[2 * nodes + 1] = True
+    return fixed
+
+
+def check_mechanism(
+    grid: Grid, fixed: np.ndarray, active_elements: np.ndarray | None = None, frame: Frame | None = None
+) -> None:
+    """Raise a LacunaError, in words, if supports leave any part of the panel free to move as a rigid body.
+
+    Each part (elements joined through shared edges; parts touching only at a corner count as separate) must
+    be held against sliding in x, sliding in y and rotating. Checked on the supports alone, before solving.
+    """
+    if active_elements is None:
+        active_elements = np.ones(grid.n_elements, dtype=bool)
+    labels, n_parts = ndimage.label(np.asarray(active_elements, dtype=bool).reshape(grid.ny, grid.nx))
+    if n_parts == 0:
+        raise LacunaError("the panel has no material left to analyse.")
+    labels = labels.ravel()
+    problems: list[str] = []
+    hints: list[str] = []
+    for part in range(1, n_parts + 1):
+        elements = np.flatnonzero(labels == part)
+        nodes = np.unique(grid.enodes[elements])
+        centres = grid.element_centres[elements]
+        name = "the panel"
+        if n_parts > 1:
+            middle = centres[np.argmin(np.sum((centres - centres.mean(axis=0)) ** 2, axis=1))]
+            name = f"the part of the panel around {where_text(middle, frame)}"
+        motions = _free_motions(grid, nodes, fixed)
+        if not motions:
+            continue
+        if motions == ["unsupported"]:
+            problems.append(
+                f"{name} has no support at all" + (" (openings cut it off from the others)" if n_parts > 1 else "")
+            )
+            hints.append("Hold it with at least one support fixed in x and y and a second one away from it.")
+            continue
+        words = []
+        for kind, value in motions:
+            if kind == "slide":
+                words.append(f"slide in {value}")
+                hints.append(f'Add a support that holds {value} (fix = "xy" or "{value}").')
+            else:
+                words.append(f"rotate about {where_text(value, frame)}")
+                hints.append(
+                    f"Add a support away from {where_text(value, frame)}, or hold an existing one in both x and y."
+                )
+        problems.append(f"{name} can " + " and ".join(words))
+    if problems:
+        raise LacunaError(
+            "the supports do not hold the panel still: " + "; ".join(problems) + ".",
+            where="[[support]]",
+            hint=" ".join(dict.fromkeys(hints)),
+        )
+
+
+def _free_motions(grid: Grid, nodes: np.ndarray, fixed: np.ndarray):
+    """Rigid motions of the nodes left free by the held dofs: [("slide", "x"|"y"), ("rotate", (x, y))]."""
+    xy = grid.node_xy[nodes]
+    held_x = fixed[2 * nodes]
+    held_y = fixed[2 * nodes + 1]
+    if not held_x.any() and not held_y.any():
+        return ["unsupported"]
+    centre = xy.mean(axis=0)
+    size = max(float(np.ptp(xy[:, 0])), float(np.ptp(xy[:, 1])), grid.dx, grid.dy)
+    rel = (xy - centre) / size
+    # Each held dof is one row: the velocity of that dof in the motions (slide x, slide y, rotate).
+    rows = np.vstack([
+        np.column_stack([np.ones(held_x.sum()), np.zeros(held_x.sum()), -rel[held_x, 1]]),
+        np.column_stack([np.zeros(held_y.sum()), np.ones(held_y.sum()), rel[held_y, 0]]),
+    ])
+    _, s, vt = np.linalg.svd(rows)
+    s = np.concatenate([s, np.zeros(3 - s.size)])
+    null = vt[s < 1e-9 * max(1.0, s.max())]
+    if null.shape[0] == 0:
+        return []
+    motions = []
+    if not held_x.any():
+        motions.append(("slide", "x"))
+    if not held_y.any():
+        motions.append(("slide", "y"))
+    if null.shape[0] > len(motions):
+        v = null[np.argmax(np.abs(null[:, 2]))]
+        a, b, c = v / v[2]
+        # Velocity a - c y', b + c x' (primed: relative, scaled) vanishes at the centre of rotation.
+        point = centre + size * np.array([-b, a])
+        held = held_x | held_y
+        if not held_y.any():
+            point[0] = xy[held, 0].mean()
+        if not held_x.any():
+            point[1] = xy[held, 1].mean()
+        motions.append(("rotate", tuple(point)))
+    return motions

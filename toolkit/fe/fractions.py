@@ -1,0 +1,59 @@
+"""How much of each element lies inside the panel's solid material, cut exactly on the polygon."""
+
+from __future__ import annotations
+
+import numpy as np
+import shapely
+
+from .grid import Grid
+
+
+def solid_fractions(grid: Grid, solid_polygon) -> np.ndarray:
+    """(ne,) area fraction of each element inside ``solid_polygon`` (local mm).
+
+    Only the elements the polygon's boundary passes through are intersected; the rest are wholly in or out,
+    told apart by their centres.
+    """
+    x0 = np.arange(grid.nx) * grid.dx
+    y0 = np.arange(grid.ny) * grid.dy
+    X0, Y0 = np.meshgrid(x0, y0)
+    centres = grid.element_centres
+    fractions = shapely.contains_xy(solid_polygon, centres[:, 0], centres[:, 1]).astype(float)
+    boundary = shapely.boundary(solid_polygon)
+    if shapely.is_empty(boundary):
+        return fractions
+    # Elements whose box meets the boundary: from the boundary's segments, each looked up by its own box.
+    ix0, iy0, ix1, iy1 = _segment_boxes(grid, boundary)
+    candidates = _box_cells(grid, ix0, iy0, ix1, iy1)
+    boxes = shapely.box(X0.ravel()[candidates], Y0.ravel()[candidates],
+                        X0.ravel()[candidates] + grid.dx, Y0.ravel()[candidates] + grid.dy)
+    cut = shapely.intersects(boundary, boxes)
+    candidates, boxes = candidates[cut], boxes[cut]
+    shapely.prepare(solid_polygon)
+    areas = shapely.area(shapely.intersection(solid_polygon, boxes))
+    fractions[candidates] = np.clip(areas / grid.element_area, 0.0, 1.0)
+    return fractions
+
+
+def _segment_boxes(grid: Grid, boundary):
+    """Index ranges of the cells under each piece of the boundary, cut to pieces no longer than an element."""
+    pieces = shapely.segmentize(boundary, max_segment_length=min(grid.dx, grid.dy))
+    xy, line = shapely.get_coordinates(shapely.get_parts(pieces), return_index=True)
+    same = line[1:] == line[:-1]
+    starts, ends = xy[:-1][same], xy[1:][same]
+    lo = np.minimum(starts, ends)
+    hi = np.maximum(starts, ends)
+    # One cell of margin either way: a piece lying on a grid line touches the cells on both sides.
+    ix0 = np.clip(np.floor(lo[:, 0] / grid.dx).astype(np.int64) - 1, 0, grid.nx - 1)
+    iy0 = np.clip(np.floor(lo[:, 1] / grid.dy).astype(np.int64) - 1, 0, grid.ny - 1)
+    ix1 = np.clip(np.floor(hi[:, 0] / grid.dx).astype(np.int64) + 1, 0, grid.nx - 1)
+    iy1 = np.clip(np.floor(hi[:, 1] / grid.dy).astype(np.int64) + 1, 0, grid.ny - 1)
+    return ix0, iy0, ix1, iy1
+
+
+def _box_cells(grid: Grid, ix0, iy0, ix1, iy1) -> np.ndarray:
+    """Unique element numbers of all cells in the given index boxes."""
+    mask = np.zeros((grid.ny, grid.nx), dtype=bool)
+    for a, b, c, d in zip(ix0, iy0, ix1, iy1):
+        mask[b:d + 1, a:c + 1] = True
+    return np.flatnonzero(mask.ravel())

@@ -1,0 +1,206 @@
+"""Soft-kill BESO: bi-directional evolutionary structural optimisation for least weighted compliance.
+
+The method of Huang & Xie (2007, Finite Elem Anal Des 43:1039-1049; 2009, Comput Mech 43:393-401; 2010,
+*Evolutionary Topology Optimization of Continuum Structures*, Wiley). Each design element is solid (x = 1)
+or void (x = x_min, soft kill) with stiffness x^p E. Per iteration:
+
+1. solve every load case on the current design;
+2. sensitivity alpha_e = sum_c w_c * 0.5 * x_e^(p-1) * u_e^T k0 u_e (the derivative of the weighted
+   compliance, divided by -p, which ranks solid and void elements on one scale);
+3. mesh-independency filter, then the mean with the previous iteration's value (damps oscillation);
+4. with symmetry, the mean over each mirror orbit of design elements, so mirror images share one state;
+5. next volume V_{k+1} = max(V*, V_k (1 - ER)); solid/void by the threshold on alpha with the admission cap.
+
+Converged once the volume is on target and the last N compliances sum to within the tolerance of the N
+before. Everything that does not change across iterations (dof map, assembly pattern, filter, orbits, the
+solver's ordering and index maps) is built once before the loop.
+
+Where the non-design zones are not mirror-symmetric (an opening, support or KEEP region on one side only),
+symmetry still binds every design element exactly to its design images: an orbit whose image falls in a
+zone is decided by its design members alone, and the zone element keeps its own state. The layout is then
+mirror-symmetric everywhere except at those zone elements and their images.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Callable
+
+import numpy as np
+
+from ..errors import LacunaError
+from ..fe.assembly import Assembler
+from ..fe.solve import LinearSolver
+from .filters import sensitivity_filter
+from .problem import Problem, check_problem
+from .settings import OptimizeSettings
+from .symmetry import symmetry_orbits
+from .update import has_converged, next_volume, update_design
+
+
+@dataclass(frozen=True, eq=False)
+class BesoResult:
+    """What a BESO run gives back.
+
+    - ``densities`` (ne,): design variable times drawn solid fraction; design elements are 1 (solid) or
+      ``void_stiffness`` (void), zone elements 1, elements cut by an opening their drawn fraction.
+    - ``compliance_Nmm`` and ``volume_fraction`` (iterations,): weighted compliance sum_c w_c F_c.U_c and the
+      solid share of the design region, of the design analysed at each iteration (the last is the result).
+    - ``case_compliance_Nmm`` (ncases,): F_c.U_c of the final design; ``displacements`` its U (ndof, ncases).
+    - ``snapshots``: (iteration, densities) every ``keep_every`` iterations and at the end, for animations.
+    """
+
+    densities: np.ndarray
+    compliance_Nmm: np.ndarray
+    volume_fraction: np.ndarray
+    iterations: int
+    converged: bool
+    design: np.ndarray
+    passive: np.ndarray
+    volume_fraction_target: float
+    case_compliance_Nmm: np.ndarray
+    displacements: np.ndarray
+    filter_radius_mm: float
+    snapshots: tuple[tuple[int, np.ndarray], ...] = ()
+
+    @property
+    def solid(self) -> np.ndarray:
+        """(ne,) True for design elements left solid."""
+        return self.design & (self.densities >= 1.0)
+
+    @property
+    def compliance_final_Nmm(self) -> float:
+        return float(self.compliance_Nmm[-1])
+
+
+def filter_radius(problem: Problem, settings: OptimizeSettings) -> float:
+    """The filter radius in mm: the setting, or three element sizes; LacunaError below one element."""
+    g = problem.grid
+    size = max(g.dx, g.dy)
+    r = settings.filter_radius_mm if settings.filter_radius_mm is not None else 3.0 * size
+    if r < size * (1.0 - 1e-9):
+        raise LacunaError(
+            f"the filter radius {r:g} mm is smaller than one element ({size:g} mm): the layout would depend on "
+            "the mesh and break into checkerboards.",
+            where="[optimize] filter_radius",
+            hint=f"Use at least {size:g} mm (about three element sizes, {3 * size:g} mm, is usual), or leave it out.",
+        )
+    return float(r)
+
+
+def run_beso(
+    problem: Problem,
+    settings: OptimizeSettings,
+    *,
+    on_iteration: Callable[[int, float, float], None] | None = None,
+    keep_every: int = 0,
+) -> BesoResult:
+    """Optimise ``problem`` by soft-kill BESO; see the module docstring for the method.
+
+    ``on_iteration(iteration, compliance_Nmm, volume_fraction)`` is called after every analysis (progress
+    bars). ``keep_every`` > 0 keeps a copy of the densities every that many iterations, and of the last.
+    """
+    check_problem(problem)
+    g = problem.grid
+    ne = g.n_elements
+    p = settings.penalty
+    xmin = settings.void_stiffness
+    design = np.asarray(problem.design, dtype=bool)
+    n_design = int(design.sum())
+    n_final = int(round(settings.volume_fraction * n_design))
+    if n_final < 1:
+        held = float(problem.fractions[~design].sum()) / float(problem.fractions.sum())
+        raise LacunaError(
+            f"a volume fraction of {settings.volume_fraction:g} keeps less than one of the {n_design} elements "
+            f"of the design region, while the non-design zones already hold {held:.1%} of the panel.",
+            where="[optimize] volume_fraction",
+            hint=f"Ask for at least {1.0 / n_design:.2g}, or a finer grid.",
+        )
+    radius = filter_radius(problem, settings)
+    keep_every = int(keep_every)
+
+    # --- built once ---
+    H = sensitivity_filter(g, radius)
+    orbit_all = symmetry_orbits(g, settings.symmetry)
+    design_idx = np.flatnonzero(design)
+    _, orbit = np.unique(orbit_all[design_idx], return_inverse=True)
+    orbit = orbit.ravel()
+    orbit_size = np.bincount(orbit)
+    edof = g.edof
+    ke = np.asarray(problem.ke, dtype=float)
+    F = np.asarray(problem.loads, dtype=float)
+    w = np.asarray(problem.weights, dtype=float)
+    fractions = np.asarray(problem.fractions, dtype=float)
+    # An element wholly inside an opening behaves as a BESO void, so no node is left without stiffness.
+    base = np.maximum(fractions, xmin**p)
+    assembler = Assembler(g)
+    free = np.ones(g.n_dofs, dtype=bool)
+    free[problem.fixed] = False
+    n_admit = settings.admission_ratio * n_design
+
+    x = np.ones(ne)
+    solid_orbit = np.ones(orbit_size.size, dtype=bool)
+    solver = None
+    alpha_prev = None
+    history_c: list[float] = []
+    history_v: list[float] = []
+    snapshots: list[tuple[int, np.ndarray]] = []
+    converged = False
+    volume = 1.0
+
+    for it in range(settings.max_iterations):
+        K = assembler.matrix(ke, base * x**p)
+        if solver is None:
+            solver = LinearSolver(K, free, grid=g)
+        else:
+            solver.refactor(K)
+        U = solver.solve(F)
+        Ue = U[edof]  # (ne, 8, ncases)
+        energy = np.einsum("eic,ij,ejc->ec", Ue, ke, Ue, optimize=True)  # u_e^T k0 u_e per case
+        case_c = np.einsum("dc,dc->c", F, U)
+        compliance = float(case_c @ w)
+        volume = float(np.count_nonzero(x[design_idx] >= 1.0)) / n_design
+        history_c.append(compliance)
+        history_v.append(volume)
+        if on_iteration is not None:
+            on_iteration(it, compliance, volume)
+        if keep_every > 0 and it % keep_every == 0:
+            snapshots.append((it, (x * fractions).astype(np.float32)))
+
+        on_target = np.count_nonzero(x[design_idx] >= 1.0) == n_final
+        if on_target and has_converged(np.array(history_c), settings.convergence_window,
+                                       settings.convergence_tolerance):
+            converged = True
+            break
+        if it == settings.max_iterations - 1:
+            break
+
+        alpha = 0.5 * x ** (p - 1.0) * base * (energy @ w)
+        alpha = H @ alpha
+        if alpha_prev is not None:
+            alpha = 0.5 * (alpha + alpha_prev)
+        alpha_prev = alpha
+        alpha_orbit = np.bincount(orbit, weights=alpha[design_idx]) / orbit_size
+
+        v_next = next_volume(volume, settings.volume_fraction, settings.evolution_rate)
+        n_next = n_final if v_next == settings.volume_fraction else v_next * n_design
+        solid_orbit = update_design(alpha_orbit, solid_orbit, orbit_size, n_next, n_admit)
+        x[design_idx] = np.where(solid_orbit[orbit], 1.0, xmin)
+
+    densities = x * fractions
+    if keep_every > 0 and (not snapshots or snapshots[-1][0] != it):
+        snapshots.append((it, densities.astype(np.float32)))
+    return BesoResult(
+        densities=densities,
+        compliance_Nmm=np.array(history_c),
+        volume_fraction=np.array(history_v),
+        iterations=len(history_c),
+        converged=converged,
+        design=design.copy(),
+        passive=~design,
+        volume_fraction_target=float(n_final) / n_design,
+        case_compliance_Nmm=case_c,
+        displacements=U,
+        filter_radius_mm=radius,
+        snapshots=tuple(snapshots),
+    )

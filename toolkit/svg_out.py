@@ -1,0 +1,725 @@
+"""Results -> SVG: the analysis figure of a panel, drawn to scale on a sheet sized in millimetres.
+
+The sheet holds a heading, the panel drawn at a stated scale (1:N) in its local frame, a legend band (colour
+bar, line key, scale bar) and a title block. Everything that belongs to the panel lives in the group
+``drawing``, whose coordinates are the panel's local frame in mm (x right, y up); one transform on that group
+flips y and scales to paper. Inside it each kind of content has a group of its own ("stress", "directions",
+"panel", "openings", "keep", "deflected", "supports", "loads"); later stages add groups named after the
+output layers of CONTRACT.md in lower case with :meth:`Figure.layer`.
+
+Inputs are plain arrays so the figure depends on no result type: displacements (ndof,) in mm, element-centre
+stresses (ne, 3) = sx, sy, txy in MPa, solid area fractions (ne,).
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+import math
+from collections.abc import Iterable, Sequence
+
+import numpy as np
+import shapely
+import svgwrite
+from shapely.geometry import MultiPolygon, Polygon
+
+from . import palette
+from .errors import LacunaError
+from .model import LineLoad, Panel, PointLoad, Support
+
+SHEET_WIDTH_MM = 260.0
+CAUTION = (
+    "For design exploration only: members must be checked by a qualified engineer to the local code."
+)
+FRAME_NOTE = "Drawn in the panel's local frame: x to the right, y up, origin at the lower-left corner."
+
+# Drafting scales offered, 1:N (common practice, no source).
+DRAWING_SCALES = (1, 2, 5, 10, 20, 25, 50, 100, 200, 250, 500, 1000, 2000, 2500, 5000, 10000)
+
+_MARGIN = 8.0  # sheet edge to content, paper mm
+_HEADING = 15.0  # heading band height
+_ROOM = 24.0  # space above and beside the panel for load arrows, support symbols and their labels
+_ROOM_BELOW = 16.0
+_LEGEND = 30.0  # legend band height
+_TITLE_BLOCK = 24.0
+_MAX_PANEL_W = SHEET_WIDTH_MM - 2 * (_MARGIN + _ROOM)
+_MAX_PANEL_H = 150.0
+_STRESS_CLASSES_PER_SIDE = 10
+_DEFLECTION_TARGET = 0.04  # largest drawn deflection as a share of the panel's smaller side
+
+INK = "#1c1c1c"
+DEFLECTED_INK = "#7a1f5c"  # plum: apart from both stress hues and from the black line work
+OPENING_FILL = "#ffffff"
+FONT = "DejaVu Sans, Liberation Sans, Arial, sans-serif"
+
+
+# --------------------------------------------------------------------------------------------- numbers
+
+
+def nice_125(x: float, *, mode: str = "nearest") -> float:
+    """A value of the 1-2-5 series (1, 2, 5, 10, 20, ...) near ``x`` > 0: nearest on a log scale, or the
+    next one up (``mode="ceil"``)."""
+    if not (x > 0 and math.isfinite(x)):
+        raise ValueError(f"need a positive finite number, got {x}")
+    k = math.floor(math.log10(x))
+    candidates = [m * 10.0**e for e in (k - 1, k, k + 1) for m in (1, 2, 5)]
+    if mode == "ceil":
+        return min(c for c in candidates if c >= x * (1 - 1e-12))
+    return min(candidates, key=lambda c: abs(math.log(c / x)))
+
+
+def drawing_scale(width_mm: float, height_mm: float) -> int:
+    """The smallest drafting scale 1:N at which the panel fits the drawing area of the sheet."""
+    for n in DRAWING_SCALES:
+        if width_mm / n <= _MAX_PANEL_W and height_mm / n <= _MAX_PANEL_H:
+            return n
+    n = DRAWING_SCALES[-1]
+    while width_mm / n > _MAX_PANEL_W or height_mm / n > _MAX_PANEL_H:
+        n *= 10
+    return n
+
+
+def deflection_scale_for(max_deflection_mm: float, width_mm: float, height_mm: float) -> float | None:
+    """Magnification that draws the largest deflection as about 4 % of the panel's smaller side, on the 1-2-5
+    series; None when there is nothing to magnify."""
+    if not (max_deflection_mm > 0 and math.isfinite(max_deflection_mm)):
+        return None
+    return nice_125(_DEFLECTION_TARGET * min(width_mm, height_mm) / max_deflection_mm)
+
+
+def nice_ceil(x: float) -> float:
+    """The next value up of the series 1, 1.2, 1.5, 2, 2.5, 3, 4, 5, 6, 8, 10, ...: tidy tenths and halves."""
+    if not (x > 0 and math.isfinite(x)):
+        raise ValueError(f"need a positive finite number, got {x}")
+    k = math.floor(math.log10(x))
+    for e in (k, k + 1):
+        for m in (1, 1.2, 1.5, 2, 2.5, 3, 4, 5, 6, 8):
+            if m * 10.0**e >= x * (1 - 1e-12):
+                return m * 10.0**e
+    return 10.0 ** (k + 2)
+
+
+def stress_limit(values: np.ndarray) -> float:
+    """Symmetric colour range for signed stresses: the 99th percentile of |value|, rounded up (:func:`nice_ceil`).
+
+    A percentile rather than the peak, so that one stress concentration at a re-entrant corner does not wash
+    the whole panel out to the pale middle; the peaks are stated in the legend.
+    """
+    mags = np.abs(np.asarray(values, dtype=float))
+    mags = mags[np.isfinite(mags)]
+    if mags.size == 0 or not mags.max() > 0:
+        return 1.0
+    p = float(np.percentile(mags, 99.0))
+    return nice_ceil(p if p > 0 else float(mags.max()))
+
+
+def principal_stresses(stress: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """(ne, 3) sx, sy, txy -> s1 >= s2 and the angle of s1 from the x axis (radians), each (ne,)."""
+    sx, sy, txy = stress[:, 0], stress[:, 1], stress[:, 2]
+    mean = 0.5 * (sx + sy)
+    radius = np.hypot(0.5 * (sx - sy), txy)
+    return mean + radius, mean - radius, 0.5 * np.arctan2(2.0 * txy, sx - sy)
+
+
+def dominant_principal(stress: np.ndarray) -> np.ndarray:
+    """The principal stress of larger magnitude, with its sign, (ne,)."""
+    s1, s2, _ = principal_stresses(stress)
+    return np.where(np.abs(s1) >= np.abs(s2), s1, s2)
+
+
+def _fmt(v: float, digits: int = 2) -> str:
+    """Short decimal text for SVG coordinates."""
+    text = f"{v:.{digits}f}".rstrip("0").rstrip(".")
+    return "0" if text in ("-0", "") else text
+
+
+def _fmt_value(v: float) -> str:
+    """A figure for people: three significant digits, no exponent for everyday sizes."""
+    if v == 0:
+        return "0"
+    digits = max(0, 2 - int(math.floor(math.log10(abs(v)))))
+    return f"{v:.{digits}f}"
+
+
+def _points(xy: Iterable[Sequence[float]]) -> str:
+    """Path data of a closed polygon through the points."""
+    return "M" + "L".join(f"{_fmt(x)} {_fmt(y)}" for x, y in xy) + "Z"
+
+
+# --------------------------------------------------------------------------------------------- the sheet
+
+
+class Figure:
+    """A sheet being drawn: an svgwrite document with the panel placed at 1:N and named groups.
+
+    ``layer(name)`` returns the group of that id in the panel's local frame (mm, y up), creating it on first
+    use, stacked above the layers made before it. ``sheet_group(name)`` does the same in paper mm (y down).
+    """
+
+    def __init__(self, panel: Panel, *, legend_height: float = _LEGEND):
+        self.panel = panel
+        self.scale = drawing_scale(panel.width_mm, panel.height_mm)
+        self.panel_paper = (panel.width_mm / self.scale, panel.height_mm / self.scale)
+        self.width = SHEET_WIDTH_MM
+        top = _MARGIN + _HEADING + _ROOM
+        # Centre the panel across the sheet; its lower-left corner is the local origin.
+        self.origin = ((self.width - self.panel_paper[0]) / 2.0, top + self.panel_paper[1])
+        self.legend_top = self.origin[1] + _ROOM_BELOW
+        self.title_top = self.legend_top + legend_height
+        self.height = self.title_top + _TITLE_BLOCK + _MARGIN
+        self.dwg = svgwrite.Drawing(
+            size=(f"{_fmt(self.width)}mm", f"{_fmt(self.height)}mm"), profile="full", debug=False
+        )
+        self.dwg.viewbox(0, 0, self.width, self.height)
+        self.dwg.add(self.dwg.rect((0, 0), (self.width, self.height), fill="#ffffff", id="sheet"))
+        k = 1.0 / self.scale
+        self.drawing = self.dwg.g(
+            id="drawing", transform=f"matrix({_fmt(k, 9)} 0 0 {_fmt(-k, 9)} {_fmt(self.origin[0], 4)} "
+            f"{_fmt(self.origin[1], 4)})"
+        )
+        self._groups: dict[str, svgwrite.container.Group] = {}
+        self.dwg.add(self.drawing)
+
+    def paper(self, length_mm_on_paper: float) -> float:
+        """A length on paper as a length in the panel's local frame."""
+        return length_mm_on_paper * self.scale
+
+    def to_sheet(self, xy) -> np.ndarray:
+        """Local points (mm, y up) -> sheet position (paper mm, y down)."""
+        p = np.asarray(xy, dtype=float)
+        return np.stack([self.origin[0] + p[..., 0] / self.scale, self.origin[1] - p[..., 1] / self.scale], -1)
+
+    def layer(self, name: str, **attrs) -> svgwrite.container.Group:
+        """The group ``name`` inside the drawing (local frame), created on first use."""
+        if name not in self._groups:
+            group = self.dwg.g(id=name, **attrs)
+            self.drawing.add(group)
+            self._groups[name] = group
+        return self._groups[name]
+
+    def sheet_group(self, name: str, **attrs) -> svgwrite.container.Group:
+        """The group ``name`` on the sheet (paper mm), created on first use."""
+        if name not in self._groups:
+            group = self.dwg.g(id=name, **attrs)
+            self.dwg.add(group)
+            self._groups[name] = group
+        return self._groups[name]
+
+    def text(self, group, content: str, at, size: float, *, anchor: str = "start", weight: str = "normal",
+             style: str = "normal", fill: str = INK, local: bool = False):
+        """Upright text of ``size`` paper mm; ``at`` in paper mm, or in the local frame with ``local=True``."""
+        attrs = dict(font_size=_fmt(size, 3), font_family=FONT, text_anchor=anchor, fill=fill, stroke="none")
+        if weight != "normal":
+            attrs["font_weight"] = weight
+        if style != "normal":
+            attrs["font_style"] = style
+        if local:
+            # Undo the drawing's flip and scale so the lettering stands upright at its paper size.
+            s = self.scale
+            element = self.dwg.text(content, insert=(0, 0), transform=f"matrix({_fmt(s, 6)} 0 0 {_fmt(-s, 6)} "
+                                    f"{_fmt(at[0])} {_fmt(at[1])})", **attrs)
+        else:
+            element = self.dwg.text(content, insert=(_fmt(at[0], 3), _fmt(at[1], 3)), **attrs)
+        group.add(element)
+        return element
+
+    def tostring(self) -> str:
+        return self.dwg.tostring()
+
+
+def _ring_path(coords: np.ndarray) -> str:
+    return "M" + " L".join(f"{_fmt(x)},{_fmt(y)}" for x, y in coords[:-1]) + " Z"
+
+
+def _polygons(geom) -> list[Polygon]:
+    if geom.is_empty:
+        return []
+    if isinstance(geom, Polygon):
+        return [geom]
+    if isinstance(geom, MultiPolygon):
+        return list(geom.geoms)
+    return [g for g in getattr(geom, "geoms", []) if isinstance(g, Polygon)]
+
+
+def _area_path(geom) -> str:
+    """SVG path data for polygons with holes (draw with the even-odd rule)."""
+    parts = []
+    for poly in _polygons(geom):
+        parts.append(_ring_path(np.asarray(poly.exterior.coords)))
+        parts.extend(_ring_path(np.asarray(r.coords)) for r in poly.interiors)
+    return " ".join(parts)
+
+
+# --------------------------------------------------------------------------------------------- checks
+
+
+def _check_inputs(panel: Panel, grid, fractions, displacement, stress, case: str):
+    ne = grid.nx * grid.ny
+    ndof = 2 * (grid.nx + 1) * (grid.ny + 1)
+    fractions = np.asarray(fractions, dtype=float)
+    displacement = np.asarray(displacement, dtype=float)
+    stress = np.asarray(stress, dtype=float)
+    for name, array, shape in (
+        ("fractions", fractions, (ne,)),
+        ("displacement", displacement, (ndof,)),
+        ("stress", stress, (ne, 3)),
+    ):
+        if array.shape != shape:
+            raise LacunaError(
+                f"the {name} array has shape {array.shape}, but the {grid.nx} x {grid.ny} grid needs {shape}.",
+                where="analysis figure",
+                hint="Pass the arrays of the same analysis as the grid.",
+            )
+        if not np.all(np.isfinite(array)):
+            raise LacunaError(
+                f"the {name} array holds {int(np.sum(~np.isfinite(array)))} values that are not finite numbers.",
+                where="analysis figure",
+                hint="The analysis did not converge to a usable result; check supports and loads.",
+            )
+    if abs(grid.nx * grid.dx - panel.width_mm) > 1e-6 * panel.width_mm or abs(
+        grid.ny * grid.dy - panel.height_mm
+    ) > 1e-6 * panel.height_mm:
+        raise LacunaError(
+            f"the grid covers {grid.nx * grid.dx:g} x {grid.ny * grid.dy:g} mm but the panel is "
+            f"{panel.width_mm:g} x {panel.height_mm:g} mm.",
+            where="analysis figure",
+            hint="Build the grid from this panel's envelope.",
+        )
+    if case not in panel.cases:
+        raise LacunaError(
+            f"load case {case!r} is not in this panel.",
+            where="analysis figure",
+            hint=f"Use one of: {', '.join(panel.cases)}.",
+        )
+    return fractions, displacement, stress
+
+
+# --------------------------------------------------------------------------------------------- content
+
+
+def _enodes(nx: int, ny: int) -> np.ndarray:
+    ix, iy = np.meshgrid(np.arange(nx), np.arange(ny))
+    n0 = (iy * (nx + 1) + ix).ravel()
+    return np.stack([n0, n0 + 1, n0 + nx + 2, n0 + nx + 1], axis=1)
+
+
+def interpolate_displacement(grid, displacement: np.ndarray, points: np.ndarray) -> np.ndarray:
+    """Displacement (k, 2) at local points (k, 2), by the bilinear shape functions of the holding element."""
+    pts = np.asarray(points, dtype=float)
+    u = np.asarray(displacement, dtype=float).reshape(-1, 2)
+    fx, fy = pts[:, 0] / grid.dx, pts[:, 1] / grid.dy
+    ix = np.clip(np.floor(fx).astype(np.int64), 0, grid.nx - 1)
+    iy = np.clip(np.floor(fy).astype(np.int64), 0, grid.ny - 1)
+    xi, eta = fx - ix, fy - iy
+    n0 = iy * (grid.nx + 1) + ix
+    return (
+        ((1 - xi) * (1 - eta))[:, None] * u[n0]
+        + (xi * (1 - eta))[:, None] * u[n0 + 1]
+        + (xi * eta)[:, None] * u[n0 + grid.nx + 2]
+        + ((1 - xi) * eta)[:, None] * u[n0 + grid.nx + 1]
+    )
+
+
+def stress_runs(classes: np.ndarray, drawn: np.ndarray, nx: int, ny: int) -> dict[int, list[tuple[int, int, int]]]:
+    """Merge each row's neighbouring drawn elements of one colour class into runs: class -> [(ix, iy, length)]."""
+    cls = np.where(drawn, classes, -1).reshape(ny, nx)
+    runs: dict[int, list[tuple[int, int, int]]] = {}
+    for iy in range(ny):
+        row = cls[iy]
+        starts = np.flatnonzero(np.r_[True, row[1:] != row[:-1]])
+        lengths = np.diff(np.r_[starts, nx])
+        for ix, n in zip(starts.tolist(), lengths.tolist()):
+            c = int(row[ix])
+            if c >= 0:
+                runs.setdefault(c, []).append((ix, iy, n))
+    return runs
+
+
+def _draw_stress(fig: Figure, grid, drawn, dominant, vmax, solid) -> None:
+    classes = palette.classify(dominant, vmax, _STRESS_CLASSES_PER_SIDE)
+    colours = palette.class_colours(_STRESS_CLASSES_PER_SIDE)
+    clip = fig.dwg.defs.add(fig.dwg.clipPath(id="panel-solid"))
+    clip.add(fig.dwg.path(d=_area_path(solid), clip_rule="evenodd"))
+    group = fig.layer("stress", clip_path="url(#panel-solid)")
+    # Cells in element units: integer path data keeps a 20,000-element panel small.
+    cells = fig.dwg.g(transform=f"scale({_fmt(grid.dx, 6)} {_fmt(grid.dy, 6)})", shape_rendering="crispEdges")
+    group.add(cells)
+    for c, runs in sorted(stress_runs(classes, drawn, grid.nx, grid.ny).items()):
+        d = "".join(f"M{ix} {iy}h{n}v1h-{n}z" for ix, iy, n in runs)
+        cells.add(fig.dwg.path(d=d, fill=colours[c], **{"data-class": str(c)}))
+
+
+def _draw_directions(fig: Figure, grid, fractions, stress, vmax) -> None:
+    """Both principal stresses as crossed ticks on a coarse lattice: direction, length by magnitude, ink by sign."""
+    k = max(1, int(round(fig.paper(5.0) / max(grid.dx, grid.dy))))
+    nbx, nby = grid.nx // k, grid.ny // k
+    if nbx == 0 or nby == 0:
+        return
+    f = fractions.reshape(grid.ny, grid.nx)[: nby * k, : nbx * k].reshape(nby, k, nbx, k)
+    s = stress.reshape(grid.ny, grid.nx, 3)[: nby * k, : nbx * k].reshape(nby, k, nbx, k, 3)
+    weight = f.sum(axis=(1, 3))
+    solid_share = weight / (k * k)
+    mean = (s * f[..., None]).sum(axis=(1, 3)) / np.maximum(weight, 1e-12)[..., None]
+    s1, s2, theta = principal_stresses(mean.reshape(-1, 3))
+    ok = solid_share.ravel() >= 0.75
+    bx = (np.arange(nbx) + 0.5) * k * grid.dx + (grid.nx - nbx * k) * grid.dx / 2
+    by = (np.arange(nby) + 0.5) * k * grid.dy + (grid.ny - nby * k) * grid.dy / 2
+    cx, cy = (a.ravel() for a in np.meshgrid(bx, by))
+    half_max = 0.42 * k * min(grid.dx, grid.dy)
+    strokes = {palette.TENSION_NAME: [], palette.COMPRESSION_NAME: []}
+    for value, angle in ((s1, theta), (s2, theta + 0.5 * math.pi)):
+        length = np.clip(np.abs(value) / vmax, 0.0, 1.0) * half_max
+        dx, dy = np.cos(angle) * length, np.sin(angle) * length
+        show = ok & (np.abs(value) >= 0.06 * vmax)
+        for i in np.flatnonzero(show):
+            side = palette.TENSION_NAME if value[i] > 0 else palette.COMPRESSION_NAME
+            strokes[side].append(
+                f"M{_fmt(cx[i] - dx[i])} {_fmt(cy[i] - dy[i])}L{_fmt(cx[i] + dx[i])} {_fmt(cy[i] + dy[i])}"
+            )
+    group = fig.layer("directions", fill="none", stroke_linecap="round")
+    for side, ink in ((palette.TENSION_NAME, palette.TENSION_INK), (palette.COMPRESSION_NAME, palette.COMPRESSION_INK)):
+        if strokes[side]:
+            d = "".join(strokes[side])
+            # A pale casing keeps a tick legible on the dark fills at either end of the scale.
+            group.add(fig.dwg.path(d=d, stroke="#ffffff", stroke_opacity="0.75", stroke_width=_fmt(fig.paper(0.75), 4)))
+            group.add(fig.dwg.path(d=d, stroke=ink, stroke_width=_fmt(fig.paper(0.35), 4), **{"data-sign": side}))
+
+
+def _draw_outlines(fig: Figure, panel: Panel) -> None:
+    width = _fmt(fig.paper(0.4), 4)
+    g = fig.layer("panel", fill="none", stroke=INK, stroke_width=width, stroke_linejoin="miter")
+    g.add(fig.dwg.rect((0, 0), (_fmt(panel.width_mm), _fmt(panel.height_mm))))
+    g = fig.layer("openings", fill="none", stroke=INK, stroke_width=width)
+    for region in panel.openings:
+        g.add(fig.dwg.path(d=_area_path(region.shape), fill_rule="evenodd"))
+    dash = f"{_fmt(fig.paper(2.0), 4)} {_fmt(fig.paper(1.0), 4)}"
+    g = fig.layer("keep", fill="none", stroke=INK, stroke_width=_fmt(fig.paper(0.3), 4), stroke_dasharray=dash)
+    for region in panel.keep:
+        g.add(fig.dwg.path(d=_area_path(region.shape)))
+
+
+def _draw_deflected(fig: Figure, grid, solid, displacement, magnification: float | None) -> None:
+    g = fig.layer("deflected", fill="none", stroke=DEFLECTED_INK, stroke_width=_fmt(fig.paper(0.45), 4),
+                  stroke_linejoin="round")
+    if magnification is None:
+        return
+    step = min(grid.dx, grid.dy)
+    for poly in _polygons(shapely.segmentize(solid, step)):
+        for ring, kind in [(poly.exterior, "outline")] + [(r, "opening") for r in poly.interiors]:
+            xy = np.asarray(ring.coords)
+            moved = xy + magnification * interpolate_displacement(grid, displacement, xy)
+            g.add(fig.dwg.path(d=_points(moved[:-1]), **{"data-ring": kind}))
+
+
+# --- symbols of our own: supports and loads, sized on paper
+
+
+def _outward(point, panel: Panel) -> np.ndarray:
+    """Unit vector from the panel towards the nearest envelope edge at ``point`` (local frame)."""
+    x, y = point
+    gaps = {(-1.0, 0.0): x, (1.0, 0.0): panel.width_mm - x, (0.0, -1.0): y, (0.0, 1.0): panel.height_mm - y}
+    return np.array(min(gaps, key=gaps.get))
+
+
+def _restraint_direction(support: Support, panel: Panel) -> np.ndarray:
+    mid = np.mean(np.asarray(support.points, dtype=float), axis=0)
+    if support.fix == "y":
+        return np.array([0.0, -1.0 if mid[1] <= panel.height_mm / 2 else 1.0])
+    if support.fix == "x":
+        return np.array([-1.0 if mid[0] <= panel.width_mm / 2 else 1.0, 0.0])
+    return _outward(mid, panel)
+
+
+def _draw_supports(fig: Figure, panel: Panel) -> None:
+    """Pin ("xy"): a solid wedge on a hatched ground line. Roller ("x" or "y"): an open wedge on two wheels,
+    free to roll across the restrained direction. Wedges point at the panel along the restrained direction; a
+    supported segment carries a row of them on one ground line."""
+    p = fig.paper
+    group = fig.layer("supports", stroke=INK, stroke_width=_fmt(p(0.3), 4), stroke_linejoin="round")
+    for support in panel.supports:
+        g = group.add(fig.dwg.g(**{"data-fix": support.fix}))
+        d = _restraint_direction(support, panel)
+        t = np.array([-d[1], d[0]])
+        pts = np.asarray(support.points, dtype=float)
+        if len(pts) == 1:
+            anchors = pts
+        else:
+            n = max(2, int(round(np.linalg.norm(pts[1] - pts[0]) / p(9.0))) + 1)
+            anchors = pts[0] + np.linspace(0.0, 1.0, n)[:, None] * (pts[1] - pts[0])
+        h, w = p(3.2), p(1.8)
+        pin = support.fix == "xy"
+        base = h + (0.0 if pin else p(1.5))
+        for a in anchors:
+            wedge = [a, a + d * h + t * w, a + d * h - t * w]
+            g.add(fig.dwg.path(d=_points(wedge), fill=INK if pin else "#ffffff"))
+            if not pin:
+                for side in (-0.55, 0.55):
+                    c = a + d * (h + p(0.75)) + t * side * w
+                    g.add(fig.dwg.circle(center=(_fmt(c[0]), _fmt(c[1])), r=_fmt(p(0.7), 4), fill="#ffffff"))
+        ends = anchors[[0, -1]]
+        ground = [ends[0] + d * base - t * p(2.6), ends[1] + d * base + t * p(2.6)]
+        if np.dot(ground[1] - ground[0], t) < 0:
+            ground = ground[::-1]
+        g.add(fig.dwg.line(start=(_fmt(ground[0][0]), _fmt(ground[0][1])),
+                           end=(_fmt(ground[1][0]), _fmt(ground[1][1])), stroke_width=_fmt(p(0.45), 4)))
+        if pin:
+            length = np.linalg.norm(ground[1] - ground[0])
+            hatch = []
+            for s in np.arange(p(0.6), length, p(1.3)):
+                q = ground[0] + t * s
+                e = q + d * p(1.2) - t * p(1.0)
+                hatch.append(f"M{_fmt(q[0])} {_fmt(q[1])}L{_fmt(e[0])} {_fmt(e[1])}")
+            g.add(fig.dwg.path(d="".join(hatch), fill="none"))
+
+
+def _arrow(fig: Figure, group, tip, direction, length: float, heavy: bool = False) -> np.ndarray:
+    """An arrow of ``length`` (local) ending at ``tip`` along unit ``direction``; returns its tail.
+
+    Point loads are drawn heavy so they stand out of a row of line-load arrows."""
+    p = fig.paper
+    tail = tip - direction * length
+    n = np.array([-direction[1], direction[0]])
+    neck = tip - direction * p(3.0 if heavy else 2.0)
+    extra = {"stroke_width": _fmt(p(0.6), 4)} if heavy else {"stroke_width": _fmt(p(0.25), 4)}
+    group.add(fig.dwg.line(start=(_fmt(tail[0]), _fmt(tail[1])), end=(_fmt(neck[0]), _fmt(neck[1])), **extra))
+    half = p(1.1 if heavy else 0.7)
+    head = [tip, neck + n * half, neck - n * half]
+    group.add(fig.dwg.path(d=_points(head), fill=INK, stroke="none"))
+    return tail
+
+
+def _label_at(fig: Figure, group, text: str, tail, direction, gap: float = 1.2) -> None:
+    """Load value beyond the arrow's tail (paper ``gap``), set so it does not run back over the arrow."""
+    p = fig.paper
+    at = tail - direction * p(gap)
+    anchor = "middle"
+    if abs(direction[0]) > 0.5:
+        anchor = "end" if direction[0] > 0 else "start"
+    # Paper y grows downwards: lift the baseline for arrows pointing down onto the panel.
+    shift = p(0.9) if direction[1] < -0.5 else (-p(2.6) if direction[1] > 0.5 else -p(0.9))
+    fig.text(group, text, (at[0], at[1] + shift), 2.6, anchor=anchor, local=True)
+
+
+def _draw_loads(fig: Figure, panel: Panel, case: str) -> None:
+    p = fig.paper
+    g = fig.layer("loads", stroke=INK, stroke_width=_fmt(p(0.35), 4))
+    for load in panel.loads:
+        if load.case != case:
+            continue
+        if isinstance(load, PointLoad):
+            f = np.asarray(load.force_N, dtype=float)
+            size = float(np.hypot(*f))
+            if size == 0:
+                continue
+            tail = _arrow(fig, g, np.asarray(load.at, dtype=float), f / size, p(17.0), heavy=True)
+            _label_at(fig, g, f"{size / 1000.0:.3g} kN", tail, f / size)
+        elif isinstance(load, LineLoad):
+            w = np.asarray(load.intensity_N_per_mm, dtype=float)  # N/mm is kN/m
+            size = float(np.hypot(*w))
+            if size == 0:
+                continue
+            d = w / size
+            a, b = np.asarray(load.start, dtype=float), np.asarray(load.end, dtype=float)
+            n = max(2, int(round(np.linalg.norm(b - a) / p(7.0))) + 1)
+            tails = [_arrow(fig, g, a + s * (b - a), d, p(7.0)) for s in np.linspace(0.0, 1.0, n)]
+            g.add(fig.dwg.line(start=(_fmt(tails[0][0]), _fmt(tails[0][1])),
+                               end=(_fmt(tails[-1][0]), _fmt(tails[-1][1]))))
+            # Beyond the left end of a lying row, or the top end of a standing one: clear of point loads arriving
+            # mid-span and of supports at the foot of a wall.
+            row = tails[-1] - tails[0]
+            key = (lambda q: q[0]) if abs(row[0]) >= abs(row[1]) else (lambda q: -q[1])
+            end, other = (tails[0], tails[-1]) if key(tails[0]) <= key(tails[-1]) else (tails[-1], tails[0])
+            along = (end - other) / max(float(np.linalg.norm(end - other)), 1e-12)
+            _label_at(fig, g, f"{size:.3g} kN/m", end + along * p(1.0), -along, gap=0.0)
+
+
+# --- sheet furniture: heading, legend band, title block
+
+
+def _draw_heading(fig: Figure, title: str, scale_note: str) -> None:
+    g = fig.sheet_group("heading")
+    fig.text(g, title, (_MARGIN, _MARGIN + 5.0), 5.0, weight="bold")
+    fig.text(g, f"{FRAME_NOTE} {scale_note}", (_MARGIN, _MARGIN + 10.5), 2.8)
+
+
+def _draw_legend(fig: Figure, vmax: float, peak_t: float, peak_c: float, magnification, umax: float) -> None:
+    g = fig.sheet_group("legend")
+    x0, top = _MARGIN, fig.legend_top
+    bar_w, bar_h = 120.0, 5.0
+    bar_y = top + 9.0
+    fig.text(g, "Dominant principal stress, MPa (the principal of larger magnitude, with its sign)", (x0, top + 2.5),
+             2.8, weight="bold")
+    fig.text(g, "\u25c0 COMPRESSION (negative)", (x0, bar_y - 1.2), 2.6, fill=palette.COMPRESSION_INK,
+             weight="bold")
+    fig.text(g, "TENSION (positive) \u25b6", (x0 + bar_w, bar_y - 1.2), 2.6, anchor="end",
+             fill=palette.TENSION_INK, weight="bold")
+    n = 2 * _STRESS_CLASSES_PER_SIDE
+    colours = palette.class_colours(_STRESS_CLASSES_PER_SIDE)
+    cw = bar_w / n
+    bar = fig.dwg.g(id="legend-bar")
+    g.add(bar)
+    for i, c in enumerate(colours):
+        bar.add(fig.dwg.rect((_fmt(x0 + i * cw, 3), _fmt(bar_y, 3)), (_fmt(cw + 0.02, 3), _fmt(bar_h)), fill=c,
+                             **{"data-from-MPa": _fmt_value(-vmax + 2 * vmax * i / n)}))
+    # End wedges say that values beyond the range take the end colours.
+    beyond_c, beyond_t = peak_c < -vmax, peak_t > vmax
+    if beyond_c:
+        g.add(fig.dwg.path(d=_points([(x0, bar_y), (x0 - 3.0, bar_y + bar_h / 2), (x0, bar_y + bar_h)]),
+                              fill=colours[0]))
+    if beyond_t:
+        e = x0 + bar_w
+        g.add(fig.dwg.path(d=_points([(e, bar_y), (e + 3.0, bar_y + bar_h / 2), (e, bar_y + bar_h)]),
+                              fill=colours[-1]))
+    g.add(fig.dwg.rect((_fmt(x0, 3), _fmt(bar_y, 3)), (_fmt(bar_w), _fmt(bar_h)), fill="none", stroke=INK,
+                       stroke_width="0.2"))
+    for i in range(n + 1):
+        x = x0 + i * cw
+        major = i % (n // 4) == 0
+        g.add(fig.dwg.line(start=(_fmt(x, 3), _fmt(bar_y + bar_h, 3)), end=(_fmt(x, 3), _fmt(bar_y + bar_h +
+                           (1.4 if major else 0.7), 3)), stroke=INK, stroke_width="0.2"))
+        if major:
+            v = -vmax + 2 * vmax * i / n
+            label = "0" if abs(v) < 1e-12 * vmax else (f"+{v:.4g}" if v > 0 else f"\u2212{-v:.4g}")
+            fig.text(g, label, (x, bar_y + bar_h + 4.2), 2.5, anchor="middle")
+    note = (f"Peak tension {'+' if peak_t > 0 else ''}{_fmt_value(peak_t)} MPa, peak compression "
+            f"{_fmt_value(peak_c).replace('-', chr(0x2212))} MPa")
+    if beyond_c or beyond_t:
+        note += "; beyond the bar: its end colours"
+    fig.text(g, note + ".", (x0, bar_y + bar_h + 8.5), 2.4)
+
+    # Line key and scale bar on the right of the band.
+    kx = x0 + bar_w + 12.0
+    rows = [
+        ("line", dict(stroke=INK, stroke_width="0.4"), "panel and openings as drawn"),
+        ("line", dict(stroke=DEFLECTED_INK, stroke_width="0.45"),
+         f"deflected shape drawn \u00d7 {magnification:g} (largest deflection {_fmt_value(umax)} mm)"
+         if magnification else "no deflection to draw"),
+        ("line", dict(stroke=INK, stroke_width="0.3", stroke_dasharray="2 1"), "zone kept solid"),
+        ("ticks", None, "principal directions, length by magnitude"),
+    ]
+    for r, (kind, style, label) in enumerate(rows):
+        y = top + 2.0 + 4.2 * r
+        if kind == "line":
+            g.add(fig.dwg.line(start=(_fmt(kx), _fmt(y - 0.9)), end=(_fmt(kx + 8.0), _fmt(y - 0.9)), **style))
+        else:
+            g.add(fig.dwg.line(start=(_fmt(kx), _fmt(y - 0.9)), end=(_fmt(kx + 3.5), _fmt(y - 0.9)),
+                               stroke=palette.TENSION_INK, stroke_width="0.32", stroke_linecap="round"))
+            g.add(fig.dwg.line(start=(_fmt(kx + 5.5), _fmt(y - 2.4)), end=(_fmt(kx + 5.5), _fmt(y + 0.6)),
+                               stroke=palette.COMPRESSION_INK, stroke_width="0.32", stroke_linecap="round"))
+        fig.text(g, label, (kx + 10.0, y), 2.4)
+    _draw_scale_bar(fig, kx, top + 22.5)
+
+
+def _draw_scale_bar(fig: Figure, x0: float, y0: float) -> None:
+    """A bar of a round length in the drawing's own unit, in alternate filled and open parts."""
+    g = fig.sheet_group("scale-bar")
+    frame = fig.panel.frame
+    unit_mm = frame.mm_per_unit
+    target_paper = min(50.0, max(20.0, fig.panel_paper[0] / 4.0))
+    length_unit = nice_125(target_paper * fig.scale / unit_mm, mode="nearest")
+    paper_len = length_unit * unit_mm / fig.scale
+    lead = int(f"{length_unit:e}"[0])
+    parts = 4 if lead == 2 else 5
+    h = 1.6
+    for i in range(parts):
+        g.add(fig.dwg.rect((_fmt(x0 + i * paper_len / parts, 3), _fmt(y0, 3)), (_fmt(paper_len / parts, 3), _fmt(h)),
+                           fill=INK if i % 2 == 0 else "#ffffff", stroke=INK, stroke_width="0.15"))
+    fig.text(g, "0", (x0, y0 + h + 3.0), 2.4, anchor="middle")
+    fig.text(g, f"{length_unit:g} {frame.unit}", (x0 + paper_len, y0 + h + 3.0), 2.4, anchor="middle")
+    fig.text(g, f"scale 1:{fig.scale}", (x0 + paper_len + 6.0, y0 + h), 2.4)
+    g.attribs["data-length"] = f"{length_unit:g} {frame.unit}"
+
+
+def _draw_title_block(fig: Figure, panel: Panel, case: str, date: str, n_elements: int) -> None:
+    """Our title block: a ruled band across the sheet foot, four cells over a caution strip."""
+    g = fig.sheet_group("title", stroke=INK)
+    x0, y0 = _MARGIN, fig.title_top
+    w, h = fig.width - 2 * _MARGIN, _TITLE_BLOCK
+    g.add(fig.dwg.rect((_fmt(x0), _fmt(y0)), (_fmt(w), _fmt(h)), fill="none", stroke_width="0.5"))
+    strip = 6.0
+    g.add(fig.dwg.line(start=(_fmt(x0), _fmt(y0 + h - strip)), end=(_fmt(x0 + w), _fmt(y0 + h - strip)),
+                       stroke_width="0.25"))
+    m = panel.material
+    cells = [
+        (0.34, "PANEL", [panel.name, f"load case: {case}"]),
+        (0.26, "MATERIAL", [f"E = {m.E_MPa:g} MPa", f"\u03bd = {m.nu:g}" + (f", {m.name}" if m.name else "")]),
+        (0.2, "SECTION", [f"thickness {panel.thickness_mm:g} mm", f"{panel.width_mm:g} \u00d7 {panel.height_mm:g} mm"]),
+        (0.2, "FIGURE", [f"date {date}", f"1:{fig.scale}, {n_elements} elements"]),
+    ]
+    x = x0
+    for share, head, lines in cells:
+        cw = w * share
+        if x > x0:
+            g.add(fig.dwg.line(start=(_fmt(x), _fmt(y0)), end=(_fmt(x), _fmt(y0 + h - strip)), stroke_width="0.25"))
+        fig.text(g, head, (x + 2.0, y0 + 3.6), 2.0, weight="bold", fill="#555555")
+        for i, line in enumerate(lines):
+            big = head == "PANEL" and i == 0
+            fig.text(g, line, (x + 2.0, y0 + (9.0 if big else 8.6) + i * 5.0), 4.0 if big else 3.0,
+                     weight="bold" if big else "normal")
+        x += cw
+    fig.text(g, CAUTION, (x0 + 2.0, y0 + h - strip + 4.0), 2.7, style="italic")
+    fig.text(g, "lacuna", (x0 + w - 2.0, y0 + h - strip + 4.0), 2.7, anchor="end", weight="bold")
+
+
+# --------------------------------------------------------------------------------------------- public
+
+
+def analysis_svg(
+    panel: Panel,
+    grid,
+    fractions,
+    displacement,
+    stress,
+    *,
+    case: str = "main",
+    title: str | None = None,
+    deflection_scale: float | None = None,
+    date: _dt.date | str | None = None,
+) -> str:
+    """The analysis figure of one load case as SVG text: principal stress, directions, deflected shape,
+    openings, supports, loads, legend, scale bar and title block, drawn at 1:N on a 260 mm wide sheet.
+
+    ``grid`` needs nx, ny, dx, dy (element e = iy * nx + ix, node n = j * (nx + 1) + i); ``fractions`` (ne,)
+    solid area share (0: not drawn); ``displacement`` (ndof,) mm; ``stress`` (ne, 3) sx, sy, txy in MPa.
+    ``deflection_scale`` overrides the automatic magnification of the deflected shape.
+    """
+    fractions, displacement, stress = _check_inputs(panel, grid, fractions, displacement, stress, case)
+    drawn = fractions > 0.0
+    dominant = dominant_principal(stress)
+    shown = dominant[drawn]
+    vmax = stress_limit(shown)
+    peak_t = float(shown.max()) if shown.size else 0.0
+    peak_c = float(shown.min()) if shown.size else 0.0
+
+    enodes = _enodes(grid.nx, grid.ny)
+    active = np.zeros((grid.nx + 1) * (grid.ny + 1), dtype=bool)
+    active[enodes[drawn].ravel()] = True
+    u = displacement.reshape(-1, 2)
+    umax = float(np.max(np.hypot(u[active, 0], u[active, 1]))) if active.any() else 0.0
+    if deflection_scale is not None:
+        if not (deflection_scale > 0 and math.isfinite(deflection_scale)):
+            raise LacunaError(f"the deflection scale must be a positive number, got {deflection_scale}.",
+                              where="analysis figure")
+        magnification = float(deflection_scale)
+    else:
+        magnification = deflection_scale_for(umax, panel.width_mm, panel.height_mm)
+
+    if date is None:
+        date = _dt.date.today()
+    date_text = date.isoformat() if isinstance(date, _dt.date) else str(date)
+
+    fig = Figure(panel)
+    solid = panel.solid
+    _draw_heading(fig, title or f"{panel.name}: stress and deflection, load case {case}",
+                  f"Scale 1:{fig.scale} on a {SHEET_WIDTH_MM:g} mm wide sheet; lengths in mm.")
+    _draw_stress(fig, grid, drawn, dominant, vmax, solid)
+    _draw_directions(fig, grid, fractions, stress, vmax)
+    _draw_outlines(fig, panel)
+    _draw_deflected(fig, grid, solid, displacement, magnification)
+    _draw_supports(fig, panel)
+    _draw_loads(fig, panel, case)
+    _draw_legend(fig, vmax, peak_t, peak_c, magnification, umax)
+    _draw_title_block(fig, panel, case, date_text, int(drawn.sum()))
+    fig.drawing.attribs["data-stress-limit-MPa"] = _fmt_value(vmax)
+    if magnification:
+        fig.drawing.attribs["data-deflection-scale"] = _fmt_value(magnification)
+    return fig.tostring()
