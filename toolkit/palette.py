@@ -24,8 +24,8 @@ STOPS: tuple[tuple[float, str], ...] = (
     (0.00, "#f2efe6"),  # warm paper white
     (0.25, "#ecc483"),
     (0.50, "#cc8a2e"),
-    (0.75, "#97560c"),
-    (1.00, "#5c3006"),  # deep umber
+    (0.75, "#9a5c0c"),
+    (1.00, "#5c3406"),  # deep umber
 )
 
 # Line work drawn over the scale (principal-direction ticks): darker than either end so it reads on every fill.

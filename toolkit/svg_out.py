@@ -24,6 +24,7 @@ from shapely.geometry import MultiPolygon, Polygon
 
 from . import palette
 from .errors import LacunaError
+from .fe.stress import principal_stresses
 from .model import LineLoad, Panel, PointLoad, Support
 
 SHEET_WIDTH_MM = 260.0
@@ -48,7 +49,6 @@ _DEFLECTION_TARGET = 0.04  # largest drawn deflection as a share of the panel's 
 
 INK = "#1c1c1c"
 DEFLECTED_INK = "#7a1f5c"  # plum: apart from both stress hues and from the black line work
-OPENING_FILL = "#ffffff"
 FONT = "DejaVu Sans, Liberation Sans, Arial, sans-serif"
 
 
@@ -110,14 +110,6 @@ def stress_limit(values: np.ndarray) -> float:
         return 1.0
     p = float(np.percentile(mags, 99.0))
     return nice_ceil(p if p > 0 else float(mags.max()))
-
-
-def principal_stresses(stress: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """(ne, 3) sx, sy, txy -> s1 >= s2 and the angle of s1 from the x axis (radians), each (ne,)."""
-    sx, sy, txy = stress[:, 0], stress[:, 1], stress[:, 2]
-    mean = 0.5 * (sx + sy)
-    radius = np.hypot(0.5 * (sx - sy), txy)
-    return mean + radius, mean - radius, 0.5 * np.arctan2(2.0 * txy, sx - sy)
 
 
 def dominant_principal(stress: np.ndarray) -> np.ndarray:
@@ -537,7 +529,8 @@ def _draw_loads(fig: Figure, panel: Panel, case: str) -> None:
 
 def _draw_heading(fig: Figure, title: str, scale_note: str) -> None:
     g = fig.sheet_group("heading")
-    fig.text(g, title, (_MARGIN, _MARGIN + 5.0), 5.0, weight="bold")
+    title, size = _fit(title, fig.width - 2 * _MARGIN, 5.0)
+    fig.text(g, title, (_MARGIN, _MARGIN + 5.0), size, weight="bold")
     fig.text(g, f"{FRAME_NOTE} {scale_note}", (_MARGIN, _MARGIN + 10.5), 2.8)
 
 
@@ -629,6 +622,16 @@ def _draw_scale_bar(fig: Figure, x0: float, y0: float) -> None:
     g.attribs["data-length"] = f"{length_unit:g} {frame.unit}"
 
 
+def _fit(text: str, width: float, size: float, smallest: float = 2.0) -> tuple[str, float]:
+    """Shrink (then shorten) a line of text to fit ``width`` paper mm; a DejaVu Sans glyph averages ~0.6 em."""
+    em = 0.6
+    if len(text) * em * size <= width:
+        return text, size
+    size = max(smallest, width / (len(text) * em))
+    keep = int(width / (em * size))
+    return (text if len(text) <= keep else text[: max(1, keep - 1)].rstrip() + "\u2026"), size
+
+
 def _draw_title_block(fig: Figure, panel: Panel, case: str, date: str, n_elements: int) -> None:
     """Our title block: a ruled band across the sheet foot, four cells over a caution strip."""
     g = fig.sheet_group("title", stroke=INK)
@@ -641,7 +644,7 @@ def _draw_title_block(fig: Figure, panel: Panel, case: str, date: str, n_element
     m = panel.material
     cells = [
         (0.34, "PANEL", [panel.name, f"load case: {case}"]),
-        (0.26, "MATERIAL", [f"E = {m.E_MPa:g} MPa", f"\u03bd = {m.nu:g}" + (f", {m.name}" if m.name else "")]),
+        (0.26, "MATERIAL", [f"E = {m.E_MPa:g} MPa, \u03bd = {m.nu:g}", m.name]),
         (0.2, "SECTION", [f"thickness {panel.thickness_mm:g} mm", f"{panel.width_mm:g} \u00d7 {panel.height_mm:g} mm"]),
         (0.2, "FIGURE", [f"date {date}", f"1:{fig.scale}, {n_elements} elements"]),
     ]
@@ -653,8 +656,8 @@ def _draw_title_block(fig: Figure, panel: Panel, case: str, date: str, n_element
         fig.text(g, head, (x + 2.0, y0 + 3.6), 2.0, weight="bold", fill="#555555")
         for i, line in enumerate(lines):
             big = head == "PANEL" and i == 0
-            fig.text(g, line, (x + 2.0, y0 + (9.0 if big else 8.6) + i * 5.0), 4.0 if big else 3.0,
-                     weight="bold" if big else "normal")
+            line, size = _fit(line, cw - 4.0, 4.0 if big else 3.0)
+            fig.text(g, line, (x + 2.0, y0 + (9.0 if big else 8.6) + i * 5.0), size, weight="bold" if big else "normal")
         x += cw
     fig.text(g, CAUTION, (x0 + 2.0, y0 + h - strip + 4.0), 2.7, style="italic")
     fig.text(g, "lacuna", (x0 + w - 2.0, y0 + h - strip + 4.0), 2.7, anchor="end", weight="bold")
@@ -719,7 +722,7 @@ def analysis_svg(
     _draw_loads(fig, panel, case)
     _draw_legend(fig, vmax, peak_t, peak_c, magnification, umax)
     _draw_title_block(fig, panel, case, date_text, int(drawn.sum()))
-    fig.drawing.attribs["data-stress-limit-MPa"] = _fmt_value(vmax)
+    fig.drawing.attribs["data-stress-limit-MPa"] = f"{vmax:g}"
     if magnification:
-        fig.drawing.attribs["data-deflection-scale"] = _fmt_value(magnification)
+        fig.drawing.attribs["data-deflection-scale"] = f"{magnification:g}"
     return fig.tostring()

@@ -88,7 +88,7 @@ def rectangle(loop: Piece, straight_tol: float, mm_per_unit: float, where: str, 
     # Directions of a rectangle's sides agree modulo 90 degrees: average them as angles times four, which
     # also picks the one direction in (-45, 45] for local x.
     weights = np.hypot(side[:, 0], side[:, 1])
-    four = np.radians(4.0 * side_heading)
+    four = np.radians(np.mod(4.0 * side_heading, 360.0))  # mod first: 4 x 180 is exactly 0
     angle = math.degrees(math.atan2(weights @ np.sin(four), weights @ np.cos(four))) / 4.0
     return Rectangle(angle, corners)
 

@@ -104,7 +104,9 @@ def model_items(doc: DxfDocument, keep_whole_layers: Iterable[str], where: str, 
     return list(_walk(doc.modelspace(), "", "", keep, 0, where, warnings))
 
 
-def _walk(entities, parent: str, parent_layer: str, keep: set[str], depth: int, where: str, warnings: list[str]) -> Iterator[Item]:
+def _walk(
+    entities, parent: str, parent_layer: str, keep: set[str], depth: int, where: str, warnings: list[str]
+) -> Iterator[Item]:
     for entity in entities:
         layer = entity.dxf.get("layer", "0")
         if parent_layer and layer == "0":

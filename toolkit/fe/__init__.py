@@ -1,6 +1,4 @@
-"""(To whoever is building this package now: your full task is in /work/main/TASK-FE.md — read it first.)
-
-Plane-stress finite elements on a structured grid over the panel envelope (pure numerics, no file I/O).
+"""Plane-stress finite elements on a structured grid over the panel envelope (pure numerics, no file I/O).
 
 The pieces, each a small function or value over numpy arrays (local frame: mm, N, MPa):
 
@@ -14,10 +12,18 @@ The pieces, each a small function or value over numpy arrays (local frame: mm, N
   stiffness (CSC) for per-element factors ``scale`` (ne,) with the same pattern every call.
 - ``fractions.solid_fractions(grid, solid_polygon)`` -> (ne,) area fraction of each element inside the solid,
   cut exactly with shapely.
-- ``boundary.fixed_dofs(grid, supports)`` and ``boundary.check_mechanism(...)``.
-- ``loads.load_matrix(grid, panel)`` -> (ndof, ncases) consistent nodal forces, one column per load case.
-- ``solve.LinearSolver(K, free)``: factorises K restricted to the free dofs; reuses the symbolic analysis
-  when called again with a matrix of the same pattern (``.refactor(K)``); ``.solve(F)`` -> full U.
-- ``stress.element_stresses(grid, U, E, nu)`` -> (ne, 3) sx, sy, txy at element centres, and helpers for von
-  Mises and principal stresses.
+- ``boundary.fixed_dofs(grid, supports, solid=None, active_nodes=None, frame=None)`` -> (ndof,) bool, and
+  ``boundary.check_mechanism(grid, fixed, active_elements=None, frame=None)``: raises LacunaError in words
+  when the supports leave a part of the panel free to slide or rotate.
+- ``loads.load_matrix(grid, panel, fractions=None, solid=None)`` -> (ndof, ncases) consistent nodal forces,
+  one column per load case in ``panel.cases`` order.
+- ``solve.LinearSolver(K, free, grid=None)``: factorises K restricted to the free dofs (with ``grid``, in the
+  grid's nested-dissection order); ``.refactor(K)`` for a new matrix of the same pattern reuses the ordering
+  and the restriction map; ``.solve(F)`` -> full U, one column per column of F.
+- ``stress.element_stresses(grid, U, E, nu)`` -> (ne, 3) sx, sy, txy at element centres ((ncases, ne, 3) for
+  a U with one column per case); ``stress.von_mises`` and ``stress.principal_stresses``.
+
+Empty elements: give them a zero (or tiny) factor and leave the dofs of nodes that touch no element with
+material out of ``free`` (``grid.active_dofs(scale > 0)``); then K restricted to the free dofs is
+non-singular whenever ``check_mechanism`` passes. ``toolkit.analysis.analyze`` does exactly this.
 """

@@ -14,10 +14,13 @@ from .grid import Grid
 
 def where_text(xy, frame: Frame | None = None) -> str:
     """A local point (mm) as a drafter reads it: in drawing coordinates and unit when a frame is given."""
-    if frame is None:
-        return f"({xy[0]:.6g}, {xy[1]:.6g}) mm"
-    x, y = frame.to_drawing(np.asarray(xy, dtype=float))
-    return f"({x:.6g}, {y:.6g}) {frame.unit}"
+    xy = np.asarray(xy, dtype=float)
+    unit = "mm"
+    if frame is not None:
+        xy, unit = frame.to_drawing(xy), frame.unit
+    # Round away round-off (1e-14 read as 0) before the 6 significant digits a drafter reads.
+    x, y = np.round(xy, 6) + 0.0
+    return f"({x:.6g}, {y:.6g}) {unit}"
 
 
 def _support_name(support: Support, frame: Frame | None) -> str:

@@ -31,7 +31,7 @@ import numpy as np
 from ..errors import LacunaError
 from ..fe.assembly import Assembler
 from ..fe.solve import LinearSolver
-from .filters import sensitivity_filter
+from .filters import SensitivityFilter
 from .problem import Problem, check_problem
 from .settings import OptimizeSettings
 from .symmetry import symmetry_orbits
@@ -120,7 +120,7 @@ def run_beso(
     keep_every = int(keep_every)
 
     # --- built once ---
-    H = sensitivity_filter(g, radius)
+    filt = SensitivityFilter(g, radius)
     orbit_all = symmetry_orbits(g, settings.symmetry)
     design_idx = np.flatnonzero(design)
     _, orbit = np.unique(orbit_all[design_idx], return_inverse=True)
@@ -176,7 +176,7 @@ def run_beso(
             break
 
         alpha = 0.5 * x ** (p - 1.0) * base * (energy @ w)
-        alpha = H @ alpha
+        alpha = filt(alpha)
         if alpha_prev is not None:
             alpha = 0.5 * (alpha + alpha_prev)
         alpha_prev = alpha

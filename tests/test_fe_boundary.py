@@ -1,0 +1,107 @@
+"""Supports on the grid and the rigid-body check that runs before any solve."""
+
+import numpy as np
+import pytest
+from shapely.geometry import box
+
+from toolkit.errors import LacunaError
+from toolkit.fe.boundary import check_mechanism, fixed_dofs
+from toolkit.fe.grid import Grid
+from toolkit.model import Frame, Support
+
+G = Grid(20, 6, 50.0, 50.0)  # a 1000 x 300 mm panel
+
+
+def mechanism_message(supports, active=None):
+    fixed = fixed_dofs(G, supports)
+    with pytest.raises(LacunaError) as info:
+        check_mechanism(G, fixed, active)
+    return str(info.value)
+
+
+def test_well_held_panels_pass():
+    # Pin and roller (a simply supported beam), and a built-in edge: both statically determinate or better.
+    for supports in [
+        (Support(((0.0, 0.0),), "xy"), Support(((1000.0, 0.0),), "y")),
+        (Support(((0.0, 0.0), (0.0, 300.0)), "xy"),),
+        (Support(((0.0, 0.0),), "y"), Support(((1000.0, 0.0),), "y"), Support(((500.0, 300.0),), "x")),
+    ]:
+        check_mechanism(G, fixed_dofs(G, supports))
+
+
+def test_no_supports_at_all():
+    assert "no support at all" in mechanism_message(())
+
+
+def test_single_pin_leaves_rotation_about_it():
+    message = mechanism_message((Support(((0.0, 0.0),), "xy"),))
+    assert "rotate about (0, 0) mm" in message
+
+
+def test_single_roller_slides_and_rotates():
+    message = mechanism_message((Support(((500.0, 0.0),), "y"),))
+    assert "slide in x" in message and "rotate about (500, 0) mm" in message
+    assert 'fix = "xy" or "x"' in message
+
+
+def test_collinear_rollers_in_y_let_the_panel_slide_in_x():
+    message = mechanism_message((Support(((0.0, 0.0),), "y"), Support(((1000.0, 0.0),), "y")))
+    assert "slide in x" in message and "rotate" not in message
+
+
+def test_supports_all_in_x_let_the_panel_slide_in_y():
+    message = mechanism_message((Support(((0.0, 0.0), (0.0, 300.0)), "x"),))
+    assert "slide in y" in message and "rotate" not in message
+
+
+def test_x_held_along_the_bottom_and_y_at_one_point_of_it_still_rotates():
+    # Turning about (500, 0) moves the bottom edge's nodes only in y, which just one support holds.
+    message = mechanism_message((Support(((0.0, 0.0), (1000.0, 0.0)), "x"), Support(((500.0, 0.0),), "y")))
+    assert "slide" not in message and "rotate about (500, 0) mm" in message
+
+
+def test_x_held_along_a_vertical_edge_and_y_at_one_point_is_held():
+    # Turning about any point would move some of the x-held nodes along x = 0 in x: no mechanism.
+    check_mechanism(G, fixed_dofs(G, (Support(((0.0, 0.0), (0.0, 300.0)), "x"), Support(((0.0, 150.0),), "y"))))
+
+
+def test_part_cut_off_by_openings_is_named():
+    active = np.ones(G.n_elements, bool).reshape(G.ny, G.nx)
+    active[:, 10] = False  # a full-height slot splits the panel in two
+    message = mechanism_message(
+        (Support(((0.0, 0.0),), "xy"), Support(((0.0, 300.0),), "x")), active.ravel()
+    )
+    assert "the part of the panel around (775, 125) mm has no support" in message
+    assert "(225," not in message  # the held left part is fine
+
+
+def test_messages_use_drawing_coordinates_when_given_a_frame():
+    frame = Frame(origin=(5000.0, 2000.0), mm_per_unit=10.0, unit="cm")
+    fixed = fixed_dofs(G, (Support(((0.0, 0.0),), "xy"),))
+    with pytest.raises(LacunaError, match=r"rotate about \(5000, 2000\) cm"):
+        check_mechanism(G, fixed, frame=frame)
+
+
+def test_segment_support_holds_every_node_along_it():
+    fixed = fixed_dofs(G, (Support(((0.0, 0.0), (150.0, 0.0)), "y"),))
+    assert np.flatnonzero(fixed).tolist() == [1, 3, 5, 7]
+
+
+def test_support_off_the_outline_is_refused():
+    with pytest.raises(LacunaError, match="does not lie on the panel's outline") as info:
+        fixed_dofs(G, (Support(((100.0, 150.0), (400.0, 150.0)), "xy", source="[[support]] #2"),))
+    assert info.value.where == "[[support]] #2" and info.value.hint
+
+
+def test_support_on_an_opening_edge_is_accepted():
+    solid = box(0, 0, 1000, 300).difference(box(400, 100, 600, 200))
+    fixed = fixed_dofs(G, (Support(((400.0, 100.0), (600.0, 100.0)), "y"),), solid=solid)
+    assert fixed.sum() == 5
+
+
+def test_point_support_off_the_panel_is_refused():
+    with pytest.raises(LacunaError, match="off the panel"):
+        fixed_dofs(G, (Support(((1200.0, 0.0),), "xy"),))
+    solid = box(0, 0, 1000, 300).difference(box(400, 100, 600, 200))
+    with pytest.raises(LacunaError, match="inside an opening"):
+        fixed_dofs(G, (Support(((500.0, 150.0),), "xy"),), solid=solid)

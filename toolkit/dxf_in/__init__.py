@@ -1,0 +1,195 @@
+"""Drawing -> panel geometry: read a DXF drawing's outline, openings, keep zones and markers.
+
+The reader never writes to the drawing. Everything it returns is in the panel's local frame (mm, N), see
+:class:`toolkit.model.Frame`; ``Drawing.warnings`` lists what it healed or assumed. Bad drawings raise
+:class:`toolkit.errors.LacunaError` naming the file, layer and entity handles at fault. docs/drawings.md
+describes what may be drawn and the tolerances.
+"""
+
+from __future__ import annotations
+
+import math
+import os
+from itertools import combinations
+
+import numpy as np
+from ezdxf import bbox
+from ezdxf.document import Drawing as DxfDocument
+
+from ..errors import LacunaError
+from ..model import Drawing, Layers
+from ..units import mm_per
+from .chains import join
+from .markers import DEFAULT_CASE, XDATA_APPID, loads, marker_xdata, supports
+from .outline import ANGLE_TOL_DEG, rectangle
+from .pieces import ANNOTATION, Piece, pieces_from
+from .reading import Reading
+from .regions import regions
+from .source import Item, drawing_unit, model_items, open_document
+
+__all__ = ["read_drawing", "read_document", "marker_xdata", "XDATA_APPID", "DEFAULT_CASE", "ANGLE_TOL_DEG"]
+
+
+def read_drawing(
+    path, layers: Layers = Layers(), *, join_tolerance_mm: float = 0.5, chord_tolerance_mm: float = 0.1
+) -> Drawing:
+    """Read the panel drawn in the DXF file at ``path`` (opened read-only; damaged files are recovered)."""
+    path = os.fspath(path)
+    doc, warnings = open_document(path)
+    return _read(doc, layers, path, join_tolerance_mm, chord_tolerance_mm, warnings)
+
+
+def read_document(
+    doc: DxfDocument,
+    layers: Layers = Layers(),
+    *,
+    path: str = "<document>",
+    join_tolerance_mm: float = 0.5,
+    chord_tolerance_mm: float = 0.1,
+) -> Drawing:
+    """Read the panel drawn in an ezdxf document already in memory; ``path`` only names it in messages."""
+    return _read(doc, layers, path, join_tolerance_mm, chord_tolerance_mm, [])
+
+
+def _read(doc, layers: Layers, path: str, join_mm: float, chord_mm: float, warnings: list[str]) -> Drawing:
+    for name, value in (("join_tolerance_mm", join_mm), ("chord_tolerance_mm", chord_mm)):
+        if not (isinstance(value, (int, float)) and math.isfinite(value) and value > 0):
+            raise LacunaError(f"{name} must be a positive length in mm, got {value!r}.", where=name)
+    unit, unit_warnings = drawing_unit(doc, path)
+    warnings = warnings + unit_warnings
+    items = model_items(doc, [layers.support, layers.load], path, warnings)
+    if not items:
+        raise LacunaError(
+            "the drawing is empty: its model space holds no entities.",
+            where=path,
+            hint=f"Draw the panel outline as a closed rectangle on layer {layers.outline}.",
+        )
+    by_layer: dict[str, list[Item]] = {}
+    for item in items:
+        by_layer.setdefault(item.layer.casefold(), []).append(item)
+
+    outline_items = by_layer.get(layers.outline.casefold(), [])
+    if not outline_items:
+        names = sorted({item.layer for item in items} | {layer.dxf.name for layer in doc.layers})
+        raise LacunaError(
+            f"nothing is drawn on the outline layer {layers.outline!r}; the drawing has the layers "
+            f"{', '.join(repr(n) for n in names)}.",
+            where=f"{path}, layer {layers.outline}",
+            hint=f"Draw the panel outline on layer {layers.outline}, or name the layer that holds it under "
+            "[layers] outline in the job file.",
+        )
+    r = Reading(path, unit, mm_per(unit), _reference_point(outline_items), join_mm, chord_mm, warnings)
+
+    width, height, outline_handles = _outline(outline_items, layers.outline, r)
+    openings = regions(_loops(by_layer.get(layers.openings.casefold(), []), layers.openings, "opening", r),
+                       layers.openings, "opening", width, height, r)
+    keep = regions(_loops(by_layer.get(layers.keep.casefold(), []), layers.keep, "keep zone", r),
+                   layers.keep, "keep zone", width, height, r)
+    found_supports = supports(by_layer.get(layers.support.casefold(), []), layers.support, width, height, r)
+    found_loads = loads(by_layer.get(layers.load.casefold(), []), layers.load, width, height, r)
+    return Drawing(
+        path=path,
+        unit=unit,
+        frame=r.frame(),
+        width_mm=width,
+        height_mm=height,
+        outline_handles=outline_handles,
+        openings=openings,
+        keep=keep,
+        supports=found_supports,
+        loads=found_loads,
+        warnings=tuple(r.warnings),
+    )
+
+
+def _reference_point(items: list[Item]) -> np.ndarray:
+    # Any point near the panel will do: it is subtracted from every coordinate before any arithmetic.
+    box = bbox.extents([item.entity for item in items], fast=True)
+    if box.has_data:
+        return np.array([box.center.x, box.center.y], dtype=float)
+    return np.zeros(2)
+
+
+def _outline(items: list[Item], layer: str, r: Reading) -> tuple[float, float, tuple[str, ...]]:
+    pieces: list[Piece] = []
+    for item in items:
+        if item.kind in ANNOTATION or item.kind in ("HATCH", "MPOLYGON", "POINT"):
+            r.warnings.append(f"{r.where(layer, [f'{item.kind} {item.handle}'])}: not part of the outline; ignored.")
+            continue
+        pieces += pieces_from(item, r.ref, r.chord_tol, r.path)
+    joined = join(pieces, r.join_tol, r.exact, lambda labels: r.where(layer, labels), r.fmt)
+    _report_healing(joined, layer, "outline", r)
+    loops = [p for p in joined.loops if len(p.points) >= 2]
+    if not loops:
+        if not joined.open_chains:
+            raise LacunaError(
+                "the outline layer holds no closed shape.",
+                where=r.where(layer),
+                hint="Draw the panel outline as a closed rectangle.",
+            )
+        a, b, gap = _nearest_gap(joined.open_chains)
+        labels = [c.label for c in joined.open_chains]
+        raise LacunaError(
+            f"the outline is open: a gap of {gap * r.mm_per_unit:.4g} mm between {r.fmt(a)} and {r.fmt(b)} "
+            f"(ends closer than the join tolerance, {r.join_mm:g} mm, are joined).",
+            where=r.where(layer, labels),
+            hint="Close the outline: extend the lines to meet, or close the polyline.",
+        )
+    if len(loops) > 1:
+        labels = [loop.label for loop in loops]
+        raise LacunaError(
+            f"the outline layer holds {len(loops)} closed shapes ({'; '.join(labels)}); the panel must be one.",
+            where=r.where(layer, labels),
+            hint="Keep one closed rectangle on the outline layer and move the others to another layer.",
+        )
+    for chain in joined.open_chains:
+        r.warnings.append(f"{r.where(layer, [chain.label])}: loose pieces beside the closed outline; ignored.")
+    loop = loops[0]
+    rect = rectangle(loop, r.join_tol, r.mm_per_unit, r.where(layer, [loop.label]), r.fmt)
+    r.angle_deg = rect.angle_deg
+    local = r.to_local(rect.corners)  # local_min is still zero here
+    r.local_min = local.min(axis=0)
+    width, height = local.max(axis=0) - local.min(axis=0)
+    return float(width), float(height), tuple(loop.handles)
+
+
+def _loops(items: list[Item], layer: str, what: str, r: Reading) -> list[Piece]:
+    pieces: list[Piece] = []
+    for item in items:
+        if item.kind in ANNOTATION:
+            r.warnings.append(f"{r.where(layer, [f'{item.kind} {item.handle}'])}: annotation ignored.")
+            continue
+        pieces += pieces_from(item, r.ref, r.chord_tol, r.path)
+    joined = join(pieces, r.join_tol, r.exact, lambda labels: r.where(layer, labels), r.fmt)
+    _report_healing(joined, layer, what, r)
+    for chain in joined.open_chains:
+        a, b = chain.points[0], chain.points[-1]
+        gap = float(np.hypot(*(a - b))) * r.mm_per_unit
+        kinds = sorted(set(chain.kinds))
+        raise LacunaError(
+            f"an open {'/'.join(kinds)} ({chain.label}) cannot be a {what}: its ends {r.fmt(a)} and {r.fmt(b)} "
+            f"are {gap:.4g} mm apart (the join tolerance is {r.join_mm:g} mm).",
+            where=r.where(layer, [chain.label]),
+            hint=f"Close the shape, or move the entity to another layer if it is not a {what}.",
+        )
+    return [loop for loop in joined.loops if len(loop.points) >= 2]
+
+
+def _report_healing(joined, layer: str, what: str, r: Reading) -> None:
+    for gap, at in joined.gaps_closed:
+        r.warnings.append(
+            f"{r.where(layer)}: closed a gap of {gap * r.mm_per_unit:.4g} mm in the {what} at {r.fmt(at)} "
+            f"(join tolerance {r.join_mm:g} mm)."
+        )
+    if joined.merged:
+        r.warnings.append(
+            f"{r.where(layer, sorted(set(joined.merged)))}: pieces drawn on top of each other were merged."
+        )
+
+
+def _nearest_gap(chains: list[Piece]) -> tuple[np.ndarray, np.ndarray, float]:
+    """The two loose ends nearest each other (of different chains, when there are several)."""
+    ends = [(k, c.points[i]) for k, c in enumerate(chains) for i in (0, -1)]
+    pairs = [(a, b) for (i, a), (j, b) in combinations(ends, 2) if i != j or len(chains) == 1]
+    a, b = min(pairs, key=lambda ab: float(np.hypot(*(ab[0] - ab[1]))))
+    return a, b, float(np.hypot(*(a - b)))
