@@ -207,6 +207,13 @@ def test_not_a_dxf(tmp_path):
     assert info.value.where == str(path) and info.value.hint
 
 
+def test_other_bytes_are_not_a_dxf(tmp_path):
+    path = tmp_path / "scan.dxf"
+    path.write_bytes(b"%PDF-1.4\nsomething else entirely\n")  # ezdxf's recover reader would make it empty
+    with pytest.raises(LacunaError, match="is not a DXF drawing"):
+        read_drawing(path)
+
+
 def test_missing_file(tmp_path):
     with pytest.raises(LacunaError, match="no such file"):
         read_drawing(tmp_path / "absent.dxf")
@@ -330,7 +337,7 @@ def test_two_candidate_outlines_named():
     second = doc.modelspace().add_lwpolyline([(0, 1000), (10, 1000), (10, 1010), (0, 1010)], close=True,
                                              dxfattribs={"layer": "PANEL"})
     err = _error(doc)
-    assert "2 closed shapes" in err.message and second.dxf.handle in err.where
+    assert "two candidate outlines" in err.message and second.dxf.handle in err.where
 
 
 @pytest.mark.parametrize(
@@ -626,7 +633,15 @@ def test_bad_load_texts(text, words):
 def test_load_outside_the_panel():
     doc = _panel_doc()
     dw.add_load(doc.modelspace(), dw.Placement(), (1500, 900), (0, -1), kN=5)
-    assert "outside the panel" in _error(doc).message
+    assert "off the panel" in _error(doc).message
+
+
+def test_load_inside_an_opening():
+    doc = _panel_doc()
+    hole = dw.add_circle(doc.modelspace(), dw.Placement(), (1500, 300), 200)
+    dw.add_load(doc.modelspace(), dw.Placement(), (1500, 300), (0, -1), kN=5, length_mm=50)
+    err = _error(doc)
+    assert "off the panel" in err.message and hole.dxf.handle in err.message
 
 
 def test_unknown_xdata_entry():

@@ -153,6 +153,6 @@ def run_demo(out_dir, *, force: bool = False) -> Outcome:
 def write_starter(directory, *, force: bool = False) -> list[Path]:
     """``lacuna init``: a commented job-file template and a sample drawing to start from."""
     directory = Path(directory)
-    dxf, _ = demo_files()
-    files = {"job.toml": template_text(), "sample-panel.dxf": dxf.read_bytes()}
+    sample = resources.files("toolkit") / "data" / "sample-panel.dxf"
+    files = {"job.toml": template_text(), "sample-panel.dxf": sample.read_bytes()}
     return write_outputs(directory, files, inputs=[], force=force)

@@ -85,8 +85,8 @@ def _read(doc, layers: Layers, path: str, join_mm: float, chord_mm: float, warni
                        layers.openings, "opening", width, height, r)
     keep = regions(_loops(by_layer.get(layers.keep.casefold(), []), layers.keep, "keep zone", r),
                    layers.keep, "keep zone", width, height, r)
-    found_supports = supports(by_layer.get(layers.support.casefold(), []), layers.support, width, height, r)
-    found_loads = loads(by_layer.get(layers.load.casefold(), []), layers.load, width, height, r)
+    found_supports = supports(by_layer.get(layers.support.casefold(), []), layers.support, width, height, openings, r)
+    found_loads = loads(by_layer.get(layers.load.casefold(), []), layers.load, width, height, openings, r)
     return Drawing(
         path=path,
         unit=unit,
@@ -138,7 +138,8 @@ def _outline(items: list[Item], layer: str, r: Reading) -> tuple[float, float, t
     if len(loops) > 1:
         labels = [loop.label for loop in loops]
         raise LacunaError(
-            f"the outline layer holds {len(loops)} closed shapes ({'; '.join(labels)}); the panel must be one.",
+            f"the outline layer holds {_count(len(loops))} candidate outlines ({'; '.join(labels)}); "
+            "the panel must be one closed shape.",
             where=r.where(layer, labels),
             hint="Keep one closed rectangle on the outline layer and move the others to another layer.",
         )
@@ -185,6 +186,10 @@ def _report_healing(joined, layer: str, what: str, r: Reading) -> None:
         r.warnings.append(
             f"{r.where(layer, sorted(set(joined.merged)))}: pieces drawn on top of each other were merged."
         )
+
+
+def _count(n: int) -> str:
+    return {2: "two", 3: "three", 4: "four", 5: "five"}.get(n, str(n))
 
 
 def _nearest_gap(chains: list[Piece]) -> tuple[np.ndarray, np.ndarray, float]:

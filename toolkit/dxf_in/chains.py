@@ -99,7 +99,7 @@ def _assemble(pieces: list[Piece], path: list[int], node, position, closed: bool
         p = pieces[m // 2]
         q, b = p.points, p.bulges
         if m % 2:  # entered at its far end: run it backwards, arcs turning the other way
-            q, b = q[::-1], b[::-1]
+            q, b = q[::-1], -b[::-1]
         q = q.copy()
         q[0] = position[node[m]]
         q[-1] = position[node[m ^ 1]]

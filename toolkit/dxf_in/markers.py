@@ -18,6 +18,7 @@ import math
 import re
 
 import numpy as np
+from shapely.geometry import Point
 
 from ..errors import LacunaError
 from ..model import PointLoad, Support
@@ -48,7 +49,7 @@ def marker_xdata(*, force_kN: float | None = None, case: str | None = None, fix:
     return tags
 
 
-def supports(items, layer: str, width: float, height: float, r: Reading) -> tuple[Support, ...]:
+def supports(items, layer: str, width: float, height: float, openings, r: Reading) -> tuple[Support, ...]:
     """Support markers on ``layer`` -> Supports in local mm, sorted by position."""
     markers, texts = [], []
     for item in items:
@@ -115,14 +116,14 @@ def supports(items, layer: str, width: float, height: float, r: Reading) -> tupl
                     hint="Draw a support line along an edge of the outline, or use a POINT for a support inside.",
                 )
         else:
-            _check_on_panel(local[0], width, height, r, where, "support")
+            _check_on_panel(local[0], width, height, r, where, "support", openings)
         pts = tuple((float(x), float(y)) for x, y in _clip(local, width, height))
         out.append(Support(points=pts, fix=fix or "xy", source=where))
     out.sort(key=lambda s: tuple(round(c, 3) for p in s.points for c in p))
     return tuple(out)
 
 
-def loads(items, layer: str, width: float, height: float, r: Reading) -> tuple[PointLoad, ...]:
+def loads(items, layer: str, width: float, height: float, openings, r: Reading) -> tuple[PointLoad, ...]:
     """Load markers on ``layer`` -> point loads in local mm and N, sorted by position."""
     lines, texts = [], []
     for item in items:
@@ -179,7 +180,7 @@ def loads(items, layer: str, width: float, height: float, r: Reading) -> tuple[P
             claimed[k] = label
             kn, case = _parse_load(text, r, r.where(layer, [tlabel, label]))
         local_start = r.to_local(start)
-        _check_on_panel(local_start, width, height, r, where, "load")
+        _check_on_panel(local_start, width, height, r, where, "load", openings)
         direction = r.vector_to_local((end - start) / length)
         force = direction * kn * 1000.0
         at = _clip(local_start[None, :], width, height)[0]
@@ -266,15 +267,24 @@ def _not_a_marker(item, r: Reading, expected: str) -> None:
     )
 
 
-def _check_on_panel(local: np.ndarray, width: float, height: float, r: Reading, where: str, what: str) -> None:
+def _check_on_panel(local: np.ndarray, width: float, height: float, r: Reading, where: str, what: str,
+                    openings) -> None:
     x, y = local
     tol = r.join_mm
     if not (-tol <= x <= width + tol and -tol <= y <= height + tol):
         raise LacunaError(
-            f"the {what} at {r.fmt_local(local)} lies outside the panel.",
+            f"the {what} at {r.fmt_local(local)} lies off the panel (outside its outline).",
             where=where,
             hint=f"Put the {what} on the panel or on its outline.",
         )
+    point = Point(x, y)
+    for opening in openings:
+        if opening.shape.contains(point) and opening.shape.exterior.distance(point) > tol:
+            raise LacunaError(
+                f"the {what} at {r.fmt_local(local)} lies off the panel, inside the opening {opening.source}.",
+                where=where,
+                hint=f"Put the {what} on material: move it out of the opening or to the opening's edge.",
+            )
 
 
 def _off_outline(p: np.ndarray, width: float, height: float) -> float:

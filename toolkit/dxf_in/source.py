@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import os
+import re
 from dataclasses import dataclass
 from typing import Iterable, Iterator
 
@@ -13,7 +14,7 @@ from ezdxf.lldxf import validator
 from ezdxf.lldxf.const import DXFError, DXFStructureError
 
 from ..errors import LacunaError
-from ..units import INSUNITS_TO_UNIT, MM_PER_UNIT, UNIT_TO_INSUNITS
+from ..units import INSUNITS_TO_UNIT, UNIT_TO_INSUNITS
 
 # Block references nested deeper than this are almost surely a reference cycle in a damaged file.
 MAX_BLOCK_DEPTH = 32
@@ -51,6 +52,12 @@ def open_document(path: str) -> tuple[DxfDocument, list[str]]:
             "the file is a DWG, not a DXF drawing.", where=where, hint="Save or export the drawing as DXF."
         )
     looks_like_dxf = validator.is_binary_dxf_file(path) or validator.is_dxf_file(path)
+    if not looks_like_dxf and not _has_dxf_sections(path):
+        raise LacunaError(
+            "the file is not a DXF drawing: it holds no DXF sections.",
+            where=where,
+            hint="Export the drawing from the drafting program as DXF (ASCII or binary) and read that file.",
+        )
     if looks_like_dxf:
         try:
             doc = ezdxf.readfile(path)
@@ -72,6 +79,17 @@ def open_document(path: str) -> tuple[DxfDocument, list[str]]:
     return doc, warnings
 
 
+def _has_dxf_sections(path: str) -> bool:
+    """Whether the file holds a DXF section start (group code 0, value SECTION) in its first megabyte.
+
+    ezdxf's recover reader turns almost any bytes into an empty document, so a file with a damaged start
+    is only handed to it when it still shows the structure of a DXF file.
+    """
+    with open(path, "rb") as fp:
+        head = fp.read(1 << 20)
+    return re.search(rb"(?m)^[ \t]*0[ \t]*\r?\n[ \t]*SECTION[ \t]*\r?$", head) is not None
+
+
 def drawing_unit(doc: DxfDocument, where: str) -> tuple[str, list[str]]:
     """The drawing's length unit from $INSUNITS; unitless or missing is taken as mm with a warning."""
     code = doc.header.get("$INSUNITS", None)
@@ -89,9 +107,7 @@ def drawing_unit(doc: DxfDocument, where: str) -> tuple[str, list[str]]:
             where=f"{where}, header $INSUNITS",
             hint=f"Set the drawing's units to one of {known} (0 = unitless is read as mm) and save again.",
         )
-    unit = INSUNITS_TO_UNIT[code]
-    assert unit in MM_PER_UNIT
-    return unit, []
+    return INSUNITS_TO_UNIT[code], []
 
 
 def model_items(doc: DxfDocument, keep_whole_layers: Iterable[str], where: str, warnings: list[str]) -> list[Item]:

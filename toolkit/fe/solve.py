@@ -81,12 +81,11 @@ class LinearSolver:
     With ``grid`` given, the grid's nested-dissection order is used; without, SuperLU's minimum degree on
     K + K^T. The stiffness is symmetric positive definite on the free dofs, so no pivoting is needed.
 
-    ``backend``: "superlu" (scipy, always there), "pardiso" (the optional pypardiso package: MKL's sparse
-    Cholesky, about four times faster at 600 x 200 elements, see benchmarks/bench_fe.py) or "auto" (pardiso
-    where it is installed).
+    ``backend``: "superlu" (scipy, always there; the default), "pardiso" (the optional pypardiso package,
+    MKL's sparse Cholesky; see benchmarks/bench_fe.py for figures) or "auto" (pardiso where it is installed).
     """
 
-    def __init__(self, K: sp.spmatrix, free: np.ndarray, grid: Grid | None = None, backend: str = "auto"):
+    def __init__(self, K: sp.spmatrix, free: np.ndarray, grid: Grid | None = None, backend: str = "superlu"):
         if backend == "auto":
             backend = "pardiso" if _pardiso_available() else "superlu"
         if backend not in ("superlu", "pardiso"):
