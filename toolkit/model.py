@@ -231,3 +231,56 @@ class Drawing:
     supports: tuple[Support, ...] = ()
     loads: tuple[Load, ...] = ()
     warnings: tuple[str, ...] = ()
+
+
+@dataclass(frozen=True)
+class Rules:
+    """Fabrication rules in force for one panel (mm), each value with where it comes from.
+
+    ``sources`` maps a rule name ("min_web", "edge_cover", ...) to its source: a standard or design guide,
+    "common practice, no source", "from memory", or "job file" when the job set it.
+    """
+
+    profile: str = "custom"
+    min_web_mm: float = 60.0
+    edge_cover_mm: float = 50.0
+    min_void_mm: float = 20.0
+    bearing_clearance_mm: float = 100.0
+    bore_diameters_mm: tuple[float, ...] = ()
+    slot_widths_mm: tuple[float, ...] = ()
+    corner: str = "none"
+    corner_size_mm: float = 0.0
+    sources: tuple[tuple[str, str], ...] = ()
+
+    def source(self, rule: str) -> str:
+        return dict(self.sources).get(rule, "")
+
+
+Vertex = tuple[float, float, float]
+
+
+@dataclass(frozen=True)
+class Void:
+    """A void to make (or one drawn by hand, for checking), in the panel's local frame (mm).
+
+    ``outline`` is the closed path as (x, y, bulge) vertices, bulge = tan(theta / 4) of the arc to the next vertex
+    (0 for a straight side; DXF LWPOLYLINE convention), so slots and eased corners keep true arcs; a bore has an
+    empty outline and its ``size_mm`` is the diameter. ``shape`` is the flattened polygon used for checks and FE.
+    """
+
+    id: str
+    family: str                      # "polygon", "slot" or "bore"
+    centre: Point
+    size_mm: float                   # bore: diameter; slot: width; polygon: circumscribed diameter
+    shape: Polygon
+    outline: tuple[Vertex, ...] = ()
+    sides: int = 0                   # polygon vertex count; 0 for slots and bores
+    length_mm: float = 0.0           # slot: overall length; polygon: longest extent
+    angle_deg: float = 0.0           # slot / polygon orientation in the local frame
+    tool: str = ""                   # the bit, cutter or former that makes it, e.g. "bore 50 mm"
+    handle: str | None = None        # drawing entity, when read from a drawing
+    layer: str = ""
+
+    @property
+    def area_mm2(self) -> float:
+        return float(self.shape.area)

@@ -46,12 +46,19 @@ def plan_outputs(out_dir: Path, names: list[str], *, inputs: list[Path], force: 
     return targets
 
 
+def _umask() -> int:
+    mask = os.umask(0)
+    os.umask(mask)
+    return mask
+
+
 def write_atomic(path: Path, data: bytes | str) -> None:
     """Write ``data`` to ``path`` through a temporary file in the same folder and an atomic rename."""
     payload = data.encode("utf-8") if isinstance(data, str) else data
     path.parent.mkdir(parents=True, exist_ok=True)
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=path.parent)
     try:
+        os.chmod(tmp, 0o666 & ~_umask())  # mkstemp makes 0600; a result file should read like any other
         with os.fdopen(fd, "wb") as f:
             f.write(payload)
             f.flush()

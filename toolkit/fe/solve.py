@@ -57,22 +57,6 @@ def _singular() -> LacunaError:
     )
 
 
-def _pardiso_available() -> bool:
-    """True where the optional MKL PARDISO binding (package pypardiso, x86_64 only) can be loaded."""
-    try:
-        import pypardiso  # noqa: F401
-    except (ImportError, OSError):
-        return False
-    return True
-
-
-def _new_pardiso():
-    import pypardiso
-
-    # Matrix type 2: real symmetric positive definite (Cholesky, no pivoting).
-    return pypardiso.PyPardisoSolver(mtype=2)
-
-
 class LinearSolver:
     """Factorises K restricted to the free dofs; ``refactor`` takes a new K of the same pattern.
 
@@ -80,17 +64,9 @@ class LinearSolver:
     new matrix from the same :class:`~toolkit.fe.assembly.Assembler` costs one gather plus the factorisation.
     With ``grid`` given, the grid's nested-dissection order is used; without, SuperLU's minimum degree on
     K + K^T. The stiffness is symmetric positive definite on the free dofs, so no pivoting is needed.
-
-    ``backend``: "superlu" (scipy, always there; the default), "pardiso" (the optional pypardiso package,
-    MKL's sparse Cholesky; see benchmarks/bench_fe.py for figures) or "auto" (pardiso where it is installed).
     """
 
-    def __init__(self, K: sp.spmatrix, free: np.ndarray, grid: Grid | None = None, backend: str = "superlu"):
-        if backend == "auto":
-            backend = "pardiso" if _pardiso_available() else "superlu"
-        if backend not in ("superlu", "pardiso"):
-            raise ValueError(f"unknown solver backend {backend!r}")
-        self.backend = backend
+    def __init__(self, K: sp.spmatrix, free: np.ndarray, grid: Grid | None = None):
         K = sp.csc_matrix(K)
         n = K.shape[0]
         free = np.asarray(free)
@@ -114,11 +90,6 @@ class LinearSolver:
         # Carry entry numbers through the slicing to learn which entries of K.data land where in K_ff.
         probe = sp.csc_matrix((np.arange(1, K.nnz + 1, dtype=float), K.indices, K.indptr), shape=K.shape)
         sub = probe[order][:, order].tocsc()
-        if backend == "pardiso":
-            # PARDISO's symmetric positive definite mode reads the upper triangle, row by row; the lower
-            # triangle of the CSC matrix is exactly that (K is symmetric), so no transpose is needed.
-            sub = sp.tril(sub, format="csc")
-            self._pardiso = _new_pardiso()
         sub.sort_indices()
         self._take = sub.data.astype(np.int64) - 1
         self._indices = sub.indices
@@ -131,9 +102,6 @@ class LinearSolver:
         data = K.data if sp.issparse(K) else np.asarray(K)
         m = self.order.size
         Kff = sp.csc_matrix((data[self._take], self._indices, self._indptr), shape=(m, m))
-        if self.backend == "pardiso":
-            self._factor_pardiso(Kff)
-            return
         try:
             self._lu = spla.splu(
                 Kff, permc_spec=self._permc, diag_pivot_thresh=0.0, options={"SymmetricMode": True}
@@ -146,25 +114,11 @@ class LinearSolver:
         if not pivots.min() > SINGULAR_PIVOT * pivots.max():
             raise _singular()
 
-    def _factor_pardiso(self, Kff: sp.csc_matrix) -> None:
-        from pypardiso.pardiso_wrapper import PyPardisoError
-
-        # Read as CSR, the CSC lower triangle is the upper triangle PARDISO wants.
-        upper = sp.csr_matrix((Kff.data, Kff.indices, Kff.indptr), shape=Kff.shape)
-        try:
-            self._pardiso.factorize(upper)
-        except PyPardisoError as exc:
-            raise _singular() from exc
-        self._upper = upper
-
     def solve(self, F: np.ndarray) -> np.ndarray:
         """Full displacement vector(s) for load vector(s) F (ndof,) or (ndof, ncases); zero at held dofs."""
         F = np.asarray(F, dtype=float)
         rhs = np.ascontiguousarray(F[self.order])
-        if self.backend == "pardiso":
-            u = self._pardiso.solve(self._upper, rhs)
-        else:
-            u = self._lu.solve(rhs)
+        u = self._lu.solve(rhs)
         U = np.zeros(F.shape)
         U[self.order] = u
         if not np.all(np.isfinite(u)):

@@ -19,7 +19,7 @@ class Problem:
 
     - ``ke`` (8, 8): stiffness of one solid element, N/mm.
     - ``fractions`` (ne,): drawn solid share of each element (1 inside the material, 0 inside an opening).
-    - ``fixed`` (k,): held dof numbers.
+    - ``fixed``: held dofs, a boolean mask (n_dofs,) or dof numbers.
     - ``loads`` (ndof, ncases): nodal forces, N, one column per load case; ``weights`` (ncases,) their weights.
     - ``design`` (ne,): True where BESO decides; every other element keeps its drawn fraction.
     - ``zones``: the masks the design region came from (for reports and drawings), when built from a panel.
@@ -49,20 +49,24 @@ def build_problem(panel: Panel, zones: ZoneSettings, element_size_mm: float | No
 
     ``element_size_mm`` overrides the panel's own; without either the grid has about 20,000 elements.
     """
-    from ..fe.boundary import fixed_dofs
+    from ..fe.boundary import check_mechanism, fixed_dofs
     from ..fe.element import q4_stiffness
     from ..fe.fractions import solid_fractions
     from ..fe.loads import load_matrix
 
     size = element_size_mm if element_size_mm is not None else panel.element_size_mm
     grid = make_grid(panel.width_mm, panel.height_mm, size)
-    fractions = solid_fractions(grid, panel.solid)
+    solid = panel.solid
+    fractions = solid_fractions(grid, solid)
+    active = fractions > 0.0
+    fixed = np.asarray(
+        fixed_dofs(grid, panel.supports, solid=solid, active_nodes=grid.active_nodes(active), frame=panel.frame),
+        dtype=bool,
+    )
+    check_mechanism(grid, fixed, active, frame=panel.frame)
+    F = np.asarray(load_matrix(grid, panel, fractions=fractions, solid=solid), dtype=float)
     m = panel.material
     ke = q4_stiffness(grid.dx, grid.dy, m.E_MPa, m.nu, panel.thickness_mm)
-    fixed = np.asarray(fixed_dofs(grid, panel.supports), dtype=np.int64)
-    F = np.asarray(load_matrix(grid, panel), dtype=float)
-    if F.ndim == 1:
-        F = F[:, None]
     weights = np.array([panel.case_weight(c) for c in panel.cases], dtype=float)
     z = non_design_zones(grid, panel, zones)
     # Any element an opening cuts is passive, even where the zones test found no shared area (slivers).
