@@ -3,7 +3,8 @@
     python benchmarks/bench_fe.py [--nx 600 --ny 200 --repeat 3] [--backends superlu-nd,superlu-mmd,...]
 
 Backends: ours (toolkit.fe.solve.LinearSolver) with SuperLU in the grid's nested-dissection order
-("superlu-nd") or in SuperLU's own minimum-degree order ("superlu-mmd"); and, for comparison, plain scipy
+("superlu-nd"), in SuperLU's own minimum-degree order ("superlu-mmd"), or with the optional PARDISO backend
+("pardiso-nd"); and, for comparison, plain scipy
 spsolve, MKL PARDISO (package pypardiso, symmetric positive definite mode, a fresh solver each time so that
 no factorisation is reused between repeats), cholespy (CHOLMOD) and AMG-preconditioned CG (pyamg).
 
@@ -27,7 +28,7 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-BACKENDS = ["superlu-nd", "superlu-mmd", "spsolve", "pypardiso", "cholespy", "pyamg-cg"]
+BACKENDS = ["pardiso-nd", "superlu-nd", "superlu-mmd", "spsolve", "pypardiso", "cholespy", "pyamg-cg"]
 
 
 def problem(nx: int, ny: int):
@@ -57,10 +58,11 @@ def solve_with(name, grid, K, free, F):
     import scipy.sparse as sp
     import scipy.sparse.linalg as spla
 
-    if name in ("superlu-nd", "superlu-mmd"):
+    if name in ("superlu-nd", "superlu-mmd", "pardiso-nd"):
         from toolkit.fe.solve import LinearSolver
 
-        return LinearSolver(K, free, grid=grid if name == "superlu-nd" else None).solve(F)
+        backend = "pardiso" if name == "pardiso-nd" else "superlu"
+        return LinearSolver(K, free, grid=grid if name != "superlu-mmd" else None, backend=backend).solve(F)
     idx = np.flatnonzero(free)
     Kff = K[idx][:, idx].tocsc()
     U = np.zeros_like(F)
@@ -99,7 +101,7 @@ def solve_with(name, grid, K, free, F):
 
 def run_one(name: str, nx: int, ny: int, repeat: int) -> dict:
     try:
-        __import__({"pypardiso": "pypardiso", "cholespy": "cholespy", "pyamg-cg": "pyamg"}.get(name, "scipy"))
+        __import__({"pypardiso": "pypardiso", "pardiso-nd": "pypardiso", "cholespy": "cholespy", "pyamg-cg": "pyamg"}.get(name, "scipy"))
     except ImportError:
         return {"backend": name, "skipped": "package not installed"}
     pattern, assembly, solve, residual = [], [], [], 0.0
@@ -142,7 +144,7 @@ def main():
         if "skipped" in r:
             print(f"{name:12s} skipped: {r['skipped']}")
             continue
-        cell = lambda v: f"{min(v):6.2f} / {statistics.median(v):6.2f}"  # noqa: E731
+        cell = lambda v: f"{min(v):6.2f} / {statistics.median(v):6.2f}"
         total = min(p + a + s for p, a, s in zip(r["pattern_s"], r["assembly_s"], r["solve_s"]))
         print(f"{name:12s} {cell(r['pattern_s']):>15s} {cell(r['assembly_s']):>15s} {cell(r['solve_s']):>15s} "
               f"{total:11.2f} {r['residual']:9.1e} {r['peak_MiB']:9.0f}")

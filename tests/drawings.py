@@ -24,11 +24,15 @@ LAYERS = ("PANEL", "OPENING", "KEEP", "SUPPORT", "LOAD")
 
 @dataclass(frozen=True)
 class Placement:
-    """Where the panel's local frame sits in the drawing: drawing = origin + R(angle) local / mm_per_unit."""
+    """Where the panel's local frame sits in the drawing: drawing = origin + R(angle) local scale / mm_per_unit.
+
+    ``scale`` other than 1 draws block contents meant to be inserted at 1 / scale.
+    """
 
     unit: str = "mm"
     angle_deg: float = 0.0
     origin: tuple[float, float] = (0.0, 0.0)
+    scale: float = 1.0
 
     @property
     def mm_per_unit(self) -> float:
@@ -40,11 +44,12 @@ class Placement:
 
     def vector(self, local) -> tuple[float, float]:
         a = math.radians(self.angle_deg)
-        lx, ly = float(local[0]) / self.mm_per_unit, float(local[1]) / self.mm_per_unit
+        k = self.scale / self.mm_per_unit
+        lx, ly = float(local[0]) * k, float(local[1]) * k
         return (lx * math.cos(a) - ly * math.sin(a), lx * math.sin(a) + ly * math.cos(a))
 
     def length(self, mm: float) -> float:
-        return mm / self.mm_per_unit
+        return mm * self.scale / self.mm_per_unit
 
 
 def new_doc(unit: str | None = "mm", version: str = "R2018"):
@@ -169,6 +174,15 @@ def sample_panel(layout, pl: Placement, *, outline="lwpolyline", openings="lwpol
     add_load(layout, pl, LOAD_XDATA_AT, (0.0, -1.0), kN=LOAD_XDATA_KN, case=LOAD_XDATA_CASE, how="xdata")
 
 
+# Where each way of sample_drawing puts the panel ("insert": the INSERT's scale 2 undoes the block's half size).
+PLACEMENTS = {
+    "mm": Placement(),
+    "m": Placement("m", 0.0, (12.5, -3.0)),
+    "insert": Placement("mm", 30.0, (5000.0, 2000.0)),
+    "far": Placement("mm", 30.0, (6_000_000.0, 2_000_000.0)),
+}
+
+
 def sample_drawing(tmp_path: Path, way: str) -> Path:
     """The sample panel written to a DXF file in one of four ways.
 
@@ -180,17 +194,16 @@ def sample_drawing(tmp_path: Path, way: str) -> Path:
     """
     if way == "mm":
         doc = new_doc("mm")
-        sample_panel(doc.modelspace(), Placement())
+        sample_panel(doc.modelspace(), PLACEMENTS[way])
     elif way == "m":
         doc = new_doc("m")
-        sample_panel(doc.modelspace(), Placement("m", 0.0, (12.5, -3.0)), outline="lines", openings="lines")
+        sample_panel(doc.modelspace(), PLACEMENTS[way], outline="lines", openings="lines")
     elif way == "insert":
         doc = new_doc("mm")
-        half = Placement("mm", 0.0, (0.0, 0.0))
         block = doc.blocks.new("SAMPLE-PANEL")
         round_block = doc.blocks.new("ROUND-HOLE")
-        add_circle(round_block, half, (0.0, 0.0), ROUND_DIAMETER / 2, layer="0")
-        scaled = _Scaled(half, 0.5)
+        add_circle(round_block, Placement(), (0.0, 0.0), ROUND_DIAMETER / 2, layer="0")
+        scaled = Placement("mm", scale=0.5)
         add_rectangle(block, scaled, 0.0, 0.0, WIDTH, HEIGHT, layer="0")  # takes the INSERT's layer
         block.add_blockref("ROUND-HOLE", scaled.point(ROUND_CENTRE), dxfattribs={"layer": "OPENING"})
         add_rectangle(block, scaled, *RECT, layer="OPENING")
@@ -201,35 +214,13 @@ def sample_drawing(tmp_path: Path, way: str) -> Path:
         add_load(block, scaled, LOAD_TEXT_AT, (0.0, -1.0), kN=LOAD_TEXT_KN, text_offset=(20.0, -60.0),
                  length_mm=300.0)
         add_load(block, scaled, LOAD_XDATA_AT, (0.0, -1.0), kN=LOAD_XDATA_KN, case=LOAD_XDATA_CASE, how="xdata")
-        doc.modelspace().add_blockref("SAMPLE-PANEL", (5000.0, 2000.0),
-                                      dxfattribs={"layer": "PANEL", "xscale": 2, "yscale": 2, "rotation": 30})
+        pl = PLACEMENTS[way]
+        doc.modelspace().add_blockref("SAMPLE-PANEL", pl.origin, dxfattribs={
+            "layer": "PANEL", "xscale": 2, "yscale": 2, "rotation": pl.angle_deg})
     elif way == "far":
         doc = new_doc("mm")
-        sample_panel(doc.modelspace(), Placement("mm", 30.0, (6_000_000.0, 2_000_000.0)))
+        sample_panel(doc.modelspace(), PLACEMENTS[way])
     else:
         raise ValueError(way)
     return write(doc, tmp_path / f"sample-{way}.dxf")
 
-
-# Where the "insert" way puts the panel: the INSERT's scale 2 undoes the block's half size.
-INSERT_PLACEMENT = Placement("mm", 30.0, (5000.0, 2000.0))
-PLACEMENTS = {
-    "mm": Placement(),
-    "m": Placement("m", 0.0, (12.5, -3.0)),
-    "insert": INSERT_PLACEMENT,
-    "far": Placement("mm", 30.0, (6_000_000.0, 2_000_000.0)),
-}
-
-
-class _Scaled(Placement):
-    """A placement that draws at ``factor`` times the size (block contents meant to be inserted scaled)."""
-
-    def __init__(self, base: Placement, factor: float):
-        object.__setattr__(self, "unit", base.unit)
-        object.__setattr__(self, "angle_deg", base.angle_deg)
-        object.__setattr__(self, "origin", base.origin)
-        object.__setattr__(self, "_factor", factor)
-
-    @property
-    def mm_per_unit(self) -> float:
-        return MM_PER_UNIT[self.unit] / self._factor

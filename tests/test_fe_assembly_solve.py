@@ -8,7 +8,7 @@ from toolkit.errors import LacunaError
 from toolkit.fe.assembly import Assembler
 from toolkit.fe.element import q4_stiffness
 from toolkit.fe.grid import Grid, make_grid
-from toolkit.fe.solve import LinearSolver, nested_dissection
+from toolkit.fe.solve import LinearSolver, nested_dissection, pardiso_available
 
 
 @pytest.mark.parametrize("shape", [(1, 1), (5, 1), (1, 4), (7, 5)])
@@ -48,7 +48,12 @@ def test_nested_dissection_is_a_permutation():
     assert np.array_equal(np.sort(nested_dissection(g)), np.arange(g.n_nodes))
 
 
-def test_solver_matches_dense_solution_for_several_cases_and_refactor():
+BACKENDS = ["superlu", pytest.param("pardiso", marks=pytest.mark.skipif(
+    not pardiso_available(), reason="optional package pypardiso not installed"))]
+
+
+@pytest.mark.parametrize("backend", BACKENDS)
+def test_solver_matches_dense_solution_for_several_cases_and_refactor(backend):
     g = Grid(8, 5, 10.0, 7.0)
     a = Assembler(g)
     ke = q4_stiffness(g.dx, g.dy, 1000.0, 0.3, 5.0)
@@ -62,7 +67,7 @@ def test_solver_matches_dense_solution_for_several_cases_and_refactor():
     for use_grid in (g, None):
         scale = rng.uniform(1e-3, 1.0, g.n_elements)
         K = a.matrix(ke, scale)
-        solver = LinearSolver(K, free, grid=use_grid)
+        solver = LinearSolver(K, free, grid=use_grid, backend=backend)
         U = solver.solve(F)
         Kd = K.toarray()[np.ix_(free, free)]
         np.testing.assert_allclose(U[free], np.linalg.solve(Kd, F[free]), rtol=1e-9, atol=1e-12)
@@ -74,8 +79,9 @@ def test_solver_matches_dense_solution_for_several_cases_and_refactor():
                                    rtol=1e-9, atol=1e-12)
 
 
-def test_singular_system_is_reported_in_words():
+@pytest.mark.parametrize("backend", BACKENDS)
+def test_singular_system_is_reported_in_words(backend):
     g = Grid(3, 2, 1.0, 1.0)
     K = Assembler(g).matrix(q4_stiffness(1, 1, 1, 0.3, 1))
     with pytest.raises(LacunaError, match="singular"):
-        LinearSolver(K, np.ones(g.n_dofs, bool), grid=g).solve(np.ones(g.n_dofs))
+        LinearSolver(K, np.ones(g.n_dofs, bool), grid=g, backend=backend).solve(np.ones(g.n_dofs))

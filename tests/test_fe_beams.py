@@ -2,12 +2,11 @@
 
 import numpy as np
 import pytest
+from test_fe_models import parabolic_shear_loads, solve_on_grid
 
 from toolkit.fe.grid import Grid
 from toolkit.fe.loads import load_matrix
 from toolkit.model import LineLoad, Material, Panel
-
-from test_fe_models import parabolic_shear_loads, solve_on_grid
 
 E, NU, T = 11500.0, 0.3, 90.0
 G = E / (2 * (1 + NU))

@@ -2,14 +2,14 @@
 
 import numpy as np
 import pytest
+from shapely.geometry import box
 
 from toolkit.analysis import analyze
 from toolkit.fe.grid import Grid
-from toolkit.model import Material, PointLoad, Region, Panel, Support
-from shapely.geometry import box
+from toolkit.model import Material, Panel, PointLoad, Region, Support
 
 skfem = pytest.importorskip("skfem")
-from skfem.models.elasticity import linear_elasticity  # noqa: E402
+from skfem.models.elasticity import linear_elasticity
 
 E, NU, T = 11500.0, 0.3, 90.0
 
@@ -52,7 +52,7 @@ def test_panel_with_grid_aligned_opening_matches_scikit_fem():
     g = result.grid
     assert np.isin(result.fractions, [0.0, 1.0]).all() and (result.fractions == 0).sum() == 6 * 4
     left = np.flatnonzero(np.isclose(g.node_xy[:, 0], 0.0))
-    node = lambda x, y: int(np.argmin(np.hypot(*(g.node_xy - [x, y]).T)))  # noqa: E731
+    node = lambda x, y: int(np.argmin(np.hypot(*(g.node_xy - [x, y]).T)))
     reference = skfem_solve(
         g, np.flatnonzero(result.active), [(left, 0), (left, 1)],
         [(node(600, 200), (0.0, -3000.0)), (node(420, 100), (1500.0, -800.0))],

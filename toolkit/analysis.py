@@ -6,7 +6,6 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .errors import LacunaError
 from .fe.assembly import Assembler
 from .fe.boundary import check_mechanism, fixed_dofs, where_text
 from .fe.element import q4_stiffness

@@ -10,7 +10,9 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 import numpy as np
+import shapely
 from scipy.spatial import cKDTree
+from shapely.strtree import STRtree
 
 from ..errors import LacunaError
 from .pieces import Piece
@@ -133,21 +135,30 @@ def _cluster(points: np.ndarray, tol: float) -> np.ndarray:
 def _merge_duplicates(pieces: list[Piece], tol: float, merged: list[str]) -> list[Piece]:
     """Merge straight single-segment pieces lying on one line and overlapping; drop repeated arcs."""
     pieces = list(pieces)
-    changed = True
-    while changed:
-        changed = False
-        for i in range(len(pieces)):
-            for j in range(i + 1, len(pieces)):
-                both = _merge_pair(pieces[i], pieces[j], tol)
-                if both is not None:
-                    merged.extend([pieces[i].label, pieces[j].label])
-                    pieces[i] = both
-                    del pieces[j]
-                    changed = True
-                    break
-            if changed:
-                break
-    return pieces
+    while True:
+        pair = _first_mergeable(pieces, tol)
+        if pair is None:
+            return pieces
+        i, j, both = pair
+        merged.extend([pieces[i].label, pieces[j].label])
+        pieces[i] = both
+        del pieces[j]
+
+
+def _first_mergeable(pieces: list[Piece], tol: float):
+    # Only pieces whose chords come within the tolerance of each other can be duplicates: an R-tree of
+    # the chords keeps this linear in the number of pieces instead of testing every pair.
+    single = [k for k, p in enumerate(pieces) if len(p.points) == 2 and not p.curved]
+    if len(single) < 2:
+        return None
+    chords = shapely.linestrings(np.array([pieces[k].points for k in single]))
+    a_idx, b_idx = STRtree(chords).query(chords, predicate="dwithin", distance=tol)
+    for a, b in sorted(zip(a_idx.tolist(), b_idx.tolist())):
+        if a < b:
+            both = _merge_pair(pieces[single[a]], pieces[single[b]], tol)
+            if both is not None:
+                return single[a], single[b], both
+    return None
 
 
 def _merge_pair(a: Piece, b: Piece, tol: float) -> Piece | None:

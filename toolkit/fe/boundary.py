@@ -169,7 +169,7 @@ def _free_motions(grid: Grid, nodes: np.ndarray, fixed: np.ndarray):
         motions.append(("slide", "y"))
     if null.shape[0] > len(motions):
         v = null[np.argmax(np.abs(null[:, 2]))]
-        a, b, c = v / v[2]
+        a, b, _ = v / v[2]
         # Velocity a - c y', b + c x' (primed: relative, scaled) vanishes at the centre of rotation.
         point = centre + size * np.array([-b, a])
         held = held_x | held_y

@@ -14,10 +14,8 @@ def solid_fractions(grid: Grid, solid_polygon) -> np.ndarray:
     Only the elements the polygon's boundary passes through are intersected; the rest are wholly in or out,
     told apart by their centres.
     """
-    x0 = np.arange(grid.nx) * grid.dx
-    y0 = np.arange(grid.ny) * grid.dy
-    X0, Y0 = np.meshgrid(x0, y0)
     centres = grid.element_centres
+    shapely.prepare(solid_polygon)
     fractions = shapely.contains_xy(solid_polygon, centres[:, 0], centres[:, 1]).astype(float)
     boundary = shapely.boundary(solid_polygon)
     if shapely.is_empty(boundary):
@@ -25,11 +23,10 @@ def solid_fractions(grid: Grid, solid_polygon) -> np.ndarray:
     # Elements whose box meets the boundary: from the boundary's segments, each looked up by its own box.
     ix0, iy0, ix1, iy1 = _segment_boxes(grid, boundary)
     candidates = _box_cells(grid, ix0, iy0, ix1, iy1)
-    boxes = shapely.box(X0.ravel()[candidates], Y0.ravel()[candidates],
-                        X0.ravel()[candidates] + grid.dx, Y0.ravel()[candidates] + grid.dy)
+    lower = centres[candidates] - [0.5 * grid.dx, 0.5 * grid.dy]
+    boxes = shapely.box(lower[:, 0], lower[:, 1], lower[:, 0] + grid.dx, lower[:, 1] + grid.dy)
     cut = shapely.intersects(boundary, boxes)
     candidates, boxes = candidates[cut], boxes[cut]
-    shapely.prepare(solid_polygon)
     areas = shapely.area(shapely.intersection(solid_polygon, boxes))
     fractions[candidates] = np.clip(areas / grid.element_area, 0.0, 1.0)
     return fractions

@@ -88,8 +88,8 @@ class Grid:
 
     def element_at(self, x: float, y: float) -> int:
         """The element holding a point (points on the envelope's edge go to the element inside)."""
-        ix = min(max(int(math.floor(x / self.dx)), 0), self.nx - 1)
-        iy = min(max(int(math.floor(y / self.dy)), 0), self.ny - 1)
+        ix = min(max(math.floor(x / self.dx), 0), self.nx - 1)
+        iy = min(max(math.floor(y / self.dy), 0), self.ny - 1)
         return iy * self.nx + ix
 
     def node_dofs(self, nodes) -> np.ndarray:

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import itertools
 import math
 
 import numpy as np
@@ -23,13 +24,13 @@ def locate(grid: Grid, x: float, y: float, fractions: np.ndarray | None = None):
     """(element, xi, eta) of a point; on a line between elements the one with more material is taken."""
     tol = 1e-9 * max(grid.dx, grid.dy)
     fx, fy = x / grid.dx, y / grid.dy
-    ixs = {min(max(int(math.floor(fx)), 0), grid.nx - 1)}
-    iys = {min(max(int(math.floor(fy)), 0), grid.ny - 1)}
+    ixs = {min(max(math.floor(fx), 0), grid.nx - 1)}
+    iys = {min(max(math.floor(fy), 0), grid.ny - 1)}
     # A point on a grid line (within rounding) belongs to the elements on both sides.
     if abs(fx - round(fx)) * grid.dx < tol:
-        ixs |= {min(max(int(round(fx)) - k, 0), grid.nx - 1) for k in (0, 1)}
+        ixs |= {min(max(round(fx) - k, 0), grid.nx - 1) for k in (0, 1)}
     if abs(fy - round(fy)) * grid.dy < tol:
-        iys |= {min(max(int(round(fy)) - k, 0), grid.ny - 1) for k in (0, 1)}
+        iys |= {min(max(round(fy) - k, 0), grid.ny - 1) for k in (0, 1)}
     choices = [iy * grid.nx + ix for iy in sorted(iys) for ix in sorted(ixs)]
     e = choices[0] if fractions is None else max(choices, key=lambda k: fractions[k])
     ix, iy = e % grid.nx, e // grid.nx
@@ -130,7 +131,7 @@ def _add_line_load(F, grid, column, load: LineLoad, solid, fractions, tol, frame
     direction = np.asarray(load.end, float) - start
     q = np.asarray(load.intensity_N_per_mm, float)
     ts = _line_pieces(grid, load.start, load.end)
-    for t0, t1 in zip(ts[:-1], ts[1:]):
+    for t0, t1 in itertools.pairwise(ts):
         mid = start + 0.5 * (t0 + t1) * direction
         e, _, _ = locate(grid, mid[0], mid[1], fractions)
         ix, iy = e % grid.nx, e // grid.nx
