@@ -56,8 +56,8 @@ def test_half_mbb_beam_at_least_as_stiff_as_the_published_simp_result():
     r = run_beso(half_mbb(), OptimizeSettings(volume_fraction=0.5, filter_radius_mm=2.4, penalty=3.0))
     assert r.converged and r.iterations < 100
     assert r.compliance_Nmm[-1] <= 216.81
-    # Sanity on the other side: a 0/1 design of half the material cannot beat the full solid beam, nor be
-    # more than 3x it (the solid half MBB beam has c = 66.3 on this mesh, measured with the same FE core).
+    # The other side: half the material cannot beat the full solid beam (its c, the first iteration's, is
+    # 125.88 here).
     assert r.compliance_Nmm[-1] > r.compliance_Nmm[0]
     # The design variables are 0/1 exactly, and the volume is on target: 600 of 1200 elements.
     assert set(np.unique(r.densities)) == {1e-3, 1.0}
@@ -65,6 +65,17 @@ def test_half_mbb_beam_at_least_as_stiff_as_the_published_simp_result():
     # History: one figure per iteration, the volume falling by 2 % a step to 0.5 (Huang & Xie 2009).
     assert r.volume_fraction[0] == 1.0 and r.volume_fraction[1] == pytest.approx(0.98, abs=1 / 1200)
     assert len(r.compliance_Nmm) == len(r.volume_fraction) == r.iterations
+
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("nx, ny, simp", [(150, 50, 219.52), (300, 100, 222.29)])
+def test_half_mbb_finer_meshes(nx, ny, simp):
+    # Andreassen et al. 2011, fig. 3, SIMP with sensitivity filter, rmin = 0.04 x width: 219.52 (150 x 50) and
+    # 222.29 (300 x 100). Measured here: 192.36 (55 iterations) and 191.98 (56 iterations).
+    r = run_beso(half_mbb(nx, ny), OptimizeSettings(volume_fraction=0.5, filter_radius_mm=0.04 * nx))
+    assert r.converged and r.iterations < 100
+    assert r.compliance_Nmm[-1] <= simp
 
 
 def assert_zones_kept(problem, result):

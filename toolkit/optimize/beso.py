@@ -94,11 +94,14 @@ def run_beso(
     *,
     on_iteration: Callable[[int, float, float], None] | None = None,
     keep_every: int = 0,
+    backend: str = "auto",
 ) -> BesoResult:
     """Optimise ``problem`` by soft-kill BESO; see the module docstring for the method.
 
     ``on_iteration(iteration, compliance_Nmm, volume_fraction)`` is called after every analysis (progress
     bars). ``keep_every`` > 0 keeps a copy of the densities every that many iterations, and of the last.
+    ``backend`` chooses the sparse solver (:class:`~toolkit.fe.solve.LinearSolver`; "auto" takes the fastest
+    one installed).
     """
     check_problem(problem)
     g = problem.grid
@@ -151,7 +154,7 @@ def run_beso(
     for it in range(settings.max_iterations):
         K = assembler.matrix(ke, base * x**p)
         if solver is None:
-            solver = LinearSolver(K, free, grid=g)
+            solver = LinearSolver(K, free, grid=g, backend=backend)
         else:
             solver.refactor(K)
         U = solver.solve(F)

@@ -1,0 +1,491 @@
+"""Results -> layers in a copy of the drawing: voids, freeform outlines, centre marks, schedule and check markers.
+
+Results are computed in the panel's local frame (mm); everything drawn here goes through the panel's
+:class:`~toolkit.model.Frame` into the drawing's unit, position and rotation, so a panel drawn turned 30 degrees
+six kilometres from the origin gets its voids back turned and placed with it. Arcs stay true arcs: a bulge is
+tan(sweep / 4) and keeps its value under rotation and uniform scaling.
+
+The drawing is changed only by adding: new layers (and one line type) of our own, and entities on them. Every
+entity, table entry and handle of the input stays as it was. docs/layers.md describes the layers, their look,
+and what happens when a drawing already holds results from an earlier run.
+"""
+
+from __future__ import annotations
+
+import io
+import math
+import os
+from collections.abc import Iterable, Mapping, Sequence
+from dataclasses import dataclass, field
+
+import numpy as np
+from ezdxf import colors
+from ezdxf.document import Drawing as DxfDocument
+from ezdxf.lldxf import const, validator
+from shapely.geometry import MultiPolygon, Polygon
+
+from .errors import LacunaError
+from .model import Frame, Point, Void
+from .units import mm_per
+
+
+@dataclass(frozen=True)
+class LayerLook:
+    """How one of our layers looks: a true colour (with its nearest ACI index for R12/R2000 readers),
+    a line type and a line weight in 1/100 mm (one of the DXF standard weights)."""
+
+    name: str
+    rgb: tuple[int, int, int]
+    linetype: str
+    lineweight: int
+    description: str
+
+
+DASHED = "LACUNA-DASHED"
+# Dash and gap on paper-like proportions for a drawing at 1:1 in mm (our choice); scaled to the drawing's unit.
+DASH_MM, GAP_MM = 12.0, 6.0
+
+VOID_LAYERS = {
+    "polygon": "LACUNA-VOID-POLYGON",
+    "slot": "LACUNA-VOID-SLOT",
+    "bore": "LACUNA-VOID-BORE",
+}
+FREEFORM, CENTRE, NOTE, CHECK = "LACUNA-FREEFORM", "LACUNA-CENTRE", "LACUNA-NOTE", "LACUNA-CHECK"
+
+# Our own choice of look (docs/layers.md): cut lines heavy and dark, the optimiser's raw outline light and
+# dashed, marks thin, violations in a warm red that stands apart from everything else.
+LOOKS: tuple[LayerLook, ...] = (
+    LayerLook(VOID_LAYERS["polygon"], (23, 94, 104), "CONTINUOUS", 50, "voids to cut: n-gons"),
+    LayerLook(VOID_LAYERS["slot"], (92, 64, 140), "CONTINUOUS", 50, "voids to cut: slots"),
+    LayerLook(VOID_LAYERS["bore"], (33, 86, 160), "CONTINUOUS", 50, "voids to cut: bores"),
+    LayerLook(FREEFORM, (204, 138, 46), DASHED, 18, "optimiser's raw void outlines"),
+    LayerLook(CENTRE, (110, 110, 110), "CONTINUOUS", 13, "void centre marks"),
+    LayerLook(NOTE, (38, 38, 38), "CONTINUOUS", 25, "void schedule and notes"),
+    LayerLook(CHECK, (200, 52, 44), "CONTINUOUS", 35, "fabrication-rule violations"),
+)
+OUR_LAYERS: tuple[str, ...] = tuple(look.name for look in LOOKS)
+
+# Writable DXF versions (ezdxf writes these), by release name and by $ACADVER code.
+VERSIONS: dict[str, str] = {
+    name: code for code, name in const.acad_release.items() if code in const.versions_supported_by_save
+}
+
+
+@dataclass(frozen=True)
+class Marker:
+    """A rule violation to mark: a circle round ``where`` (local mm) and a short label beside it."""
+
+    where: Point
+    label: str
+    radius_mm: float | None = None
+
+
+@dataclass
+class Added:
+    """Handles of the entities added, per layer, and the layers created (existing ones are reused)."""
+
+    handles: dict[str, list[str]] = field(default_factory=dict)
+    layers_created: list[str] = field(default_factory=list)
+    removed: int = 0
+
+    def count(self, layer: str) -> int:
+        return len(self.handles.get(layer, []))
+
+
+def add_results(
+    doc: DxfDocument,
+    frame: Frame,
+    *,
+    voids: Iterable[Void] = (),
+    freeform=(),
+    centres: bool = True,
+    notes: Sequence[str] = (),
+    schedule: Sequence[Sequence[str]] | None = None,
+    check_markers: Iterable[Marker | Mapping] = (),
+    panel_size_mm: tuple[float, float] | None = None,
+    text_height_mm: float | None = None,
+    centre_mark_mm: float = 20.0,
+    replace: bool = False,
+) -> Added:
+    """Add results to ``doc``'s model space in place, on the LACUNA-* layers; return the handles added.
+
+    ``voids`` are drawn on the layer of their family; ``freeform`` is a shapely (Multi)Polygon or a sequence of
+    them, one closed polyline per ring. ``schedule`` rows (the first is the heading; default: one row per void)
+    and ``notes`` go on LACUNA-NOTE below the panel, in the panel's frame, clear of its envelope
+    (``panel_size_mm``, default: the extent of the results). ``check_markers`` are :class:`Marker` values or
+    mappings with ``where`` and ``rule`` (and optionally ``measured``, ``required``) as in the check JSON.
+    A drawing that already holds entities on any LACUNA-* layer is refused unless ``replace`` is true, which
+    deletes those entities from model space first.
+    """
+    _check_frame(frame)
+    voids = list(voids)
+    rings = _freeform_rings(freeform)
+    markers = [_marker(m, k) for k, m in enumerate(check_markers)]
+    for void in voids:
+        _check_void(void)
+    extent = _extent(voids, rings, panel_size_mm)
+    h_mm = text_height_mm if text_height_mm is not None else _default_text_height(extent)
+    if not (math.isfinite(h_mm) and h_mm > 0):
+        raise LacunaError(f"text height must be a positive length, got {h_mm!r} mm.", where="text_height_mm")
+    if not (math.isfinite(centre_mark_mm) and centre_mark_mm > 0):
+        raise LacunaError(
+            f"centre-mark size must be a positive length, got {centre_mark_mm!r} mm.", where="centre_mark_mm"
+        )
+
+    added = Added()
+    added.removed = _clear_or_refuse(doc, replace)
+    added.layers_created = _ensure_layers(doc, frame)
+    msp = doc.modelspace()
+    out = _Pen(msp, frame, added, legacy=doc.dxfversion <= const.DXF12)
+
+    for void in voids:
+        layer = VOID_LAYERS[void.family]
+        if void.family == "bore":
+            out.circle(void.centre, void.size_mm / 2.0, layer)
+        else:
+            outline = void.outline or tuple((x, y, 0.0) for x, y in list(void.shape.exterior.coords)[:-1])
+            out.closed(outline, layer)
+        if centres:
+            half = min(centre_mark_mm, void.size_mm / 2.0) / 2.0
+            cx, cy = void.centre
+            out.line((cx - half, cy), (cx + half, cy), CENTRE)
+            out.line((cx, cy - half), (cx, cy + half), CENTRE)
+    for ring in rings:
+        out.closed(tuple((x, y, 0.0) for x, y in ring), FREEFORM)
+    for marker in markers:
+        r = marker.radius_mm if marker.radius_mm is not None else 1.5 * h_mm
+        out.circle(marker.where, r, CHECK)
+        at = (marker.where[0] + r * math.sqrt(0.5) + 0.3 * h_mm, marker.where[1] + r * math.sqrt(0.5))
+        out.text(marker.label, at, 0.8 * h_mm, CHECK)
+
+    rows = [list(map(str, row)) for row in (schedule if schedule is not None else _schedule_rows(voids, frame))]
+    if rows or notes:
+        _note_block(out, rows, list(notes), extent, h_mm)
+    return added
+
+
+def _clear_or_refuse(doc: DxfDocument, replace: bool) -> int:
+    """Refuse a drawing holding entities on our layers, or (``replace``) delete them from model space.
+
+    Entities on our layers in paper space or inside blocks are refused even with ``replace``: they were put
+    there by hand, and deleting them would change the drafter's work.
+    """
+    ours = {name.casefold() for name in OUR_LAYERS}
+    found: dict[str, list[tuple[str, str]]] = {}
+    for layout in doc.layouts_and_blocks():
+        for entity in layout:
+            layer = entity.dxf.get("layer", "0")
+            if layer.casefold() in ours:
+                found.setdefault(layer, []).append((layout.name, entity.dxf.handle))
+    if not found:
+        return 0
+    elsewhere = {layer: [(n, h) for n, h in items if n.casefold() != "*model_space"] for layer, items in found.items()}
+    elsewhere = {layer: items for layer, items in elsewhere.items() if items}
+    if not replace or elsewhere:
+        layer, items = next(iter((elsewhere or found).items()))
+        handles = ", ".join(h for _, h in items[:5]) + (" …" if len(items) > 5 else "")
+        if elsewhere:
+            layout = items[0][0]
+            raise LacunaError(
+                f"layer {layer} holds entities outside model space (in {layout!r}, handles {handles}); these "
+                "layers are reserved for lacuna's results.",
+                where=f"layer {layer}",
+                hint="Move those entities to another layer, or rename the layer, and run again.",
+            )
+        total = sum(len(v) for v in found.values())
+        raise LacunaError(
+            f"the drawing already holds {total} entities on lacuna's result layers (layer {layer}: handles "
+            f"{handles}), probably from an earlier run.",
+            where=f"layer {layer}",
+            hint="Start from the original drawing, or ask to replace earlier results (replace=True; on the "
+            "command line --replace), which deletes the entities on the LACUNA-* layers first.",
+        )
+    msp = doc.modelspace()
+    removed = 0
+    for items in found.values():
+        for _, handle in items:
+            entity = doc.entitydb.get(handle)
+            if entity is not None and entity.is_alive:
+                msp.delete_entity(entity)
+                removed += 1
+    return removed
+
+
+def nearest_aci(rgb: tuple[int, int, int]) -> int:
+    """The ACI colour index (1..255) nearest to ``rgb`` in plain RGB distance, for readers without true colour."""
+    target = np.asarray(rgb, dtype=float)
+    table = np.array([colors.aci2rgb(i) for i in range(1, 256)], dtype=float)
+    return int(np.argmin(((table - target) ** 2).sum(axis=1))) + 1
+
+
+def _ensure_layers(doc: DxfDocument, frame: Frame) -> list[str]:
+    if DASHED not in doc.linetypes:
+        dash, gap = DASH_MM / frame.mm_per_unit, GAP_MM / frame.mm_per_unit
+        doc.linetypes.add(DASHED, pattern=[dash + gap, dash, -gap], description="lacuna dashed __ __ __")
+    created = []
+    true_colour = doc.dxfversion >= const.DXF2004
+    for look in LOOKS:
+        if look.name in doc.layers:
+            continue  # an empty layer of that name, maybe set up by the drafter: keep their look
+        attribs = {"color": nearest_aci(look.rgb), "linetype": look.linetype}
+        if doc.dxfversion > const.DXF12:
+            attribs["lineweight"] = look.lineweight
+        layer = doc.layers.add(look.name, dxfattribs=attribs)
+        if true_colour:
+            layer.dxf.true_color = colors.rgb2int(look.rgb)
+        created.append(look.name)
+    return created
+
+
+class _Pen:
+    """Draws local-frame (mm) geometry into a layout through a Frame, keeping the handles per layer."""
+
+    def __init__(self, layout, frame: Frame, added: Added, legacy: bool):
+        self.layout, self.frame, self.added, self.legacy = layout, frame, added, legacy
+
+    def _keep(self, entity, layer: str):
+        self.added.handles.setdefault(layer, []).append(entity.dxf.handle)
+        return entity
+
+    def _xy(self, local) -> tuple[float, float]:
+        x, y = self.frame.to_drawing(np.asarray(local, dtype=float))
+        return float(x), float(y)
+
+    def circle(self, centre, radius_mm: float, layer: str):
+        return self._keep(
+            self.layout.add_circle(self._xy(centre), self.frame.length_to_drawing(radius_mm), dxfattribs={"layer": layer}),
+            layer,
+        )
+
+    def line(self, a, b, layer: str):
+        return self._keep(self.layout.add_line(self._xy(a), self._xy(b), dxfattribs={"layer": layer}), layer)
+
+    def closed(self, outline: Sequence[Sequence[float]], layer: str):
+        """A closed outline of (x, y, bulge) vertices; the bulge is unchanged by rotation and uniform scale."""
+        pts = np.asarray([v[:2] for v in outline], dtype=float)
+        xy = self.frame.to_drawing(pts)
+        vertices = [(float(x), float(y), float(v[2])) for (x, y), v in zip(xy, outline)]
+        if self.legacy:  # DXF R12 has no LWPOLYLINE
+            entity = self.layout.add_polyline2d(vertices, format="xyb", close=True, dxfattribs={"layer": layer})
+        else:
+            entity = self.layout.add_lwpolyline(vertices, format="xyb", close=True, dxfattribs={"layer": layer})
+        return self._keep(entity, layer)
+
+    def text(self, content: str, at, height_mm: float, layer: str):
+        entity = self.layout.add_text(
+            content,
+            dxfattribs={
+                "layer": layer,
+                "insert": self._xy(at),
+                "height": self.frame.length_to_drawing(height_mm),
+                "rotation": float(self.frame.angle_deg),
+            },
+        )
+        return self._keep(entity, layer)
+
+
+# Text layout, in text heights (common practice, no source): lines 1.6 apart, columns 2 apart, a clear gap of
+# 3 between the panel's bottom edge and the top of the first line; a character is taken as 0.9 wide at most.
+LINE_PITCH, COLUMN_GAP, TOP_GAP, CHAR_WIDTH = 1.6, 2.0, 3.0, 0.9
+
+
+def _note_block(out: _Pen, rows: list[list[str]], notes: list[str], extent, h: float) -> None:
+    """Schedule rows in columns, then the notes, below the panel's extent in its local frame."""
+    x0, y_top = extent[0], extent[1] - TOP_GAP * h
+    line = 0
+
+    def baseline(k: int) -> float:
+        # The first line's cap height (h) ends TOP_GAP * h below the extent.
+        return y_top - h - k * LINE_PITCH * h
+
+    if rows:
+        ncols = max(len(r) for r in rows)
+        widths = [max((len(r[c]) if c < len(r) else 0) for r in rows) for c in range(ncols)]
+        xs = np.concatenate([[0.0], np.cumsum([(w * CHAR_WIDTH + COLUMN_GAP) * h for w in widths])])
+        for row in rows:
+            for c, cell in enumerate(row):
+                if cell:
+                    out.text(cell, (x0 + xs[c], baseline(line)), h, NOTE)
+            line += 1
+        line += 1 if notes else 0
+    for note in notes:
+        out.text(note, (x0, baseline(line)), h, NOTE)
+        line += 1
+
+
+def _fmt(v: float) -> str:
+    return f"{v:.6g}"
+
+
+def _schedule_rows(voids: list[Void], frame: Frame) -> list[list[str]]:
+    """The default schedule: one row per void, positions and sizes in the drawing's unit."""
+    if not voids:
+        return []
+    u = frame.unit
+    rows = [["id", "family", f"centre x ({u})", f"centre y ({u})", f"size ({u})", "tool", f"area ({u}2)"]]
+    for v in voids:
+        cx, cy = frame.to_drawing(np.asarray(v.centre, dtype=float))
+        rows.append([
+            v.id, v.family, _fmt(cx), _fmt(cy), _fmt(frame.length_to_drawing(v.size_mm)), v.tool or "-",
+            _fmt(v.area_mm2 / frame.mm_per_unit ** 2),
+        ])
+    return rows
+
+
+def _default_text_height(extent) -> float:
+    # About a sixtieth of the panel's longer side, never under 2.5 mm (common practice, no source).
+    span = max(extent[2] - extent[0], extent[3] - extent[1])
+    return max(2.5, span / 60.0)
+
+
+def _extent(voids: list[Void], rings: list[np.ndarray], panel_size_mm) -> tuple[float, float, float, float]:
+    """(xmin, ymin, xmax, ymax) in local mm that the notes must stay clear of."""
+    boxes = []
+    if panel_size_mm is not None:
+        w, h = (float(v) for v in panel_size_mm)
+        if not (w > 0 and h > 0 and math.isfinite(w) and math.isfinite(h)):
+            raise LacunaError(f"panel size must be two positive lengths, got {panel_size_mm!r} mm.",
+                              where="panel_size_mm")
+        boxes.append((0.0, 0.0, w, h))
+    for v in voids:
+        boxes.append(v.shape.bounds if not v.shape.is_empty else (*v.centre, *v.centre))
+        if v.family == "bore":
+            r = v.size_mm / 2
+            boxes.append((v.centre[0] - r, v.centre[1] - r, v.centre[0] + r, v.centre[1] + r))
+    for ring in rings:
+        boxes.append((*ring.min(axis=0), *ring.max(axis=0)))
+    if not boxes:
+        return (0.0, 0.0, 0.0, 0.0)
+    b = np.asarray(boxes, dtype=float)
+    return (float(b[:, 0].min()), float(b[:, 1].min()), float(b[:, 2].max()), float(b[:, 3].max()))
+
+
+def _check_frame(frame: Frame) -> None:
+    if not (math.isfinite(frame.mm_per_unit) and frame.mm_per_unit > 0):
+        raise LacunaError(f"the drawing scale must be positive, got {frame.mm_per_unit} mm per unit.", where="frame")
+    if not all(math.isfinite(v) for v in (*frame.origin, frame.angle_deg)):
+        raise LacunaError("the drawing frame has a non-finite origin or angle.", where="frame")
+
+
+def _check_void(void: Void) -> None:
+    where = f"void {void.id}"
+    if void.family not in VOID_LAYERS:
+        raise LacunaError(
+            f"unknown void family {void.family!r}.", where=where, hint=f"Use one of {', '.join(VOID_LAYERS)}."
+        )
+    if not (math.isfinite(void.size_mm) and void.size_mm > 0):
+        raise LacunaError(f"void size must be a positive length, got {void.size_mm} mm.", where=where)
+    if not all(math.isfinite(c) for c in void.centre):
+        raise LacunaError("void centre is not a finite point.", where=where)
+    if void.family != "bore":
+        if void.outline:
+            arr = np.asarray(void.outline, dtype=float)
+            if arr.ndim != 2 or arr.shape[1] != 3 or len(arr) < 2 or not np.isfinite(arr).all():
+                raise LacunaError(
+                    "void outline must be two or more finite (x, y, bulge) vertices.", where=where,
+                    hint="Give the outline as (x, y, bulge) tuples in local mm.",
+                )
+        elif void.shape.is_empty or void.shape.geom_type != "Polygon":
+            raise LacunaError("void has neither an outline nor a polygon shape.", where=where)
+
+
+def _freeform_rings(freeform) -> list[np.ndarray]:
+    """Every ring (outer and holes) of the freeform polygons, without the repeated closing vertex."""
+    if freeform is None:
+        return []
+    geoms = [freeform] if isinstance(freeform, (Polygon, MultiPolygon)) else list(freeform)
+    rings = []
+    for k, g in enumerate(geoms):
+        if isinstance(g, MultiPolygon):
+            parts = list(g.geoms)
+        elif isinstance(g, Polygon):
+            parts = [g]
+        else:
+            raise LacunaError(
+                f"freeform outline {k} is a {type(g).__name__}, not a shapely Polygon or MultiPolygon.",
+                where=f"freeform {k}",
+            )
+        for p in parts:
+            if p.is_empty:
+                continue
+            for ring in (p.exterior, *p.interiors):
+                xy = np.asarray(ring.coords, dtype=float)[:-1, :2]
+                if len(xy) >= 3:
+                    rings.append(xy)
+    return rings
+
+
+def _marker(m, k: int) -> Marker:
+    if isinstance(m, Marker):
+        marker = m
+    elif isinstance(m, Mapping) and "where" in m:
+        label = str(m.get("rule", "check"))
+        if "measured" in m and "required" in m:
+            label += f" {_fmt(float(m['measured']))} < {_fmt(float(m['required']))}"
+        marker = Marker(tuple(m["where"]), label, m.get("radius_mm"))
+    else:
+        raise LacunaError(
+            f"check marker {k} is neither a Marker nor a mapping with 'where'.", where=f"check marker {k}"
+        )
+    if len(marker.where) != 2 or not all(math.isfinite(float(c)) for c in marker.where):
+        raise LacunaError(f"check marker {k} has no finite position: {marker.where!r}.", where=f"check marker {k}")
+    if marker.radius_mm is not None and not marker.radius_mm > 0:
+        raise LacunaError(f"check marker {k} radius must be positive.", where=f"check marker {k}")
+    return marker
+
+
+def dxf_version_code(version: str, *, where: str = "dxf_version") -> str:
+    """A release name ("R2013") or $ACADVER code ("AC1027") -> the code; a clear error for anything else."""
+    text = str(version).strip().upper()
+    if text in VERSIONS:
+        return VERSIONS[text]
+    if text in VERSIONS.values():
+        return text
+    raise LacunaError(
+        f"unknown DXF version {version!r}.",
+        where=where,
+        hint=f"Use one of {', '.join(VERSIONS)} (or their codes {', '.join(VERSIONS.values())}).",
+    )
+
+
+def serialise(doc: DxfDocument, *, binary: bool = False) -> bytes:
+    """The document as DXF file bytes (ASCII in the document's own encoding, or binary DXF)."""
+    if binary:
+        stream = io.BytesIO()
+        doc.write(stream, fmt="bin")
+        return stream.getvalue()
+    stream = io.StringIO()
+    doc.write(stream)
+    return stream.getvalue().encode(doc.output_encoding, errors="dxfreplace")
+
+
+def result_copy_bytes(input_path, frame: Frame, *, dxf_version: str | None = None, **results) -> bytes:
+    """Read the drawing at ``input_path`` (never written), add the results, return the new file's bytes.
+
+    ``results`` are the keywords of :func:`add_results`. The copy keeps the input's DXF version, format
+    (ASCII or binary) and units unless ``dxf_version`` names a later version to write instead.
+    """
+    from .dxf_in.source import open_document  # the one reader of drawing files
+
+    path = os.fspath(input_path)
+    target = dxf_version_code(dxf_version) if dxf_version is not None else None
+    doc, _warnings = open_document(path)
+    if target is not None and target != doc.dxfversion:
+        if target < doc.dxfversion:
+            raise LacunaError(
+                f"the drawing is DXF {const.acad_release.get(doc.dxfversion, doc.dxfversion)}; writing it as the "
+                f"older {const.acad_release[target]} would lose entities and attributes.",
+                where=f"{path}, dxf_version",
+                hint=f"Ask for {const.acad_release.get(doc.dxfversion, doc.dxfversion)} or a later version.",
+            )
+        if doc.dxfversion <= const.DXF12:
+            raise LacunaError(
+                "a DXF R12 drawing cannot be rewritten as a later version here (its entities would need "
+                "converting).",
+                where=f"{path}, dxf_version",
+                hint="Keep R12, or save the drawing as a later DXF version in the drafting program first.",
+            )
+        doc.dxfversion = target
+    mm_per(frame.unit, where=f"{path}, frame unit")
+    add_results(doc, frame, **results)
+    return serialise(doc, binary=validator.is_binary_dxf_file(path))

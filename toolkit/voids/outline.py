@@ -1,0 +1,173 @@
+"""Void outlines as (x, y, bulge) vertex runs, and the drafts they are built from.
+
+A :class:`Draft` is a void before it has an id: its family, centre and the few numbers that define it. Every
+change the later stages make (scale about the centre, move, mirror, snap) is a change of those numbers, and
+the outline is rebuilt from them, so an eased corner keeps the radius or chamfer the rules ask for whatever the
+void's size. Bulge = tan(theta / 4), theta the included angle of the arc to the next vertex, positive
+counter-clockwise (DXF reference, LWPOLYLINE). Every outline runs counter-clockwise.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, replace
+
+import numpy as np
+import shapely
+from shapely.geometry import Polygon
+
+from ..dxf_in.pieces import flatten
+from ..model import Point, Void
+
+# Arcs are flattened to chords no further than this off the true arc when a void becomes a shapely polygon,
+# so the checks on the flattened shape are out by at most this much (mm).
+CHORD_TOL_MM = 0.01
+
+
+@dataclass(frozen=True)
+class Draft:
+    """A void before it gets its id (local mm).
+
+    - polygon: ``corners`` are the sharp n-gon's vertices relative to ``centre`` (counter-clockwise), ``size``
+      twice the largest centre-to-vertex distance;
+    - slot: ``size`` the width, ``length`` the overall length, ``angle_deg`` the direction of its axis;
+    - bore: ``size`` the diameter.
+
+    ``source`` is the index of the freeform void it was fitted to and ``part`` its number among the voids
+    fitted to that one (bores: several); ``corner`` / ``corner_mm`` the easing of a
+    polygon's corners ("none", "chamfer" or "radius").
+    """
+
+    family: str
+    centre: Point
+    size: float
+    source: int
+    part: int = 0
+    length: float = 0.0
+    angle_deg: float = 0.0
+    corners: tuple[Point, ...] = ()
+    corner: str = "none"
+    corner_mm: float = 0.0
+
+    def scaled(self, size: float) -> Draft:
+        """The same void at another size, about the same centre (a slot keeps its straight part's ratio)."""
+        if self.family == "polygon":
+            k = size / self.size
+            return replace(self, size=size, corners=tuple((x * k, y * k) for x, y in self.corners))
+        if self.family == "slot":
+            return replace(self, size=size, length=max(size, self.length * size / self.size))
+        return replace(self, size=size)
+
+    def with_length(self, length: float) -> Draft:
+        return replace(self, length=max(self.size, length))
+
+    def moved(self, dx: float, dy: float) -> Draft:
+        return replace(self, centre=(self.centre[0] + dx, self.centre[1] + dy))
+
+    def at(self, centre: Point) -> Draft:
+        return replace(self, centre=(float(centre[0]), float(centre[1])))
+
+    def mirrored(self, axis: str, about: float) -> Draft:
+        """Mirror image about the line x = about (axis "x": the vertical mid-line) or y = about (axis "y")."""
+        cx, cy = self.centre
+        if axis == "x":
+            centre, flip = (2.0 * about - cx, cy), (-1.0, 1.0)
+        else:
+            centre, flip = (cx, 2.0 * about - cy), (1.0, -1.0)
+        # A mirror turns a counter-clockwise run clockwise: reverse it to keep every outline counter-clockwise.
+        corners = tuple((x * flip[0], y * flip[1]) for x, y in reversed(self.corners))
+        return replace(self, centre=centre, corners=corners, angle_deg=(-self.angle_deg) % 180.0)
+
+    @property
+    def sharp(self) -> np.ndarray:
+        """(n, 2) absolute vertices of a polygon's sharp n-gon."""
+        return np.asarray(self.corners, dtype=float) + np.asarray(self.centre, dtype=float)
+
+    def outline(self) -> tuple[tuple[float, float, float], ...]:
+        if self.family == "polygon":
+            return eased_outline(self.sharp, self.corner, self.corner_mm)
+        if self.family == "slot":
+            return stadium_outline(self.centre, self.angle_deg, self.size, self.length)
+        return circle_outline(self.centre, self.size)
+
+    def shape(self) -> Polygon:
+        return outline_polygon(self.outline())
+
+    def void(self, id: str) -> Void:
+        """The finished :class:`~toolkit.model.Void`."""
+        outline = self.outline()
+        shape = outline_polygon(outline)
+        if self.family == "polygon":
+            pts = self.sharp
+            extent = float(np.max(np.linalg.norm(pts[:, None, :] - pts[None, :, :], axis=2)))
+            first = self.corners[0]
+            angle = math.degrees(math.atan2(first[1], first[0])) % 360.0  # towards the first corner
+            return Void(id=id, family="polygon", centre=self.centre, size_mm=self.size, shape=shape,
+                        outline=outline, sides=len(self.corners), length_mm=extent, angle_deg=angle,
+                        tool=f"{len(self.corners)}-gon former, {self.size:g} mm across corners")
+        if self.family == "slot":
+            return Void(id=id, family="slot", centre=self.centre, size_mm=self.size, shape=shape, outline=outline,
+                        length_mm=self.length, angle_deg=self.angle_deg, tool=f"slot cutter {self.size:g} mm")
+        return Void(id=id, family="bore", centre=self.centre, size_mm=self.size, shape=shape, outline=(),
+                    tool=f"bore {self.size:g} mm")
+
+
+def outline_polygon(outline) -> Polygon:
+    """The shapely polygon of a closed (x, y, bulge) run, arcs flattened to within ``CHORD_TOL_MM``."""
+    v = np.asarray(outline, dtype=float)
+    ring = flatten(v[:, :2], v[:, 2], True, CHORD_TOL_MM)
+    return shapely.make_valid(Polygon(ring)) if len(ring) >= 3 else Polygon()
+
+
+def circle_outline(centre: Point, diameter: float) -> tuple[tuple[float, float, float], ...]:
+    """A circle as two half-circle arcs (bulge 1 each), counter-clockwise."""
+    cx, cy = centre
+    r = diameter / 2.0
+    return ((cx - r, cy, 1.0), (cx + r, cy, 1.0))
+
+
+def stadium_outline(centre: Point, angle_deg: float, width: float, length: float):
+    """Two semicircles of diameter ``width`` joined by straight sides; ``length`` overall, along ``angle_deg``."""
+    a = math.radians(angle_deg)
+    u = np.array([math.cos(a), math.sin(a)])
+    n = np.array([-u[1], u[0]])
+    c = np.asarray(centre, dtype=float)
+    half, r = max(length - width, 0.0) / 2.0, width / 2.0
+    if half <= 0.0:
+        return circle_outline(centre, width)
+    p = [c - half * u - r * n, c + half * u - r * n, c + half * u + r * n, c - half * u + r * n]
+    return tuple((float(q[0]), float(q[1]), b) for q, b in zip(p, (0.0, 1.0, 0.0, 1.0)))
+
+
+def eased_outline(points: np.ndarray, corner: str, size: float):
+    """A convex counter-clockwise polygon with every corner chamfered or rounded.
+
+    A chamfer of ``size`` cuts each corner ``size`` back along both sides (two vertices for one); a radius puts a
+    true arc of radius ``size`` tangent to both sides. Where a side is too short for the easing at both its
+    ends, the easing of its corners is reduced to fit (just under half the side each).
+    """
+    pts = np.asarray(points, dtype=float)
+    if corner == "none" or size <= 0.0:
+        return tuple((float(x), float(y), 0.0) for x, y in pts)
+    n = len(pts)
+    prev, nxt = np.roll(pts, 1, axis=0), np.roll(pts, -1, axis=0)
+    to_prev, to_next = prev - pts, nxt - pts
+    len_prev = np.linalg.norm(to_prev, axis=1)
+    len_next = np.linalg.norm(to_next, axis=1)
+    u_prev, u_next = to_prev / len_prev[:, None], to_next / len_next[:, None]
+    # The turning angle at each corner (pi minus the interior angle).
+    turn = np.pi - np.arccos(np.clip(np.sum(u_prev * u_next, axis=1), -1.0, 1.0))
+    if corner == "chamfer":
+        back = np.full(n, float(size))
+    else:
+        back = size * np.tan(turn / 2.0)
+    room = 0.49 * np.minimum(len_prev, len_next)
+    back = np.minimum(back, room)
+    out = []
+    for i in range(n):
+        a = pts[i] + back[i] * u_prev[i]
+        b = pts[i] + back[i] * u_next[i]
+        bulge = 0.0 if corner == "chamfer" else math.tan(turn[i] / 4.0)
+        out.append((float(a[0]), float(a[1]), bulge))
+        out.append((float(b[0]), float(b[1]), 0.0))
+    return tuple(out)

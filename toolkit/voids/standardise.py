@@ -1,0 +1,191 @@
+"""At most ``max_types`` void sizes per panel, and sizes and centres on the ``snap`` grid.
+
+Sizes are grouped by optimal one-dimensional k-means: the sorted sizes are split into k runs so that the sum
+of squared deviations from each run's mean is least, found exactly by dynamic programming over split points
+(the method of Wang & Song 2011, "Ckmeans.1d.dp", The R Journal 3(2):29-33; written here, O(k n^2)).
+
+Each group then takes one size. The largest candidate from the group's median down to its smallest member is
+taken for which every member still keeps the rules (the caller's ``fits`` decides, and may move a member a
+little). The group's smallest size always works at the members' own places: every family's shape at a
+smaller size about the same centre lies inside the larger one (convex polygon scaled about its centroid,
+circle, stadium of the same length and a narrower width), so nothing gets closer to anything.
+Sizes snap *down* to the grid for the same reason. Bores and slots keep stock sizes: their candidates are
+the stock sizes in the group's range.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Callable, Sequence
+
+import numpy as np
+
+from .outline import Draft
+
+
+def cluster_1d(values: Sequence[float], k: int) -> tuple[np.ndarray, float]:
+    """Optimal split of ``values`` into at most ``k`` groups of consecutive sorted values (least total SSE).
+
+    Returns the group label of each value (0 for the smallest group, in input order) and the total sum of
+    squared deviations from the group means.
+    """
+    x = np.asarray(values, dtype=float)
+    n = len(x)
+    if n == 0:
+        return np.zeros(0, dtype=int), 0.0
+    order = np.argsort(x, kind="stable")
+    s = x[order]
+    k = max(1, min(int(k), len(np.unique(s))))
+    c1 = np.concatenate([[0.0], np.cumsum(s)])
+    c2 = np.concatenate([[0.0], np.cumsum(s * s)])
+
+    def sse(i, j):  # values s[i..j] inclusive, i and j arrays or ints
+        m = j - i + 1
+        total = c1[j + 1] - c1[i]
+        return np.maximum(c2[j + 1] - c2[i] - total * total / m, 0.0)
+
+    cost = np.full((k + 1, n), np.inf)
+    split = np.zeros((k + 1, n), dtype=int)
+    cost[1] = sse(np.zeros(n, dtype=int), np.arange(n))
+    for m in range(2, k + 1):
+        for j in range(m - 1, n):
+            i = np.arange(m - 1, j + 1)  # first index of the last group
+            trial = cost[m - 1, i - 1] + sse(i, np.full_like(i, j))
+            best = int(np.argmin(trial))
+            cost[m, j] = trial[best]
+            split[m, j] = i[best]
+    labels_sorted = np.zeros(n, dtype=int)
+    j = n - 1
+    for m in range(k, 0, -1):
+        i = split[m, j] if m > 1 else 0
+        labels_sorted[i:j + 1] = m - 1
+        j = i - 1
+    labels = np.empty(n, dtype=int)
+    labels[order] = labels_sorted
+    return labels, float(cost[k, n - 1])
+
+
+def snap_down(value: float, snap: float) -> float:
+    """``value`` rounded down to a multiple of ``snap`` (unchanged for snap 0)."""
+    if snap <= 0.0:
+        return value
+    return math.floor(value / snap + 1e-9) * snap
+
+
+def share_types(sizes_by_family: dict[str, list[float]], max_types: int) -> dict[str, int]:
+    """How many sizes each family may use so that all together use at most ``max_types``.
+
+    Each family present gets one; the rest go one at a time to the family whose grouping error falls most.
+    The caller makes sure no more families are present than ``max_types``.
+    """
+    share = {f: 1 for f, v in sizes_by_family.items() if v}
+    spare = max_types - len(share)
+    while spare > 0:
+        gains = {}
+        for f, k in share.items():
+            v = sizes_by_family[f]
+            if len(set(v)) > k:
+                gains[f] = cluster_1d(v, k)[1] - cluster_1d(v, k + 1)[1]
+        if not gains:
+            break
+        f = max(sorted(gains), key=lambda name: gains[name])
+        share[f] += 1
+        spare -= 1
+    return share
+
+
+def size_candidates(values: Sequence[float], family: str, snap: float, stock: Sequence[float],
+                    smallest: float) -> list[float]:
+    """Sizes to try for one group, largest first, ending with one that always keeps the rules."""
+    lo, mid = min(values), float(np.median(values))
+    if family in ("bore", "slot"):
+        # Stock sizes only; the smallest member is a stock size itself.
+        return sorted({d for d in stock if lo - 1e-9 <= d <= mid + 1e-9} | {lo}, reverse=True)
+    out = []
+    if snap > 0.0:
+        v = snap_down(mid, snap)
+        while v >= lo - 1e-9:
+            out.append(v)
+            v -= snap
+        floor_lo = snap_down(lo, snap)
+        if floor_lo >= smallest and floor_lo > 0.0:
+            out.append(floor_lo)
+    else:
+        out = list(np.linspace(mid, lo, 5))
+    out.append(lo)  # last resort: the smallest member as it is
+    seen: list[float] = []
+    for v in out:
+        if v > 0.0 and all(abs(v - w) > 1e-9 for w in seen):
+            seen.append(v)
+    return seen
+
+
+def standardise_sizes(drafts: list[Draft], max_types: int, snap: float, stock: dict[str, Sequence[float]],
+                      smallest: float, fits: Callable[[Draft, int, list[Draft]], Draft | None]
+                      ) -> tuple[list[Draft], list[tuple[int, str, str]]]:
+    """Give the drafts at most ``max_types`` sizes, snapped down to the ``snap`` grid where the rules allow.
+
+    ``fits(trial, i, state)`` returns the trial (or a moved copy) if draft i may become ``trial`` beside the
+    other drafts in ``state``, else None. Returns the new drafts (same order) and change records
+    (index, what, why).
+    """
+    state = list(drafts)
+    changes: list[tuple[int, str, str]] = []
+    by_family: dict[str, list[int]] = {}
+    for i, d in enumerate(state):
+        by_family.setdefault(d.family, []).append(i)
+    share = share_types({f: [state[i].size for i in idx] for f, idx in by_family.items()}, max_types)
+    for family in sorted(by_family):
+        idx = by_family[family]
+        sizes = [state[i].size for i in idx]
+        labels, _ = cluster_1d(sizes, share[family])
+        for g in sorted(set(labels.tolist()), reverse=True):
+            members = [i for i, lab in zip(idx, labels) if lab == g]
+            values = [state[i].size for i in members]
+            for size in size_candidates(values, family, snap, stock.get(family, ()), smallest):
+                trial_state = list(state)
+                ok = True
+                for i in members:
+                    d = state[i]
+                    trial = d.scaled(size) if abs(size - d.size) > 1e-9 else d
+                    if family == "slot":
+                        trial = trial.with_length(snap_down(trial.length, snap))
+                    placed = fits(trial, i, trial_state)
+                    if placed is None:
+                        ok = False
+                        break
+                    trial_state[i] = placed
+                if ok:
+                    for i in members:
+                        old, new = state[i], trial_state[i]
+                        if abs(old.size - new.size) > 1e-9:
+                            changes.append((i, f"size {old.size:.1f} -> {new.size:g} mm",
+                                            f"one of at most {max_types} void sizes"))
+                        if math.dist(old.centre, new.centre) > 1e-6:
+                            changes.append((i, f"moved {math.dist(old.centre, new.centre):.1f} mm",
+                                            "to keep the rules at the standard size"))
+                    state = trial_state
+                    break
+    return state, changes
+
+
+def snap_centres(drafts: list[Draft], snap: float, fits: Callable[[Draft, int, list[Draft]], Draft | None]
+                 ) -> tuple[list[Draft], list[tuple[int, str, str]]]:
+    """Move every centre to the nearest point of the ``snap`` grid where the rules allow (else leave it)."""
+    state = list(drafts)
+    changes: list[tuple[int, str, str]] = []
+    if snap <= 0.0:
+        return state, changes
+    for i, d in enumerate(state):
+        cx, cy = d.centre
+        gx, gy = math.floor(cx / snap), math.floor(cy / snap)
+        points = [((gx + a) * snap, (gy + b) * snap) for a in range(-1, 3) for b in range(-1, 3)]
+        points.sort(key=lambda p: (math.dist(p, d.centre), p))
+        for p in points:
+            placed = fits(d.at(p), i, state)
+            if placed is not None and placed.centre == d.at(p).centre:
+                state[i] = placed
+                break
+        else:
+            changes.append((i, "centre not snapped", f"no point of the {snap:g} mm grid near it keeps the rules"))
+    return state, changes
