@@ -58,7 +58,7 @@ def test_minimal_job_reads_values_and_defaults():
     assert j.optimize.volume_fraction == 0.6
     assert j.optimize.evolution_rate == 0.02
     assert j.optimize.penalty == 3.0
-    assert j.optimize.void_stiffness == 1e-3
+    assert j.optimize.void_density == 1e-3
     assert j.optimize.convergence_tolerance == 0.001
     assert j.optimize.filter_radius_mm is None
     assert j.voids.sides == 6 and j.voids.family == "polygon" and j.voids.corner == "none"
@@ -213,7 +213,7 @@ def test_bad_types(text, where):
         ("[optimize]\nvolume_fraction = 1.2\n", "[optimize] volume_fraction"),
         ('[optimize]\nsymmetry = "z"\n', "[optimize] symmetry"),
         ("[optimize]\npenalty = 0.5\n", "[optimize] penalty"),
-        ("[optimize]\nvoid_stiffness = 1\n", "[optimize] void_stiffness"),
+        ("[optimize]\nvoid_density = 1\n", "[optimize] void_density"),
         ("[optimize]\nmax_iterations = 0\n", "[optimize] max_iterations"),
         ("[voids]\nsides = 2\n", "[voids] sides"),
         ("[voids]\nsides = 13\n", "[voids] sides"),

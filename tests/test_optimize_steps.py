@@ -107,7 +107,7 @@ def test_settings_defaults_are_the_published_ones():
     # Huang & Xie 2009/2010 (from memory, see REFERENCES.md): p = 3, x_min = 0.001, ER = AR = 2 %,
     # convergence 0.1 % over windows of 5.
     s = OptimizeSettings()
-    assert (s.penalty, s.void_stiffness, s.evolution_rate, s.admission_ratio) == (3.0, 1e-3, 0.02, 0.02)
+    assert (s.penalty, s.void_density, s.evolution_rate, s.admission_ratio) == (3.0, 1e-3, 0.02, 0.02)
     assert (s.convergence_tolerance, s.convergence_window) == (0.001, 5)
 
 
@@ -121,7 +121,7 @@ def test_volume_fraction_outside_0_1(bad):
 @pytest.mark.parametrize(
     "key, bad",
     [("evolution_rate", 0.0), ("evolution_rate", 1.0), ("filter_radius_mm", -3.0), ("symmetry", "z"),
-     ("max_iterations", 0), ("max_iterations", 2.5), ("penalty", 0.5), ("void_stiffness", 0.0),
+     ("max_iterations", 0), ("max_iterations", 2.5), ("penalty", 0.5), ("void_density", 0.0),
      ("admission_ratio", 0.0), ("convergence_tolerance", -1.0), ("convergence_window", 0)],
 )
 def test_other_bad_settings(key, bad):

@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import datetime as _dt
-import shutil
 from dataclasses import dataclass, field
 from importlib import resources
 from pathlib import Path
@@ -12,10 +11,11 @@ import numpy as np
 
 from . import CAUTION, __version__
 from .analysis import Analysis, analyze
-from .errors import LacunaError
 from .inputs import load_panel
 from .jobfile import template_text
+from .errors import LacunaError
 from .model import Drawing, Panel
+from .pipeline import OptimizeRun, optimize_panel
 from .outputs import default_out_dir, plan_outputs, write_atomic, write_outputs
 from .svg_out import analysis_svg
 
@@ -28,21 +28,43 @@ class Outcome:
 
     summary: dict
     paths: list[Path] = field(default_factory=list)
+    run: object = None
 
     def text_lines(self) -> list[str]:
         s = self.summary
-        lines = [f"{s.get('panel', 'panel')}: {s['elements']} elements"]
-        lines.append(f"  compliance            {s['compliance_Nmm']:.6g} N mm")
-        lines.append(f"  largest deflection    {s['max_deflection_mm']:.4g} mm")
-        lines.append(f"  largest von Mises     {s['max_von_mises_MPa']:.4g} MPa")
-        lines.append(
-            f"  loads / reactions     [{s['load_sum_kN'][0]:.4g}, {s['load_sum_kN'][1]:.4g}] / "
-            f"[{s['reaction_sum_kN'][0]:.4g}, {s['reaction_sum_kN'][1]:.4g}] kN"
-        )
+        if s.get("command") == "optimize":
+            lines = _optimize_lines(s)
+        else:
+            lines = [f"{s.get('panel', 'panel')}: {s['elements']} elements"] + _figure_lines(s)
         lines += [f"  warning: {w}" for w in s.get("warnings", [])]
         lines += [f"  wrote {p}" for p in s.get("outputs", [])]
         lines.append(f"  caution: {CAUTION}")
         return lines
+
+
+def _figure_lines(s: dict) -> list[str]:
+    return [
+        f"  compliance            {s['compliance_Nmm']:.6g} N mm",
+        f"  largest deflection    {s['max_deflection_mm']:.4g} mm",
+        f"  largest von Mises     {s['max_von_mises_MPa']:.4g} MPa",
+        f"  loads / reactions     [{s['load_sum_kN'][0]:.4g}, {s['load_sum_kN'][1]:.4g}] / "
+        f"[{s['reaction_sum_kN'][0]:.4g}, {s['reaction_sum_kN'][1]:.4g}] kN",
+    ]
+
+
+def _optimize_lines(s: dict) -> list[str]:
+    sol = s["solid"]
+    lines = [f"{s['panel']}: {sol['elements']} elements, {s['iterations']} iterations "
+             f"({'converged' if s['converged'] else 'NOT converged'})"]
+    lines.append(f"  {'':22s}{'solid':>14s}{'freeform':>14s}{'to make':>14s}")
+    lines.append(f"  {'compliance, N mm':22s}{s['compliance_solid_Nmm']:14.6g}{s['compliance_freeform_Nmm']:14.6g}"
+                 f"{s['compliance_rationalized_Nmm']:14.6g}")
+    lines.append(f"  {'largest deflection, mm':22s}{sol['max_deflection_mm']:14.4g}{'':14s}"
+                 f"{s['max_deflection_rationalized_mm']:14.4g}")
+    lines.append(f"  {'material removed':22s}{'0 %':>14s}{'':14s}{s['mass_removed_percent']:12.1f} %")
+    lines.append(f"  {len(s['voids'])} voids; rules {s['rules']['profile']}: "
+                 f"{len(s['rules']['violations'])} violations")
+    return lines
 
 
 def _drawing_xy(panel: Panel, local_xy) -> list[float]:
@@ -136,6 +158,175 @@ def analyze_file(dxf_path, job_path=None, *, out_dir=None, force: bool = False) 
     out = Path(out_dir) if out_dir is not None else default_out_dir(dxf_path)
     inputs = [dxf_path] + ([Path(job_path)] if job_path else [])
     return _finish(summary, files, f"{stem}-analysis.json", out, inputs, force)
+
+
+def _void_json(panel: Panel, void) -> dict:
+    f = panel.frame
+    return {
+        "id": void.id,
+        "family": void.family,
+        "centre": _drawing_xy(panel, void.centre),
+        "sides": void.sides,
+        "size": f.length_to_drawing(void.size_mm),
+        "length": f.length_to_drawing(void.length_mm),
+        "angle_deg": (void.angle_deg + f.angle_deg) % 360.0,
+        "area": void.area_mm2 / f.mm_per_unit**2,
+        "tool": void.tool,
+    }
+
+
+def optimize_summary(run: OptimizeRun, drawing: Drawing | None) -> dict:
+    """The JSON of ``lacuna optimize`` (CONTRACT.md keys), lengths of voids in the drawing's unit."""
+    panel, beso, rules = run.panel, run.beso, run.rules
+    solid = analysis_summary(panel, drawing, run.solid)
+    for key in ("command", "lacuna_version", "panel", "drawing", "warnings", "caution", "outputs"):
+        solid.pop(key, None)
+    f = panel.frame
+    c_solid = run.solid.compliance_Nmm
+    c_final = run.final.compliance_Nmm
+    design_share = float(beso.design.sum()) / float(beso.design.size)
+    return {
+        "command": "optimize",
+        "lacuna_version": __version__,
+        "panel": panel.name,
+        "drawing": str(panel.source or (drawing.path if drawing else "")),
+        "units": f.unit,
+        "solid": solid,
+        "iterations": beso.iterations,
+        "converged": bool(beso.converged),
+        "volume_fraction_basis": (
+            "share of the design region kept solid: the panel less its edge band, bearing zones, webs round "
+            f"openings and KEEP zones ({100 * design_share:.1f} % of the grid's elements)"
+        ),
+        "volume_fraction_target": float(run.settings.volume_fraction),
+        "volume_fraction_final": float(beso.volume_fraction[-1]),
+        "filter_radius_mm": float(beso.filter_radius_mm),
+        "compliance_solid_Nmm": c_solid,
+        "compliance_freeform_Nmm": float(beso.compliance_final_Nmm),
+        "compliance_rationalized_Nmm": c_final,
+        "stiffness_loss_percent": 100.0 * (c_final / c_solid - 1.0) if c_solid > 0 else 0.0,
+        "max_deflection_rationalized_mm": run.final.max_deflection_mm,
+        "max_von_mises_rationalized_MPa": run.final.max_von_mises_MPa,
+        "mass_removed_percent": run.mass_removed_percent,
+        "mass_removed_kg": run.mass_removed_kg,
+        "freeform_voids": len(run.freeform),
+        "voids": [_void_json(panel, v) for v in run.voids],
+        "rules": {
+            "profile": rules.profile,
+            "min_web": f.length_to_drawing(rules.min_web_mm),
+            "edge_cover": f.length_to_drawing(rules.edge_cover_mm),
+            "min_void": f.length_to_drawing(rules.min_void_mm),
+            "bearing_clearance": f.length_to_drawing(rules.bearing_clearance_mm),
+            "sources": dict(rules.sources),
+            "violations": [v.to_json(f) for v in run.rationalised.violations],
+        },
+        "changes": list(run.rationalised.changes),
+        "dropped": list(run.rationalised.dropped),
+        "history": {
+            "compliance_Nmm": [float(c) for c in beso.compliance_Nmm],
+            "volume_fraction": [float(v) for v in beso.volume_fraction],
+        },
+        "warnings": list((drawing.warnings if drawing else ()) + run.solid.warnings + run.warnings
+                         + run.rationalised.notes),
+        "caution": CAUTION,
+        "outputs": [],
+    }
+
+
+def schedule_csv(run: OptimizeRun) -> str:
+    """The void schedule as CSV: one row per void, lengths in the drawing's unit."""
+    import csv
+    import io
+
+    buf = io.StringIO()
+    w = csv.writer(buf, lineterminator="\n")
+    unit = run.panel.frame.unit
+    w.writerow(["id", "family", f"centre_x_{unit}", f"centre_y_{unit}", "sides", f"size_{unit}",
+                f"length_{unit}", "angle_deg", f"area_{unit}2", "tool"])
+    for v in (_void_json(run.panel, v) for v in run.voids):
+        w.writerow([v["id"], v["family"], f"{v['centre'][0]:.3f}", f"{v['centre'][1]:.3f}", v["sides"],
+                    f"{v['size']:.3f}", f"{v['length']:.3f}", f"{v['angle_deg']:.2f}", f"{v['area']:.2f}",
+                    v["tool"]])
+    return buf.getvalue()
+
+
+def optimize_file(dxf_path, job_path=None, *, out_dir=None, force: bool = False, frames: int = 0,
+                  on_iteration=None, dxf_version: str | None = None) -> Outcome:
+    """``lacuna optimize``: the whole job; writes the drawing copy with our layers, figures, schedule, JSON."""
+    from .dxf_out import result_copy_bytes
+    from .svg_out import convergence_svg, layout_frame_svg, result_svg
+
+    dxf_path = Path(dxf_path)
+    panel, job, drawing = load_panel(dxf_path, job_path)
+    run = optimize_panel(panel, job, on_iteration=on_iteration, keep_every=frames)
+    summary = optimize_summary(run, drawing)
+    stem = dxf_path.stem
+    date = _dt.date.today().isoformat()
+    grid = run.solid.grid
+    files: dict[str, bytes | str] = {}
+    files[f"{stem}-lacuna.dxf"] = result_copy_bytes(
+        dxf_path, panel.frame, voids=run.voids, freeform=list(run.freeform),
+        notes=_notes(run), panel_size_mm=(panel.width_mm, panel.height_mm), dxf_version=dxf_version,
+    )
+    files[f"{stem}-result.svg"] = result_svg(
+        panel, grid, densities=run.beso.densities, freeform=run.freeform, voids=run.voids,
+        profile=run.rules.profile, volume_removed_percent=run.mass_removed_percent,
+        mass_removed_kg=run.mass_removed_kg, date=date,
+    )
+    files[f"{stem}-convergence.svg"] = convergence_svg(
+        run.beso.compliance_Nmm, run.beso.volume_fraction, target=run.settings.volume_fraction, title=panel.name,
+    )
+    files[f"{stem}-schedule.csv"] = schedule_csv(run)
+    for iteration, densities in run.beso.snapshots if frames else ():
+        k = iteration - 1 if iteration > 0 else 0
+        files[f"{stem}-frame-{iteration:04d}.svg"] = layout_frame_svg(
+            panel, grid, densities, iteration=iteration,
+            compliance_Nmm=float(run.beso.compliance_Nmm[min(k, len(run.beso.compliance_Nmm) - 1)]),
+            volume_fraction=float(run.beso.volume_fraction[min(k, len(run.beso.volume_fraction) - 1)]),
+        )
+    out = Path(out_dir) if out_dir is not None else default_out_dir(dxf_path)
+    inputs = [dxf_path] + ([Path(job_path)] if job_path else [])
+    outcome = _finish(summary, files, f"{stem}-optimize.json", out, inputs, force)
+    outcome.run = run
+    return outcome
+
+
+def _notes(run: OptimizeRun) -> list[str]:
+    f = run.panel.frame
+    r = run.rules
+    return [
+        f"LACUNA: {len(run.voids)} voids, {run.mass_removed_percent:.1f} % of the material removed; "
+        f"stiffness {100 * (run.final.compliance_Nmm / run.solid.compliance_Nmm - 1):+.1f} % compliance "
+        "against the solid panel.",
+        f"Rules: profile {r.profile}, min web {f.length_to_drawing(r.min_web_mm):g}, edge cover "
+        f"{f.length_to_drawing(r.edge_cover_mm):g}, bearing clearance "
+        f"{f.length_to_drawing(r.bearing_clearance_mm):g} ({f.unit}).",
+        "For design exploration only: to be checked by a qualified engineer to the local code.",
+    ]
+
+
+def iteration_limit(job_path) -> int:
+    """The job's iteration cap, for a progress bar (the default where the job cannot be read yet)."""
+    from .jobfile import OptimizeOptions, read_job
+
+    try:
+        return read_job(job_path).optimize.max_iterations if job_path else OptimizeOptions().max_iterations
+    except LacunaError:
+        return OptimizeOptions().max_iterations  # the real reading reports the fault
+
+
+def convert_file(source, target, *, layers: str | None = None, units: str | None = None,
+                 force: bool = False) -> list[str]:
+    """``lacuna convert``: one file to another, written whole; returns the lines to print."""
+    from .convert import convert
+
+    source, target = Path(source), Path(target)
+    names = [n.strip() for n in layers.split(",") if n.strip()] if layers else None
+    notes: list[str] = []
+    data = convert(source, target, layers=names, units=units, messages=notes)
+    write_outputs(target.parent if str(target.parent) else Path("."), {target.name: data}, inputs=[source],
+                  force=force)
+    return [f"  note: {n}" for n in notes] + [f"wrote {target}"]
 
 
 def demo_files() -> tuple[Path, Path]:

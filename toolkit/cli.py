@@ -89,6 +89,85 @@ def analyze(panel: Path, job_path: Path | None, out_dir: Path | None, as_json: b
     _emit(outcome.summary, as_json, outcome.text_lines())
 
 
+class _Progress:
+    """One line on stderr, rewritten each iteration where stderr is a terminal, every tenth otherwise."""
+
+    def __init__(self, limit: int):
+        self.limit = limit
+        self.tty = sys.stderr.isatty()
+
+    def __call__(self, iteration: int, compliance: float, volume: float) -> None:
+        width = 24
+        done = min(width, int(width * iteration / max(self.limit, 1)))
+        line = (f"BESO [{'#' * done}{'.' * (width - done)}] iteration {iteration:4d}  "
+                f"compliance {compliance:10.4g} N mm  kept {100 * volume:5.1f} %")
+        if self.tty:
+            click.echo("\r" + line, nl=False, err=True)
+        elif iteration % 10 == 0 or iteration == 1:
+            click.echo(line, err=True)
+
+    def close(self) -> None:
+        if self.tty:
+            click.echo("", err=True)
+
+
+@main.command(help=f"""Find where the panel's material does no work and turn it into voids a shop can make.
+
+Runs BESO inside the fixed envelope, fits the voids to the chosen family under the fabrication rules,
+re-analyses what will be made, and writes a copy of the drawing with the LACUNA-* layers, an SVG of the
+result, the convergence plot, the void schedule (CSV) and the JSON summary.
+
+\b
+{CAUTION}""")
+@click.argument("panel", type=click.Path(dir_okay=False, path_type=Path))
+@_job_option
+@_out_option
+@_json_option
+@_force_option
+@click.option("--frames", type=click.IntRange(min=0), default=0, show_default=True,
+              help="Also write an SVG of the evolving layout every K iterations (0: none).")
+@click.option("--dxf-version", default=None, help="Write the drawing as this DXF version (default: as the input).")
+def optimize(panel: Path, job_path: Path | None, out_dir: Path | None, as_json: bool, force: bool, frames: int,
+             dxf_version: str | None) -> None:
+    progress = _Progress(api.iteration_limit(job_path))
+    try:
+        outcome = api.optimize_file(panel, job_path, out_dir=out_dir, force=force, frames=frames,
+                                    on_iteration=progress, dxf_version=dxf_version)
+    finally:
+        progress.close()
+    _emit(outcome.summary, as_json, outcome.text_lines())
+
+
+@main.command(help="List the fabrication profiles and their rules, each value with its source.")
+@_json_option
+def profiles(as_json: bool) -> None:
+    from .rules.profiles import profiles_table, profiles_text
+
+    table = profiles_table()
+    if as_json:
+        click.echo(json.dumps(table, indent=2))
+    else:
+        click.echo(profiles_text(table))
+
+
+@main.command(help="""Convert a drawing: DXF -> SVG (any entities), SVG -> DXF (closed paths), or DXF -> DXF in other units.
+
+\b
+Examples:
+  lacuna convert panel.dxf panel.svg --layers PANEL,OPENING
+  lacuna convert sketch.svg sketch.dxf --units mm
+  lacuna convert panel-in-inches.dxf panel-mm.dxf --units mm""")
+@click.argument("source", type=click.Path(dir_okay=False, path_type=Path))
+@click.argument("target", type=click.Path(dir_okay=False, path_type=Path))
+@click.option("--layers", default=None, help="Comma-separated layer names to keep (default: all).")
+@click.option("--units", type=click.Choice(["mm", "cm", "m", "in", "ft"]), default=None,
+              help="Unit of the output drawing.")
+@_force_option
+def convert(source: Path, target: Path, layers: str | None, units: str | None, force: bool) -> None:
+    for line in api.convert_file(source, target, layers=layers, units=units, force=force):
+        click.echo(line)
+
+
 @main.command(help=f"""Run lacuna on the bundled demo panel (a glulam loft lintel) and write the results.
 
 \b

@@ -49,7 +49,7 @@ class OptimizeOptions:
     symmetry: str = "none"
     max_iterations: int = 200
     penalty: float = 3.0
-    void_stiffness: float = 1e-3
+    void_density: float = 1e-3
     admission_ratio: float = 0.02
     convergence_tolerance: float = 0.001
 
@@ -127,7 +127,7 @@ TABLE_KEYS: dict[str, tuple[str, ...]] = {
         "symmetry",
         "max_iterations",
         "penalty",
-        "void_stiffness",
+        "void_density",
         "admission_ratio",
         "convergence_tolerance",
     ),
@@ -527,9 +527,9 @@ class _Reader:
                 v, where, low=1, hint="A whole number of iterations, e.g. 200."), d.max_iterations),
             penalty=get("penalty", lambda v, where: self.number(
                 v, where, low=1.0, hint="The stiffness penalty exponent; 3 is usual."), d.penalty),
-            void_stiffness=get("void_stiffness", lambda v, where: self.number(
+            void_density=get("void_density", lambda v, where: self.number(
                 v, where, low=0.0, high=1.0, low_open=True, high_open=True,
-                hint="The relative stiffness of a void element; 0.001 is usual."), d.void_stiffness),
+                hint="The design density of a removed element (its stiffness is density^penalty); 0.001 is usual."), d.void_density),
             admission_ratio=get("admission_ratio", lambda v, where: self.number(
                 v, where, low=0.0, high=1.0, low_open=True,
                 hint="The largest share of elements added back per iteration, e.g. 0.02."), d.admission_ratio),

@@ -43,7 +43,7 @@ class BesoResult:
     """What a BESO run gives back.
 
     - ``densities`` (ne,): design variable times drawn solid fraction; design elements are 1 (solid) or
-      ``void_stiffness`` (void), zone elements 1, elements cut by an opening their drawn fraction.
+      ``void_density`` (void), zone elements 1, elements cut by an opening their drawn fraction.
     - ``compliance_Nmm`` and ``volume_fraction`` (iterations,): weighted compliance sum_c w_c F_c.U_c and the
       solid share of the design region, of the design analysed at each iteration (the last is the result).
     - ``case_compliance_Nmm`` (ncases,): F_c.U_c of the final design; ``displacements`` its U (ndof, ncases).
@@ -107,7 +107,7 @@ def run_beso(
     g = problem.grid
     ne = g.n_elements
     p = settings.penalty
-    xmin = settings.void_stiffness
+    xmin = settings.void_density
     design = np.asarray(problem.design, dtype=bool)
     n_design = int(design.sum())
     n_final = int(round(settings.volume_fraction * n_design))

@@ -36,8 +36,8 @@ class OptimizeSettings:
     - ``symmetry``: "none", "x" (mirror about the vertical mid-line), "y" (about the horizontal one) or "xy".
     - ``max_iterations``: the loop stops here even if not converged.
     - ``penalty``: exponent p of the material interpolation E(x) = x^p E.
-    - ``void_stiffness``: the design variable x_min of a void element (soft kill); its stiffness is
-      ``void_stiffness ** penalty`` times that of solid material (1e-9 with the defaults).
+    - ``void_density``: the design variable x_min of a void element (soft kill); its stiffness is
+      ``void_density ** penalty`` times that of solid material (1e-9 with the defaults).
     - ``admission_ratio``: at most this share of the design region may turn from void to solid per iteration.
     - ``convergence_tolerance`` and ``convergence_window`` N: converged once the target volume is reached and
       the summed compliance of the last N iterations differs from that of the N before by less than this share.
@@ -49,7 +49,7 @@ class OptimizeSettings:
     symmetry: str = "none"
     max_iterations: int = 200
     penalty: float = 3.0
-    void_stiffness: float = 1e-3
+    void_density: float = 1e-3
     admission_ratio: float = 0.02
     convergence_tolerance: float = 0.001
     convergence_window: int = 5
@@ -94,10 +94,10 @@ class OptimizeSettings:
                 where="[optimize] penalty",
                 hint="3 is the usual value.",
             )
-        if not (_finite(self.void_stiffness) and 0.0 < self.void_stiffness < 1.0):
+        if not (_finite(self.void_density) and 0.0 < self.void_density < 1.0):
             raise LacunaError(
-                f"the void design variable must lie in (0, 1), got {self.void_stiffness!r}.",
-                where="[optimize] void_stiffness",
+                f"the void design variable must lie in (0, 1), got {self.void_density!r}.",
+                where="[optimize] void_density",
                 hint="0.001 is the usual value.",
             )
         if not (_finite(self.admission_ratio) and self.admission_ratio > 0.0):

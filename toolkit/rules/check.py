@@ -419,7 +419,8 @@ def bearing_anchors(panel: Panel) -> list[tuple[object, str]]:
     out: list[tuple[object, str]] = []
     for s in panel.supports:
         geom = Point(s.points[0]) if s.is_point else LineString(s.points)
-        out.append((geom, f"support {s.source}" if s.source else f"support at {_fmt(s.points[0])}"))
+        place = f"at {_fmt(s.points[0])}" if s.is_point else f"from {_fmt(s.points[0])} to {_fmt(s.points[1])}"
+        out.append((geom, f"support {s.source}" if s.source else f"support {place}"))
     for load in panel.loads:
         if isinstance(load, PointLoad):
             out.append((Point(load.at), f"point load {load.source}" if load.source else f"point load at {_fmt(load.at)}"))

@@ -84,17 +84,17 @@ class Resolved:
     corner_mm: float
     min_void_mm: float
     min_web_mm: float
+    web_ratio: float = 0.0
 
 
-def resolve_settings(settings: VoidOptions, rules: Rules) -> Resolved:
+def resolve_settings(settings: VoidOptions, rules: Rules, thickness_mm: float = 0.0) -> Resolved:
     """Check the [voids] settings and merge them with the rules.
 
-    Bore diameters: the job's list when it differs from the default list, else the rules' stock list when it
-    has one, else the default. Slot widths: the job's, else the rules', else the bore diameters (a slot is
-    cut with a bit). Corner easing: the job's when it asks for one, else the rules'.
+    Bore diameters: the rules' stock list when it has one, else the job's. Slot widths: the rules', else the
+    job's, else the bore diameters (a slot is cut with a bit). Corner easing: the job's when it asks for one,
+    else the rules'. ``least_mm``: the least void size the rules allow, ``web_ratio``: the rules' web as a
+    multiple of the larger void's extent (0 when the rules have none).
     """
-    from ..jobfile import DEFAULT_BORE_DIAMETERS_MM
-
     if settings.family not in FAMILIES:
         raise LacunaError(f"unknown void family {settings.family!r}.", where="[voids] family",
                           hint='Use "polygon", "slot", "bore" or "mixed".')
@@ -107,16 +107,17 @@ def resolve_settings(settings: VoidOptions, rules: Rules) -> Resolved:
     if not (math.isfinite(settings.snap_mm) and settings.snap_mm >= 0.0):
         raise LacunaError(f"snap must be a length of zero or more, got {settings.snap_mm!r}.",
                           where="[voids] snap", hint="0 turns snapping off; 5 snaps to 5 mm.")
-    if settings.bore_diameters_mm != DEFAULT_BORE_DIAMETERS_MM or not rules.bore_diameters_mm:
-        bores = tuple(settings.bore_diameters_mm)
-        bores_where = "[voids] bore_diameters"
-    else:
+    # The proof checks stock sizes against the rules, so a stock list in the rules wins; the job's own list
+    # reaches the rules through whoever builds them (job values override the profile's).
+    if rules.bore_diameters_mm:
         bores, bores_where = tuple(rules.bore_diameters_mm), f"rules profile {rules.profile} bore diameters"
+    else:
+        bores, bores_where = tuple(settings.bore_diameters_mm), "[voids] bore_diameters"
     _check_lengths(bores, bores_where, "bore diameters", "e.g. bore_diameters = [20, 25, 32, 40, 50]")
-    if settings.slot_widths_mm is not None:
-        slots, slots_where = tuple(settings.slot_widths_mm), "[voids] slot_widths"
-    elif rules.slot_widths_mm:
+    if rules.slot_widths_mm:
         slots, slots_where = tuple(rules.slot_widths_mm), f"rules profile {rules.profile} slot widths"
+    elif settings.slot_widths_mm is not None:
+        slots, slots_where = tuple(settings.slot_widths_mm), "[voids] slot_widths"
     else:
         slots, slots_where = bores, bores_where
     _check_lengths(slots, slots_where, "slot widths", "e.g. slot_widths = [20, 32, 50]")
@@ -133,10 +134,12 @@ def resolve_settings(settings: VoidOptions, rules: Rules) -> Resolved:
         if not (math.isfinite(value) and value >= 0.0):
             raise LacunaError(f"{name} must be a length of zero or more, got {value!r}.", where=f"[rules] {name}",
                               hint=f"Give {name} as a length in the job file's units.")
+    # A profile may tie the least void size to the thickness and the web to the voids' size (ProfileRules).
+    least = max(rules.min_void_mm, float(getattr(rules, "min_void_per_thickness", 0.0) or 0.0) * thickness_mm)
     return Resolved(family=settings.family, sides=settings.sides, bore_diameters_mm=tuple(sorted(bores)),
                     slot_widths_mm=tuple(sorted(slots)), max_types=settings.max_types, snap_mm=settings.snap_mm,
-                    corner=corner, corner_mm=float(corner_mm or 0.0), min_void_mm=rules.min_void_mm,
-                    min_web_mm=rules.min_web_mm)
+                    corner=corner, corner_mm=float(corner_mm or 0.0), min_void_mm=least,
+                    min_web_mm=rules.min_web_mm, web_ratio=float(getattr(rules, "web_ratio", 0.0) or 0.0))
 
 
 def _check_lengths(values, where: str, what: str, example: str) -> None:
@@ -158,21 +161,30 @@ def _shape(draft: Draft) -> Polygon:
 class Site:
     """Where void material may go and how far apart voids stay: answers "may this void stand here?"."""
 
-    def __init__(self, allowed, min_web_mm: float, move_step_mm: float):
+    def __init__(self, allowed, min_web_mm: float, move_step_mm: float, web_ratio: float = 0.0,
+                 least_mm: float = 0.0):
         inner = shapely.buffer(allowed, -SAFETY_MM, quad_segs=4) if not allowed.is_empty else allowed
         shapely.prepare(inner)
         self.inner = inner
         self.allowed = allowed
-        self.web = min_web_mm + SAFETY_MM
+        self.web = min_web_mm
+        self.ratio = web_ratio
+        self.least = least_mm
         self.step = move_step_mm
 
     def inside(self, shape) -> bool:
         return bool(self.inner.covers(shape))
 
     def clear(self, shape, others) -> bool:
+        """At least the web from every other void; with a web ratio, that times the larger one's extent."""
         if not others:
             return True
-        return bool(np.min(shapely.distance(shape, np.asarray(others, dtype=object))) >= self.web)
+        others = np.asarray(others, dtype=object)
+        need = np.full(len(others), self.web)
+        if self.ratio > 0.0:
+            extent = 2.0 * shapely.minimum_bounding_radius(np.append(others, shape))
+            need = np.maximum(need, self.ratio * np.maximum(extent[:-1], extent[-1]))
+        return bool(np.all(shapely.distance(shape, others) >= need + SAFETY_MM))
 
     def offsets(self, size: float) -> list[tuple[float, float]]:
         """(0, 0), then rings of 8 directions further and further out, nearest first."""
@@ -184,9 +196,17 @@ class Site:
                 out.append((k * step * math.cos(a), k * step * math.sin(a)))
         return out
 
+    def big_enough(self, draft: Draft) -> bool:
+        """At least the least void size: a polygon's inscribed circle, a slot's width, a bore's diameter."""
+        if draft.family == "polygon":
+            return inscribed_width(_shape(draft)) >= self.least + SAFETY_MM
+        return draft.size >= self.least - 1e-9
+
     def fits(self, trial: Draft, i: int, state: list[Draft], move: bool = True) -> Draft | None:
         """``trial`` (or a copy moved a little, when ``move``) if it keeps the rules beside the others in
         ``state`` (item ``i`` of ``state`` is the void's own former self and is ignored)."""
+        if not self.big_enough(trial):
+            return None
         others = [_shape(d) for j, d in enumerate(state) if j != i and d is not None]
         for dx, dy in self.offsets(trial.size) if move else [(0.0, 0.0)]:
             cand = trial.moved(dx, dy) if (dx or dy) else trial
@@ -229,8 +249,6 @@ def place(drafts: list[Draft], site: Site, r: Resolved):
         for trial in _smaller(d, r):
             got = site.fits(trial, -1, placed)
             if got is None:
-                continue
-            if got.family == "polygon" and inscribed_width(_shape(got)) < r.min_void_mm:
                 continue
             if got != d:
                 why = why or _why(d, site, others, r)
@@ -337,20 +355,16 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
     """Freeform voids (shapely polygons, local mm) -> voids a shop can make, keeping ``rules``.
 
     ``energy``: the solid panel's strain-energy density for the ``mixed`` family, as a function of points or
-    a (grid, per-element values) pair. ``allowed``: the region open to voids; by default
-    ``rules.check.allowed_region(panel, rules)``. Raises LacunaError when the rules leave no room for any
+    a (grid, per-element values) pair. ``allowed``: the region open to voids; by default the one
+    ``rules.check.impossible_rules`` returns (``allowed_region``). Raises LacunaError when the rules leave no room for any
     void or a setting is out of range.
     """
     from ..rules import check as rule_check
 
-    r = resolve_settings(settings, rules)
-    problem = rule_check.impossible_rules(panel, rules)
-    if problem:
-        text = problem if isinstance(problem, str) else " ".join(map(str, problem))
-        raise LacunaError(f"no void can be placed: {text}", where="[rules]",
-                          hint="Lower edge_cover, min_web or bearing_clearance, or choose another profile.")
+    r = resolve_settings(settings, rules, panel.thickness_mm)
+    region = rule_check.impossible_rules(panel, rules)  # raises, in words, when no void fits at all
     if allowed is None:
-        allowed = rule_check.allowed_region(panel, rules)
+        allowed = region
     sample, spacing = energy_sampler(energy) if energy is not None else (None, None)
 
     kept, clean_notes = clean(freeform, r.min_void_mm)
@@ -384,7 +398,7 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
                            "void of the stock sizes fits in it; dropped.")
         drafts.extend(got)
 
-    site = Site(allowed, r.min_web_mm, r.snap_mm)
+    site = Site(allowed, r.min_web_mm, r.snap_mm, r.web_ratio, r.min_void_mm)
     placed, change_recs, drop_recs = place(drafts, site, r)
     for source, reason in drop_recs:
         v = by_source[source]

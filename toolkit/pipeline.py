@@ -1,0 +1,145 @@
+"""The whole job on a panel, in memory: solid analysis, BESO, freeform voids, voids a shop can make, re-analysis.
+
+No files here: :func:`optimize_panel` takes model values and returns every figure and geometry the writers need;
+``api`` turns that into files, and a CAD host can call it on a document it already holds.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+from dataclasses import dataclass
+from typing import Callable
+
+import numpy as np
+import shapely
+from shapely.geometry import Polygon
+
+from .analysis import Analysis, analyze
+from .jobfile import Job
+from .model import Panel, Region, Rules, Void
+from .optimize import BesoResult, OptimizeSettings, ZoneSettings, build_problem, run_beso
+from .rules.profiles import rules_for
+from .voids.extract import freeform_voids
+from .voids.layout import Rationalised, rationalise
+
+G_M_S2 = 9.81
+
+
+@dataclass(frozen=True, eq=False)
+class OptimizeRun:
+    """Everything one optimisation produced (local frame: mm, N, MPa)."""
+
+    panel: Panel
+    rules: Rules
+    settings: OptimizeSettings
+    solid: Analysis
+    beso: BesoResult
+    freeform: tuple[Polygon, ...]
+    rationalised: Rationalised
+    final: Analysis                 # the panel with the voids to make cut exactly
+    warnings: tuple[str, ...] = ()
+
+    @property
+    def voids(self) -> tuple[Void, ...]:
+        return self.rationalised.voids
+
+    @property
+    def removed_area_mm2(self) -> float:
+        return float(sum(v.area_mm2 for v in self.voids))
+
+    @property
+    def mass_removed_percent(self) -> float:
+        return 100.0 * self.removed_area_mm2 / float(self.panel.solid.area)
+
+    @property
+    def mass_removed_kg(self) -> float | None:
+        rho = self.panel.material.density_kg_m3
+        if rho is None:
+            return None
+        return self.removed_area_mm2 * self.panel.thickness_mm * 1e-9 * rho
+
+
+def job_rules(job: Job) -> Rules:
+    """The rules in force: the job's profile with the job's own values over it."""
+    r = job.rules
+    v = job.voids
+    overrides = {
+        "min_web": r.min_web_mm,
+        "edge_cover": r.edge_cover_mm,
+        "min_void": r.min_void_mm,
+        "bearing_clearance": r.bearing_clearance_mm,
+        "bore_diameters": v.bore_diameters_mm if job.is_set("voids.bore_diameters") else None,
+        "slot_widths": v.slot_widths_mm,
+        "corner": v.corner if job.is_set("voids.corner") else None,
+        "corner_size": v.corner_size_mm,
+    }
+    return rules_for(r.profile, overrides)
+
+
+def job_settings(job: Job) -> OptimizeSettings:
+    o = job.optimize
+    return OptimizeSettings(
+        volume_fraction=o.volume_fraction,
+        evolution_rate=o.evolution_rate,
+        filter_radius_mm=o.filter_radius_mm,
+        symmetry=o.symmetry,
+        max_iterations=o.max_iterations,
+        penalty=o.penalty,
+        void_density=o.void_density,
+        admission_ratio=o.admission_ratio,
+        convergence_tolerance=o.convergence_tolerance,
+    )
+
+
+def strain_energy_density(result: Analysis, panel: Panel) -> np.ndarray:
+    """(ne,) weighted strain-energy density of the solid panel, N mm / mm2 (per unit area of the panel)."""
+    g = result.grid
+    from .fe.element import q4_stiffness
+
+    ke = q4_stiffness(g.dx, g.dy, panel.material.E_MPa, panel.material.nu, panel.thickness_mm)
+    ue = result.U[g.edof]                                   # (ne, 8, ncases)
+    energy = 0.5 * np.einsum("eic,ij,ejc->ec", ue, ke, ue)  # per element, per case
+    return (energy @ result.case_weights) * result.fractions / (g.dx * g.dy)
+
+
+def with_voids(panel: Panel, voids) -> Panel:
+    """The panel with ``voids`` (model.Void) cut as openings."""
+    extra = tuple(Region(shape=v.shape, layer=f"LACUNA-VOID-{v.family.upper()}", handle=v.id) for v in voids)
+    return dataclasses.replace(panel, openings=panel.openings + extra)
+
+
+def optimize_panel(
+    panel: Panel,
+    job: Job,
+    *,
+    on_iteration: Callable[[int, float, float], None] | None = None,
+    keep_every: int = 0,
+) -> OptimizeRun:
+    """The whole job on ``panel`` with ``job``'s settings and rules."""
+    rules = job_rules(job)
+    settings = job_settings(job)
+    solid = analyze(panel)
+    zones = ZoneSettings(
+        edge_cover_mm=rules.edge_cover_mm,
+        bearing_clearance_mm=rules.bearing_clearance_mm,
+        min_web_mm=rules.min_web_mm,
+    )
+    problem = build_problem(panel, zones)
+    beso = run_beso(problem, settings, on_iteration=on_iteration, keep_every=keep_every)
+    openings = shapely.union_all([o.shape for o in panel.openings]) if panel.openings else None
+    freeform = tuple(freeform_voids(problem.grid, beso.densities, exclude=openings))
+    energy = (solid.grid, strain_energy_density(solid, panel))
+    rationalised = rationalise(panel, list(freeform), job.voids, rules, energy=energy)
+    final = analyze(with_voids(panel, rationalised.voids), grid=solid.grid)
+    warnings = []
+    if not beso.converged:
+        warnings.append(
+            f"the optimiser stopped at max_iterations = {settings.max_iterations} before converging; "
+            "the layout may still be changing (raise [optimize] max_iterations)."
+        )
+    if not rationalised.voids:
+        warnings.append("no void could be made under the rules: the panel is left solid.")
+    return OptimizeRun(
+        panel=panel, rules=rules, settings=settings, solid=solid, beso=beso, freeform=freeform,
+        rationalised=rationalised, final=final, warnings=tuple(warnings),
+    )
