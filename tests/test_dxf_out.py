@@ -20,7 +20,7 @@ from shapely.geometry import Point as ShapelyPoint
 from shapely.geometry import Polygon, box
 
 import group_codes
-from drawings import Placement, new_doc, sample_panel, write
+from drawings import Placement, add_rectangle, new_doc, sample_panel, write
 from toolkit.dxf_in import read_drawing
 from toolkit.dxf_out import (
     CENTRE, CHECK, FREEFORM, LOOKS, NOTE, OUR_LAYERS, VERSIONS, VOID_LAYERS, Marker, add_results, nearest_aci,
@@ -112,6 +112,13 @@ def round_trip(tmp_path_factory):
     return path, frame, data, ezdxf.readfile(path), ezdxf.read(io.StringIO(data.decode("utf-8")))
 
 
+def _write_stamp(doc) -> str | None:
+    for entity in doc.entitydb.values():
+        if entity.dxftype() == "DICTIONARY" and "WRITTEN_BY_EZDXF" in entity:
+            return entity["WRITTEN_BY_EZDXF"].dxf.handle
+    return None
+
+
 def _tags(entity, version):
     collector = TagCollector(dxfversion=version)
     entity.export_dxf(collector)
@@ -135,7 +142,9 @@ def test_every_input_entity_kept_with_handle_and_attributes(round_trip):
         assert other.dxftype() == entity.dxftype()
         if dict(entity.dxfattribs()) != dict(other.dxfattribs()):
             changed.append((handle, entity.dxftype()))
-    assert changed == []
+    # The one object allowed to differ: the writer's time stamp of the last save (a DICTIONARYVAR that ezdxf
+    # keeps under WRITTEN_BY_EZDXF and renews on every write; "timestamps aside").
+    assert changed == [(_write_stamp(before), "DICTIONARYVAR")] or changed == []
     # Stronger: every graphic entity of every layout and block writes the very same group codes.
     for layout in before.layouts_and_blocks():
         for entity in layout:
@@ -184,7 +193,7 @@ def test_voids_come_back_where_the_frame_puts_them(round_trip):
     assert list(got[:, 2]) == [0.0, 1.0, 0.0, 1.0]  # half circles: bulge 1, sign kept under the 30 deg turn
     circles = sorted(msp.query(f'CIRCLE[layer=="{VOID_LAYERS["bore"]}"]'), key=lambda c: c.dxf.radius)
     for c, v in zip(circles, (bore1, bore2)):
-        assert np.hypot(*(np.array(c.dxf.center[:2]) - FAR.point(v.centre))) < 1e-6
+        assert np.hypot(*(np.array(np.array(c.dxf.center)[:2]) - FAR.point(v.centre))) < 1e-6
         assert abs(c.dxf.radius - v.size_mm / 2) < 1e-9
     # The panel really was found turned 30 degrees, 6,000 km out.
     assert abs(frame.angle_deg - 30.0) < 1e-9 and abs(frame.origin[0] - 6e6) < 1e-6
@@ -199,7 +208,7 @@ def test_freeform_rings_and_centre_marks(round_trip):
     assert areas == pytest.approx([200 * 200, 300 * 300], rel=1e-9)  # rotation and shift keep areas
     lines = list(msp.query(f'LINE[layer=="{CENTRE}"]'))
     assert len(lines) == 2 * 4  # a cross per void
-    lengths = sorted(round(math.dist(l.dxf.start[:2], l.dxf.end[:2]), 9) for l in lines)
+    lengths = sorted(round(math.dist(l.dxf.start, l.dxf.end), 9) for l in lines)
     assert lengths == [20.0] * 8  # 20 mm crosses (default); the smallest void is 50 mm, so none is shrunk
     first = lines[0]
     angle = math.degrees(math.atan2(first.dxf.end[1] - first.dxf.start[1], first.dxf.end[0] - first.dxf.start[0]))
@@ -213,7 +222,7 @@ def test_notes_lie_below_the_panel_in_its_frame(round_trip):
     assert "P1" in contents and "B2" in contents and "router 20 mm" in contents
     assert any("qualified engineer" in c for c in contents)
     for t in texts:
-        corners = np.array([v[:2] for v in disassemble.make_primitive(t).vertices()])
+        corners = np.array([(v.x, v.y) for v in disassemble.make_primitive(t).vertices()])
         local = frame.to_local(corners)
         assert local[:, 1].max() < 0.0, t.dxf.text  # every glyph box under the panel's bottom edge (y = 0)
         assert t.dxf.rotation == pytest.approx(30.0, abs=1e-9)
@@ -225,7 +234,7 @@ def test_check_markers(round_trip):
     circles = list(msp.query(f'CIRCLE[layer=="{CHECK}"]'))
     labels = [t.dxf.text for t in msp.query(f'TEXT[layer=="{CHECK}"]')]
     assert len(circles) == 2 and labels == ["web 35 < 60", "edge_cover 30 < 50"]
-    centres = sorted(tuple(np.round(frame.to_local(c.dxf.center[:2]), 6)) for c in circles)
+    centres = sorted(tuple(np.round(frame.to_local(np.array(c.dxf.center)[:2]), 6)) for c in circles)
     assert centres == [(300.0, 300.0), (2800.0, 300.0)]
 
 
@@ -274,7 +283,9 @@ def test_rotated_frame_in_metres(tmp_path):
     assert np.abs(np.array(slot.get_points("xyb")) - want).max() < 1e-9
     bore = doc.entitydb[added.handles[VOID_LAYERS["bore"]][0]]
     assert bore.dxf.radius == pytest.approx(0.025, abs=1e-12)  # 50 mm bore in metres
-    assert doc.linetypes.get("LACUNA-DASHED").pattern_tags.get_simple_pattern()[0] == pytest.approx(0.018)
+    # Dash 12 mm + gap 6 mm = 0.018 m: group code 40 of the LTYPE record is the pattern length (DXF reference).
+    tags = doc.linetypes.get("LACUNA-DASHED").pattern_tags.tags
+    assert [t.value for t in tags if t.code == 40][0] == pytest.approx(0.018)
 
 
 def test_second_run_refused_then_replaced(tmp_path):
@@ -301,7 +312,7 @@ def test_foreign_entities_on_our_layer_in_a_block_are_refused_even_with_replace(
 
 def test_r12_drawing_gets_polylines(tmp_path):
     doc = new_doc("mm", "R12")
-    sample_panel(doc.modelspace(), Placement())
+    add_rectangle(doc.modelspace(), Placement(), 0.0, 0.0, 3000.0, 600.0, style="lines")
     added = add_results(doc, Frame(), **results())
     poly = doc.entitydb[added.handles[VOID_LAYERS["slot"]][0]]
     assert poly.dxftype() == "POLYLINE" and poly.is_closed

@@ -172,8 +172,9 @@ def dxf_to_svg(doc: DxfDocument, *, layers: list[str] | None = None, scale: floa
             )
         chosen = {name.casefold() for name in layers}
 
-        def only_chosen(props) -> None:
-            props.is_visible = props.layer.casefold() in chosen
+        def only_chosen(all_layers) -> None:
+            for props in all_layers:
+                props.is_visible = props.layer.casefold() in chosen
 
         ctx.set_layer_properties_override(only_chosen)
     backend = _Backend()
@@ -265,7 +266,7 @@ def svg_to_dxf(text: str, *, layers: list[str] | None = None, unit: str | None =
             )
     if not shapes:
         raise LacunaError(
-            f"{where} has no closed paths to convert" + (f" on the layers {', '.join(layers)}" if layers else "")
+            "the SVG has no closed paths to convert" + (f" on the layers {', '.join(layers)}" if layers else "")
             + ".", where=where,
             hint="Close the outlines in the SVG (a path ending in Z, or a rect, circle, ellipse or polygon).",
         )

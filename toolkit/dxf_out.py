@@ -227,12 +227,13 @@ def _ensure_layers(doc: DxfDocument, frame: Frame) -> list[str]:
     for look in LOOKS:
         if look.name in doc.layers:
             continue  # an empty layer of that name, maybe set up by the drafter: keep their look
-        attribs = {"color": nearest_aci(look.rgb), "linetype": look.linetype}
-        if doc.dxfversion > const.DXF12:
-            attribs["lineweight"] = look.lineweight
-        layer = doc.layers.add(look.name, dxfattribs=attribs)
-        if true_colour:
-            layer.dxf.true_color = colors.rgb2int(look.rgb)
+        layer = doc.layers.add(
+            look.name,
+            color=nearest_aci(look.rgb),
+            true_color=colors.rgb2int(look.rgb) if true_colour else None,
+            linetype=look.linetype,
+            lineweight=look.lineweight if doc.dxfversion > const.DXF12 else -1,
+        )
         created.append(look.name)
     return created
 
@@ -252,10 +253,8 @@ class _Pen:
         return float(x), float(y)
 
     def circle(self, centre, radius_mm: float, layer: str):
-        return self._keep(
-            self.layout.add_circle(self._xy(centre), self.frame.length_to_drawing(radius_mm), dxfattribs={"layer": layer}),
-            layer,
-        )
+        radius = self.frame.length_to_drawing(radius_mm)
+        return self._keep(self.layout.add_circle(self._xy(centre), radius, dxfattribs={"layer": layer}), layer)
 
     def line(self, a, b, layer: str):
         return self._keep(self.layout.add_line(self._xy(a), self._xy(b), dxfattribs={"layer": layer}), layer)

@@ -147,17 +147,20 @@ class Figure:
     use, stacked above the layers made before it. ``sheet_group(name)`` does the same in paper mm (y down).
     """
 
-    def __init__(self, panel: Panel, *, legend_height: float = _LEGEND):
+    def __init__(self, panel: Panel, *, legend_height: float = _LEGEND, title_block: float = _TITLE_BLOCK,
+                 heading: float = _HEADING, room: float = _ROOM, room_below: float = _ROOM_BELOW,
+                 width: float | None = SHEET_WIDTH_MM):
         self.panel = panel
         self.scale = drawing_scale(panel.width_mm, panel.height_mm)
         self.panel_paper = (panel.width_mm / self.scale, panel.height_mm / self.scale)
-        self.width = SHEET_WIDTH_MM
-        top = _MARGIN + _HEADING + _ROOM
+        # width=None: just wide enough for the panel and its room (light sheets, such as layout frames).
+        self.width = width if width is not None else self.panel_paper[0] + 2 * (_MARGIN + room)
+        top = _MARGIN + heading + room
         # Centre the panel across the sheet; its lower-left corner is the local origin.
         self.origin = ((self.width - self.panel_paper[0]) / 2.0, top + self.panel_paper[1])
-        self.legend_top = self.origin[1] + _ROOM_BELOW
+        self.legend_top = self.origin[1] + room_below
         self.title_top = self.legend_top + legend_height
-        self.height = self.title_top + _TITLE_BLOCK + _MARGIN
+        self.height = self.title_top + title_block + _MARGIN
         self.dwg = svgwrite.Drawing(
             size=(f"{_fmt(self.width)}mm", f"{_fmt(self.height)}mm"), profile="full", debug=False
         )
@@ -326,18 +329,29 @@ def stress_runs(classes: np.ndarray, drawn: np.ndarray, nx: int, ny: int) -> dic
     return runs
 
 
-def _draw_stress(fig: Figure, grid, drawn, dominant, vmax, solid) -> None:
-    classes = palette.classify(dominant, vmax, _STRESS_CLASSES_PER_SIDE)
-    colours = palette.class_colours(_STRESS_CLASSES_PER_SIDE)
-    clip = fig.dwg.defs.add(fig.dwg.clipPath(id="panel-solid"))
-    clip.add(fig.dwg.path(d=_area_path(solid), clip_rule="evenodd"))
-    group = fig.layer("stress", clip_path="url(#panel-solid)")
+def _solid_clip(fig: Figure, solid) -> str:
+    """The clip path of the panel's solid outline (made once per sheet), so openings are cut exactly."""
+    if "panel-solid" not in fig._groups:
+        clip = fig.dwg.defs.add(fig.dwg.clipPath(id="panel-solid"))
+        clip.add(fig.dwg.path(d=_area_path(solid), clip_rule="evenodd"))
+        fig._groups["panel-solid"] = clip
+    return "url(#panel-solid)"
+
+
+def _draw_cells(fig: Figure, name: str, grid, classes, drawn, colours: Sequence[str], solid) -> None:
+    """Elements filled by colour class, a row's neighbours of one class merged, clipped to the solid outline."""
+    group = fig.layer(name, clip_path=_solid_clip(fig, solid))
     # Cells in element units: integer path data keeps a 20,000-element panel small.
     cells = fig.dwg.g(transform=f"scale({_fmt(grid.dx, 6)} {_fmt(grid.dy, 6)})", shape_rendering="crispEdges")
     group.add(cells)
     for c, runs in sorted(stress_runs(classes, drawn, grid.nx, grid.ny).items()):
         d = "".join(f"M{ix} {iy}h{n}v1h-{n}z" for ix, iy, n in runs)
         cells.add(fig.dwg.path(d=d, fill=colours[c], **{"data-class": str(c)}))
+
+
+def _draw_stress(fig: Figure, grid, drawn, dominant, vmax, solid) -> None:
+    classes = palette.classify(dominant, vmax, _STRESS_CLASSES_PER_SIDE)
+    _draw_cells(fig, "stress", grid, classes, drawn, palette.class_colours(_STRESS_CLASSES_PER_SIDE), solid)
 
 
 def _draw_directions(fig: Figure, grid, fractions, stress, vmax) -> None:
@@ -534,9 +548,8 @@ def _draw_heading(fig: Figure, title: str, scale_note: str) -> None:
     fig.text(g, f"{FRAME_NOTE} {scale_note}", (_MARGIN, _MARGIN + 10.5), 2.8)
 
 
-def _draw_legend(fig: Figure, vmax: float, peak_t: float, peak_c: float, magnification, umax: float) -> None:
-    g = fig.sheet_group("legend")
-    x0, top = _MARGIN, fig.legend_top
+def _draw_stress_bar(fig: Figure, g, x0: float, top: float, vmax: float, peak_t: float, peak_c: float) -> None:
+    """The stress colour bar with its heading, side labels, ticks and the peaks, 120 mm wide from (x0, top)."""
     bar_w, bar_h = 120.0, 5.0
     bar_y = top + 9.0
     fig.text(g, "Dominant principal stress, MPa (the principal of larger magnitude, with its sign)", (x0, top + 2.5),
@@ -579,8 +592,41 @@ def _draw_legend(fig: Figure, vmax: float, peak_t: float, peak_c: float, magnifi
         note += "; beyond the bar: its end colours"
     fig.text(g, note + ".", (x0, bar_y + bar_h + 8.5), 2.4)
 
+
+def _key_sample(fig: Figure, g, kind: str, style: dict | None, x: float, y: float) -> None:
+    """One line-key sample, 8 mm wide, its middle at height ``y`` (paper mm)."""
+    if kind == "line":
+        g.add(fig.dwg.line(start=(_fmt(x), _fmt(y)), end=(_fmt(x + 8.0), _fmt(y)), **style))
+    elif kind == "ticks":
+        g.add(fig.dwg.line(start=(_fmt(x), _fmt(y)), end=(_fmt(x + 3.5), _fmt(y)),
+                           stroke=palette.TENSION_INK, stroke_width="0.32", stroke_linecap="round"))
+        g.add(fig.dwg.line(start=(_fmt(x + 5.5), _fmt(y - 1.5)), end=(_fmt(x + 5.5), _fmt(y + 1.5)),
+                           stroke=palette.COMPRESSION_INK, stroke_width="0.32", stroke_linecap="round"))
+    elif kind == "area":
+        g.add(fig.dwg.rect((_fmt(x + 0.4), _fmt(y - 1.3)), (7.2, 2.6), rx="1.0", **style))
+    elif kind == "cross":
+        g.add(fig.dwg.path(d=f"M{_fmt(x + 2.5)} {_fmt(y)}h3M{_fmt(x + 4.0)} {_fmt(y - 1.5)}v3", fill="none",
+                           **style))
+    elif kind == "ring":
+        g.add(fig.dwg.circle(center=(_fmt(x + 4.0), _fmt(y)), r="1.5", fill="none", **style))
+    elif kind == "label":
+        fig.text(g, "V1", (x + 4.0, y + 0.8), 2.3, anchor="middle", weight="bold", **(style or {}))
+
+
+def _draw_key(fig: Figure, g, x: float, top: float, rows, pitch: float = 4.2) -> None:
+    """A line key: rows of (sample kind, sample style, label) from (x, top) down."""
+    for r, (kind, style, label) in enumerate(rows):
+        y = top + 2.0 + pitch * r
+        _key_sample(fig, g, kind, style, x, y - 0.9)
+        fig.text(g, label, (x + 10.0, y), 2.4)
+
+
+def _draw_legend(fig: Figure, vmax: float, peak_t: float, peak_c: float, magnification, umax: float) -> None:
+    g = fig.sheet_group("legend")
+    x0, top = _MARGIN, fig.legend_top
+    _draw_stress_bar(fig, g, x0, top, vmax, peak_t, peak_c)
     # Line key and scale bar on the right of the band.
-    kx = x0 + bar_w + 12.0
+    kx = x0 + 120.0 + 12.0
     rows = [
         ("line", dict(stroke=INK, stroke_width="0.4"), "panel and openings as drawn"),
         ("line", dict(stroke=DEFLECTED_INK, stroke_width="0.45"),
@@ -589,16 +635,7 @@ def _draw_legend(fig: Figure, vmax: float, peak_t: float, peak_c: float, magnifi
         ("line", dict(stroke=INK, stroke_width="0.3", stroke_dasharray="2 1"), "zone kept solid"),
         ("ticks", None, "principal directions, length by magnitude"),
     ]
-    for r, (kind, style, label) in enumerate(rows):
-        y = top + 2.0 + 4.2 * r
-        if kind == "line":
-            g.add(fig.dwg.line(start=(_fmt(kx), _fmt(y - 0.9)), end=(_fmt(kx + 8.0), _fmt(y - 0.9)), **style))
-        else:
-            g.add(fig.dwg.line(start=(_fmt(kx), _fmt(y - 0.9)), end=(_fmt(kx + 3.5), _fmt(y - 0.9)),
-                               stroke=palette.TENSION_INK, stroke_width="0.32", stroke_linecap="round"))
-            g.add(fig.dwg.line(start=(_fmt(kx + 5.5), _fmt(y - 2.4)), end=(_fmt(kx + 5.5), _fmt(y + 0.6)),
-                               stroke=palette.COMPRESSION_INK, stroke_width="0.32", stroke_linecap="round"))
-        fig.text(g, label, (kx + 10.0, y), 2.4)
+    _draw_key(fig, g, kx, top, rows)
     _draw_scale_bar(fig, kx, top + 22.5)
 
 
@@ -632,8 +669,9 @@ def _fit(text: str, width: float, size: float, smallest: float = 2.0) -> tuple[s
     return (text if len(text) <= keep else text[: max(1, keep - 1)].rstrip() + "\u2026"), size
 
 
-def _draw_title_block(fig: Figure, panel: Panel, case: str, date: str, n_elements: int) -> None:
-    """Our title block: a ruled band across the sheet foot, four cells over a caution strip."""
+def _draw_title_block(fig: Figure, cells: Sequence[tuple[float, str, Sequence[str]]]) -> None:
+    """Our title block: a ruled band across the sheet foot, cells of (width share, heading, lines) over a
+    caution strip. The first line of the first cell (the panel's name) is set large."""
     g = fig.sheet_group("title", stroke=INK)
     x0, y0 = _MARGIN, fig.title_top
     w, h = fig.width - 2 * _MARGIN, _TITLE_BLOCK
@@ -641,26 +679,34 @@ def _draw_title_block(fig: Figure, panel: Panel, case: str, date: str, n_element
     strip = 6.0
     g.add(fig.dwg.line(start=(_fmt(x0), _fmt(y0 + h - strip)), end=(_fmt(x0 + w), _fmt(y0 + h - strip)),
                        stroke_width="0.25"))
-    m = panel.material
-    cells = [
-        (0.34, "PANEL", [panel.name, f"load case: {case}"]),
-        (0.26, "MATERIAL", [f"E = {m.E_MPa:g} MPa, \u03bd = {m.nu:g}", m.name]),
-        (0.2, "SECTION", [f"thickness {panel.thickness_mm:g} mm", f"{panel.width_mm:g} \u00d7 {panel.height_mm:g} mm"]),
-        (0.2, "FIGURE", [f"date {date}", f"1:{fig.scale}, {n_elements} elements"]),
-    ]
     x = x0
-    for share, head, lines in cells:
+    for k, (share, head, lines) in enumerate(cells):
         cw = w * share
         if x > x0:
             g.add(fig.dwg.line(start=(_fmt(x), _fmt(y0)), end=(_fmt(x), _fmt(y0 + h - strip)), stroke_width="0.25"))
         fig.text(g, head, (x + 2.0, y0 + 3.6), 2.0, weight="bold", fill="#555555")
         for i, line in enumerate(lines):
-            big = head == "PANEL" and i == 0
+            big = k == 0 and i == 0
             line, size = _fit(line, cw - 4.0, 4.0 if big else 3.0)
             fig.text(g, line, (x + 2.0, y0 + (9.0 if big else 8.6) + i * 5.0), size, weight="bold" if big else "normal")
         x += cw
     fig.text(g, CAUTION, (x0 + 2.0, y0 + h - strip + 4.0), 2.7, style="italic")
     fig.text(g, "lacuna", (x0 + w - 2.0, y0 + h - strip + 4.0), 2.7, anchor="end", weight="bold")
+
+
+def _material_lines(panel: Panel) -> list[str]:
+    m = panel.material
+    return [f"E = {m.E_MPa:g} MPa, \u03bd = {m.nu:g}", m.name]
+
+
+def _section_lines(panel: Panel) -> list[str]:
+    return [f"thickness {panel.thickness_mm:g} mm", f"{panel.width_mm:g} \u00d7 {panel.height_mm:g} mm"]
+
+
+def _date_text(date) -> str:
+    if date is None:
+        date = _dt.date.today()
+    return date.isoformat() if isinstance(date, _dt.date) else str(date)
 
 
 # --------------------------------------------------------------------------------------------- public
@@ -706,9 +752,7 @@ def analysis_svg(
     else:
         magnification = deflection_scale_for(umax, panel.width_mm, panel.height_mm)
 
-    if date is None:
-        date = _dt.date.today()
-    date_text = date.isoformat() if isinstance(date, _dt.date) else str(date)
+    date_text = _date_text(date)
 
     fig = Figure(panel)
     solid = panel.solid
@@ -721,7 +765,12 @@ def analysis_svg(
     _draw_supports(fig, panel)
     _draw_loads(fig, panel, case)
     _draw_legend(fig, vmax, peak_t, peak_c, magnification, umax)
-    _draw_title_block(fig, panel, case, date_text, int(drawn.sum()))
+    _draw_title_block(fig, [
+        (0.34, "PANEL", [panel.name, f"load case: {case}"]),
+        (0.26, "MATERIAL", _material_lines(panel)),
+        (0.2, "SECTION", _section_lines(panel)),
+        (0.2, "FIGURE", [f"date {date_text}", f"1:{fig.scale}, {int(drawn.sum())} elements"]),
+    ])
     fig.drawing.attribs["data-stress-limit-MPa"] = f"{vmax:g}"
     if magnification:
         fig.drawing.attribs["data-deflection-scale"] = f"{magnification:g}"

@@ -152,10 +152,12 @@ def _check_void(v: Void) -> None:
                           where=_void_where(v), hint="Redraw the outline so that it does not cross itself.")
 
 
-def _stadium_axis(v: Void) -> LineString | None:
+def _stadium_axis(v: Void) -> LineString | Point | None:
     half = (v.length_mm - v.size_mm) / 2.0
     if not (v.size_mm > 0 and half >= 0):
         return None
+    if half < 1e-9:  # as long as it is wide: a circle (a zero-length line upsets the distance code)
+        return Point(v.centre)
     a = math.radians(v.angle_deg)
     d = np.array([math.cos(a), math.sin(a)]) * half
     c = np.asarray(v.centre, dtype=float)

@@ -127,6 +127,10 @@ def fit_polygon(target: Polygon, sides: int, *, allowed=None, refine: bool = Tru
     if refine:
         corners = _refine(corners, cost, max_evaluations, math.sqrt(area))
     poly = Polygon(corners)
+    if not (np.all(np.isfinite(corners)) and poly.is_valid and poly.area > 0.0):
+        # A degenerate fit (a void far thinner than any n-gon): the regular n-gon of the void's area instead.
+        corners = _affine_ngon(np.array([cx, cy, base, math.sqrt(ab), math.sqrt(ab)]), n)
+        poly = Polygon(corners)
     _, (px, py), _ = second_moments(poly)
     rel = corners - (px, py)
     size = 2.0 * float(np.max(np.linalg.norm(rel, axis=1)))
@@ -171,20 +175,25 @@ def _refine(corners: np.ndarray, cost, max_evaluations: int, scale: float) -> np
         return phi0 + q[:n] / scale, h0 + q[n:]
 
     def f(q):
+        if not np.all(np.isfinite(q)):
+            return 1e6
         phi, h = unpack(q)
         turns = np.diff(np.append(phi, phi[0] + 2.0 * np.pi))
         pts, lengths = _halfplane_vertices(phi, h, centre)
         bad = np.sum(np.maximum(min_side - lengths, 0.0)) / scale + np.sum(np.maximum(-turns, 0.0))
         bad += np.sum(np.maximum(turns - (np.pi - 1e-6), 0.0)) + np.sum(np.maximum(MIN_TURN - turns, 0.0))
-        if bad > 0.0 or not np.all(np.isfinite(pts)):
+        if not (np.all(np.isfinite(pts)) and math.isfinite(bad)):
+            return 1e6
+        if bad > 0.0:
             return 10.0 + bad
         return cost(shapely.polygons(pts))
 
     q0 = np.zeros(2 * n)
     res = minimize(f, q0, method="Powell",
                    options={"maxfev": max_evaluations, "xtol": 1e-3 * scale, "ftol": 1e-6})
-    if res.fun >= f(q0):
-        return corners
+    start = f(q0)
+    if not (math.isfinite(res.fun) and res.fun < start and f(res.x) < min(start, 10.0)):
+        return corners  # only a valid n-gon that fits better replaces the start
     pts, _ = _halfplane_vertices(*unpack(res.x), centre)
     return pts
 

@@ -307,8 +307,10 @@ def mean_over(shape, sample, spacing: float | None) -> float:
     minx, miny, maxx, maxy = shape.bounds
     h = spacing or math.sqrt(shape.area) / 20.0
     h = max(h, math.sqrt(shape.area) / 60.0)  # at most a few thousand points per shape
-    xs = np.arange(minx + h / 2.0, maxx, h)
-    ys = np.arange(miny + h / 2.0, maxy, h)
+    # Cell midpoints of an even split of the bounds (the midpoint rule).
+    mx, my = max(1, math.ceil((maxx - minx) / h)), max(1, math.ceil((maxy - miny) / h))
+    xs = minx + (np.arange(mx) + 0.5) * (maxx - minx) / mx
+    ys = miny + (np.arange(my) + 0.5) * (maxy - miny) / my
     x, y = np.meshgrid(xs, ys)
     inside = shapely.contains_xy(shape, x.ravel(), y.ravel())
     pts = np.column_stack([x.ravel()[inside], y.ravel()[inside]])

@@ -1,0 +1,252 @@
+"""The whole rationalising step: rules kept (proved twice), sides, stock sizes, types, ids, changes."""
+
+import math
+
+import numpy as np
+import pytest
+import shapely
+from hypothesis import HealthCheck, given, settings, strategies as st
+from shapely import affinity
+from shapely.geometry import LineString, Point, Polygon, box
+
+from toolkit.errors import LacunaError
+from toolkit.jobfile import DEFAULT_BORE_DIAMETERS_MM, VoidOptions
+from toolkit.model import Material, Panel, Region, Rules, Support
+from toolkit.rules.check import check_layout
+from toolkit.voids.layout import energy_sampler, mean_over, rationalise
+
+TIMBER = Material(E_MPa=11500, nu=0.3)
+
+
+def make_panel(w=2000.0, h=600.0, openings=(), supports=()):
+    return Panel(width_mm=w, height_mm=h, thickness_mm=40.0, material=TIMBER, openings=openings,
+                 supports=supports)
+
+
+# --- an independent measure of the rules: dense points on the true outlines, plain numpy distances -------------
+
+
+def boundary_points(v, step=0.5):
+    """Points along the void's true outline: circles and stadia from their defining numbers, polygons from
+    the (x, y, bulge) outline with every arc drawn from its centre."""
+    if v.family == "bore":
+        n = max(64, int(math.pi * v.size_mm / step))
+        a = np.linspace(0, 2 * np.pi, n, endpoint=False)
+        return np.column_stack([v.centre[0] + v.size_mm / 2 * np.cos(a), v.centre[1] + v.size_mm / 2 * np.sin(a)])
+    pts = []
+    out = v.outline
+    for i, (x0, y0, bulge) in enumerate(out):
+        x1, y1, _ = out[(i + 1) % len(out)]
+        chord = math.hypot(x1 - x0, y1 - y0)
+        if bulge == 0.0:
+            t = np.linspace(0, 1, max(2, int(chord / step)), endpoint=False)
+            pts.append(np.column_stack([x0 + t * (x1 - x0), y0 + t * (y1 - y0)]))
+            continue
+        theta = 4 * math.atan(bulge)
+        radius = chord / (2 * math.sin(theta / 2))
+        mx, my = (x0 + x1) / 2, (y0 + y1) / 2
+        nx, ny = -(y1 - y0) / chord, (x1 - x0) / chord
+        d = radius * math.cos(theta / 2)
+        cx, cy = mx + nx * d, my + ny * d
+        a0 = math.atan2(y0 - cy, x0 - cx)
+        a = a0 + theta * np.linspace(0, 1, max(8, int(abs(theta * radius) / step)), endpoint=False)
+        pts.append(np.column_stack([cx + abs(radius) * np.cos(a), cy + abs(radius) * np.sin(a)]))
+    return np.concatenate(pts)
+
+
+def brute_force_problems(panel, voids, rules, allowed_pts_tol=0.6):
+    """Rule breaks found without shapely: edge cover and webs by point distances, overlaps by containment."""
+    problems = []
+    pts = [boundary_points(v) for v in voids]
+    for v, p in zip(voids, pts):
+        edge = np.min(np.concatenate([p[:, 0], panel.width_mm - p[:, 0], p[:, 1], panel.height_mm - p[:, 1]]))
+        if edge < rules.edge_cover_mm - allowed_pts_tol:
+            problems.append(f"{v.id} edge {edge:.2f}")
+    for i in range(len(voids)):
+        for j in range(i):
+            d = np.min(np.linalg.norm(pts[i][:, None, :] - pts[j][None, :, :], axis=2))
+            if d < rules.min_web_mm - allowed_pts_tol:
+                problems.append(f"{voids[i].id}-{voids[j].id} web {d:.2f}")
+            if voids[j].shape.contains(Point(voids[i].centre)) or voids[i].shape.contains(Point(voids[j].centre)):
+                problems.append(f"{voids[i].id}-{voids[j].id} overlap")
+    return problems
+
+
+# --- random void sets and rules ----------------------------------------------------------------------------------
+
+
+@st.composite
+def scenes(draw):
+    w = draw(st.floats(800, 2400))
+    h = draw(st.floats(350, 900))
+    rules = Rules(min_web_mm=draw(st.floats(0, 80)), edge_cover_mm=draw(st.floats(0, 90)),
+                  min_void_mm=draw(st.floats(10, 40)), bearing_clearance_mm=100.0)
+    shapes = []
+    for _ in range(draw(st.integers(1, 5))):
+        cx, cy = draw(st.floats(0.05, 0.95)) * w, draw(st.floats(0.05, 0.95)) * h
+        r = draw(st.floats(15, 150))
+        kind = draw(st.sampled_from(["circle", "ellipse", "box"]))
+        if kind == "circle":
+            g = Point(cx, cy).buffer(r, quad_segs=12)
+        elif kind == "ellipse":
+            g = affinity.rotate(affinity.scale(Point(cx, cy).buffer(r, quad_segs=12), draw(st.floats(1, 3)), 1),
+                                draw(st.floats(0, 180)))
+        else:
+            g = affinity.rotate(box(cx - r, cy - r / 2, cx + r, cy + r / 2), draw(st.floats(0, 180)))
+        g = g.intersection(box(0, 0, w, h))
+        if not g.is_empty and g.area > 1:
+            shapes.append(g)
+    merged = shapely.union_all(shapes)
+    freeform = [p for p in shapely.get_parts(merged) if isinstance(p, Polygon)]
+    opts = VoidOptions(family=draw(st.sampled_from(["polygon", "slot", "bore", "mixed"])),
+                       sides=draw(st.integers(3, 12)), max_types=draw(st.integers(1, 3)),
+                       snap_mm=draw(st.sampled_from([0.0, 5.0, 10.0])),
+                       corner=draw(st.sampled_from(["none", "none", "radius", "chamfer"])), corner_size_mm=6.0)
+    openings = ()
+    if draw(st.booleans()):
+        ox, oy = draw(st.floats(0.2, 0.8)) * w, draw(st.floats(0.3, 0.7)) * h
+        openings = (Region(box(ox - 40, oy - 40, ox + 40, oy + 40), "OPENING"),)
+    supports = (Support(((0.0, 0.0), (150.0, 0.0))),)
+    return make_panel(w, h, openings, supports), freeform, opts, rules
+
+
+def check_scene(panel, freeform, opts, rules):
+    try:
+        res = rationalise(panel, freeform, opts, rules)
+    except LacunaError as err:  # the rules may leave no room at all: must be said in words, with a key
+        assert "no void can be placed" in str(err) and err.where
+        return
+    voids = res.voids
+    # the proof inside, the proof again here, and the independent measure
+    assert res.violations == ()
+    assert check_layout(panel, voids, rules) == []
+    assert brute_force_problems(panel, voids, rules) == []
+    for v in voids:
+        if v.family == "polygon":
+            assert v.sides == opts.sides
+            assert len(v.outline) == opts.sides * (1 if opts.corner == "none" else 2)
+        if v.family == "bore":
+            assert v.size_mm in DEFAULT_BORE_DIAMETERS_MM
+        if v.family == "slot":
+            assert v.size_mm in DEFAULT_BORE_DIAMETERS_MM  # slot widths default to the bit sizes
+    assert len({(v.family, round(v.size_mm, 6)) for v in voids}) <= opts.max_types
+    assert [v.id for v in voids] == [f"V{k}" for k in range(1, len(voids) + 1)]
+    assert [(v.centre[0], v.centre[1]) for v in voids] == sorted((v.centre[0], v.centre[1]) for v in voids)
+
+
+@settings(max_examples=8, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(scenes())
+def test_no_output_breaks_a_rule(scene):
+    check_scene(*scene)
+
+
+@pytest.mark.slow
+@settings(max_examples=150, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(scenes())
+def test_no_output_breaks_a_rule_long(scene):
+    check_scene(*scene)
+
+
+# --- shapes that already are what a shop makes come back as themselves ---------------------------------------------
+
+
+RULES = Rules(min_web_mm=40.0, edge_cover_mm=50.0, min_void_mm=20.0, bearing_clearance_mm=0.0)
+
+
+def test_hexagon_stadium_and_circle_come_back_within_snap():
+    hexagon = Polygon([(400 + 60 * math.cos(a), 300 + 60 * math.sin(a)) for a in np.radians(np.arange(0, 360, 60))])
+    stadium = LineString([(900, 300), (1000, 300)]).buffer(25, quad_segs=32)  # 50 wide, 150 long
+    circle = Point(1500, 300).buffer(32.5, quad_segs=32)                         # 65 across
+    snap = 5.0
+    for family, target, size in (("polygon", hexagon, 120.0), ("slot", stadium, 50.0), ("bore", circle, 65.0)):
+        res = rationalise(make_panel(), [target], VoidOptions(family=family, sides=6, snap_mm=snap), RULES)
+        (v,) = res.voids
+        assert v.size_mm == pytest.approx(size, abs=snap)
+        assert math.dist(v.centre, target.centroid.coords[0]) <= snap
+        assert res.fit_errors[0][1] < 0.1
+        assert res.violations == ()
+    slot = rationalise(make_panel(), [stadium], VoidOptions(family="slot", snap_mm=snap), RULES).voids[0]
+    assert slot.length_mm == pytest.approx(150.0, abs=snap) and slot.angle_deg % 180 == pytest.approx(0.0, abs=1)
+
+
+def test_void_too_near_the_edge_is_moved_or_shrunk_and_said_so():
+    near = Point(90, 300).buffer(40)  # 50 mm from the left edge; the cover is 50 mm, the allowed region starts there
+    res = rationalise(make_panel(), [near], VoidOptions(family="bore", snap_mm=0.0), RULES)
+    (v,) = res.voids
+    assert v.centre[0] - v.size_mm / 2 >= 50.0 - 1e-6
+    assert res.violations == ()
+
+
+def test_two_voids_too_close_keep_the_web():
+    a, b = Point(500, 300).buffer(60), Point(630, 300).buffer(60)  # 10 mm apart, web 40
+    res = rationalise(make_panel(), [a, b], VoidOptions(family="polygon", sides=8, snap_mm=0.0), RULES)
+    assert len(res.voids) == 2
+    assert res.voids[0].shape.distance(res.voids[1].shape) >= 40.0
+    assert any("web" in c for c in res.changes)
+
+
+def test_max_types_holds_with_many_sizes():
+    voids = [Point(150 + 170 * k, 300).buffer(30 + 6 * k) for k in range(10)]
+    res = rationalise(make_panel(), voids, VoidOptions(family="polygon", sides=6, max_types=2), RULES)
+    assert len({v.size_mm for v in res.voids}) <= 2
+    assert res.violations == ()
+
+
+def test_ids_run_left_to_right():
+    voids = [Point(x, 300).buffer(40) for x in (1500, 300, 900)]
+    res = rationalise(make_panel(), voids, VoidOptions(family="bore", snap_mm=5), RULES)
+    xs = [v.centre[0] for v in res.voids]
+    assert [v.id for v in res.voids] == ["V1", "V2", "V3"] and xs == sorted(xs)
+
+
+def test_impossible_rules_said_plainly():
+    rules = Rules(edge_cover_mm=300.0, min_web_mm=40.0, min_void_mm=20.0)
+    with pytest.raises(LacunaError) as err:
+        rationalise(make_panel(h=500.0), [Point(900, 250).buffer(60)], VoidOptions(), rules)
+    assert "no void can be placed" in str(err.value) and "edge_cover" in err.value.where
+
+
+@pytest.mark.parametrize("key, opts", [
+    ("[voids] family", VoidOptions(family="hexagon")),
+    ("[voids] sides", VoidOptions(sides=2)),
+    ("[voids] bore_diameters", VoidOptions(bore_diameters_mm=())),
+    ("[voids] max_types", VoidOptions(max_types=0)),
+    ("[voids] corner_size", VoidOptions(corner="radius", corner_size_mm=None)),
+])
+def test_bad_settings_name_the_key(key, opts):
+    with pytest.raises(LacunaError) as err:
+        rationalise(make_panel(), [Point(900, 300).buffer(60)], opts, RULES)
+    assert err.value.where == key and err.value.hint
+
+
+# --- the mixed family's measure --------------------------------------------------------------------------------
+
+
+def test_mean_over_a_linear_field_is_its_value_at_the_centroid():
+    # The mean of a linear function over a region is its value at the centroid (definition of the centroid).
+    shape = box(100, 50, 300, 150)
+    assert mean_over(shape, lambda p: 2.0 * p[:, 0] + p[:, 1], 1.0) == pytest.approx(2 * 200 + 100, rel=1e-9)
+
+
+def test_energy_on_the_grid_is_read_per_element():
+    from toolkit.fe.grid import Grid
+
+    grid = Grid(nx=4, ny=2, dx=10.0, dy=10.0)
+    sample, spacing = energy_sampler((grid, np.arange(8.0)))
+    assert sample(np.array([[5.0, 5.0], [35.0, 15.0]])).tolist() == [0.0, 7.0] and spacing == 5.0
+    with pytest.raises(LacunaError) as err:
+        energy_sampler((grid, np.arange(7.0)))
+    assert err.value.where == "energy"
+
+
+def test_mixed_picks_the_family_that_removes_idle_material():
+    # A long void: the slot takes its whole length, the bores only part of it, an n-gon spills past its
+    # sides. With the energy high just outside the void's long sides, the n-gon's spill costs most; with no
+    # field the least fit error (the slot) decides.
+    target = LineString([(600, 300), (900, 300)]).buffer(25, quad_segs=32)
+    opts = VoidOptions(family="mixed", sides=4, max_types=3, snap_mm=0.0)
+    plain = rationalise(make_panel(), [target], opts, RULES)
+    assert {v.family for v in plain.voids} == {"slot"}
+    hot_outside = lambda p: np.where(target.buffer(-0.5).contains(shapely.points(p)), 1.0, 100.0)  # noqa: E731
+    res = rationalise(make_panel(), [target], opts, RULES, energy=hot_outside)
+    assert {v.family for v in res.voids} <= {"slot", "bore"}
