@@ -22,10 +22,11 @@ import shapely
 import svgwrite
 from shapely.geometry import MultiPolygon, Polygon
 
-from . import palette
+from . import dxf_out, palette
 from .errors import LacunaError
+from .fe.fractions import solid_fractions
 from .fe.stress import principal_stresses
-from .model import LineLoad, Panel, PointLoad, Support
+from .model import LineLoad, Panel, PointLoad, Support, Void
 
 SHEET_WIDTH_MM = 260.0
 CAUTION = (
@@ -247,38 +248,42 @@ def _area_path(geom) -> str:
 # --------------------------------------------------------------------------------------------- checks
 
 
-def _check_inputs(panel: Panel, grid, fractions, displacement, stress, case: str):
-    ne = grid.nx * grid.ny
-    ndof = 2 * (grid.nx + 1) * (grid.ny + 1)
-    fractions = np.asarray(fractions, dtype=float)
-    displacement = np.asarray(displacement, dtype=float)
-    stress = np.asarray(stress, dtype=float)
-    for name, array, shape in (
-        ("fractions", fractions, (ne,)),
-        ("displacement", displacement, (ndof,)),
-        ("stress", stress, (ne, 3)),
-    ):
-        if array.shape != shape:
-            raise LacunaError(
-                f"the {name} array has shape {array.shape}, but the {grid.nx} x {grid.ny} grid needs {shape}.",
-                where="analysis figure",
-                hint="Pass the arrays of the same analysis as the grid.",
-            )
-        if not np.all(np.isfinite(array)):
-            raise LacunaError(
-                f"the {name} array holds {int(np.sum(~np.isfinite(array)))} values that are not finite numbers.",
-                where="analysis figure",
-                hint="The analysis did not converge to a usable result; check supports and loads.",
-            )
+def _checked_array(values, shape, name: str, grid, where: str = "result figure") -> np.ndarray:
+    array = np.asarray(values, dtype=float)
+    if array.shape != shape:
+        raise LacunaError(
+            f"the {name} array has shape {array.shape}, but the {grid.nx} x {grid.ny} grid needs {shape}.",
+            where=where,
+            hint="Pass the arrays of the same run as the grid.",
+        )
+    if not np.all(np.isfinite(array)):
+        raise LacunaError(
+            f"the {name} array holds {int(np.sum(~np.isfinite(array)))} values that are not finite numbers.",
+            where=where,
+            hint="The analysis behind it did not give a usable result; check supports and loads.",
+        )
+    return array
+
+
+def _check_grid(panel: Panel, grid, where: str) -> None:
     if abs(grid.nx * grid.dx - panel.width_mm) > 1e-6 * panel.width_mm or abs(
         grid.ny * grid.dy - panel.height_mm
     ) > 1e-6 * panel.height_mm:
         raise LacunaError(
             f"the grid covers {grid.nx * grid.dx:g} x {grid.ny * grid.dy:g} mm but the panel is "
             f"{panel.width_mm:g} x {panel.height_mm:g} mm.",
-            where="analysis figure",
+            where=where,
             hint="Build the grid from this panel's envelope.",
         )
+
+
+def _check_inputs(panel: Panel, grid, fractions, displacement, stress, case: str):
+    ne = grid.nx * grid.ny
+    ndof = 2 * (grid.nx + 1) * (grid.ny + 1)
+    fractions = _checked_array(fractions, (ne,), "fractions", grid, "analysis figure")
+    displacement = _checked_array(displacement, (ndof,), "displacement", grid, "analysis figure")
+    stress = _checked_array(stress, (ne, 3), "stress", grid, "analysis figure")
+    _check_grid(panel, grid, "analysis figure")
     if case not in panel.cases:
         raise LacunaError(
             f"load case {case!r} is not in this panel.",
@@ -774,4 +779,319 @@ def analysis_svg(
     fig.drawing.attribs["data-stress-limit-MPa"] = f"{vmax:g}"
     if magnification:
         fig.drawing.attribs["data-deflection-scale"] = f"{magnification:g}"
+    return fig.tostring()
+
+
+# --------------------------------------------------------------------------------------------- result sheet
+
+# Material-state greys (our own): CIE L* from pale to dark in equal steps, so equal steps of density read as
+# equal steps of grey; the first class (under 1/8 of an element's material) is left as paper, i.e. void.
+DENSITY_CLASSES = 8
+_DENSITY_L = (97.0, 38.0)  # L* of the palest drawn class's lower edge and of full material
+_DENSITY_TINT = (0.0, 1.5)  # a* b*: a hair warm, to sit with the stress scale's paper-white middle
+VOID_FILL = "#ffffff"  # voids to make are cut through: they show the paper
+SHOWN = 1.0 / DENSITY_CLASSES  # material state below which an element is drawn as void
+
+# The output layers of CONTRACT.md in drawing order, and what draws on each.
+RESULT_LAYERS = tuple(look.name.lower() for look in dxf_out.LOOKS)
+_LOOK = {look.name.lower(): look for look in dxf_out.LOOKS}
+_VOID_GROUP = {family: name.lower() for family, name in dxf_out.VOID_LAYERS.items()}
+
+
+def density_colours() -> list[str]:
+    """Colour of each material-state class 0 .. DENSITY_CLASSES-1 (class 0, void, as paper white)."""
+    mids = (np.arange(DENSITY_CLASSES) + 0.5) / DENSITY_CLASSES
+    lightness = _DENSITY_L[0] + (_DENSITY_L[1] - _DENSITY_L[0]) * (mids - mids[1]) / (mids[-1] - mids[1])
+    lab = np.column_stack([lightness, np.full_like(mids, _DENSITY_TINT[0]), np.full_like(mids, _DENSITY_TINT[1])])
+    colours = [palette.rgb_to_hex(c) for c in palette.linear_to_srgb(palette.lab_to_linear(lab))]
+    colours[0] = VOID_FILL
+    return colours
+
+
+def density_classes(state) -> np.ndarray:
+    """Class 0 .. DENSITY_CLASSES-1 of each material state in [0, 1] (1 goes to the top class)."""
+    state = np.clip(np.asarray(state, dtype=float), 0.0, 1.0)
+    return np.minimum((state * DENSITY_CLASSES).astype(np.int64), DENSITY_CLASSES - 1)
+
+
+def material_state(panel: Panel, grid, densities) -> tuple[np.ndarray, np.ndarray]:
+    """(state, fractions): each element's material state with the drawn solid fraction divided out, and that
+    fraction. An element half cut by an opening but kept by the optimiser has density 0.5 and state 1; the
+    clip to the solid outline then draws exactly its half."""
+    fractions = solid_fractions(grid, panel.solid)
+    densities = _checked_array(densities, (grid.nx * grid.ny,), "densities", grid)
+    state = np.divide(densities, fractions, out=np.zeros_like(densities), where=fractions > 0.0)
+    return np.clip(state, 0.0, 1.0), fractions
+
+
+def _exact(v: float) -> str:
+    """Shortest text that reads back as exactly the same float (bore radii must equal the drawing's)."""
+    text = repr(float(v))
+    return text[:-2] if text.endswith(".0") else text
+
+
+def arc_radius(chord: float, bulge: float) -> float:
+    """Radius of the arc of ``bulge`` = tan(sweep / 4) over a chord: chord (1 + b^2) / (4 |b|)."""
+    return chord * (1.0 + bulge * bulge) / (4.0 * abs(bulge))
+
+
+def outline_path(outline) -> str:
+    """SVG path data of a closed run of (x, y, bulge) vertices: straight sides as L, arcs as true arcs (A).
+
+    The path is meant for a group in the local frame (y up). SVG's sweep flag 1 turns the arc towards increasing
+    angle in the coordinates it is drawn in, which in the local frame is counter-clockwise: the sense of a
+    positive bulge. The group's flip to paper turns both together, so the arc keeps its side.
+    """
+    v = np.asarray(outline, dtype=float)
+    n = len(v)
+    parts = [f"M{_fmt(v[0, 0], 4)} {_fmt(v[0, 1], 4)}"]
+    for i in range(n):
+        x1, y1 = v[(i + 1) % n, :2]
+        b = v[i, 2]
+        end = f"{_fmt(x1, 4)} {_fmt(y1, 4)}"
+        if b == 0.0:
+            if i < n - 1:
+                parts.append(f"L{end}")
+            continue
+        chord = math.hypot(x1 - v[i, 0], y1 - v[i, 1])
+        r = _fmt(arc_radius(chord, b), 4)
+        parts.append(f"A{r} {r} 0 {1 if abs(b) > 1.0 else 0} {1 if b > 0 else 0} {end}")
+    return "".join(parts) + "Z"
+
+
+def _void_label_anchor(void: Void) -> np.ndarray:
+    """Where the outline meets the ray from the centre up and to the right (local mm): the label sits beyond."""
+    c = np.asarray(void.centre, dtype=float)
+    if void.family == "bore":
+        return c + void.size_mm / 2.0 * np.array([math.sqrt(0.5), math.sqrt(0.5)])
+    reach = 2.0 * max(void.length_mm, void.size_mm, 1.0) + float(np.ptp(np.asarray(void.shape.bounds)))
+    ray = shapely.LineString([c, c + reach * np.array([math.sqrt(0.5), math.sqrt(0.5)])])
+    hits = shapely.get_coordinates(shapely.intersection(void.shape.boundary, ray))
+    if len(hits) == 0:
+        return c
+    return hits[np.argmax(np.hypot(*(hits - c).T))]
+
+
+def _as_marker(item, k: int):
+    """A check marker from a :class:`toolkit.rules.check.Violation`, a dxf_out Marker or a check-JSON mapping."""
+    if hasattr(item, "to_json") and hasattr(item, "rule"):
+        item = item.to_json()
+    return dxf_out._marker(item, k)
+
+
+def _draw_result_layers(fig: Figure, voids: Sequence[Void], freeform, markers) -> None:
+    """The CONTRACT.md output layers, each a group (present even when empty, so a viewer can toggle it)."""
+    p = fig.paper
+    looks = {name: palette.rgb_to_hex(np.asarray(look.rgb) / 255.0) for name, look in _LOOK.items()}
+    bold, thin = _fmt(p(0.6), 4), _fmt(p(0.25), 4)
+    g = {}
+    for name in RESULT_LAYERS:
+        look = _LOOK[name]
+        if name == "lacuna-freeform":
+            attrs = dict(fill="none", stroke=looks[name], stroke_width=thin, stroke_linejoin="round",
+                         stroke_dasharray=f"{_fmt(p(1.6), 4)} {_fmt(p(0.8), 4)}")
+        elif name in _VOID_GROUP.values():
+            attrs = dict(fill=VOID_FILL, stroke=looks[name], stroke_width=bold, stroke_linejoin="round")
+        elif name == "lacuna-centre":
+            attrs = dict(fill="none", stroke=looks[name], stroke_width=_fmt(p(0.18), 4))
+        elif name == "lacuna-check":
+            attrs = dict(fill="none", stroke=looks[name], stroke_width=_fmt(p(0.35), 4))
+        else:
+            attrs = {}
+        g[name] = fig.layer(name, **attrs, **{"data-layer": look.name})
+
+    for ring in dxf_out._freeform_rings(freeform):
+        g["lacuna-freeform"].add(fig.dwg.path(d=_points(ring)))
+    for void in voids:
+        dxf_out._check_void(void)
+        group = g[_VOID_GROUP[void.family]]
+        tag = {"data-void-id": void.id}
+        if void.family == "bore":
+            cx, cy = void.centre
+            group.add(fig.dwg.circle(center=(_exact(cx), _exact(cy)), r=_exact(void.size_mm / 2.0), **tag))
+        else:
+            outline = void.outline or tuple((x, y, 0.0) for x, y in list(void.shape.exterior.coords)[:-1])
+            group.add(fig.dwg.path(d=outline_path(outline), **tag))
+        # Crosses about 3 mm on paper, never longer than the void is wide.
+        half = min(p(1.5), 0.35 * void.size_mm)
+        cx, cy = void.centre
+        g["lacuna-centre"].add(fig.dwg.path(
+            d=f"M{_fmt(cx - half)} {_fmt(cy)}h{_fmt(2 * half)}M{_fmt(cx)} {_fmt(cy - half)}v{_fmt(2 * half)}", **tag))
+        at = _void_label_anchor(void) + p(0.6)
+        label = fig.text(g["lacuna-note"], void.id, (at[0], at[1]), 2.3, weight="bold", fill=looks["lacuna-note"],
+                         local=True)
+        _halo(label, fig)
+        label.attribs["data-void-id"] = void.id
+    for m in markers:
+        r = m.radius_mm if m.radius_mm is not None else p(2.5)
+        x, y = m.where
+        g["lacuna-check"].add(fig.dwg.circle(center=(_fmt(x), _fmt(y)), r=_fmt(r, 4)))
+        label = fig.text(g["lacuna-check"], m.label, (x + r * math.sqrt(0.5) + p(0.5), y + r * math.sqrt(0.5)),
+                         2.0, fill=looks["lacuna-check"], local=True)
+        _halo(label, fig)
+
+
+def _halo(text_element, fig: Figure) -> None:
+    """A paper-white casing behind lettering set over the underlay, painted under the glyphs."""
+    text_element.attribs.update({"stroke": "#ffffff", "stroke-width": _fmt(0.5, 3), "stroke-linejoin": "round",
+                                 "paint-order": "stroke"})
+
+
+def _layer_key_rows() -> list:
+    looks = {name: palette.rgb_to_hex(np.asarray(look.rgb) / 255.0) for name, look in _LOOK.items()}
+    rows = [
+        ("line", dict(stroke=INK, stroke_width="0.4"), "panel and openings as drawn"),
+        ("line", dict(stroke=INK, stroke_width="0.3", stroke_dasharray="2 1"), "zone kept solid"),
+    ]
+    for name in RESULT_LAYERS:
+        look = _LOOK[name]
+        colour = looks[name]
+        if name in _VOID_GROUP.values():
+            sample = ("area", dict(fill=VOID_FILL, stroke=colour, stroke_width="0.6"))
+        elif name == "lacuna-freeform":
+            sample = ("line", dict(stroke=colour, stroke_width="0.25", stroke_dasharray="1.6 0.8"))
+        elif name == "lacuna-centre":
+            sample = ("cross", dict(stroke=colour, stroke_width="0.18"))
+        elif name == "lacuna-note":
+            sample = ("label", dict(fill=colour))
+        else:
+            sample = ("ring", dict(stroke=colour, stroke_width="0.35"))
+        rows.append((*sample, f"{look.description} \u2014 layer {look.name}"))
+    return rows
+
+
+def _draw_density_bar(fig: Figure, g, x0: float, top: float) -> None:
+    """The material-state bar: paper white (void) to dark (solid), in its classes."""
+    bar_w, bar_h = 120.0, 5.0
+    bar_y = top + 9.0
+    fig.text(g, "Optimised layout: material kept in each element", (x0, top + 2.5), 2.8, weight="bold")
+    fig.text(g, "VOID", (x0, bar_y - 1.2), 2.6, weight="bold")
+    fig.text(g, "SOLID", (x0 + bar_w, bar_y - 1.2), 2.6, anchor="end", weight="bold")
+    colours = density_colours()
+    cw = bar_w / DENSITY_CLASSES
+    bar = fig.dwg.g(id="legend-density-bar")
+    g.add(bar)
+    for i, c in enumerate(colours):
+        bar.add(fig.dwg.rect((_fmt(x0 + i * cw, 3), _fmt(bar_y, 3)), (_fmt(cw + 0.02, 3), _fmt(bar_h)), fill=c,
+                             **{"data-from": _fmt(i / DENSITY_CLASSES, 4)}))
+    g.add(fig.dwg.rect((_fmt(x0, 3), _fmt(bar_y, 3)), (_fmt(bar_w), _fmt(bar_h)), fill="none", stroke=INK,
+                       stroke_width="0.2"))
+    for i in range(0, DENSITY_CLASSES + 1, 2):
+        x = x0 + i * cw
+        g.add(fig.dwg.line(start=(_fmt(x, 3), _fmt(bar_y + bar_h, 3)), end=(_fmt(x, 3), _fmt(bar_y + bar_h + 1.4, 3)),
+                           stroke=INK, stroke_width="0.2"))
+        fig.text(g, f"{i / DENSITY_CLASSES:g}", (x, bar_y + bar_h + 4.2), 2.5, anchor="middle")
+    fig.text(g, "Share of each element kept (elements cut by an opening: of the part inside the panel).",
+             (x0, bar_y + bar_h + 8.5), 2.4)
+
+
+_RESULT_LEGEND = 44.0
+
+
+def _draw_result_legend(fig: Figure, underlay: str, stress_range) -> None:
+    g = fig.sheet_group("legend")
+    x0, top = _MARGIN, fig.legend_top
+    if underlay == "density":
+        _draw_density_bar(fig, g, x0, top)
+    elif underlay == "stress":
+        _draw_stress_bar(fig, g, x0, top, *stress_range)
+    else:
+        fig.text(g, "No underlay: the voids over the panel as drawn.", (x0, top + 2.5), 2.8, weight="bold")
+    _draw_scale_bar(fig, x0, top + 29.0)
+    _draw_key(fig, g, x0 + 132.0, top, _layer_key_rows(), pitch=4.3)
+
+
+_UNDERLAYS = ("density", "stress", "none")
+_FAMILY_WORDS = {"polygon": ("n-gon", "n-gons"), "slot": ("slot", "slots"), "bore": ("bore", "bores")}
+
+
+def _void_count_text(voids: Sequence[Void]) -> str:
+    if not voids:
+        return "no voids to make"
+    counts = {f: sum(v.family == f for v in voids) for f in _FAMILY_WORDS}
+    parts = [f"{n} {_FAMILY_WORDS[f][n != 1]}" for f, n in counts.items() if n]
+    return f"{len(voids)} to make: " + ", ".join(parts)
+
+
+def result_svg(
+    panel: Panel,
+    grid,
+    *,
+    densities=None,
+    freeform=(),
+    voids: Iterable[Void] = (),
+    stress=None,
+    underlay: str = "density",
+    title: str | None = None,
+    profile: str = "",
+    volume_removed_percent: float | None = None,
+    mass_removed_kg: float | None = None,
+    date: _dt.date | str | None = None,
+    violations: Iterable = (),
+) -> str:
+    """The result sheet as SVG text: the voids to make over an underlay, at 1:N on a 260 mm wide sheet.
+
+    One group per output layer of CONTRACT.md (ids in lower case, present even when empty): voids to make
+    bold over a paper-white cut (slots and eased corners as true arcs, bores as circles of the drill's radius in
+    local mm), the optimiser's freeform outlines thin and dashed, centre crosses, void ids, and ``violations``
+    (rule checks: Violation values, check-JSON mappings or dxf_out Markers) ringed. ``underlay`` is "density"
+    (the optimised material state of ``densities`` (ne,) in greys; nothing when no densities are given),
+    "stress" (``stress`` (ne, 3) sx, sy, txy in MPa, drawn as on the analysis figure) or "none". The title block
+    names the panel, profile, the volume removed and the date, over the caution.
+    """
+    if underlay not in _UNDERLAYS:
+        raise LacunaError(f"unknown underlay {underlay!r}.", where="result figure",
+                          hint=f"Use one of: {', '.join(_UNDERLAYS)}.")
+    voids = list(voids)
+    markers = [_as_marker(m, k) for k, m in enumerate(violations)]
+    ne = grid.nx * grid.ny
+    _check_grid(panel, grid, "result figure")
+    solid = panel.solid
+    state = fractions = None
+    if densities is not None:
+        state, fractions = material_state(panel, grid, densities)
+    elif underlay == "density":
+        underlay = "none"
+    stress_range = None
+    if underlay == "stress":
+        if stress is None:
+            raise LacunaError("a stress underlay was asked for, but no stresses were given.", where="result figure",
+                              hint="Pass stress=(ne, 3) element stresses of one load case, or underlay='density'.")
+        stress = _checked_array(stress, (ne, 3), "stress", grid)
+        if fractions is None:
+            fractions = solid_fractions(grid, solid)
+        drawn = fractions > 0.0 if state is None else state >= SHOWN
+        dominant = dominant_principal(stress)
+        shown = dominant[drawn]
+        vmax = stress_limit(shown)
+        stress_range = (vmax, float(shown.max()) if shown.size else 0.0, float(shown.min()) if shown.size else 0.0)
+
+    fig = Figure(panel, legend_height=_RESULT_LEGEND)
+    what = {"density": "over the optimised layout", "stress": "over the stress of the layout analysed",
+            "none": "over the panel as drawn"}[underlay]
+    _draw_heading(fig, title or f"{panel.name}: voids to make",
+                  f"Scale 1:{fig.scale} on a {SHEET_WIDTH_MM:g} mm wide sheet; lengths in mm; voids {what}.")
+    if underlay == "density":
+        _draw_cells(fig, "density", grid, density_classes(state), state >= SHOWN, density_colours(), solid)
+    elif underlay == "stress":
+        _draw_stress(fig, grid, drawn, dominant, stress_range[0], solid)
+        fig.drawing.attribs["data-stress-limit-MPa"] = f"{stress_range[0]:g}"
+    _draw_outlines(fig, panel)
+    _draw_result_layers(fig, voids, freeform, markers)
+    _draw_supports(fig, panel)
+    for case in panel.cases:
+        _draw_loads(fig, panel, case)
+    _draw_result_legend(fig, underlay, stress_range)
+    removed = "volume removed: not stated"
+    if volume_removed_percent is not None:
+        removed = f"volume removed {volume_removed_percent:.1f} %"
+        if mass_removed_kg is not None:
+            removed += f" ({mass_removed_kg:.3g} kg)"
+    _draw_title_block(fig, [
+        (0.3, "PANEL", [panel.name, f"profile: {profile}" if profile else "profile: not stated"]),
+        (0.3, "VOIDS", [_void_count_text(voids), removed]),
+        (0.2, "SECTION", _section_lines(panel)),
+        (0.2, "FIGURE", [f"date {_date_text(date)}", f"1:{fig.scale}, {len(markers)} rule markers"]),
+    ])
+    fig.drawing.attribs["data-underlay"] = underlay
     return fig.tostring()

@@ -37,6 +37,7 @@ from shapely.geometry import Polygon
 from ..errors import LacunaError
 from ..jobfile import VoidOptions
 from ..model import Panel, Rules, Void
+from ..rules import check as rule_check
 from .fit import fit_bores, fit_error, fit_polygon, fit_slot
 from .measure import FreeformVoid, clean, inscribed_width
 from .outline import Draft
@@ -358,11 +359,9 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
 
     ``energy``: the solid panel's strain-energy density for the ``mixed`` family, as a function of points or
     a (grid, per-element values) pair. ``allowed``: the region open to voids; by default the one
-    ``rules.check.impossible_rules`` returns (``allowed_region``). Raises LacunaError when the rules leave no room for any
-    void or a setting is out of range.
+    ``rules.check.impossible_rules`` returns (``allowed_region``). Raises LacunaError when the rules leave no
+    room for any void or a setting is out of range.
     """
-    from ..rules import check as rule_check
-
     r = resolve_settings(settings, rules, panel.thickness_mm)
     region = rule_check.impossible_rules(panel, rules)  # raises, in words, when no void fits at all
     if allowed is None:
