@@ -93,6 +93,7 @@ def test_hole_beyond_the_outline():
     # bore d = 50 at x = 2990: reaches 2990 + 25 - 3000 = 15 mm beyond the right edge
     v = only(check_layout(panel(), [bore("V9", 2990, 250, 50)], RULES), "outside")
     assert v.measured == pytest.approx(15.0)
+    assert v.where == pytest.approx((3007.5, 250.0))  # midpoint of (3015, 250)-(3000, 250)
     assert not [x for x in check_layout(panel(), [bore("V9", 2990, 250, 50)], RULES) if x.rule == "edge_cover"]
 
 
@@ -120,6 +121,13 @@ def test_void_in_a_bearing_zone_of_a_segment_support():
     edge = np.array([200, 80]) + 20 * u
     assert v.where == pytest.approx(tuple((edge + np.array([150, 0])) / 2))
     assert "[[support]] 1" in v.message and v.handles == ("5E",)
+
+
+def test_support_segment_of_no_length_counts_as_a_point():
+    # (500, 0)-(500 + 1e-12, 0) is the point (500, 0); bore d = 50 at (500, 60): 60 - 25 = 35 mm < 100
+    p = panel(supports=(Support(points=((500.0, 0.0), (500.0 + 1e-12, 0.0))),))
+    v = only(check_layout(p, [bore("V5", 500, 60, 50)], RULES), "bearing_clearance")
+    assert v.measured == pytest.approx(35.0) and v.where == pytest.approx((500.0, 17.5))
 
 
 def test_void_over_a_point_load():
@@ -169,6 +177,24 @@ def test_overlapping_polygons():
     b = Void(id="P2", family="polygon", centre=(1120, 250), size_mm=141, shape=box(1070, 200, 1170, 300))
     v = only(check_layout(panel(), [a, b], RULES), "overlap")
     assert v.measured == pytest.approx(30.0, abs=0.01) and v.where[0] == pytest.approx(1085.0, abs=0.01)
+
+
+def test_overlaps_are_found_when_no_web_is_required():
+    # min_web 0: shapely's distance is 0 for touching and overlapping polygons alike; the overlap must still show.
+    # triangle with circumradius 8 centred on the opening's corner: the shared part is the right triangle
+    # (0,0) (8,0) (0, 8 tan 30 deg = 4.619), inradius (8 + 4.619 - 9.238) / 2 = 1.690 -> depth 3.381 mm
+    rules = Rules(min_web_mm=0, edge_cover_mm=0, min_void_mm=0, bearing_clearance_mm=0)
+    p = panel(openings=(Region(shape=box(1000, 250, 1020, 270), handle="O"),))
+    tri = ngon("T", 1000, 250, 16, 3)
+    v = only(check_layout(p, [tri], rules), "opening")
+    assert v.measured == pytest.approx(8 + 8 * math.tan(math.pi / 6) - math.hypot(8, 8 * math.tan(math.pi / 6)),
+                                       abs=0.01)
+    a, b = ngon("A", 1000, 250, 16, 3), ngon("B", 1000, 251, 16, 3)
+    assert only(check_layout(panel(), [a, b], rules), "overlap").void_ids == ("A", "B")
+    # squares edge to edge touch but do not overlap: no violation without a web rule
+    c = Void(id="C", family="polygon", centre=(0, 0), size_mm=1, shape=box(1000, 200, 1100, 300))
+    d = Void(id="D", family="polygon", centre=(0, 0), size_mm=1, shape=box(1100, 200, 1200, 300))
+    assert check_layout(panel(), [c, d], rules) == []
 
 
 def test_small_polygon():
@@ -221,8 +247,8 @@ def test_violation_json_in_drawing_units():
 
 def test_bad_voids_are_named():
     with pytest.raises(LacunaError) as e:
-        check_layout(panel(), [Void(id="V1", family="bore", centre=(500, 250), size_mm=50, shape=box(470, 220, 530, 280),
-                                    handle="2F", layer="VOIDS")], RULES)
+        check_layout(panel(), [Void(id="V1", family="bore", centre=(500, 250), size_mm=50,
+                                    shape=box(470, 220, 530, 280), handle="2F", layer="VOIDS")], RULES)
     assert e.value.where == "void V1 (layer VOIDS, handle 2F)" and "bore" in str(e.value)
     bow = Polygon([(0, 0), (10, 10), (10, 0), (0, 10)])
     with pytest.raises(LacunaError) as e:

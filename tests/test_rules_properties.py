@@ -16,7 +16,7 @@ from dataclasses import dataclass
 
 import numpy as np
 import pytest
-from hypothesis import HealthCheck, given, settings
+from hypothesis import HealthCheck, example, given, settings
 from hypothesis import strategies as st
 from scipy.spatial import cKDTree
 from shapely.geometry import LineString, Point, Polygon, box
@@ -187,18 +187,45 @@ def shapes(draw, width, height):
     return Shape("ngon", c, draw(st.floats(8, 90)), angle=draw(st.floats(0, math.pi)), sides=draw(st.integers(3, 12)))
 
 
+def _moved(s: Shape, c) -> Shape:
+    return Shape(s.kind, (float(c[0]), float(c[1])), s.r, s.half, s.angle, s.sides, s.corners)
+
+
+@st.composite
+def placed(draw, width, height, rules, previous):
+    """A shape placed freely, or near the threshold of a rule: its nearest point about the edge cover from an
+    edge, or about the required web from the previous shape (within +-12 mm), so that near misses are common."""
+    s = draw(shapes(width, height))
+    how = draw(st.sampled_from(["free", "edge", "pair"] if previous else ["free", "edge"]))
+    off = draw(st.floats(-12, 12))
+    if how == "edge":
+        pts = s.boundary(2.0) - s.c
+        side = draw(st.integers(0, 3))
+        along = draw(st.floats(0, 1)) * (width if side >= 2 else height)
+        if side == 0:
+            c = (rules.edge_cover_mm + off - pts[:, 0].min(), along)
+        elif side == 1:
+            c = (width - rules.edge_cover_mm - off - pts[:, 0].max(), along)
+        elif side == 2:
+            c = (along, rules.edge_cover_mm + off - pts[:, 1].min())
+        else:
+            c = (along, height - rules.edge_cover_mm - off - pts[:, 1].max())
+        return _moved(s, c)
+    if how == "pair":
+        p = previous[-1]
+        t = draw(st.floats(0, 2 * math.pi))
+        u = np.array([math.cos(t), math.sin(t)])
+        req = max(rules.min_web_mm, rules.web_ratio * max(p.extent, s.extent))
+        # reach of each shape along u, from its boundary samples: an estimate, exact for circles
+        reach = float((p.boundary(2.0) - p.c).dot(u).max() + (-(s.boundary(2.0) - s.c)).dot(u).max())
+        return _moved(s, np.asarray(p.c) + u * (reach + req + off))
+    return s
+
+
 @st.composite
 def scenes(draw):
     W = draw(st.floats(300, 1200))
     H = draw(st.floats(200, 600))
-    voids = draw(st.lists(shapes(W, H), min_size=1, max_size=7))
-    ox, oy = draw(st.floats(0, W - 100)), draw(st.floats(0, H - 80))
-    opening = Shape("rect", (0, 0), 0, corners=(ox, oy, ox + draw(st.floats(20, 100)), oy + draw(st.floats(20, 80))))
-    kx, ky = draw(st.floats(0, W - 100)), draw(st.floats(0, H - 80))
-    keep = Shape("rect", (0, 0), 0, corners=(kx, ky, kx + draw(st.floats(20, 100)), ky + draw(st.floats(20, 80))))
-    s0 = draw(st.floats(0, W / 2))
-    support = ((s0, 0.0), (s0 + draw(st.floats(0, 150)), 0.0))
-    load = (draw(st.floats(0, W)), H)
     rules = ProfileRules(
         min_web_mm=draw(st.floats(0, 80)), edge_cover_mm=draw(st.floats(0, 80)), min_void_mm=draw(st.floats(0, 60)),
         bearing_clearance_mm=draw(st.floats(0, 150)), bore_diameters_mm=STOCK, slot_widths_mm=(20.0, 40.0, 50.0),
@@ -206,6 +233,16 @@ def scenes(draw):
         min_void_per_thickness=draw(st.sampled_from((0.0, 1.5))),
         depth_band=draw(st.sampled_from((None, 0.5, 0.8))),
     )
+    voids: list[Shape] = []
+    for _ in range(draw(st.integers(1, 7))):
+        voids.append(draw(placed(W, H, rules, voids)))
+    ox, oy = draw(st.floats(0, W - 100)), draw(st.floats(0, H - 80))
+    opening = Shape("rect", (0, 0), 0, corners=(ox, oy, ox + draw(st.floats(20, 100)), oy + draw(st.floats(20, 80))))
+    kx, ky = draw(st.floats(0, W - 100)), draw(st.floats(0, H - 80))
+    keep = Shape("rect", (0, 0), 0, corners=(kx, ky, kx + draw(st.floats(20, 100)), ky + draw(st.floats(20, 80))))
+    s0 = draw(st.floats(0, W / 2))
+    support = ((s0, 0.0), (s0 + draw(st.floats(0, 150)), 0.0))
+    load = (draw(st.floats(0, W)), H)
     thickness = draw(st.floats(5, 40))
     return W, H, thickness, voids, opening, keep, support, load, rules
 
@@ -321,8 +358,27 @@ def _agreement(scene):
                     assert brute_to_geometry(b, np.array([v.where])) == pytest.approx(v.measured / 2, abs=2 * H_MM)
 
 
+_BARE = ProfileRules(min_web_mm=0, edge_cover_mm=0, min_void_mm=0, bearing_clearance_mm=0,
+                     bore_diameters_mm=STOCK, slot_widths_mm=(20.0, 40.0, 50.0))
+_SQUARE = Shape("rect", (0, 0), 0, corners=(0.0, 0.0, 20.0, 20.0))
+# Cases the long run once found: overlapping polygons with no web required (shapely's distance is 0 whether
+# they touch or overlap); a support segment of almost zero length (shapely's distance to it is NaN).
+_REGRESSIONS = [
+    (300.0, 200.0, 5.0, [Shape("ngon", (0.0, 24.0), 8.0, sides=3), Shape("ngon", (0.0, 25.0), 8.0, sides=3)],
+     _SQUARE, _SQUARE, ((0.0, 0.0), (0.0, 0.0)), (0.0, 200.0), _BARE),
+    (300.0, 200.0, 5.0, [Shape("ngon", (0.0, 0.0), 8.0, sides=3)], _SQUARE, _SQUARE, ((0.0, 0.0), (0.0, 0.0)),
+     (0.0, 200.0), _BARE),
+    (300.0, 200.0, 5.0, [Shape("circle", (0.0, 0.0), 10.0)], _SQUARE, _SQUARE, ((0.0, 0.0), (2.9e-257, 0.0)),
+     (0.0, 200.0), ProfileRules(min_web_mm=0, edge_cover_mm=0, min_void_mm=0, bearing_clearance_mm=1.0,
+                                bore_diameters_mm=STOCK, slot_widths_mm=(20.0, 40.0, 50.0))),
+]
+
+
 @settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 @given(scenes())
+@example(_REGRESSIONS[0])
+@example(_REGRESSIONS[1])
+@example(_REGRESSIONS[2])
 def test_check_agrees_with_brute_force(scene):
     _agreement(scene)
 

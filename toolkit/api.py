@@ -271,7 +271,7 @@ def optimize_file(dxf_path, job_path=None, *, out_dir=None, force: bool = False,
     files[f"{stem}-result.svg"] = result_svg(
         panel, grid, densities=run.beso.densities, freeform=run.freeform, voids=run.voids,
         profile=run.rules.profile, volume_removed_percent=run.mass_removed_percent,
-        mass_removed_kg=run.mass_removed_kg, date=date,
+        mass_removed_kg=run.mass_removed_kg, date=date, violations=run.rationalised.violations,
     )
     files[f"{stem}-convergence.svg"] = convergence_svg(
         run.beso.compliance_Nmm, run.beso.volume_fraction, target=run.settings.volume_fraction, title=panel.name,

@@ -52,15 +52,21 @@ def load_panel(dxf_path, job_path=None) -> tuple[Panel, Job, Drawing]:
     return panel, job, drawing
 
 
+def check_panel(drawing: Drawing, job: Job) -> tuple[Panel, list[str]]:
+    """The panel for a fabrication-rule check, and this stage's notes: like :func:`build_panel`, but no
+    material is needed (a check never analyses). Without one in the job, the panel's ``material`` is None."""
+    return _assemble(drawing, job, need_material=False)
+
+
 # --- the pieces ---------------------------------------------------------------------------------------------
 
 
-def _assemble(drawing: Drawing, job: Job) -> tuple[Panel, list[str]]:
+def _assemble(drawing: Drawing, job: Job, *, need_material: bool = True) -> tuple[Panel, list[str]]:
     notes: list[str] = []
     frame = drawing.frame
     job_name = job.source or "the job file"
 
-    if job.material is None:
+    if job.material is None and need_material:
         raise LacunaError(
             "no material is given: the analysis needs Young's modulus and Poisson's ratio.",
             where=f"{job_name} [material]" if job.source else "[material]",

@@ -4,8 +4,12 @@ The sheet holds a heading, the panel drawn at a stated scale (1:N) in its local 
 bar, line key, scale bar) and a title block. Everything that belongs to the panel lives in the group
 ``drawing``, whose coordinates are the panel's local frame in mm (x right, y up); one transform on that group
 flips y and scales to paper. Inside it each kind of content has a group of its own ("stress", "directions",
-"panel", "openings", "keep", "deflected", "supports", "loads"); later stages add groups named after the
-output layers of CONTRACT.md in lower case with :meth:`Figure.layer`.
+"panel", "openings", "keep", "deflected", "supports", "loads"); the result sheet adds "density" and one group
+per output layer of CONTRACT.md, named in lower case, with :meth:`Figure.layer`.
+
+Figures: :func:`analysis_svg` (stress and deflection of one load case), :func:`result_svg` (the voids to make,
+over the optimised layout or the stress), :func:`layout_frame_svg` (one frame of the evolving layout) and
+:func:`convergence_svg` (compliance and volume fraction per iteration).
 
 Inputs are plain arrays so the figure depends on no result type: displacements (ndof,) in mm, element-centre
 stresses (ne, 3) = sx, sy, txy in MPa, solid area fractions (ne,).
@@ -203,23 +207,32 @@ class Figure:
     def text(self, group, content: str, at, size: float, *, anchor: str = "start", weight: str = "normal",
              style: str = "normal", fill: str = INK, local: bool = False):
         """Upright text of ``size`` paper mm; ``at`` in paper mm, or in the local frame with ``local=True``."""
-        attrs = dict(font_size=_fmt(size, 3), font_family=FONT, text_anchor=anchor, fill=fill, stroke="none")
-        if weight != "normal":
-            attrs["font_weight"] = weight
-        if style != "normal":
-            attrs["font_style"] = style
         if local:
             # Undo the drawing's flip and scale so the lettering stands upright at its paper size.
             s = self.scale
-            element = self.dwg.text(content, insert=(0, 0), transform=f"matrix({_fmt(s, 6)} 0 0 {_fmt(-s, 6)} "
-                                    f"{_fmt(at[0])} {_fmt(at[1])})", **attrs)
+            element = _lettering(self.dwg, content, (0, 0), size, anchor=anchor, weight=weight, style=style,
+                                 fill=fill, transform=f"matrix({_fmt(s, 6)} 0 0 {_fmt(-s, 6)} {_fmt(at[0])} "
+                                 f"{_fmt(at[1])})")
         else:
-            element = self.dwg.text(content, insert=(_fmt(at[0], 3), _fmt(at[1], 3)), **attrs)
+            element = _lettering(self.dwg, content, at, size, anchor=anchor, weight=weight, style=style, fill=fill)
         group.add(element)
         return element
 
     def tostring(self) -> str:
         return self.dwg.tostring()
+
+
+def _lettering(dwg, content: str, at, size: float, *, anchor: str = "start", weight: str = "normal",
+               style: str = "normal", fill: str = INK, transform: str | None = None):
+    """A text element of ``size`` (font size in the units it is drawn in), not yet added to a group."""
+    attrs = dict(font_size=_fmt(size, 3), font_family=FONT, text_anchor=anchor, fill=fill, stroke="none")
+    if weight != "normal":
+        attrs["font_weight"] = weight
+    if style != "normal":
+        attrs["font_style"] = style
+    if transform is not None:
+        return dwg.text(content, insert=(0, 0), transform=transform, **attrs)
+    return dwg.text(content, insert=(_fmt(at[0], 3), _fmt(at[1], 3)), **attrs)
 
 
 def _ring_path(coords: np.ndarray) -> str:
@@ -550,7 +563,8 @@ def _draw_heading(fig: Figure, title: str, scale_note: str) -> None:
     g = fig.sheet_group("heading")
     title, size = _fit(title, fig.width - 2 * _MARGIN, 5.0)
     fig.text(g, title, (_MARGIN, _MARGIN + 5.0), size, weight="bold")
-    fig.text(g, f"{FRAME_NOTE} {scale_note}", (_MARGIN, _MARGIN + 10.5), 2.8)
+    note, size = _fit(f"{FRAME_NOTE} {scale_note}", fig.width - 2 * _MARGIN, 2.8)
+    fig.text(g, note, (_MARGIN, _MARGIN + 10.5), size)
 
 
 def _draw_stress_bar(fig: Figure, g, x0: float, top: float, vmax: float, peak_t: float, peak_c: float) -> None:
@@ -787,7 +801,7 @@ def analysis_svg(
 # Material-state greys (our own): CIE L* from pale to dark in equal steps, so equal steps of density read as
 # equal steps of grey; the first class (under 1/8 of an element's material) is left as paper, i.e. void.
 DENSITY_CLASSES = 8
-_DENSITY_L = (97.0, 38.0)  # L* of the palest drawn class's lower edge and of full material
+_DENSITY_L = (92.0, 50.0)  # L* of the palest drawn class's lower edge and of full material
 _DENSITY_TINT = (0.0, 1.5)  # a* b*: a hair warm, to sit with the stress scale's paper-white middle
 VOID_FILL = "#ffffff"  # voids to make are cut through: they show the paper
 SHOWN = 1.0 / DENSITY_CLASSES  # material state below which an element is drawn as void
@@ -918,23 +932,26 @@ def _draw_result_layers(fig: Figure, voids: Sequence[Void], freeform, markers) -
         g["lacuna-centre"].add(fig.dwg.path(
             d=f"M{_fmt(cx - half)} {_fmt(cy)}h{_fmt(2 * half)}M{_fmt(cx)} {_fmt(cy - half)}v{_fmt(2 * half)}", **tag))
         at = _void_label_anchor(void) + p(0.6)
-        label = fig.text(g["lacuna-note"], void.id, (at[0], at[1]), 2.3, weight="bold", fill=looks["lacuna-note"],
-                         local=True)
-        _halo(label, fig)
+        label = _cased_text(fig, g["lacuna-note"], void.id, (at[0], at[1]), 2.3, weight="bold",
+                            fill=looks["lacuna-note"], local=True)
         label.attribs["data-void-id"] = void.id
     for m in markers:
         r = m.radius_mm if m.radius_mm is not None else p(2.5)
         x, y = m.where
         g["lacuna-check"].add(fig.dwg.circle(center=(_fmt(x), _fmt(y)), r=_fmt(r, 4)))
-        label = fig.text(g["lacuna-check"], m.label, (x + r * math.sqrt(0.5) + p(0.5), y + r * math.sqrt(0.5)),
-                         2.0, fill=looks["lacuna-check"], local=True)
-        _halo(label, fig)
+        _cased_text(fig, g["lacuna-check"], m.label, (x + r * math.sqrt(0.5) + p(0.5), y + r * math.sqrt(0.5)),
+                    1.8, casing=0.4, fill=looks["lacuna-check"], local=True)
 
 
-def _halo(text_element, fig: Figure) -> None:
-    """A paper-white casing behind lettering set over the underlay, painted under the glyphs."""
-    text_element.attribs.update({"stroke": "#ffffff", "stroke-width": _fmt(0.5, 3), "stroke-linejoin": "round",
-                                 "paint-order": "stroke"})
+def _cased_text(fig: Figure, group, content: str, at, size: float, casing: float = 0.6, **kw):
+    """Lettering over the underlay, on a paper-white casing (a stroked copy underneath) so it reads on any grey.
+
+    A copy rather than ``paint-order``, which not every renderer honours. Lettering is set in paper units even
+    inside the drawing (see :meth:`Figure.text`), so the casing's width is in paper mm."""
+    under = fig.text(group, content, at, size, **{**kw, "fill": "#ffffff"})
+    under.attribs.update({"stroke": "#ffffff", "stroke-width": _fmt(casing, 3), "stroke-linejoin": "round",
+                           "data-casing": "1"})
+    return fig.text(group, content, at, size, **kw)
 
 
 def _layer_key_rows() -> list:
@@ -1047,9 +1064,9 @@ def result_svg(
     ne = grid.nx * grid.ny
     _check_grid(panel, grid, "result figure")
     solid = panel.solid
-    state = fractions = None
+    state = None
     if densities is not None:
-        state, fractions = material_state(panel, grid, densities)
+        state, _ = material_state(panel, grid, densities)
     elif underlay == "density":
         underlay = "none"
     stress_range = None
@@ -1058,19 +1075,20 @@ def result_svg(
             raise LacunaError("a stress underlay was asked for, but no stresses were given.", where="result figure",
                               hint="Pass stress=(ne, 3) element stresses of one load case, or underlay='density'.")
         stress = _checked_array(stress, (ne, 3), "stress", grid)
-        if fractions is None:
-            fractions = solid_fractions(grid, solid)
-        drawn = fractions > 0.0 if state is None else state >= SHOWN
+        # The stress belongs to the panel with the voids to make cut: draw that material, not the optimiser's.
+        if voids:
+            solid = shapely.difference(solid, shapely.union_all([v.shape for v in voids]))
+        drawn = solid_fractions(grid, solid) > 0.0
         dominant = dominant_principal(stress)
         shown = dominant[drawn]
         vmax = stress_limit(shown)
         stress_range = (vmax, float(shown.max()) if shown.size else 0.0, float(shown.min()) if shown.size else 0.0)
 
     fig = Figure(panel, legend_height=_RESULT_LEGEND)
-    what = {"density": "over the optimised layout", "stress": "over the stress of the layout analysed",
+    what = {"density": "under them the optimised layout", "stress": "under them the stress with the voids cut",
             "none": "over the panel as drawn"}[underlay]
     _draw_heading(fig, title or f"{panel.name}: voids to make",
-                  f"Scale 1:{fig.scale} on a {SHEET_WIDTH_MM:g} mm wide sheet; lengths in mm; voids {what}.")
+                  f"Scale 1:{fig.scale}; lengths in mm; voids to make {what}.")
     if underlay == "density":
         _draw_cells(fig, "density", grid, density_classes(state), state >= SHOWN, density_colours(), solid)
     elif underlay == "stress":
@@ -1091,7 +1109,203 @@ def result_svg(
         (0.3, "PANEL", [panel.name, f"profile: {profile}" if profile else "profile: not stated"]),
         (0.3, "VOIDS", [_void_count_text(voids), removed]),
         (0.2, "SECTION", _section_lines(panel)),
-        (0.2, "FIGURE", [f"date {_date_text(date)}", f"1:{fig.scale}, {len(markers)} rule markers"]),
+        (0.2, "FIGURE", [f"date {_date_text(date)}",
+                         f"1:{fig.scale}, {len(markers)} rule marker{'' if len(markers) == 1 else 's'}"]),
     ])
     fig.drawing.attribs["data-underlay"] = underlay
     return fig.tostring()
+
+
+# --------------------------------------------------------------------------------------------- layout frames
+
+
+def layout_frame_svg(panel: Panel, grid, densities, *, iteration: int, compliance_Nmm: float,
+                     volume_fraction: float) -> str:
+    """One frame of the evolving layout (``--frames``): the panel's material state in greys under a one-line
+    caption, on a light sheet just wider than the panel. Every frame of a run has the same size and scale, so
+    the sequence plays as an animation."""
+    where = f"layout frame {iteration}"
+    if not (isinstance(iteration, (int, np.integer)) and iteration >= 0):
+        raise LacunaError(f"the iteration must be a whole number of zero or more, got {iteration!r}.", where=where)
+    if not (math.isfinite(compliance_Nmm) and math.isfinite(volume_fraction) and 0.0 <= volume_fraction <= 1.0):
+        raise LacunaError(
+            f"compliance {compliance_Nmm!r} N mm and volume fraction {volume_fraction!r} must be finite, the "
+            "volume fraction between 0 and 1.", where=where, hint="Pass the history entry of the same iteration.",
+        )
+    _check_grid(panel, grid, where)
+    state, _ = material_state(panel, grid, densities)
+    fig = Figure(panel, legend_height=0.0, title_block=0.0, heading=7.0, room=4.0, room_below=6.0, width=None)
+    caption = (f"{panel.name} \u00b7 iteration {iteration} \u00b7 compliance {_fmt_value(compliance_Nmm)} N mm "
+               f"\u00b7 volume fraction {volume_fraction:.3f} (design region)")
+    caption, size = _fit(caption, fig.width - 2 * _MARGIN, 3.0)
+    fig.text(fig.sheet_group("heading"), caption, (_MARGIN, _MARGIN + 4.0), size)
+    _draw_cells(fig, "density", grid, density_classes(state), state >= SHOWN, density_colours(), panel.solid)
+    _draw_outlines(fig, panel)
+    note, size = _fit(CAUTION, fig.width - 2 * _MARGIN, 2.0, smallest=1.5)
+    fig.text(fig.sheet_group("caution"), note, (_MARGIN, fig.origin[1] + 4.5), size, style="italic", fill="#555555")
+    fig.drawing.attribs["data-iteration"] = str(int(iteration))
+    return fig.tostring()
+
+
+# --------------------------------------------------------------------------------------------- convergence
+
+VOLUME_INK = palette.STOPS[1][1]  # the stress scale's second teal: apart from the black compliance line
+TARGET_INK = DEFLECTED_INK
+TARGET_TOLERANCE = 0.005  # volume fraction within half a percentage point of the target counts as reached
+_SUPERSCRIPT = str.maketrans("-0123456789", "\u207b\u2070\u00b9\u00b2\u00b3\u2074\u2075\u2076\u2077\u2078\u2079")
+
+
+def nice_ticks(lo: float, hi: float, count: int = 5) -> np.ndarray:
+    """Round tick values covering [lo, hi]: a step of the 1-2-5 series giving about ``count`` intervals."""
+    if not (math.isfinite(lo) and math.isfinite(hi)):
+        raise ValueError(f"need finite limits, got {lo}, {hi}")
+    if hi < lo:
+        lo, hi = hi, lo
+    if hi - lo <= 1e-12 * max(abs(lo), abs(hi), 1e-300):
+        pad = 0.05 * abs(lo) if lo != 0 else 1.0
+        lo, hi = lo - pad, hi + pad
+    step = nice_125((hi - lo) / count, mode="ceil")
+    first = math.floor(lo / step + 1e-9)
+    last = math.ceil(hi / step - 1e-9)
+    return np.arange(first, last + 1) * step
+
+
+def target_reached(volume_fraction, target: float, tolerance: float = TARGET_TOLERANCE) -> int | None:
+    """Index of the first iteration whose volume fraction is within ``tolerance`` of the target or past it."""
+    v = np.asarray(volume_fraction, dtype=float)
+    if v.size == 0:
+        return None
+    side = np.sign(v[0] - target)
+    hits = np.flatnonzero((np.abs(v - target) <= tolerance) | (np.sign(v - target) != side))
+    return int(hits[0]) if hits.size else None
+
+
+def _tick_labels(ticks: np.ndarray, power: int = 0) -> list[str]:
+    step = abs(ticks[1] - ticks[0]) / 10.0**power if len(ticks) > 1 else 1.0
+    decimals = max(0, -math.floor(math.log10(step) + 1e-9))
+    return [f"{t / 10.0**power:.{decimals}f}".replace("-", "\u2212") for t in ticks]
+
+
+def convergence_svg(compliance_Nmm, volume_fraction, *, target: float | None = None, title: str | None = None) -> str:
+    """The convergence plot as SVG text: compliance (left axis) and volume fraction of the design region
+    (right axis) against iteration, one polyline vertex per iteration, ticks at round values, a legend, and a
+    marker where the volume fraction reached ``target``. 200 x 125 mm, sized in millimetres."""
+    where = "convergence plot"
+    c = np.asarray(compliance_Nmm, dtype=float)
+    v = np.asarray(volume_fraction, dtype=float)
+    if c.ndim != 1 or v.shape != c.shape or c.size == 0:
+        raise LacunaError(
+            f"the compliance history has shape {c.shape} and the volume history {v.shape}; they must be two "
+            "non-empty lists of the same length, one entry per iteration.", where=where,
+        )
+    if not (np.all(np.isfinite(c)) and np.all(np.isfinite(v))):
+        raise LacunaError("the history holds values that are not finite numbers.", where=where,
+                          hint="The run did not give a usable result; check supports and loads.")
+    if target is not None and not (math.isfinite(target) and 0.0 < target <= 1.0):
+        raise LacunaError(f"the target volume fraction must lie in (0, 1], got {target!r}.", where=where)
+    n = c.size
+    width, height = 200.0, 125.0
+    x0, x1, y0, y1 = 30.0, width - 30.0, 32.0, height - 26.0  # plot area, paper mm (y down)
+    dwg = svgwrite.Drawing(size=(f"{_fmt(width)}mm", f"{_fmt(height)}mm"), profile="full", debug=False)
+    dwg.viewbox(0, 0, width, height)
+    dwg.add(dwg.rect((0, 0), (width, height), fill="#ffffff", id="sheet"))
+
+    def group(name, **attrs):
+        return dwg.add(dwg.g(id=name, **attrs))
+
+    def text(g, content, at, size, **kw):
+        return g.add(_lettering(dwg, content, at, size, **kw))
+
+    heading = group("heading")
+    line, size = _fit(title or "Convergence", width - 2 * _MARGIN, 4.5)
+    text(heading, line, (_MARGIN, _MARGIN + 4.5), size, weight="bold")
+    text(heading, "Convergence: compliance and volume fraction of the design region at each iteration.",
+         (_MARGIN, _MARGIN + 10.0), 2.6)
+
+    iters = np.arange(1, n + 1)
+    xt = nice_ticks(0.0, float(n), 6)
+    xt = xt[xt == np.round(xt)]
+    ct = nice_ticks(float(c.min()), float(c.max()), 5)
+    vt = nice_ticks(float(min(v.min(), target if target is not None else v.min())), float(v.max()), 5)
+
+    def px(i):
+        return x0 + (np.asarray(i, dtype=float) - xt[0]) / (xt[-1] - xt[0]) * (x1 - x0)
+
+    def pc(y):
+        return y1 - (np.asarray(y, dtype=float) - ct[0]) / (ct[-1] - ct[0]) * (y1 - y0)
+
+    def pv(y):
+        return y1 - (np.asarray(y, dtype=float) - vt[0]) / (vt[-1] - vt[0]) * (y1 - y0)
+
+    axes = group("axes", stroke=INK, stroke_width="0.25", fill="none")
+    grid_lines = "".join(f"M{_fmt(x0)} {_fmt(float(pc(t)), 3)}H{_fmt(x1)}" for t in ct[1:-1])
+    grid_lines += "".join(f"M{_fmt(float(px(t)), 3)} {_fmt(y0)}V{_fmt(y1)}" for t in xt[1:-1])
+    axes.add(dwg.path(d=grid_lines, stroke="#d9d9d9", stroke_width="0.15"))
+    axes.add(dwg.rect((_fmt(x0), _fmt(y0)), (_fmt(x1 - x0), _fmt(y1 - y0))))
+    power = 3 * math.floor(math.log10(max(abs(ct[0]), abs(ct[-1]))) / 3) if max(abs(ct[0]), abs(ct[-1])) >= 1e4 else 0
+    labels = group("tick-labels")
+    for t, label in zip(ct, _tick_labels(ct, power)):
+        y = float(pc(t))
+        axes.add(dwg.line(start=(_fmt(x0 - 1.2), _fmt(y, 3)), end=(_fmt(x0), _fmt(y, 3))))
+        text(labels, label, (x0 - 2.0, y + 0.9), 2.5, anchor="end")
+    for t, label in zip(vt, _tick_labels(vt)):
+        y = float(pv(t))
+        axes.add(dwg.line(start=(_fmt(x1), _fmt(y, 3)), end=(_fmt(x1 + 1.2), _fmt(y, 3)), stroke=VOLUME_INK))
+        text(labels, label, (x1 + 2.0, y + 0.9), 2.5, fill=VOLUME_INK)
+    for t, label in zip(xt, _tick_labels(xt)):
+        x = float(px(t))
+        axes.add(dwg.line(start=(_fmt(x, 3), _fmt(y1)), end=(_fmt(x, 3), _fmt(y1 + 1.2))))
+        text(labels, label, (x, y1 + 4.2), 2.5, anchor="middle")
+    text(labels, "iteration", ((x0 + x1) / 2, y1 + 9.0), 2.8, anchor="middle")
+    unit = "N mm" if power == 0 else f"10{str(power).translate(_SUPERSCRIPT)} N mm"
+    mid = (y0 + y1) / 2
+    text(labels, f"compliance, {unit}", (0, 0), 2.8, anchor="middle",
+         transform=f"translate({_fmt(x0 - 15.0)} {_fmt(mid)}) rotate(-90)")
+    text(labels, "volume fraction of the design region", (0, 0), 2.8, anchor="middle", fill=VOLUME_INK,
+         transform=f"translate({_fmt(x1 + 15.0)} {_fmt(mid)}) rotate(90)")
+
+    def polyline(name, ys, **style):
+        pts = [(round(float(x), 3), round(float(y), 3)) for x, y in zip(px(iters), ys)]
+        g = group(name, fill="none", stroke_linejoin="round", **style)
+        g.add(dwg.polyline(points=pts, id=f"{name}-line", **{"data-iterations": str(n)}))
+        if n == 1:  # a lone point draws no line: mark it
+            g.add(dwg.circle(center=(_fmt(float(px(1)), 3), _fmt(float(ys[0]), 3)), r="0.6", fill=style["stroke"]))
+        return g
+
+    polyline("compliance", pc(c), stroke=INK, stroke_width="0.5")
+    polyline("volume", pv(v), stroke=VOLUME_INK, stroke_width="0.45", stroke_dasharray="2.2 1")
+
+    legend = group("legend")
+    ly = y0 - 5.0
+    legend.add(dwg.line(start=(_fmt(x0), _fmt(ly - 0.9)), end=(_fmt(x0 + 8), _fmt(ly - 0.9)), stroke=INK,
+                        stroke_width="0.5"))
+    text(legend, "compliance (left axis)", (x0 + 10.0, ly), 2.5)
+    legend.add(dwg.line(start=(_fmt(x0 + 48), _fmt(ly - 0.9)), end=(_fmt(x0 + 56), _fmt(ly - 0.9)),
+                        stroke=VOLUME_INK, stroke_width="0.45", stroke_dasharray="2.2 1"))
+    text(legend, "volume fraction (right axis)", (x0 + 58.0, ly), 2.5, fill=VOLUME_INK)
+
+    mark = group("target")
+    k = target_reached(v, target) if target is not None else None
+    if target is not None:
+        yt = float(pv(target))
+        mark.add(dwg.line(start=(_fmt(x0), _fmt(yt, 3)), end=(_fmt(x1), _fmt(yt, 3)), stroke=VOLUME_INK,
+                          stroke_width="0.2", stroke_dasharray="0.6 0.8"))
+        legend.add(dwg.circle(center=(_fmt(x0 + 106), _fmt(ly - 0.9)), r="1.1", fill="#ffffff", stroke=TARGET_INK,
+                              stroke_width="0.35"))
+        text(legend, f"target {target:g} reached" if k is not None else f"target {target:g} not reached",
+             (x0 + 109.0, ly), 2.5, fill=TARGET_INK)
+    if k is not None:
+        xk, yk = float(px(k + 1)), float(pv(v[k]))
+        mark.add(dwg.line(start=(_fmt(xk, 3), _fmt(y0)), end=(_fmt(xk, 3), _fmt(y1)), stroke=TARGET_INK,
+                          stroke_width="0.2", stroke_dasharray="0.6 0.8"))
+        mark.add(dwg.circle(center=(_fmt(xk, 3), _fmt(yk, 3)), r="1.1", fill="#ffffff", stroke=TARGET_INK,
+                            stroke_width="0.35"))
+        right = xk > (x0 + x1) / 2
+        text(mark, f"iteration {k + 1}", (xk + (-1.2 if right else 1.2), y0 + 3.5), 2.4,
+             anchor="end" if right else "start", fill=TARGET_INK)
+        mark.attribs["data-iteration"] = str(k + 1)
+
+    foot = group("caution")
+    note, size = _fit(CAUTION, width - 2 * _MARGIN, 2.4)
+    text(foot, note, (_MARGIN, height - _MARGIN + 2.0), size, style="italic", fill="#555555")
+    return dwg.tostring()

@@ -165,9 +165,12 @@ def _stadium_axis(v: Void) -> LineString | Point | None:
 
 
 def _agrees(shape: Polygon, core, radius: float) -> bool:
-    """Whether the void's polygon is the flattened outline of core grown by radius."""
-    exact = shapely.buffer(core, radius, quad_segs=64)
-    return shapely.hausdorff_distance(shape.exterior, exact.exterior) <= max(0.5, 0.02 * radius)
+    """Whether the void's polygon is a flattened outline of core grown by radius: every vertex and every edge
+    midpoint lies at the radius from the core (a chord's sagitta counts, so a square is no circle)."""
+    xy = shapely.get_coordinates(shape.exterior)
+    probes = np.vstack([xy, (xy[:-1] + xy[1:]) / 2])
+    off = np.abs(shapely.distance(shapely.points(probes), core) - radius)
+    return bool(off.max() <= max(0.5, 0.02 * radius))
 
 
 def _bodies(voids: Sequence[Void]) -> _Bodies:
@@ -190,10 +193,9 @@ def _bodies(voids: Sequence[Void]) -> _Bodies:
         if core is None:
             # not a true circle or stadium: the polygon itself, measured on its outline
             core, r = v.shape, 0.0
-            mic = shapely.maximum_inscribed_circle(v.shape, tolerance=max(1e-3, 1e-4 * math.sqrt(v.shape.area)))
-            start = shapely.get_coordinates(mic)[0]
-            size.append(2.0 * mic.length)
-            size_at.append(start)
+            width, at = _inscribed(v.shape)
+            size.append(width)
+            size_at.append(at)
             extent.append(2.0 * shapely.minimum_bounding_radius(v.shape))
         else:
             size.append(2.0 * r)
@@ -201,10 +203,28 @@ def _bodies(voids: Sequence[Void]) -> _Bodies:
             extent.append(2.0 * r + (core.length if isinstance(core, LineString) else 0.0))
         cores.append(core)
         radii.append(r)
-    obj = lambda items: np.array(items + [None], dtype=object)[:-1]  # noqa: E731  (no ragged unpacking)
-    return _Bodies(tuple(voids), obj(cores), np.asarray(radii, dtype=float), obj([v.shape for v in voids]),
+    return _Bodies(tuple(voids), _objects(cores), np.asarray(radii, dtype=float), _objects([v.shape for v in voids]),
                    np.asarray(size, dtype=float), np.asarray(size_at, dtype=float).reshape(-1, 2),
                    np.asarray(extent, dtype=float))
+
+
+def _objects(items) -> np.ndarray:
+    """A 1-D object array of geometries (np.array would try to unpack them)."""
+    out = np.empty(len(items), dtype=object)
+    out[:] = list(items)
+    return out
+
+
+def _inscribed(geom) -> tuple[float, np.ndarray]:
+    """Diameter and centre of the largest circle inside a polygonal geometry (0 and a point on it for slivers)."""
+    area = float(geom.area)
+    if area > 0:
+        with np.errstate(divide="ignore", invalid="ignore"):  # slivers of rounding-error area defeat the search
+            mic = shapely.maximum_inscribed_circle(geom, tolerance=max(1e-4, 1e-4 * math.sqrt(area)))
+        width = 2.0 * mic.length
+        if math.isfinite(width):
+            return width, shapely.get_coordinates(mic)[0]
+    return 0.0, shapely.get_coordinates(geom.representative_point())[0]
 
 
 def _support_point(core, radius: float, direction: np.ndarray) -> np.ndarray:
@@ -236,9 +256,7 @@ def _overlap(bodies: _Bodies, i: int, other_core, other_r: float, other_shape, s
     where = None
     inter = shapely.intersection(bodies.shapes[i], other_shape)
     if not inter.is_empty and inter.area > 0:
-        mic = shapely.maximum_inscribed_circle(inter, tolerance=max(1e-4, 1e-3 * math.sqrt(inter.area)))
-        width = 2.0 * mic.length
-        where = shapely.get_coordinates(mic)[0]
+        width, where = _inscribed(inter)
         depth = max(depth, width)
     core, r = bodies.cores[i], bodies.radii[i]
     if isinstance(core, Point) and isinstance(other_core, Point) and signed < 0:
@@ -301,7 +319,7 @@ def check_layout(panel: Panel, voids: Sequence[Void], rules: Rules) -> list[Viol
             q = p.copy()
             q[side // 2] = (0.0, W, 0.0, H)[side]
             if gap < -tol:
-                out.append(Violation("outside", _pt(p), -gap, 0.0, _handles(v), (v.id,),
+                out.append(Violation("outside", _pt((p + q) / 2), -gap, 0.0, _handles(v), (v.id,),
                                      f"Void {v.id} reaches {-gap:.1f} mm beyond the {_SIDES[side]} edge of the panel."))
                 continue
             out.append(Violation("edge_cover", _pt((p + q) / 2), gap, rules.edge_cover_mm, _handles(v), (v.id,),
@@ -329,7 +347,8 @@ def check_layout(panel: Panel, voids: Sequence[Void], rules: Rules) -> list[Viol
         signed = shapely.distance(b.cores[ii], b.cores[jj]) - b.radii[ii] - b.radii[jj]
         required = np.maximum(rules.min_web_mm, ratio * np.maximum(b.extent[ii], b.extent[jj]))
         for i, j, s, req in zip(ii, jj, signed, required):
-            if s >= req - tol:
+            # polygons report distance 0 whether they touch or overlap: those always get the overlap test
+            if s >= req - tol and s > tol:
                 continue
             vi, vj = voids[i], voids[j]
             ids = (vi.id, vj.id)
@@ -339,6 +358,8 @@ def check_layout(panel: Panel, voids: Sequence[Void], rules: Rules) -> list[Viol
                     out.append(Violation("overlap", _pt(where), depth_ij, 0.0, _handles(vi, vj), ids,
                                          f"Voids {vi.id} and {vj.id} overlap by {depth_ij:.1f} mm."))
                     continue
+                if s >= req - tol:
+                    continue
             a, c = _segment_between(b.cores[i], b.radii[i], b.cores[j], b.radii[j])
             web = max(float(s), 0.0)
             out.append(Violation("min_web", _pt((a + c) / 2), web, float(req), _handles(vi, vj), ids,
@@ -347,11 +368,11 @@ def check_layout(panel: Panel, voids: Sequence[Void], rules: Rules) -> list[Viol
 
     # voids and the panel's own openings
     if panel.openings:
-        shapes = np.array([o.shape for o in panel.openings] + [None], dtype=object)[:-1]
+        shapes = _objects([o.shape for o in panel.openings])
         o_extent = 2.0 * shapely.minimum_bounding_radius(shapes)
         signed = shapely.distance(b.cores[:, None], shapes[None, :]) - b.radii[:, None]
         required = np.maximum(rules.min_web_mm, ratio * np.maximum(b.extent[:, None], o_extent[None, :]))
-        for i, k in zip(*np.nonzero(signed < required - tol)):
+        for i, k in zip(*np.nonzero((signed < required - tol) | (signed <= tol))):
             v, o = voids[i], panel.openings[k]
             s, req = float(signed[i, k]), float(required[i, k])
             name = _region_name(o, "opening")
@@ -360,6 +381,8 @@ def check_layout(panel: Panel, voids: Sequence[Void], rules: Rules) -> list[Viol
                 if depth_ik > tol:
                     out.append(Violation("opening", _pt(where), depth_ik, 0.0, _handles(v, o), (v.id,),
                                          f"Void {v.id} runs {depth_ik:.1f} mm into the {name}."))
+                    continue
+                if s >= req - tol:
                     continue
             a, c = _segment_between(b.cores[i], b.radii[i], o.shape, 0.0)
             web = max(s, 0.0)
@@ -370,7 +393,7 @@ def check_layout(panel: Panel, voids: Sequence[Void], rules: Rules) -> list[Viol
     # bearing zones around supports (point or segment) and point loads
     zones = bearing_anchors(panel)
     if zones and rules.bearing_clearance_mm > 0:
-        geoms = np.array([g for g, _ in zones] + [None], dtype=object)[:-1]
+        geoms = _objects([g for g, _ in zones])
         signed = shapely.distance(b.cores[:, None], geoms[None, :]) - b.radii[:, None]
         bc = rules.bearing_clearance_mm
         for i, k in zip(*np.nonzero(signed < bc - tol)):
@@ -384,7 +407,7 @@ def check_layout(panel: Panel, voids: Sequence[Void], rules: Rules) -> list[Viol
 
     # keep zones stay solid
     if panel.keep:
-        shapes = np.array([z.shape for z in panel.keep] + [None], dtype=object)[:-1]
+        shapes = _objects([z.shape for z in panel.keep])
         signed = shapely.distance(b.cores[:, None], shapes[None, :]) - b.radii[:, None]
         for i, k in zip(*np.nonzero(signed <= tol)):
             v, z = voids[i], panel.keep[k]
@@ -420,12 +443,14 @@ def bearing_anchors(panel: Panel) -> list[tuple[object, str]]:
     """Each support (point or segment) and point load as a geometry with a name for messages."""
     out: list[tuple[object, str]] = []
     for s in panel.supports:
-        geom = Point(s.points[0]) if s.is_point else LineString(s.points)
+        # a segment shorter than a micron is a point: shapely's distance to a zero-length line is NaN
+        geom = Point(s.points[0]) if s.is_point or math.dist(*s.points) < 1e-6 else LineString(s.points)
         place = f"at {_fmt(s.points[0])}" if s.is_point else f"from {_fmt(s.points[0])} to {_fmt(s.points[1])}"
         out.append((geom, f"support {s.source}" if s.source else f"support {place}"))
     for load in panel.loads:
         if isinstance(load, PointLoad):
-            out.append((Point(load.at), f"point load {load.source}" if load.source else f"point load at {_fmt(load.at)}"))
+            name = f"point load {load.source}" if load.source else f"point load at {_fmt(load.at)}"
+            out.append((Point(load.at), name))
     return out
 
 
@@ -486,10 +511,9 @@ def allowed_region(panel: Panel, rules: Rules):
 
 def _room(region) -> float:
     """Diameter of the largest circle that fits in the region (0 when empty)."""
-    if region.is_empty or not region.area > 0:
+    if region.is_empty:
         return 0.0
-    mic = shapely.maximum_inscribed_circle(region, tolerance=max(1e-3, 1e-4 * math.sqrt(region.area)))
-    return 2.0 * mic.length
+    return _inscribed(region)[0]
 
 
 def impossible_rules(panel: Panel, rules: Rules):

@@ -162,7 +162,8 @@ def read_profile_file(path: Path | str) -> Profile:
             raise LacunaError(
                 f"unknown rule {key!r} in a profile.",
                 where=f"{where}, [{key}]",
-                hint=(f'Did you mean "{near[0]}"? ' if near else "") + "docs/rules.md lists the rules a profile may hold.",
+                hint=(f'Did you mean "{near[0]}"? ' if near else "")
+                + "docs/rules.md lists the rules a profile may hold.",
             )
     for key in REQUIRED_RULES:
         if key not in data:

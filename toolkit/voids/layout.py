@@ -411,9 +411,16 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
     placed, size_recs = standardise_sizes(placed, r.max_types, r.snap_mm, stock, r.min_void_mm, site.fits)
     placed, snap_recs = snap_centres(placed, r.snap_mm, lambda t, i, s: site.fits(t, i, s, move=False))
     # Change records point at drafts; follow each to the final draft of the same void.
-    final_of = {(d.source, d.part): d for d in placed}
+    final_of = {(d.source, d.part): d for d in placed if d is not None}
     records = [((d.source, d.part), what, why) for d, what, why in change_recs]
-    records += [((before[i].source, before[i].part), what, why) for i, what, why in size_recs + snap_recs]
+    for i, what, why in size_recs + snap_recs:
+        if placed[i] is None:
+            v = by_source[before[i].source]
+            dropped.append(f"freeform void #{v.index + 1} at ({v.centroid[0]:.0f}, {v.centroid[1]:.0f}): "
+                           f"{_describe(before[i])}: {why}; dropped.")
+        else:
+            records.append(((before[i].source, before[i].part), what, why))
+    placed = [d for d in placed if d is not None]
 
     ordered = sorted(placed, key=lambda d: (round(d.centre[0], 6), round(d.centre[1], 6), d.source, d.part))
     ids = {(d.source, d.part): f"V{k}" for k, d in enumerate(ordered, 1)}

@@ -126,8 +126,8 @@ def standardise_sizes(drafts: list[Draft], max_types: int, snap: float, stock: d
     """Give the drafts at most ``max_types`` sizes, snapped down to the ``snap`` grid where the rules allow.
 
     ``fits(trial, i, state)`` returns the trial (or a moved copy) if draft i may become ``trial`` beside the
-    other drafts in ``state``, else None. Returns the new drafts (same order) and change records
-    (index, what, why).
+    other drafts in ``state``, else None. Returns the new drafts (same order; None for a draft dropped because
+    it fits at none of its group's sizes) and change records (index, what, why).
     """
     state = list(drafts)
     changes: list[tuple[int, str, str]] = []
@@ -142,9 +142,10 @@ def standardise_sizes(drafts: list[Draft], max_types: int, snap: float, stock: d
         for g in sorted(set(labels.tolist()), reverse=True):
             members = [i for i, lab in zip(idx, labels) if lab == g]
             values = [state[i].size for i in members]
+            best = None  # (members that fit, trial state) of the best size so far
             for size in size_candidates(values, family, snap, stock.get(family, ()), smallest):
                 trial_state = list(state)
-                ok = True
+                failed = []
                 for i in members:
                     d = state[i]
                     trial = d.scaled(size) if abs(size - d.size) > 1e-9 else d
@@ -152,20 +153,30 @@ def standardise_sizes(drafts: list[Draft], max_types: int, snap: float, stock: d
                         trial = trial.with_length(snap_down(trial.length, snap))
                     placed = fits(trial, i, trial_state)
                     if placed is None:
-                        ok = False
-                        break
-                    trial_state[i] = placed
-                if ok:
-                    for i in members:
-                        old, new = state[i], trial_state[i]
-                        if abs(old.size - new.size) > 1e-9:
-                            changes.append((i, f"size {old.size:.1f} -> {new.size:g} mm",
-                                            f"one of at most {max_types} void sizes"))
-                        if math.dist(old.centre, new.centre) > 1e-6:
-                            changes.append((i, f"moved {math.dist(old.centre, new.centre):.1f} mm",
-                                            "to keep the rules at the standard size"))
-                    state = trial_state
+                        failed.append(i)
+                        trial_state[i] = None
+                    else:
+                        trial_state[i] = placed
+                if best is None or len(failed) < len(best[0]):
+                    best = (failed, trial_state, size)
+                if not failed:
                     break
+            # A member that can take none of the group's sizes (a thin polygon scaled down to the group's
+            # size may fall under the least void size) is dropped rather than given a size of its own.
+            failed, trial_state, size = best
+            for i in members:
+                old, new = state[i], trial_state[i]
+                if new is None:
+                    changes.append((i, "dropped", f"it keeps no rule at the group size {size:g} mm, and at most "
+                                                  f"{max_types} void sizes are allowed"))
+                    continue
+                if abs(old.size - new.size) > 1e-9:
+                    changes.append((i, f"size {old.size:.1f} -> {new.size:g} mm",
+                                    f"one of at most {max_types} void sizes"))
+                if math.dist(old.centre, new.centre) > 1e-6:
+                    changes.append((i, f"moved {math.dist(old.centre, new.centre):.1f} mm",
+                                    "to keep the rules at the standard size"))
+            state = trial_state
     return state, changes
 
 
@@ -177,6 +188,8 @@ def snap_centres(drafts: list[Draft], snap: float, fits: Callable[[Draft, int, l
     if snap <= 0.0:
         return state, changes
     for i, d in enumerate(state):
+        if d is None:
+            continue
         cx, cy = d.centre
         gx, gy = math.floor(cx / snap), math.floor(cy / snap)
         points = [((gx + a) * snap, (gy + b) * snap) for a in range(-1, 3) for b in range(-1, 3)]

@@ -1,0 +1,447 @@
+"""The optimisation figures: result sheet (output layers, true arcs, bores to scale), layout frames, convergence plot.
+
+Inputs are built by hand: a panel 1200 x 600 mm (a scenario of our own), a density field with one round hole,
+and three voids whose outlines are computed here from their definitions (DXF reference, LWPOLYLINE: bulge =
+tan(theta / 4), positive counter-clockwise; a semicircle has bulge 1).
+"""
+
+from __future__ import annotations
+
+import io
+import math
+import re
+import xml.etree.ElementTree as ET
+
+import numpy as np
+import pytest
+from shapely.geometry import Point, box
+
+from test_svg_out import SVG, all_text, groups, pixel_of
+from toolkit import model, svg_out
+from toolkit.errors import LacunaError
+from toolkit.fe.grid import Grid
+from toolkit.rules.check import Violation
+
+# CONTRACT.md, "Output layers": DXF layer names; the SVG group ids are the same in lower case.
+CONTRACT_LAYERS = ("LACUNA-VOID-POLYGON", "LACUNA-VOID-SLOT", "LACUNA-VOID-BORE", "LACUNA-FREEFORM",
+                   "LACUNA-CENTRE", "LACUNA-NOTE", "LACUNA-CHECK")
+DRAWING_GROUPS = ("panel", "openings", "keep", "supports", "loads")
+
+W, H = 1200.0, 600.0
+HOLE = (300.0, 300.0, 150.0)  # freeform void of the density field: centre x, y, radius
+BORE = dict(centre=(300.0, 300.0), diameter=125.0)
+# Slot along x: overall length 300, width 80 -> straight part 220, cap radius 40, caps reaching x = 650 and 950.
+SLOT = dict(centre=(800.0, 300.0), width=80.0, length=300.0)
+OPENING = (1050.0, 450.0, 60.0)
+
+
+def slot_void() -> model.Void:
+    cx, cy = SLOT["centre"]
+    half, r = (SLOT["length"] - SLOT["width"]) / 2, SLOT["width"] / 2
+    outline = ((cx - half, cy - r, 0.0), (cx + half, cy - r, 1.0), (cx + half, cy + r, 0.0), (cx - half, cy + r, 1.0))
+    shape = box(cx - half, cy - r, cx + half, cy + r).union(Point(cx - half, cy).buffer(r, 64)).union(
+        Point(cx + half, cy).buffer(r, 64))
+    return model.Void(id="S1", family="slot", centre=SLOT["centre"], size_mm=SLOT["width"], shape=shape,
+                      outline=outline, length_mm=SLOT["length"])
+
+
+def bore_void() -> model.Void:
+    c, d = BORE["centre"], BORE["diameter"]
+    return model.Void(id="B1", family="bore", centre=c, size_mm=d, shape=Point(c).buffer(d / 2, 64))
+
+
+def rounded_square_void() -> model.Void:
+    # A 160 mm square centred at (500, 470) with corners rounded to r = 20: each corner a quarter arc,
+    # bulge tan(90 deg / 4) = tan(22.5 deg) = 0.41421 (DXF reference, LWPOLYLINE).
+    cx, cy, a, r = 500.0, 470.0, 80.0, 20.0
+    b = math.tan(math.radians(22.5))
+    pts = [(cx - a + r, cy - a, 0.0), (cx + a - r, cy - a, b), (cx + a, cy - a + r, 0.0), (cx + a, cy + a - r, b),
+           (cx + a - r, cy + a, 0.0), (cx - a + r, cy + a, b), (cx - a, cy + a - r, 0.0), (cx - a, cy - a + r, b)]
+    shape = box(cx - a, cy - a, cx + a, cy + a).buffer(-r).buffer(r, 32)
+    return model.Void(id="P1", family="polygon", centre=(cx, cy), size_mm=2 * a * math.sqrt(2), shape=shape,
+                      outline=tuple(pts), sides=4, length_mm=2 * a)
+
+
+def wall_panel() -> model.Panel:
+    return model.Panel(
+        width_mm=W, height_mm=H, thickness_mm=60.0, material=model.Material(11500.0, 0.3, 420.0),
+        openings=(model.Region(Point(OPENING[:2]).buffer(OPENING[2], quad_segs=16), layer="OPENING"),),
+        keep=(model.Region(box(0, 0, 100, H), layer="KEEP"),),
+        supports=(model.Support(((0.0, 0.0), (100.0, 0.0)), "xy"), model.Support(((W, 0.0),), "y")),
+        loads=(model.PointLoad((W / 2, H), (0.0, -20e3)),),
+        name="Test wall W3",
+    )
+
+
+GRID = Grid(nx=60, ny=30, dx=20.0, dy=20.0)
+
+
+def hole_densities(panel: model.Panel) -> np.ndarray:
+    """Solid (1) everywhere but a round hole of void elements (1e-3); elements cut by the opening carry their
+    drawn solid share, as BESO hands them over."""
+    from toolkit.fe.fractions import solid_fractions
+
+    xc, yc = GRID.element_centres.T
+    state = np.where(np.hypot(xc - HOLE[0], yc - HOLE[1]) < HOLE[2], 1e-3, 1.0)
+    return state * solid_fractions(GRID, panel.solid)
+
+
+@pytest.fixture(scope="module")
+def sheet():
+    panel = wall_panel()
+    densities = hole_densities(panel)
+    freeform = [Point(HOLE[:2]).buffer(HOLE[2], 32)]
+    voids = [rounded_square_void(), slot_void(), bore_void()]
+    violation = Violation("min_web", (600.0, 300.0), 42.0, 60.0, void_ids=("P1", "S1"))
+    text = svg_out.result_svg(panel, GRID, densities=densities, freeform=freeform, voids=voids,
+                              profile="timber-bored", volume_removed_percent=7.25, mass_removed_kg=1.9,
+                              date="2025-06-02", violations=[violation])
+    return panel, voids, text
+
+
+def render_sheet(text: str, px_per_mm: float = 8.0):
+    """PNG pixels of an SVG at ``px_per_mm`` paper mm, as (rows, cols, 3) floats in [0, 1]."""
+    cairosvg = pytest.importorskip("cairosvg")
+    from PIL import Image
+
+    width_mm = float(ET.fromstring(text).get("width")[:-2])
+    png = cairosvg.svg2png(bytestring=text.encode(), output_width=int(round(width_mm * px_per_mm)))
+    return np.asarray(Image.open(io.BytesIO(png)).convert("RGB")).astype(float) / 255.0
+
+
+def colour_at(img, text, xy, px_per_mm: float = 8.0):
+    c, r = pixel_of(text, xy, px_per_mm)
+    return np.median(img[r - 1 : r + 2, c - 1 : c + 2].reshape(-1, 3), axis=0)
+
+
+def hex_rgb(code: str) -> np.ndarray:
+    return np.array([int(code[i : i + 2], 16) for i in (1, 3, 5)]) / 255.0
+
+
+SOLID_GREY = hex_rgb(svg_out.density_colours()[-1])
+WHITE = np.ones(3)
+
+
+# --- structure
+
+
+def test_svg_parses_with_every_contract_group_in_the_drawing(sheet):
+    *_, text = sheet
+    g = groups(text)
+    drawing_ids = {e.get("id") for e in g["drawing"].iter(f"{SVG}g") if e.get("id")}
+    for name in CONTRACT_LAYERS:
+        assert name.lower() in drawing_ids, name
+        assert g[name.lower()].get("data-layer") == name
+    assert set(DRAWING_GROUPS) <= drawing_ids
+    assert {"heading", "legend", "scale-bar", "title"} <= set(g)
+
+
+def test_layer_groups_present_even_when_empty():
+    text = svg_out.result_svg(wall_panel(), GRID, date="d")
+    g = groups(text)
+    for name in CONTRACT_LAYERS:
+        assert name.lower() in g and len(list(g[name.lower()])) == 0, name
+    assert g["drawing"].get("data-underlay") == "none"  # no densities: nothing to lay under
+
+
+def test_sheet_in_millimetres_at_a_drafting_scale(sheet):
+    *_, text = sheet
+    root = ET.fromstring(text)
+    assert root.get("width") == "260mm" and root.get("height").endswith("mm")
+    # 1200 x 600 mm fits 196 x 150 mm of paper first at 1:10 (drafting scales: common practice, no source).
+    assert svg_out.drawing_scale(W, H) == 10
+    assert "Scale 1:10" in all_text(groups(text)["heading"])
+    assert groups(text)["scale-bar"].get("data-length") == "200 mm"
+
+
+def test_each_void_on_its_family_layer_with_centre_mark_and_label(sheet):
+    _, voids, text = sheet
+    g = groups(text)
+    for v in voids:
+        layer = g[f"lacuna-void-{v.family}"]
+        assert [e.get("data-void-id") for e in layer] == [v.id]
+        assert [e.get("data-void-id") for e in g["lacuna-centre"]].count(v.id) == 1
+        labels = [t for t in g["lacuna-note"].iter(f"{SVG}text") if t.get("data-void-id") == v.id]
+        assert len(labels) == 1 and labels[0].text == v.id
+    assert len(list(g["lacuna-freeform"])) == 1
+    assert g["lacuna-freeform"].get("stroke-dasharray")  # the optimiser's outline thin and dashed
+    stroke = lambda name: float(g[name].get("stroke-width"))  # noqa: E731
+    assert stroke("lacuna-void-slot") > 2 * stroke("lacuna-freeform")  # voids to make bold
+
+
+def test_violation_ringed_on_the_check_layer(sheet):
+    *_, text = sheet
+    check = groups(text)["lacuna-check"]
+    rings = list(check.iter(f"{SVG}circle"))
+    assert [(float(c.get("cx")), float(c.get("cy"))) for c in rings] == [(600.0, 300.0)]
+    assert "min_web 42 < 60" in all_text(check)
+
+
+def test_legend_names_each_layer_and_title_block_the_job(sheet):
+    *_, text = sheet
+    legend = all_text(groups(text)["legend"])
+    for name in CONTRACT_LAYERS:
+        assert f"layer {name}" in legend
+    block = all_text(groups(text)["title"])
+    for piece in ("Test wall W3", "profile: timber-bored", "volume removed 7.2 %", "1.9 kg", "2025-06-02",
+                  "3 to make: 1 n-gon, 1 slot, 1 bore", svg_out.CAUTION):
+        assert piece in block, piece
+
+
+# --- bores and arcs
+
+
+def test_bore_radius_is_half_the_diameter_exactly_and_matches_the_dxf(sheet):
+    ezdxf = pytest.importorskip("ezdxf")
+    from toolkit import dxf_out
+
+    _, voids, text = sheet
+    circles = list(groups(text)["lacuna-void-bore"].iter(f"{SVG}circle"))
+    assert len(circles) == 1
+    # A circle's radius is half its diameter; the Void carries the diameter (toolkit/model.py).
+    assert float(circles[0].get("r")) == BORE["diameter"] / 2 == 62.5
+    assert (float(circles[0].get("cx")), float(circles[0].get("cy"))) == BORE["centre"]
+    doc = ezdxf.new()
+    dxf_out.add_results(doc, wall_panel().frame, voids=voids)
+    (dxf_circle,) = doc.modelspace().query('CIRCLE[layer=="LACUNA-VOID-BORE"]')
+    assert float(circles[0].get("r")) == dxf_circle.dxf.radius
+
+
+@pytest.mark.parametrize("diameter", [20.0, 32.0, 0.1 + 0.2, 101.6, 1e-3 * 1234567])
+def test_bore_radius_text_reads_back_exactly(diameter):
+    v = model.Void(id="B", family="bore", centre=(600.0, 300.0), size_mm=diameter, shape=Point(600, 300).buffer(1))
+    text = svg_out.result_svg(wall_panel(), GRID, voids=[v], date="d")
+    (circle,) = groups(text)["lacuna-void-bore"].iter(f"{SVG}circle")
+    assert float(circle.get("r")) == diameter / 2
+
+
+def arcs_of(d: str):
+    """(rx, ry, rotation, large, sweep, x, y) of each A command in path data."""
+    return [tuple(float(v) for v in m) for m in re.findall(
+        r"A(-?[\d.]+) (-?[\d.]+) (-?[\d.]+) ([01]) ([01]) (-?[\d.]+) (-?[\d.]+)", d)]
+
+
+def test_slot_caps_are_true_arcs_of_half_the_width(sheet):
+    ezdxf_math = pytest.importorskip("ezdxf.math")
+    *_, text = sheet
+    (path,) = groups(text)["lacuna-void-slot"].iter(f"{SVG}path")
+    arcs = arcs_of(path.get("d"))
+    assert len(arcs) == 2
+    for (rx, ry, _, large, sweep, x, y), (sx, sy, b) in zip(arcs, [slot_void().outline[1], slot_void().outline[3]]):
+        # Reference: ezdxf's own bulge -> arc conversion gives the radius of the cap.
+        _, _, _, radius = ezdxf_math.bulge_to_arc((sx, sy), (x, y), b)
+        assert rx == ry == pytest.approx(radius, abs=1e-4) and radius == pytest.approx(SLOT["width"] / 2)
+        assert (large, sweep) == (0, 1)  # half circles, counter-clockwise in the local frame (y up)
+
+
+@pytest.mark.parametrize("theta_deg, large, sweep", [(90, 0, 1), (180, 0, 1), (270, 1, 1), (-90, 0, 0), (-270, 1, 0)])
+def test_bulge_to_arc_flags(theta_deg, large, sweep):
+    # SVG 1.1, 8.3.8 "The elliptical arc curve commands": large-arc-flag 1 for a sweep over 180 degrees,
+    # sweep-flag 1 for the positive-angle direction; DXF reference: bulge = tan(theta / 4), positive CCW.
+    b = math.tan(math.radians(theta_deg) / 4)
+    d = svg_out.outline_path(((0.0, 0.0, b), (100.0, 0.0, 0.0)))
+    ((rx, _, _, lg, sw, x, y),) = arcs_of(d)
+    chord_radius = 50.0 / math.sin(math.radians(abs(theta_deg)) / 2)  # chord = 2 r sin(theta / 2)
+    assert (lg, sw, x, y) == (large, sweep, 100.0, 0.0)
+    assert rx == pytest.approx(chord_radius, abs=1e-4)
+
+
+def test_slot_end_caps_render_as_void_where_the_arcs_say(sheet):
+    # The density field is solid round the slot, so the drawn void (paper white) must show exactly inside the
+    # stadium: inside both caps (up to their tips at x = 650 and 950) white, just beyond the cap's curve grey.
+    *_, text = sheet
+    img = render_sheet(text)
+    (cx, cy), r = SLOT["centre"], SLOT["width"] / 2
+    half = (SLOT["length"] - SLOT["width"]) / 2
+    for side in (-1, 1):
+        cap = cx + side * half
+        d = (r - 15) * math.sqrt(0.5)  # on the 45-degree rays of the cap, 15 mm inside its curve
+        for xy in [(cap + side * (r - 12), cy), (cap + side * d, cy + d), (cap + side * d, cy - d)]:
+            assert np.abs(colour_at(img, text, xy) - WHITE).max() < 0.02, xy
+        # Inside the cap's bounding box but outside the curve: a flipped arc would put white here.
+        for xy in [(cap + side * (r + 14), cy), (cap + side * (r - 3), cy + r - 3), (cap + side * (r - 3), cy - r + 3)]:
+            assert np.abs(colour_at(img, text, xy) - SOLID_GREY).max() < 0.03, xy
+
+
+def test_rounded_corner_arcs_bulge_outwards_on_the_rendered_sheet(sheet):
+    # Corner (580, 550) of the square, rounded with r = 20 about (560, 530): the corner point itself is cut off
+    # (solid grey), a point on the arc's inner side (void white).
+    *_, text = sheet
+    img = render_sheet(text)
+    assert np.abs(colour_at(img, text, (578.0, 548.0)) - SOLID_GREY).max() < 0.03
+    assert np.abs(colour_at(img, text, (560.0 + 8.0, 530.0 + 8.0)) - WHITE).max() < 0.02
+
+
+# --- underlays
+
+
+def test_density_underlay_solid_grey_hole_white_opening_white(sheet):
+    *_, text = sheet
+    img = render_sheet(text)
+    (c0, r0), (c1, r1) = pixel_of(text, (0.0, H)), pixel_of(text, (W, 0.0))
+    panel_px = img[r0 + 3 : r1 - 3, c0 + 3 : c1 - 3]
+    assert np.mean(panel_px.sum(axis=2) < 2.9) > 0.5  # rendered, not blank: most of the panel is material
+    # The freeform hole (no rationalised void at its rim) shows paper; solid material the darkest grey class.
+    assert np.abs(colour_at(img, text, (HOLE[0] - 120, HOLE[1])) - WHITE).max() < 0.02
+    assert np.abs(colour_at(img, text, (200.0, 560.0)) - SOLID_GREY).max() < 0.03
+    assert np.abs(colour_at(img, text, OPENING[:2]) - WHITE).max() < 0.02
+
+
+def test_elements_cut_by_an_opening_are_drawn_by_their_material_state():
+    # Density = state x drawn solid share (docs of BesoResult); dividing the share out gives back the state.
+    panel = wall_panel()
+    densities = hole_densities(panel)
+    state, fractions = svg_out.material_state(panel, GRID, densities)
+    cut = (fractions > 0.05) & (fractions < 0.95)
+    assert cut.sum() > 10
+    assert np.allclose(state[cut], 1.0)
+    # Each share checked against shapely's area of the element inside the opening's complement.
+    e = np.flatnonzero(cut)[0]
+    x, y = GRID.element_centres[e]
+    cell = box(x - 10, y - 10, x + 10, y + 10)
+    assert fractions[e] == pytest.approx(cell.intersection(panel.solid).area / 400.0, rel=1e-9)
+
+
+def test_density_greys_darken_evenly_from_void_to_solid():
+    # Equal steps of density, equal steps of CIE L* (our design rule for the scale; L* from CIE 1976).
+    from toolkit import palette
+
+    colours = svg_out.density_colours()
+    assert colours[0] == "#ffffff" and len(colours) == svg_out.DENSITY_CLASSES
+    lab = palette.srgb_to_lab(np.array([hex_rgb(c) for c in colours[1:]]))
+    steps = np.diff(lab[:, 0])
+    assert np.all(steps < 0) and np.ptp(steps) < 0.6
+    assert lab[-1, 0] < 55 and abs(lab[:, 1]).max() < 2 and abs(lab[:, 2]).max() < 3  # a grey, not a hue
+    assert list(svg_out.density_classes([0.0, 0.1249, 0.125, 0.5, 0.999, 1.0])) == [0, 0, 1, 4, 7, 7]
+
+
+def test_stress_underlay_uses_the_stress_drawing_and_its_legend():
+    panel = wall_panel()
+    voids = [slot_void()]
+    xc, yc = GRID.element_centres.T
+    # Bending of a simply supported beam: sx = -M y / I, M > 0 (tension at the bottom fibre); sign only matters.
+    stress = np.column_stack([-(yc - H / 2) / (H / 2) * 4.0, np.zeros_like(xc), np.zeros_like(xc)])
+    text = svg_out.result_svg(panel, GRID, densities=hole_densities(panel), voids=voids, stress=stress,
+                              underlay="stress", date="d")
+    g = groups(text)
+    assert "stress" in g and "density" not in g
+    assert g["drawing"].get("data-stress-limit-MPa") == "4"
+    assert "TENSION" in all_text(g["legend"])
+    img = render_sheet(text)
+    from test_svg_out import side_of_pixels
+
+    c, r = pixel_of(text, (200.0, 40.0))
+    assert np.mean(side_of_pixels(img[r - 2 : r + 3, c - 2 : c + 3]) == 1) > 0.8  # bottom fibre: tension side
+    # The stress belongs to the panel with the voids cut: the hole of the density field is drawn too.
+    assert np.abs(colour_at(img, text, (HOLE[0] - 120, HOLE[1])) - WHITE).max() > 0.05
+
+
+# --- layout frames
+
+
+def test_layout_frames_share_size_and_show_the_evolving_layout():
+    panel = wall_panel()
+    from toolkit.fe.fractions import solid_fractions
+
+    solid = solid_fractions(GRID, panel.solid)  # every element full: iteration 0
+    a = svg_out.layout_frame_svg(panel, GRID, solid, iteration=0, compliance_Nmm=1234.5, volume_fraction=1.0)
+    b = svg_out.layout_frame_svg(panel, GRID, hole_densities(panel), iteration=12, compliance_Nmm=1501.0,
+                                 volume_fraction=0.8125)
+    ra, rb = ET.fromstring(a), ET.fromstring(b)
+    assert (ra.get("width"), ra.get("height")) == (rb.get("width"), rb.get("height"))
+    assert ra.get("width").endswith("mm")
+    caption = all_text(groups(b)["heading"])
+    assert "iteration 12" in caption and "1501 N mm" in caption and "0.812" in caption
+    assert svg_out.CAUTION in all_text(groups(b)["caution"])
+    img_a, img_b = render_sheet(a), render_sheet(b)
+    probe = (HOLE[0] - 100, HOLE[1])
+    assert np.abs(colour_at(img_a, a, probe) - SOLID_GREY).max() < 0.03
+    assert np.abs(colour_at(img_b, b, probe) - WHITE).max() < 0.02
+
+
+# --- convergence
+
+
+def beso_volume_history(target: float, rate: float, n: int) -> np.ndarray:
+    # V_{k+1} = max(V*, V_k (1 - ER)) from V_0 = 1 (Huang & Xie 2009, Comput Mech 43:393-401).
+    v = [1.0]
+    for _ in range(n - 1):
+        v.append(max(target, v[-1] * (1 - rate)))
+    return np.array(v)
+
+
+@pytest.fixture(scope="module")
+def plot():
+    v = beso_volume_history(0.55, 0.02, 45)
+    c = 28000.0 / v**0.6  # compliance rising as material goes; any monotone stand-in will do for the plot
+    return c, v, svg_out.convergence_svg(c, v, target=0.55, title="Test wall W3")
+
+
+def test_convergence_polylines_one_vertex_per_iteration(plot):
+    c, v, text = plot
+    root = ET.fromstring(text)
+    lines = {p.get("id"): p for p in root.iter(f"{SVG}polyline")}
+    assert set(lines) == {"compliance-line", "volume-line"}
+    for line in lines.values():
+        pts = np.array([p.split(",") for p in line.get("points").split()], dtype=float)
+        assert len(pts) == len(c) == 45
+        assert np.all(np.diff(pts[:, 0]) > 0)  # iterations left to right
+    # Compliance rises, so its line climbs (paper y grows downwards); the volume line falls.
+    cy = np.array([p.split(",") for p in lines["compliance-line"].get("points").split()], dtype=float)[:, 1]
+    vy = np.array([p.split(",") for p in lines["volume-line"].get("points").split()], dtype=float)[:, 1]
+    assert cy[-1] < cy[0] and vy[-1] > vy[0]
+
+
+def test_convergence_target_marker_at_the_first_iteration_on_target(plot):
+    _, _, text = plot
+    # 0.98^k first within 0.005 of 0.55 (<= 0.555) at k = ceil(ln 0.555 / ln 0.98) = 30: iteration 31.
+    k = math.ceil(math.log(0.555) / math.log(0.98))
+    assert k == 30
+    g = groups(text)
+    assert g["target"].get("data-iteration") == "31"
+    assert "iteration 31" in all_text(g["target"]) and "target 0.55 reached" in all_text(g["legend"])
+
+
+def test_convergence_ticks_at_round_values(plot):
+    _, _, text = plot
+    labels = [t.text for t in groups(text)["tick-labels"].iter(f"{SVG}text")]
+    assert "compliance, 10\u00b3 N mm" in labels and "volume fraction of the design region" in labels
+    # Round values of the 1-2-5 series (common practice, no source).
+    assert svg_out.nice_ticks(28380.0, 34200.0).tolist() == [28000, 30000, 32000, 34000, 36000]
+    assert svg_out.nice_ticks(0.55, 1.0).tolist() == pytest.approx([0.5, 0.6, 0.7, 0.8, 0.9, 1.0])
+    assert svg_out.nice_ticks(0, 45, 6).tolist() == [0, 10, 20, 30, 40, 50]
+    for piece in ("0.5", "1.0", "10", "40"):
+        assert piece in labels
+
+
+def test_one_iteration_history_still_draws():
+    text = svg_out.convergence_svg([100.0], [0.9], target=0.5)
+    (line, _) = ET.fromstring(text).iter(f"{SVG}polyline")
+    assert len(line.get("points").split()) == 1
+    assert "not reached" in all_text(groups(text)["legend"])
+
+
+# --- bad input
+
+
+def test_bad_requests_are_refused_in_words():
+    panel = wall_panel()
+    with pytest.raises(LacunaError, match="unknown underlay 'heat'.*density, stress, none"):
+        svg_out.result_svg(panel, GRID, underlay="heat")
+    with pytest.raises(LacunaError, match="no stresses were given"):
+        svg_out.result_svg(panel, GRID, underlay="stress")
+    with pytest.raises(LacunaError, match="densities array has shape"):
+        svg_out.result_svg(panel, GRID, densities=np.ones(10))
+    with pytest.raises(LacunaError, match="unknown void family 'hole'"):
+        svg_out.result_svg(panel, GRID, voids=[model.Void("X", "hole", (1, 1), 5.0, Point(1, 1).buffer(2))])
+    with pytest.raises(LacunaError, match="check marker 0"):
+        svg_out.result_svg(panel, GRID, violations=[42])
+    with pytest.raises(LacunaError, match="same length"):
+        svg_out.convergence_svg([1.0, 2.0], [1.0])
+    with pytest.raises(LacunaError, match="target volume fraction"):
+        svg_out.convergence_svg([1.0], [1.0], target=1.5)
+    with pytest.raises(LacunaError, match="not finite"):
+        svg_out.convergence_svg([1.0, np.nan], [1.0, 0.9])
+    with pytest.raises(LacunaError, match="volume fraction between 0 and 1"):
+        svg_out.layout_frame_svg(panel, GRID, np.ones(GRID.nx * GRID.ny), iteration=3, compliance_Nmm=1.0,
+                                 volume_fraction=1.2)

@@ -1,0 +1,316 @@
+"""`lacuna check` as functions: voids drawn by hand, checked against the fabrication rules of a profile or job.
+
+:func:`check_drawing` reads the panel (outline, openings, keep zones, support and load markers) and the voids
+on the void layers, and proves every rule with :func:`toolkit.rules.check_layout`; :func:`check_outputs`
+turns the result into files: a copy of the drawing with a marker on ``LACUNA-CHECK`` at each violation, and
+the JSON summary. Nothing here writes to disk. docs/check.md describes the command for drafters.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import json
+import math
+import os
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Sequence
+
+import numpy as np
+from ezdxf.lldxf import const, validator
+
+from . import CAUTION, __version__
+from .dxf_in import read_document
+from .dxf_in.source import open_document
+from .dxf_in.voids import VOID_LAYERS, read_voids
+from .errors import LacunaError
+from .inputs import check_panel
+from .jobfile import Job, default_job, read_job
+from .model import Frame, Panel, Rules, Void
+from .pipeline import job_rules
+from .rules.check import Violation, check_layout
+from .rules.profiles import load_profile
+
+# Only min_void_per_thickness reads the thickness. Without one in the job that rule is set aside (with a
+# warning) and the panel carries this stand-in, which nothing in a check reads.
+UNSET_THICKNESS_MM = 1.0
+
+NOTHING_TO_CHECK = "nothing to check"
+
+
+@dataclass(frozen=True, eq=False)
+class CheckResult:
+    """One check: the panel and rules used, the voids read (local mm), what broke, and the JSON summary.
+
+    ``summary`` holds CONTRACT.md's ``violations`` (``where`` in drawing coordinates, lengths in the drawing's
+    unit) and ``checked``, plus the rules with their sources, the voids, ``warnings`` and ``caution``.
+    """
+
+    panel: Panel
+    rules: Rules
+    voids: tuple[Void, ...]
+    violations: tuple[Violation, ...]
+    summary: dict
+    layers: tuple[str, ...] = VOID_LAYERS
+
+    @property
+    def exit_code(self) -> int:
+        """CONTRACT.md: 1 when any rule is broken, else 0 (also when there was nothing to check)."""
+        return 1 if self.violations else 0
+
+    def text_lines(self) -> list[str]:
+        """What ``lacuna check`` prints without ``--json``: a headline, each violation, warnings, caution."""
+        s = self.summary
+        unit = s["units"]
+        lines = [f"{s['drawing']}: {s['message']}"]
+        for v in s["violations"]:
+            x, y = v["where"]
+            lines.append(f"  {v['rule']} at ({x:.6g}, {y:.6g}) {unit}: measured {v['measured']:.6g}, required "
+                         f"{v['required']:.6g} {unit}; handles {', '.join(v['handles']) or '-'}")
+            lines.append(f"    {v['message']}")
+        lines += [f"  warning: {w}" for w in s["warnings"]]
+        lines += [f"  wrote {p}" for p in s.get("outputs", [])]
+        lines.append(f"  caution: {CAUTION}")
+        return lines
+
+
+def check_drawing(dxf_path, job_path=None, *, profile: str | None = None,
+                  layers: Sequence[str] | str | None = None) -> CheckResult:
+    """Check the voids drawn in the DXF file at ``dxf_path`` against the fabrication rules.
+
+    The rules are the job file's (its ``[rules]`` profile with its own values over it; lacuna's defaults
+    without a job); ``profile`` names a profile to use instead of the job's. Voids are read from the three
+    ``LACUNA-VOID-*`` layers and from ``layers`` (extra layer names, a list or "A,B"). Supports and point
+    loads (from the job or the drawing's markers) set the bearing zones; no material is needed. A drawing
+    with no voids is no error: ``checked`` is 0 and the summary says "nothing to check".
+    """
+    path = os.fspath(dxf_path)
+    job = read_job(job_path) if job_path is not None else default_job()
+    if profile is not None:
+        job = _with_profile(job, profile)
+    void_layers = _void_layers(layers, job)
+
+    doc, warnings = open_document(path)
+    drawing = read_document(doc, job.layers, path=path)
+    warnings = list(job.warnings) + warnings + list(drawing.warnings)
+    thickness_known = job.panel.thickness_mm is not None
+    panel_job = job if thickness_known else dataclasses.replace(
+        job, panel=dataclasses.replace(job.panel, thickness_mm=UNSET_THICKNESS_MM))
+    panel, notes = check_panel(drawing, panel_job)
+    warnings += notes
+
+    rules = job_rules(job)
+    if not thickness_known and float(getattr(rules, "min_void_per_thickness", 0.0) or 0.0) > 0:
+        warnings.append(
+            f"profile {rules.profile} sizes voids by the panel thickness (min_void_per_thickness "
+            f"{rules.min_void_per_thickness:g}), but no thickness is given: that rule is not checked. Give "
+            "[panel] thickness in a job file to check it."
+        )
+        rules = dataclasses.replace(rules, min_void_per_thickness=0.0)
+    if not rules.bore_diameters_mm:
+        warnings.append("no stock bore diameters are in force (no profile, no [voids] bore_diameters): bore sizes "
+                        "are not checked against stock.")
+
+    voids = tuple(read_voids(doc, drawing.frame, void_layers, path, warnings=warnings,
+                             join_tolerance_mm=0.5))
+    violations = tuple(check_layout(panel, voids, rules)) if voids else ()
+    summary = _summary(path, panel, rules, voids, violations, void_layers, warnings, thickness_known)
+    return CheckResult(panel=panel, rules=rules, voids=voids, violations=violations, summary=summary,
+                       layers=tuple(void_layers))
+
+
+def check_outputs(result: CheckResult, dxf_path, *, replace: bool = False) -> dict[str, bytes | str]:
+    """The files of a check, name -> content (nothing written): ``<stem>-check.dxf``, a copy of the drawing
+    with a marker on ``LACUNA-CHECK`` at each violation, and ``<stem>-check.json``, the summary.
+
+    Markers left on ``LACUNA-CHECK`` by an earlier check are refused, or deleted first with ``replace``.
+    Every other entity, the voids on the ``LACUNA-VOID-*`` layers included, is kept as it was.
+    """
+    stem = Path(dxf_path).stem
+    p = result.panel
+    data = _marked_copy(os.fspath(dxf_path), p.frame, _markers(result), (p.width_mm, p.height_mm), replace)
+    return {
+        f"{stem}-check.dxf": data,
+        f"{stem}-check.json": json.dumps(result.summary, indent=2, allow_nan=False) + "\n",
+    }
+
+
+# --- inputs -----------------------------------------------------------------------------------------------------
+
+
+def _with_profile(job: Job, profile: str) -> Job:
+    if not isinstance(profile, str) or not profile.strip():
+        raise LacunaError(f"the profile name is empty ({profile!r}).", where="--profile",
+                          hint="Name a profile; `lacuna profiles` lists them.")
+    try:
+        load_profile(profile.strip())
+    except LacunaError as error:
+        raise LacunaError(error.message, where="--profile", hint=error.hint) from None
+    return dataclasses.replace(job, rules=dataclasses.replace(job.rules, profile=profile.strip()))
+
+
+def _void_layers(layers: Sequence[str] | str | None, job: Job) -> list[str]:
+    extra: list[str] = []
+    if isinstance(layers, str):
+        extra = [name.strip() for name in layers.split(",")]
+        if not all(extra):
+            raise LacunaError(f"the layer list {layers!r} has an empty name.", where="--layers",
+                              hint="Separate layer names with commas, e.g. --layers HOLES,SLOTS.")
+    elif layers is not None:
+        for name in layers:
+            if not isinstance(name, str) or not name.strip():
+                raise LacunaError(f"a void layer name must be text, got {name!r}.", where="layers",
+                                  hint="Give the names of the layers holding the voids.")
+            extra.append(name.strip())
+    names = list(dict.fromkeys(list(VOID_LAYERS) + extra))
+    roles = {getattr(job.layers, role).casefold(): role for role in ("outline", "openings", "keep", "support", "load")}
+    for name in names:
+        role = roles.get(name.casefold())
+        if role is not None:
+            raise LacunaError(
+                f"layer {name!r} holds the panel's {role}, so it cannot also hold the voids to check.",
+                where="--layers" if name in extra else f"[layers] {role}",
+                hint="Name only the layers that hold the hand-drawn voids.",
+            )
+    return names
+
+
+# --- the summary --------------------------------------------------------------------------------------------------
+
+
+def _summary(path: str, panel: Panel, rules: Rules, voids: tuple[Void, ...], violations: tuple[Violation, ...],
+             layers: list[str], warnings: list[str], thickness_known: bool) -> dict:
+    f = panel.frame
+    entries = [_violation_json(v, f) for v in violations]
+    if not voids:
+        message = f"{NOTHING_TO_CHECK}: no voids on the layers {', '.join(layers)}."
+    elif violations:
+        broken = len({i for v in violations for i in v.void_ids})
+        message = (f"{len(violations)} violation{'s' if len(violations) != 1 else ''} of the {rules.profile} rules "
+                   f"in {broken} of {len(voids)} voids.")
+    else:
+        message = f"all {len(voids)} voids keep the {rules.profile} rules."
+    return {
+        "command": "check",
+        "lacuna_version": __version__,
+        "drawing": path,
+        "panel": panel.name,
+        "units": f.unit,
+        "layers": list(layers),
+        "checked": len(voids),
+        "violations": entries,
+        "message": message,
+        "envelope": [f.length_to_drawing(panel.width_mm), f.length_to_drawing(panel.height_mm)],
+        "thickness": f.length_to_drawing(panel.thickness_mm) if thickness_known else None,
+        "voids": [_void_json(v, f) for v in voids],
+        "rules": _rules_json(rules, f),
+        "warnings": list(warnings),
+        "caution": CAUTION,
+        "outputs": [],
+    }
+
+
+def _violation_json(v: Violation, frame: Frame) -> dict:
+    entry = v.to_json(frame)
+    # a void or region drawn by several entities carries their handles joined by commas: one per entry here
+    entry["handles"] = [h for joined in entry["handles"] for h in joined.split(",") if h]
+    return entry
+
+
+def _void_json(v: Void, f: Frame) -> dict:
+    x, y = f.to_drawing(np.asarray(v.centre, dtype=float))
+    return {
+        "id": v.id,
+        "family": v.family,
+        "handles": [h for h in (v.handle or "").split(",") if h],
+        "layer": v.layer,
+        "centre": [round(float(x), 6), round(float(y), 6)],
+        "sides": v.sides,
+        "size": round(f.length_to_drawing(v.size_mm), 6),
+        "length": round(f.length_to_drawing(v.length_mm), 6),
+        # a slot's axis and a polygon's longest extent are directions without a sense; a bore has none
+        "angle_deg": 0.0 if v.family == "bore" else round((v.angle_deg + f.angle_deg) % 180.0, 6),
+        "area": v.area_mm2 / f.mm_per_unit ** 2,
+    }
+
+
+def _rules_json(rules: Rules, f: Frame) -> dict:
+    """The rules in force, lengths in the drawing's unit, each with its source."""
+    length = f.length_to_drawing
+    values: dict[str, object] = {
+        "min_web": length(rules.min_web_mm),
+        "edge_cover": length(rules.edge_cover_mm),
+        "min_void": length(rules.min_void_mm),
+        "bearing_clearance": length(rules.bearing_clearance_mm),
+        "bore_diameters": [length(d) for d in rules.bore_diameters_mm],
+        "slot_widths": [length(w) for w in rules.slot_widths_mm],
+        "corner": rules.corner,
+        "corner_size": length(rules.corner_size_mm),
+    }
+    for key in ("web_ratio", "min_void_per_thickness", "depth_band"):
+        if hasattr(rules, key):
+            values[key] = getattr(rules, key)
+    return {"profile": rules.profile, "unit": f.unit, "values": values, "sources": dict(rules.sources)}
+
+
+# --- the marked copy ------------------------------------------------------------------------------------------------
+
+
+def _label(v: dict) -> str:
+    """A short marker label in the drawing's unit: the rule and the figure that breaks it."""
+    m, req = v["measured"], v["required"]
+    if v["rule"] in ("overlap", "opening", "keep", "outside"):
+        return f"{v['rule']} {m:.4g} deep" if v["rule"] != "outside" else f"outside by {m:.4g}"
+    if v["rule"] == "stock_size":
+        return f"stock_size {m:.4g} (stock {req:.4g})"
+    return f"{v['rule']} {m:.4g} < {req:.4g}"
+
+
+def _markers(result: CheckResult):
+    from .dxf_out import Marker
+
+    return [Marker(where=tuple(float(c) for c in v.where), label=_label(entry))
+            for v, entry in zip(result.violations, result.summary["violations"])]
+
+
+def _marked_copy(path: str, frame: Frame, markers, panel_size_mm: tuple[float, float], replace: bool) -> bytes:
+    """The drawing with the markers added on LACUNA-CHECK, as file bytes (same version and format)."""
+    # dxf_out.result_copy_bytes refuses (or, with replace, empties) a drawing holding entities on any LACUNA-*
+    # layer, and a check drawing holds its voids on LACUNA-VOID-*. Until dxf_out can add check markers and
+    # leave the other layers alone, this draws them with dxf_out's own layer set-up, pen and marker look.
+    from . import dxf_out
+
+    doc, _ = open_document(path)
+    _clear_check_layer(doc, path, replace)
+    dxf_out._ensure_layers(doc, frame)
+    pen = dxf_out._Pen(doc.modelspace(), frame, dxf_out.Added(), legacy=doc.dxfversion <= const.DXF12)
+    h = dxf_out._default_text_height((0.0, 0.0, *panel_size_mm))
+    for marker in markers:
+        r = marker.radius_mm if marker.radius_mm is not None else 1.5 * h
+        pen.circle(marker.where, r, dxf_out.CHECK)
+        at = (marker.where[0] + r * math.sqrt(0.5) + 0.3 * h, marker.where[1] + r * math.sqrt(0.5))
+        pen.text(marker.label, at, 0.8 * h, dxf_out.CHECK)
+    return dxf_out.serialise(doc, binary=validator.is_binary_dxf_file(path))
+
+
+def _clear_check_layer(doc, path: str, replace: bool) -> None:
+    from .dxf_out import CHECK
+
+    found = [(layout.name, e) for layout in doc.layouts_and_blocks() for e in layout
+             if e.dxf.get("layer", "0").casefold() == CHECK.casefold()]
+    if not found:
+        return
+    handles = ", ".join(e.dxf.handle for _, e in found[:5]) + (" …" if len(found) > 5 else "")
+    elsewhere = [name for name, _ in found if name.casefold() != "*model_space"]
+    if elsewhere or not replace:
+        raise LacunaError(
+            f"layer {CHECK} already holds {len(found)} entities (handles {handles})"
+            + (f", some in {elsewhere[0]!r}" if elsewhere else ", probably markers of an earlier check") + ".",
+            where=f"{path}, layer {CHECK}",
+            hint="Start from the drawing without the markers, or ask to replace them (replace=True), which deletes "
+            "the entities on that layer from model space first." if not elsewhere else
+            "Move those entities to another layer: lacuna does not delete a drafter's work outside model space.",
+        )
+    msp = doc.modelspace()
+    for _, entity in found:
+        msp.delete_entity(entity)
