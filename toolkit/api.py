@@ -278,11 +278,12 @@ def optimize_file(dxf_path, job_path=None, *, out_dir=None, force: bool = False,
     )
     files[f"{stem}-schedule.csv"] = schedule_csv(run)
     for iteration, densities in run.beso.snapshots if frames else ():
-        k = iteration - 1 if iteration > 0 else 0
-        files[f"{stem}-frame-{iteration:04d}.svg"] = layout_frame_svg(
-            panel, grid, densities, iteration=iteration,
-            compliance_Nmm=float(run.beso.compliance_Nmm[min(k, len(run.beso.compliance_Nmm) - 1)]),
-            volume_fraction=float(run.beso.volume_fraction[min(k, len(run.beso.volume_fraction) - 1)]),
+        k = min(iteration, len(run.beso.compliance_Nmm) - 1)  # history[i] is the design analysed at iteration i
+        # Iterations count from 1 in every figure and message (the first analysis is iteration 1).
+        files[f"{stem}-frame-{iteration + 1:04d}.svg"] = layout_frame_svg(
+            panel, grid, densities, iteration=iteration + 1,
+            compliance_Nmm=float(run.beso.compliance_Nmm[k]),
+            volume_fraction=float(run.beso.volume_fraction[k]),
         )
     out = Path(out_dir) if out_dir is not None else default_out_dir(dxf_path)
     inputs = [dxf_path] + ([Path(job_path)] if job_path else [])

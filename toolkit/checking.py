@@ -62,11 +62,18 @@ class CheckResult:
         """What ``lacuna check`` prints without ``--json``: a headline, each violation, warnings, caution."""
         s = self.summary
         unit = s["units"]
+        # positions and lengths to 0.01 mm, however large the coordinates and whatever the unit
+        digits = max(0, math.ceil(2 + math.log10(self.panel.frame.mm_per_unit) - 1e-9))
+
+        def num(value: float) -> str:
+            text = f"{value:.{digits}f}".rstrip("0").rstrip(".") if digits else f"{value:.0f}"
+            return "0" if text == "-0" else text
+
         lines = [f"{s['drawing']}: {s['message']}"]
         for v in s["violations"]:
             x, y = v["where"]
-            lines.append(f"  {v['rule']} at ({x:.6g}, {y:.6g}) {unit}: measured {v['measured']:.6g}, required "
-                         f"{v['required']:.6g} {unit}; handles {', '.join(v['handles']) or '-'}")
+            lines.append(f"  {v['rule']} at ({num(x)}, {num(y)}) {unit}: measured {num(v['measured'])}, required "
+                         f"{num(v['required'])} {unit}; handles {', '.join(v['handles']) or '-'}")
             lines.append(f"    {v['message']}")
         lines += [f"  warning: {w}" for w in s["warnings"]]
         lines += [f"  wrote {p}" for p in s.get("outputs", [])]

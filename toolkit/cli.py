@@ -96,7 +96,8 @@ class _Progress:
         self.limit = limit
         self.tty = sys.stderr.isatty()
 
-    def __call__(self, iteration: int, compliance: float, volume: float) -> None:
+    def __call__(self, index: int, compliance: float, volume: float) -> None:
+        iteration = index + 1  # the optimiser counts from 0; people and the figures from 1
         width = 24
         done = min(width, int(width * iteration / max(self.limit, 1)))
         line = (f"BESO [{'#' * done}{'.' * (width - done)}] iteration {iteration:4d}  "
