@@ -23,7 +23,7 @@ from shapely.geometry import LineString, Point, Polygon, box
 
 from toolkit.model import Material, Panel, PointLoad, Region, Support, Void
 from toolkit.rules.check import TOLERANCE_MM, allowed_region, check_layout
-from toolkit.rules.profiles import ProfileRules
+from toolkit.model import Rules
 
 H_MM = 0.2
 MARGIN_MM = 3 * H_MM + TOLERANCE_MM
@@ -226,7 +226,7 @@ def placed(draw, width, height, rules, previous):
 def scenes(draw):
     W = draw(st.floats(300, 1200))
     H = draw(st.floats(200, 600))
-    rules = ProfileRules(
+    rules = Rules(
         min_web_mm=draw(st.floats(0, 80)), edge_cover_mm=draw(st.floats(0, 80)), min_void_mm=draw(st.floats(0, 60)),
         bearing_clearance_mm=draw(st.floats(0, 150)), bore_diameters_mm=STOCK, slot_widths_mm=(20.0, 40.0, 50.0),
         web_ratio=draw(st.sampled_from((0.0, 0.5, 1.0))),
@@ -358,7 +358,7 @@ def _agreement(scene):
                     assert brute_to_geometry(b, np.array([v.where])) == pytest.approx(v.measured / 2, abs=2 * H_MM)
 
 
-_BARE = ProfileRules(min_web_mm=0, edge_cover_mm=0, min_void_mm=0, bearing_clearance_mm=0,
+_BARE = Rules(min_web_mm=0, edge_cover_mm=0, min_void_mm=0, bearing_clearance_mm=0,
                      bore_diameters_mm=STOCK, slot_widths_mm=(20.0, 40.0, 50.0))
 _SQUARE = Shape("rect", (0, 0), 0, corners=(0.0, 0.0, 20.0, 20.0))
 # Cases the long run once found: overlapping polygons with no web required (shapely's distance is 0 whether
@@ -369,7 +369,7 @@ _REGRESSIONS = [
     (300.0, 200.0, 5.0, [Shape("ngon", (0.0, 0.0), 8.0, sides=3)], _SQUARE, _SQUARE, ((0.0, 0.0), (0.0, 0.0)),
      (0.0, 200.0), _BARE),
     (300.0, 200.0, 5.0, [Shape("circle", (0.0, 0.0), 10.0)], _SQUARE, _SQUARE, ((0.0, 0.0), (2.9e-257, 0.0)),
-     (0.0, 200.0), ProfileRules(min_web_mm=0, edge_cover_mm=0, min_void_mm=0, bearing_clearance_mm=1.0,
+     (0.0, 200.0), Rules(min_web_mm=0, edge_cover_mm=0, min_void_mm=0, bearing_clearance_mm=1.0,
                                 bore_diameters_mm=STOCK, slot_widths_mm=(20.0, 40.0, 50.0))),
 ]
 
@@ -397,7 +397,7 @@ def test_a_lattice_built_to_the_rules_passes(d, web, cover, clearance, W, H, rat
     """Bores on a square lattice at pitch d + web (+ a hair), clear of cover and bearing zones: no violations."""
     gap = max(web, ratio * d) + 0.05
     pitch = d + gap
-    rules = ProfileRules(min_web_mm=web, edge_cover_mm=cover, min_void_mm=d, bearing_clearance_mm=clearance,
+    rules = Rules(min_web_mm=web, edge_cover_mm=cover, min_void_mm=d, bearing_clearance_mm=clearance,
                          bore_diameters_mm=STOCK, web_ratio=ratio)
     support = ((0.0, 0.0), (100.0, 0.0))
     load = (W / 2, H)

@@ -250,6 +250,13 @@ class Rules:
     slot_widths_mm: tuple[float, ...] = ()
     corner: str = "none"
     corner_size_mm: float = 0.0
+    # Profile-specific rules (0 or None: not in force). ``web_ratio``: a web is at least this many times the
+    # larger void's size (its smallest enclosing circle); ``min_void_per_thickness``: a void's size is at least
+    # this many panel thicknesses; ``depth_band``: void material stays within this middle fraction of the
+    # panel's depth (its shorter side).
+    web_ratio: float = 0.0
+    min_void_per_thickness: float = 0.0
+    depth_band: float | None = None
     sources: tuple[tuple[str, str], ...] = ()
 
     def source(self, rule: str) -> str:

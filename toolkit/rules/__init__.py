@@ -9,7 +9,6 @@
 from .check import TOLERANCE_MM, Violation, allowed_region, check_layout, impossible_rules
 from .profiles import (
     Profile,
-    ProfileRules,
     list_profiles,
     load_profile,
     profiles_table,
@@ -20,7 +19,6 @@ from .profiles import (
 __all__ = [
     "TOLERANCE_MM",
     "Profile",
-    "ProfileRules",
     "Violation",
     "allowed_region",
     "check_layout",

@@ -81,10 +81,7 @@ class Violation:
 
 def _extras(rules: Rules) -> tuple[float, float, float | None]:
     """Profile-specific rules (web_ratio, min_void_per_thickness, depth_band); absent on a plain model.Rules."""
-    # getattr: model.Rules does not carry these fields (yet); rules.profiles.ProfileRules does.
-    return (float(getattr(rules, "web_ratio", 0.0) or 0.0),
-            float(getattr(rules, "min_void_per_thickness", 0.0) or 0.0),
-            getattr(rules, "depth_band", None))
+    return float(rules.web_ratio or 0.0), float(rules.min_void_per_thickness or 0.0), rules.depth_band
 
 
 def _validate_rules(rules: Rules) -> None:

@@ -45,21 +45,6 @@ MATERIAL_KEYS = ("name", "E_MPa", "nu", "density_kg_m3", "source")
 
 
 @dataclass(frozen=True)
-class ProfileRules(Rules):
-    """:class:`toolkit.model.Rules` plus the profile-specific rules (0 or None: not in force).
-
-    ``web_ratio``: the web between two voids (or a void and an opening) is at least ``web_ratio`` times the
-    larger one's size (diameter of its smallest enclosing circle). ``min_void_per_thickness``: a void's size is
-    at least this many panel thicknesses. ``depth_band``: void material stays within this middle fraction of
-    the panel's depth (its shorter side).
-    """
-
-    web_ratio: float = 0.0
-    min_void_per_thickness: float = 0.0
-    depth_band: float | None = None
-
-
-@dataclass(frozen=True)
 class RuleValue:
     """One rule of a profile: its value, the unit it is in, and where the value comes from."""
 
@@ -321,7 +306,7 @@ def _override_value(rule: str, value):
 
 
 def rules_for(profile_name: str | None, overrides: Mapping[str, object] | None = None, *,
-              directory: Path | str | None = None) -> ProfileRules:
+              directory: Path | str | None = None) -> Rules:
     """The rules in force: the profile's values, with the job file's values over them.
 
     ``overrides`` maps a rule ("min_web", "edge_cover", "min_void", "bearing_clearance", "bore_diameters",
@@ -332,7 +317,7 @@ def rules_for(profile_name: str | None, overrides: Mapping[str, object] | None =
     values: dict[str, object] = {}
     sources: dict[str, str] = {}
     if profile_name is None:
-        defaults = ProfileRules()
+        defaults = Rules()
         for rule, name in _RULES_FIELD.items():
             values[rule] = getattr(defaults, name)
             sources[rule] = DEFAULT_SOURCE
@@ -357,10 +342,10 @@ def rules_for(profile_name: str | None, overrides: Mapping[str, object] | None =
                           hint="Give corner_size in the job file's length unit.")
 
     kwargs = {_RULES_FIELD[rule]: value for rule, value in values.items() if rule in _RULES_FIELD}
-    valid = {f.name for f in fields(ProfileRules)}
+    valid = {f.name for f in fields(Rules)}
     kwargs = {k: v for k, v in kwargs.items() if k in valid}
     ordered = tuple((rule, sources[rule]) for rule in _RULES_FIELD if rule in sources and rule in values)
-    return ProfileRules(profile=name_out, sources=ordered, **kwargs)
+    return Rules(profile=name_out, sources=ordered, **kwargs)
 
 
 # --- `lacuna profiles` --------------------------------------------------------------------------------------
