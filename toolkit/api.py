@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import datetime as _dt
 from dataclasses import dataclass, field
 from importlib import resources
@@ -217,6 +218,7 @@ def optimize_summary(run: OptimizeRun, drawing: Drawing | None) -> dict:
             "edge_cover": f.length_to_drawing(rules.edge_cover_mm),
             "min_void": f.length_to_drawing(rules.min_void_mm),
             "bearing_clearance": f.length_to_drawing(rules.bearing_clearance_mm),
+            "bore_diameters": [f.length_to_drawing(d) for d in rules.bore_diameters_mm],
             "sources": dict(rules.sources),
             "violations": [v.to_json(f) for v in run.rationalised.violations],
         },
@@ -328,6 +330,54 @@ def convert_file(source, target, *, layers: str | None = None, units: str | None
     write_outputs(target.parent if str(target.parent) else Path("."), {target.name: data}, inputs=[source],
                   force=force)
     return [f"  note: {n}" for n in notes] + [f"wrote {target}"]
+
+
+@dataclass(frozen=True, eq=False)
+class Result:
+    """What :func:`optimize_document` did: the whole run, its JSON summary, and the handles it added."""
+
+    run: OptimizeRun
+    summary: dict
+    handles: dict
+
+
+def _job_from(job) -> "Job":
+    from .jobfile import Job, parse_job, read_job
+
+    if isinstance(job, Job):
+        return job
+    if isinstance(job, (str, Path)) and Path(job).suffix.lower() == ".toml" and Path(job).is_file():
+        return read_job(job)
+    if isinstance(job, str):
+        return parse_job(job, source="job text")
+    raise LacunaError(
+        f"a job must be a toolkit.jobfile.Job, a path to a .toml job file or TOML text, got {type(job).__name__}.",
+        where="optimize_document(job=...)",
+        hint="Pass read_job('job.toml') or the file's path.",
+    )
+
+
+def optimize_document(doc, job, *, on_iteration=None, replace: bool = False) -> Result:
+    """The whole job on an ezdxf document a CAD host already holds; adds the LACUNA-* layers IN PLACE.
+
+    ``job``: a :class:`toolkit.jobfile.Job`, a job-file path or TOML text. Nothing is written to disk; saving the
+    document is the host's business. ``replace`` lets a second run replace the entities of an earlier one.
+    """
+    from .dxf_in import read_document
+    from .dxf_out import add_results
+    from .inputs import build_panel_with_notes
+
+    job = _job_from(job)
+    drawing = read_document(doc, job.layers, path=getattr(doc, "filename", None) or "<document>")
+    panel, notes = build_panel_with_notes(drawing, job)
+    if notes:
+        drawing = dataclasses.replace(drawing, warnings=tuple(drawing.warnings) + tuple(notes))
+    run = optimize_panel(panel, job, on_iteration=on_iteration)
+    summary = optimize_summary(run, drawing)
+    added = add_results(doc, panel.frame, voids=run.voids, freeform=list(run.freeform), notes=_notes(run),
+                        panel_size_mm=(panel.width_mm, panel.height_mm),
+                        check_markers=[v.to_json() for v in run.rationalised.violations], replace=replace)
+    return Result(run=run, summary=summary, handles=dict(added.handles))
 
 
 def demo_files() -> tuple[Path, Path]:

@@ -107,7 +107,7 @@ def check_drawing(dxf_path, job_path=None, *, profile: str | None = None,
     warnings += notes
 
     rules = job_rules(job)
-    if not thickness_known and float(getattr(rules, "min_void_per_thickness", 0.0) or 0.0) > 0:
+    if not thickness_known and rules.min_void_per_thickness > 0:
         warnings.append(
             f"profile {rules.profile} sizes voids by the panel thickness (min_void_per_thickness "
             f"{rules.min_void_per_thickness:g}), but no thickness is given: that rule is not checked. Give "
@@ -118,8 +118,7 @@ def check_drawing(dxf_path, job_path=None, *, profile: str | None = None,
         warnings.append("no stock bore diameters are in force (no profile, no [voids] bore_diameters): bore sizes "
                         "are not checked against stock.")
 
-    voids = tuple(read_voids(doc, drawing.frame, void_layers, path, warnings=warnings,
-                             join_tolerance_mm=0.5))
+    voids = tuple(read_voids(doc, drawing.frame, void_layers, path, warnings=warnings))
     violations = tuple(check_layout(panel, voids, rules)) if voids else ()
     summary = _summary(path, panel, rules, voids, violations, void_layers, warnings, thickness_known)
     return CheckResult(panel=panel, rules=rules, voids=voids, violations=violations, summary=summary,
@@ -253,10 +252,10 @@ def _rules_json(rules: Rules, f: Frame) -> dict:
         "slot_widths": [length(w) for w in rules.slot_widths_mm],
         "corner": rules.corner,
         "corner_size": length(rules.corner_size_mm),
+        "web_ratio": rules.web_ratio,
+        "min_void_per_thickness": rules.min_void_per_thickness,
+        "depth_band": rules.depth_band,
     }
-    for key in ("web_ratio", "min_void_per_thickness", "depth_band"):
-        if hasattr(rules, key):
-            values[key] = getattr(rules, key)
     return {"profile": rules.profile, "unit": f.unit, "values": values, "sources": dict(rules.sources)}
 
 

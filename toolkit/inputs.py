@@ -35,6 +35,11 @@ def build_panel(drawing: Drawing, job: Job) -> Panel:
     return panel
 
 
+def build_panel_with_notes(drawing: Drawing, job: Job) -> tuple[Panel, list[str]]:
+    """As :func:`build_panel`, returning the notes (overridden markers, unused case weights) as a list."""
+    return _assemble(drawing, job)
+
+
 def load_panel(dxf_path, job_path=None) -> tuple[Panel, Job, Drawing]:
     """Read the job file (or take the defaults), read the drawing with the job's layers, build the panel.
 

@@ -1,0 +1,124 @@
+"""`lacuna optimize` and `toolkit.optimize_document` end to end on a small panel of our own."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import ezdxf
+import pytest
+from click.testing import CliRunner
+
+import toolkit
+from toolkit.cli import main
+from toolkit.rules.profiles import load_profile
+
+JOB = """units = "mm"
+[panel]
+name = "test beam"
+thickness = 100
+element_size = 50
+[material]
+E_MPa = 11000
+nu = 0.3
+density_kg_m3 = 450
+[[support]]
+from = [0, 0]
+to = [150, 0]
+[[support]]
+from = [2850, 0]
+to = [3000, 0]
+fix = "y"
+[[load]]
+from = [0, 600]
+to = [3000, 600]
+wy_kN_m = -6
+[optimize]
+volume_fraction = 0.5
+filter_radius = 150
+[voids]
+family = "bore"
+[rules]
+profile = "timber-bored"
+min_web = 60
+edge_cover = 60
+bearing_clearance = 150
+"""
+
+
+def _drawing(path: Path) -> Path:
+    doc = ezdxf.new("R2013")
+    doc.header["$INSUNITS"] = 4
+    msp = doc.modelspace()
+    msp.add_lwpolyline([(0, 0), (3000, 0), (3000, 600), (0, 600)], close=True, dxfattribs={"layer": "PANEL"})
+    msp.add_circle((1500, 300), 60, dxfattribs={"layer": "OPENING"})
+    msp.add_text("BEAM B7", dxfattribs={"layer": "NOTES", "height": 40})
+    doc.saveas(path)
+    return path
+
+
+@pytest.fixture(scope="module")
+def optimized(tmp_path_factory):
+    tmp = tmp_path_factory.mktemp("opt")
+    dxf = _drawing(tmp / "beam.dxf")
+    job = tmp / "beam.toml"
+    job.write_text(JOB)
+    result = CliRunner().invoke(main, ["optimize", str(dxf), "--job", str(job), "--out", str(tmp / "out"),
+                                       "--json"])
+    assert result.exit_code == 0, result.output
+    return dxf, json.loads(result.stdout)
+
+
+def test_contract_keys(optimized):
+    _, s = optimized
+    for key in ("solid", "iterations", "converged", "volume_fraction_target", "volume_fraction_final",
+                "compliance_freeform_Nmm", "compliance_rationalized_Nmm", "mass_removed_percent", "voids",
+                "rules", "outputs"):  # CONTRACT.md, optimize
+        assert key in s
+    for key in ("profile", "min_web", "edge_cover", "violations"):
+        assert key in s["rules"]
+    for void in s["voids"]:
+        assert {"id", "family", "centre", "sides", "size", "area"} <= set(void)
+    assert all(Path(p).is_file() for p in s["outputs"])
+
+
+def test_voids_are_stock_bores_and_the_rules_hold(optimized):
+    _, s = optimized
+    assert s["voids"], "a half-volume target on a lightly loaded beam leaves room for bores"
+    # The job names no bore list, so the profile's stock sizes rule (toolkit/rules/profiles/timber-bored.toml).
+    stock = set(load_profile("timber-bored").value("bore_diameters"))
+    assert set(s["rules"]["bore_diameters"]) == stock
+    assert all(v["family"] == "bore" and v["size"] in stock for v in s["voids"])
+    assert s["rules"]["violations"] == []
+
+
+def test_removing_material_never_stiffens(optimized):
+    # Energy theorem (common knowledge of linear elasticity, no source needed beyond any FE text): for fixed
+    # loads, removing material cannot lower the compliance. Self-weight is off in this job.
+    _, s = optimized
+    assert s["compliance_rationalized_Nmm"] >= s["solid"]["compliance_Nmm"] * (1 - 1e-12)
+    assert 0 < s["mass_removed_percent"] < 50
+
+
+def test_drawing_copy_keeps_the_input(optimized):
+    dxf, s = optimized
+    original = ezdxf.readfile(dxf)
+    copy = ezdxf.readfile(next(p for p in s["outputs"] if p.endswith(".dxf")))
+    before = {e.dxf.handle: e.dxftype() for e in original.modelspace()}
+    after = {e.dxf.handle: e.dxftype() for e in copy.modelspace()}
+    assert all(after.get(h) == t for h, t in before.items())
+    bores = copy.modelspace().query('CIRCLE[layer=="LACUNA-VOID-BORE"]')
+    assert len(bores) == len(s["voids"])
+    radii = sorted(round(c.dxf.radius * 2, 6) for c in bores)
+    assert radii == sorted(v["size"] for v in s["voids"])
+
+
+def test_optimize_document_in_place(tmp_path):
+    dxf = _drawing(tmp_path / "beam.dxf")
+    doc = ezdxf.readfile(dxf)
+    count = len(doc.modelspace())
+    result = toolkit.optimize_document(doc, JOB)
+    assert len(result.handles["LACUNA-VOID-BORE"]) == len(result.run.voids)
+    assert len(doc.modelspace()) > count
+    with pytest.raises(toolkit.errors.LacunaError, match="LACUNA"):
+        toolkit.optimize_document(doc, JOB)  # a second run must be asked for (replace=True)
