@@ -34,7 +34,8 @@ def test_bad_input_exits_2_with_message_and_writes_nothing(case, tmp_path):
     shutil.copy(BAD / job.name, job)
     before = {p.name: _digest(p) for p in (dxf, job)}
     out = tmp_path / "out"
-    result = run("analyze", dxf, "--job", job, "--out", out)
+    command = "optimize" if case.startswith("optimize-") else "analyze"
+    result = run(command, dxf, "--job", job, "--out", out)
     assert result.exit_code == 2, result.output
     assert EXPECTED[case].lower() in result.output.lower()
     assert "Traceback" not in result.output

@@ -18,6 +18,7 @@ from .analysis import Analysis, analyze
 from .jobfile import Job
 from .model import Panel, Region, Rules, Void
 from .optimize import BesoResult, OptimizeSettings, ZoneSettings, build_problem, run_beso
+from .rules.check import impossible_rules
 from .rules.profiles import rules_for
 from .voids.extract import freeform_voids
 from .voids.layout import Rationalised, rationalise
@@ -118,6 +119,7 @@ def optimize_panel(
     """The whole job on ``panel`` with ``job``'s settings and rules."""
     rules = job_rules(job)
     settings = job_settings(job)
+    impossible_rules(panel, rules)  # before any work: "no void can be placed: ..." in plain words
     solid = analyze(panel)
     zones = ZoneSettings(
         edge_cover_mm=rules.edge_cover_mm,
