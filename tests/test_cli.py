@@ -81,3 +81,50 @@ def test_init_writes_a_template_that_analyses(tmp_path):
     assert job.is_file() and dxf.is_file()
     analysed = run("analyze", dxf, "--job", job, "--out", tmp_path / "res", "--json")
     assert analysed.exit_code == 0, analysed.output
+
+
+CHECK = FIXTURES / "check"
+
+
+@pytest.mark.parametrize("drawing, code, words", [
+    ("planted.dxf", 1, "5 violations"),      # five faults planted by fixtures/make_check.py
+    ("clean.dxf", 0, "keep the precast-formed rules"),
+    ("empty.dxf", 0, "nothing to check"),
+])
+def test_check_exit_codes(drawing, code, words, tmp_path):
+    result = run("check", CHECK / drawing, "--job", CHECK / "check.toml", "--out", tmp_path / "out")
+    assert result.exit_code == code, result.output
+    assert words in result.output
+
+
+def test_check_json_is_one_object_with_contract_keys(tmp_path):
+    result = run("check", CHECK / "planted.dxf", "--job", CHECK / "check.toml", "--out", tmp_path / "o", "--json")
+    assert result.exit_code == 1
+    s = json.loads(result.stdout)
+    assert s["checked"] == 6
+    for v in s["violations"]:  # CONTRACT.md, check
+        assert {"rule", "where", "measured", "required", "handles"} <= set(v)
+
+
+def test_profiles_lists_each_value_with_its_source():
+    result = run("profiles", "--json")
+    assert result.exit_code == 0
+    table = json.loads(result.stdout)
+    text = json.dumps(table)
+    for name in ("timber-bored", "precast-formed", "steel-cut"):
+        assert name in text
+    assert "source" in text
+
+
+def test_convert_round_trip_through_svg(tmp_path):
+    svg, back = tmp_path / "lintel.svg", tmp_path / "lintel.dxf"
+    assert run("convert", FIXTURES / "demo" / "loft-lintel.dxf", svg, "--layers", "PANEL,OPENING").exit_code == 0
+    result = run("convert", svg, back)
+    assert result.exit_code == 0, result.output
+    import ezdxf
+
+    doc = ezdxf.readfile(back)
+    circles = doc.modelspace().query("CIRCLE")
+    # The demo's duct: 180 mm bore at (3150, 430) (fixtures/make_demo.py).
+    assert len(circles) == 1 and circles[0].dxf.radius == pytest.approx(90.0, abs=1e-6)
+    assert tuple(circles[0].dxf.center)[:2] == pytest.approx((3150.0, 430.0), abs=1e-6)

@@ -17,7 +17,7 @@ from .jobfile import template_text
 from .errors import LacunaError
 from .model import Drawing, Panel
 from .pipeline import OptimizeRun, optimize_panel
-from .outputs import default_out_dir, plan_outputs, write_atomic, write_outputs
+from .outputs import default_out_dir, plan_outputs, write_outputs
 from .svg_out import analysis_svg
 
 DEMO_NAME = "loft-lintel"
@@ -308,6 +308,26 @@ def _notes(run: OptimizeRun) -> list[str]:
     ]
 
 
+def check_file(dxf_path, job_path=None, *, profile=None, layers=None, out_dir=None, force: bool = False,
+               replace: bool = False):
+    """``lacuna check``: the voids drawn by hand against the rules; writes the marked copy and the JSON.
+
+    Returns the :class:`toolkit.checking.CheckResult` (its ``exit_code`` is 1 when anything is violated) with
+    ``summary["outputs"]`` filled in. With nothing to check only the JSON is written.
+    """
+    from .checking import check_drawing, check_outputs
+
+    dxf_path = Path(dxf_path)
+    result = check_drawing(dxf_path, job_path, profile=profile, layers=layers)
+    files = check_outputs(result, dxf_path, replace=replace) if result.voids else {}
+    json_name = f"{dxf_path.stem}-check.json"
+    files.pop(json_name, None)
+    out = Path(out_dir) if out_dir is not None else default_out_dir(dxf_path)
+    inputs = [dxf_path] + ([Path(job_path)] if job_path else [])
+    _finish(result.summary, files, json_name, out, inputs, force)
+    return result
+
+
 def iteration_limit(job_path) -> int:
     """The job's iteration cap, for a progress bar (the default where the job cannot be read yet)."""
     from .jobfile import OptimizeOptions, read_job
@@ -341,7 +361,7 @@ class Result:
     handles: dict
 
 
-def _job_from(job) -> "Job":
+def _job_from(job):
     from .jobfile import Job, parse_job, read_job
 
     if isinstance(job, Job):

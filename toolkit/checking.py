@@ -17,7 +17,6 @@ from pathlib import Path
 from typing import Sequence
 
 import numpy as np
-from ezdxf.lldxf import const, validator
 
 from . import CAUTION, __version__
 from .dxf_in import read_document
@@ -193,7 +192,7 @@ def _summary(path: str, panel: Panel, rules: Rules, voids: tuple[Void, ...], vio
     elif violations:
         broken = len({i for v in violations for i in v.void_ids})
         message = (f"{len(violations)} violation{'s' if len(violations) != 1 else ''} of the {rules.profile} rules "
-                   f"in {broken} of {len(voids)} voids.")
+                   f"involving {broken} of {len(voids)} voids.")
     else:
         message = f"all {len(voids)} voids keep the {rules.profile} rules."
     return {
@@ -281,42 +280,7 @@ def _markers(result: CheckResult):
 
 def _marked_copy(path: str, frame: Frame, markers, panel_size_mm: tuple[float, float], replace: bool) -> bytes:
     """The drawing with the markers added on LACUNA-CHECK, as file bytes (same version and format)."""
-    # dxf_out.result_copy_bytes refuses (or, with replace, empties) a drawing holding entities on any LACUNA-*
-    # layer, and a check drawing holds its voids on LACUNA-VOID-*. Until dxf_out can add check markers and
-    # leave the other layers alone, this draws them with dxf_out's own layer set-up, pen and marker look.
     from . import dxf_out
 
-    doc, _ = open_document(path)
-    _clear_check_layer(doc, path, replace)
-    dxf_out._ensure_layers(doc, frame)
-    pen = dxf_out._Pen(doc.modelspace(), frame, dxf_out.Added(), legacy=doc.dxfversion <= const.DXF12)
-    h = dxf_out._default_text_height((0.0, 0.0, *panel_size_mm))
-    for marker in markers:
-        r = marker.radius_mm if marker.radius_mm is not None else 1.5 * h
-        pen.circle(marker.where, r, dxf_out.CHECK)
-        at = (marker.where[0] + r * math.sqrt(0.5) + 0.3 * h, marker.where[1] + r * math.sqrt(0.5))
-        pen.text(marker.label, at, 0.8 * h, dxf_out.CHECK)
-    return dxf_out.serialise(doc, binary=validator.is_binary_dxf_file(path))
-
-
-def _clear_check_layer(doc, path: str, replace: bool) -> None:
-    from .dxf_out import CHECK
-
-    found = [(layout.name, e) for layout in doc.layouts_and_blocks() for e in layout
-             if e.dxf.get("layer", "0").casefold() == CHECK.casefold()]
-    if not found:
-        return
-    handles = ", ".join(e.dxf.handle for _, e in found[:5]) + (" …" if len(found) > 5 else "")
-    elsewhere = [name for name, _ in found if name.casefold() != "*model_space"]
-    if elsewhere or not replace:
-        raise LacunaError(
-            f"layer {CHECK} already holds {len(found)} entities (handles {handles})"
-            + (f", some in {elsewhere[0]!r}" if elsewhere else ", probably markers of an earlier check") + ".",
-            where=f"{path}, layer {CHECK}",
-            hint="Start from the drawing without the markers, or ask to replace them (replace=True), which deletes "
-            "the entities on that layer from model space first." if not elsewhere else
-            "Move those entities to another layer: lacuna does not delete a drafter's work outside model space.",
-        )
-    msp = doc.modelspace()
-    for _, entity in found:
-        msp.delete_entity(entity)
+    return dxf_out.result_copy_bytes(path, frame, add=dxf_out.add_check_markers, check_markers=markers,
+                                     panel_size_mm=panel_size_mm, replace=replace)

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import os
 import sys
 import traceback
 from pathlib import Path
@@ -30,6 +31,10 @@ class _Lacuna(click.Group):
             ctx.exit(EXIT_BAD_INPUT)
         except (click.exceptions.Exit, click.ClickException, click.Abort, KeyboardInterrupt):
             raise
+        except BrokenPipeError:
+            # The reader of our output went away (e.g. `| head`): the files are written; stop quietly.
+            sys.stdout = open(os.devnull, "w")
+            ctx.exit(0)
         except Exception as error:  # a defect in lacuna itself: say so plainly, keep the traceback for --debug
             if debug:
                 traceback.print_exc()
@@ -137,6 +142,32 @@ def optimize(panel: Path, job_path: Path | None, out_dir: Path | None, as_json: 
     finally:
         progress.close()
     _emit(outcome.summary, as_json, outcome.text_lines())
+
+
+@main.command(help=f"""Check voids drawn by hand against the fabrication rules (web, edge cover, size, stock bits,
+bearing clearance, KEEP zones).
+
+Reads the voids on the LACUNA-VOID-* layers (and any layers named with --layers), prints each violation with its
+location and entity handles, and writes a copy of the drawing with a marker on LACUNA-CHECK at each one.
+Exit code 1 when anything is violated; 0 when all rules hold or there is nothing to check.
+
+\b
+{CAUTION}""")
+@click.argument("drawing", type=click.Path(dir_okay=False, path_type=Path))
+@_job_option
+@click.option("--profile", default=None, help="Fabrication profile to check against (overrides the job's).")
+@click.option("--layers", default=None, help="More layers holding voids, comma-separated.")
+@_out_option
+@_json_option
+@_force_option
+@click.option("--replace", is_flag=True, help="Replace the markers of an earlier check in the drawing copy.")
+@click.pass_context
+def check(ctx, drawing: Path, job_path: Path | None, profile: str | None, layers: str | None, out_dir: Path | None,
+          as_json: bool, force: bool, replace: bool) -> None:
+    result = api.check_file(drawing, job_path, profile=profile, layers=layers, out_dir=out_dir, force=force,
+                            replace=replace)
+    _emit(result.summary, as_json, result.text_lines())
+    ctx.exit(result.exit_code)
 
 
 @main.command(help="List the fabrication profiles and their rules, each value with its source.")

@@ -152,11 +152,7 @@ def add_results(
             out.line((cx, cy - half), (cx, cy + half), CENTRE)
     for ring in rings:
         out.closed(tuple((x, y, 0.0) for x, y in ring), FREEFORM)
-    for marker in markers:
-        r = marker.radius_mm if marker.radius_mm is not None else 1.5 * h_mm
-        out.circle(marker.where, r, CHECK)
-        at = (marker.where[0] + r * math.sqrt(0.5) + 0.3 * h_mm, marker.where[1] + r * math.sqrt(0.5))
-        out.text(marker.label, at, 0.8 * h_mm, CHECK)
+    _draw_markers(out, markers, h_mm)
 
     rows = [list(map(str, row)) for row in (schedule if schedule is not None else _schedule_rows(voids, frame))]
     if rows or notes:
@@ -164,13 +160,48 @@ def add_results(
     return added
 
 
-def _clear_or_refuse(doc: DxfDocument, replace: bool) -> int:
-    """Refuse a drawing holding entities on our layers, or (``replace``) delete them from model space.
+def add_check_markers(
+    doc: DxfDocument,
+    frame: Frame,
+    *,
+    check_markers: Iterable[Marker | Mapping] = (),
+    panel_size_mm: tuple[float, float] | None = None,
+    text_height_mm: float | None = None,
+    replace: bool = False,
+) -> Added:
+    """Add rule-violation markers on LACUNA-CHECK in place, leaving every other layer alone.
+
+    This is what ``check`` needs: the voids it checked sit on the LACUNA-VOID-* layers and stay. Only earlier
+    markers on LACUNA-CHECK are refused (or, with ``replace``, deleted from model space first).
+    """
+    _check_frame(frame)
+    markers = [_marker(m, k) for k, m in enumerate(check_markers)]
+    extent = _extent([], [], panel_size_mm)
+    h_mm = text_height_mm if text_height_mm is not None else _default_text_height(extent)
+    added = Added()
+    added.removed = _clear_or_refuse(doc, replace, layers=(CHECK,))
+    added.layers_created = _ensure_layers(doc, frame)
+    out = _Pen(doc.modelspace(), frame, added, legacy=doc.dxfversion <= const.DXF12)
+    _draw_markers(out, markers, h_mm)
+    return added
+
+
+def _draw_markers(out, markers, h_mm: float) -> None:
+    for marker in markers:
+        r = marker.radius_mm if marker.radius_mm is not None else 1.5 * h_mm
+        out.circle(marker.where, r, CHECK)
+        at = (marker.where[0] + r * math.sqrt(0.5) + 0.3 * h_mm, marker.where[1] + r * math.sqrt(0.5))
+        out.text(marker.label, at, 0.8 * h_mm, CHECK)
+
+
+def _clear_or_refuse(doc: DxfDocument, replace: bool, layers=None) -> int:
+    """Refuse a drawing holding entities on ``layers`` (default: all of ours), or (``replace``) delete them
+    from model space.
 
     Entities on our layers in paper space or inside blocks are refused even with ``replace``: they were put
     there by hand, and deleting them would change the drafter's work.
     """
-    ours = {name.casefold() for name in OUR_LAYERS}
+    ours = {name.casefold() for name in (OUR_LAYERS if layers is None else layers)}
     found: dict[str, list[tuple[str, str]]] = {}
     for layout in doc.layouts_and_blocks():
         for entity in layout:
@@ -227,7 +258,7 @@ def _ensure_layers(doc: DxfDocument, frame: Frame) -> list[str]:
     for look in LOOKS:
         if look.name in doc.layers:
             continue  # an empty layer of that name, maybe set up by the drafter: keep their look
-        layer = doc.layers.add(
+        doc.layers.add(
             look.name,
             color=nearest_aci(look.rgb),
             true_color=colors.rgb2int(look.rgb) if true_colour else None,
@@ -458,10 +489,11 @@ def serialise(doc: DxfDocument, *, binary: bool = False) -> bytes:
     return stream.getvalue().encode(doc.output_encoding, errors="dxfreplace")
 
 
-def result_copy_bytes(input_path, frame: Frame, *, dxf_version: str | None = None, **results) -> bytes:
+def result_copy_bytes(input_path, frame: Frame, *, dxf_version: str | None = None, add=None, **results) -> bytes:
     """Read the drawing at ``input_path`` (never written), add the results, return the new file's bytes.
 
-    ``results`` are the keywords of :func:`add_results`. The copy keeps the input's DXF version, format
+    ``results`` are the keywords of ``add`` (default :func:`add_results`; :func:`add_check_markers` for a
+    check). The copy keeps the input's DXF version, format
     (ASCII or binary) and units unless ``dxf_version`` names a later version to write instead.
     """
     from .dxf_in.source import open_document  # the one reader of drawing files
@@ -486,5 +518,5 @@ def result_copy_bytes(input_path, frame: Frame, *, dxf_version: str | None = Non
             )
         doc.dxfversion = target
     mm_per(frame.unit, where=f"{path}, frame unit")
-    add_results(doc, frame, **results)
+    (add or add_results)(doc, frame, **results)
     return serialise(doc, binary=validator.is_binary_dxf_file(path))
