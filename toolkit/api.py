@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import dataclasses
 import datetime as _dt
+import json
 from dataclasses import dataclass, field
 from importlib import resources
 from pathlib import Path
@@ -17,6 +18,7 @@ from .jobfile import template_text
 from .errors import LacunaError
 from .model import Drawing, Panel
 from .pipeline import OptimizeRun, optimize_panel
+from .report import report_markdown
 from .outputs import default_out_dir, plan_outputs, write_outputs
 from .svg_out import analysis_svg
 
@@ -136,8 +138,6 @@ def _slug(text: str) -> str:
 def _finish(summary: dict, files: dict[str, bytes | str], json_name: str, out_dir: Path, inputs: list[Path],
             force: bool) -> Outcome:
     """Name every output in the summary, then write all of them (the JSON last, listing them all)."""
-    import json
-
     names = list(files) + [json_name]
     targets = plan_outputs(out_dir, names, inputs=inputs, force=force)
     summary["outputs"] = [str(t) for t in targets]
@@ -279,6 +279,12 @@ def optimize_file(dxf_path, job_path=None, *, out_dir=None, force: bool = False,
         run.beso.compliance_Nmm, run.beso.volume_fraction, target=run.settings.volume_fraction, title=panel.name,
     )
     files[f"{stem}-schedule.csv"] = schedule_csv(run)
+    files[f"{stem}-schedule.json"] = json.dumps({"units": panel.frame.unit, "voids": summary["voids"]},
+                                                indent=2) + "\n"
+    files[f"{stem}-report.md"] = report_markdown(
+        summary, result_svg=f"{stem}-result.svg", convergence_svg=f"{stem}-convergence.svg",
+        schedule_csv=f"{stem}-schedule.csv", date=date,
+    )
     for iteration, densities in run.beso.snapshots if frames else ():
         k = min(iteration, len(run.beso.compliance_Nmm) - 1)  # history[i] is the design analysed at iteration i
         # Iterations count from 1 in every figure and message (the first analysis is iteration 1).

@@ -1,0 +1,93 @@
+"""The written report of an optimisation: Markdown that links the SVG figures written beside it."""
+
+from __future__ import annotations
+
+from . import CAUTION
+
+
+def _num(value, digits: int = 4) -> str:
+    if value is None:
+        return "–"
+    return f"{value:.{digits}g}"
+
+
+def report_markdown(summary: dict, *, result_svg: str, convergence_svg: str, schedule_csv: str,
+                    date: str) -> str:
+    """The report for ``lacuna optimize``'s JSON ``summary``; figure and schedule names are relative links."""
+    s = summary
+    sol = s["solid"]
+    unit = s["units"]
+    rules = s["rules"]
+    lines = [
+        f"# {s['panel']}: lightening study",
+        "",
+        f"Drawing `{s['drawing']}`, lengths in {unit}; made by lacuna {s['lacuna_version']} on {date}.",
+        "",
+        f"> **Caution.** {CAUTION}",
+        "",
+        "## What was saved, and what it cost",
+        "",
+        "| | solid panel | optimiser's freeform layout | voids to make |",
+        "|---|---:|---:|---:|",
+        f"| compliance, N mm | {_num(s['compliance_solid_Nmm'], 6)} | {_num(s['compliance_freeform_Nmm'], 6)} "
+        f"| {_num(s['compliance_rationalized_Nmm'], 6)} |",
+        f"| largest deflection, mm | {_num(sol['max_deflection_mm'])} | | "
+        f"{_num(s['max_deflection_rationalized_mm'])} |",
+        f"| largest von Mises stress, MPa | {_num(sol['max_von_mises_MPa'])} | | "
+        f"{_num(s['max_von_mises_rationalized_MPa'])} |",
+        f"| material kept in the design region | 100 % | {100 * s['volume_fraction_final']:.1f} % | |",
+        f"| material removed from the panel | 0 % | | {s['mass_removed_percent']:.1f} %"
+        + (f" ({s['mass_removed_kg']:.1f} kg)" if s.get("mass_removed_kg") is not None else "") + " |",
+        "",
+        f"Stiffness lost by the voids to make: compliance {s['stiffness_loss_percent']:+.1f} % against the solid "
+        "panel. The freeform compliance is the optimiser's own (removed elements kept at a trace of stiffness); "
+        "the other two are analyses of the drawn geometry with the openings cut exactly.",
+        "",
+        f"The optimiser ran {s['iterations']} iterations "
+        f"({'converged' if s['converged'] else 'stopped at the iteration limit, NOT converged'}); the volume "
+        f"target {s['volume_fraction_target']:g} is the {s['volume_fraction_basis']}.",
+        "",
+        f"![Voids to make]({result_svg})",
+        "",
+        f"![Convergence]({convergence_svg})",
+        "",
+        "## Voids",
+        "",
+        f"Schedule as CSV: [{schedule_csv}]({schedule_csv}).",
+        "",
+        f"| id | family | centre x, {unit} | centre y, {unit} | sides | size, {unit} | area, {unit}² | made with |",
+        "|---|---|---:|---:|---:|---:|---:|---|",
+    ]
+    for v in s["voids"]:
+        lines.append(f"| {v['id']} | {v['family']} | {v['centre'][0]:.1f} | {v['centre'][1]:.1f} | "
+                     f"{v['sides'] or ''} | {v['size']:.4g} | {v['area']:.6g} | {v['tool']} |")
+    if not s["voids"]:
+        lines.append("| – | no void could be made under the rules | | | | | | |")
+    lines += [
+        "",
+        f"## Fabrication rules: profile {rules['profile']}",
+        "",
+        "| rule | value | source |",
+        "|---|---:|---|",
+    ]
+    for key in ("min_web", "edge_cover", "min_void", "bearing_clearance"):
+        lines.append(f"| {key} | {rules[key]:g} {unit} | {rules['sources'].get(key, '')} |")
+    if rules.get("bore_diameters"):
+        sizes = ", ".join(f"{d:g}" for d in rules["bore_diameters"])
+        lines.append(f"| bore_diameters | {sizes} {unit} | {rules['sources'].get('bore_diameters', '')} |")
+    lines += ["", "### Proof of the rules on the final geometry", ""]
+    if rules["violations"]:
+        lines.append(f"**{len(rules['violations'])} rule violations remain** — the layout is not ready to make:")
+        lines.append("")
+        lines += [f"- {v['rule']} at ({v['where'][0]:.1f}, {v['where'][1]:.1f}): {v['message']}"
+                  for v in rules["violations"]]
+    else:
+        lines.append("Every rule was checked on the final geometry with exact distances: no violation.")
+    if s.get("changes") or s.get("dropped"):
+        lines += ["", "### What the fitting changed", ""]
+        lines += [f"- {c}" for c in s.get("changes", [])]
+        lines += [f"- {d}" for d in s.get("dropped", [])]
+    if s.get("warnings"):
+        lines += ["", "## Warnings", ""] + [f"- {w}" for w in s["warnings"]]
+    lines += ["", "---", "", CAUTION, ""]
+    return "\n".join(lines)
