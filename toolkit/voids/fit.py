@@ -44,11 +44,28 @@ OUTSIDE_WEIGHT = 4.0
 MIN_TURN = math.radians(2.0)
 
 
+def overlay(op, a, b):
+    """A shapely overlay (``shapely.difference`` and the like) that survives nearly coincident edges.
+
+    Floating-point overlay can fail on edges that almost touch; snap rounding to a micrometre grid then
+    gives the same area to far better than any length the rules care about.
+    """
+    try:
+        return op(a, b)
+    except shapely.errors.GEOSException:
+        pass
+    try:
+        return op(a, b, grid_size=1e-3)
+    except shapely.errors.GEOSException:
+        snapped = [shapely.make_valid(shapely.set_precision(g, 1e-3)) for g in (a, b)]
+        return op(*snapped)
+
+
 def fit_error(shape, target: Polygon) -> float:
     """area(shape symmetric-difference target) / area(target)."""
     if target.area <= 0.0:
         raise ValueError("the freeform void has no area")
-    return float(shapely.area(shapely.symmetric_difference(shape, target)) / target.area)
+    return float(shapely.area(overlay(shapely.symmetric_difference, shape, target)) / target.area)
 
 
 def _objective(target: Polygon, allowed):
@@ -56,9 +73,9 @@ def _objective(target: Polygon, allowed):
     shapely.prepare(target)
 
     def cost(poly) -> float:
-        e = shapely.area(shapely.symmetric_difference(poly, target)) / area
+        e = shapely.area(overlay(shapely.symmetric_difference, poly, target)) / area
         if allowed is not None:
-            e += OUTSIDE_WEIGHT * shapely.area(shapely.difference(poly, allowed)) / area
+            e += OUTSIDE_WEIGHT * shapely.area(overlay(shapely.difference, poly, allowed)) / area
         return float(e)
 
     return cost
@@ -264,7 +281,7 @@ def fit_bores(target: Polygon, diameters, *, allowed=None, min_web_mm: float = 0
         return []
     region = shapely.buffer(target, tolerance_mm) if tolerance_mm > 0 else target
     if allowed is not None:
-        region = shapely.intersection(region, allowed)
+        region = overlay(shapely.intersection, region, allowed)
     out: list[Draft] = []
     while len(out) < max_bores and not region.is_empty and region.area > 0.0:
         mic = shapely.maximum_inscribed_circle(region, 1e-3)
@@ -276,5 +293,5 @@ def fit_bores(target: Polygon, diameters, *, allowed=None, min_web_mm: float = 0
         centre = mic.coords[0]
         out.append(Draft(family="bore", centre=(float(centre[0]), float(centre[1])), size=d, source=source,
                          part=len(out)))
-        region = shapely.difference(region, Point(centre).buffer(d / 2.0 + min_web_mm, quad_segs=32))
+        region = overlay(shapely.difference, region, Point(centre).buffer(d / 2.0 + min_web_mm, quad_segs=32))
     return out

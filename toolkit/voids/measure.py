@@ -121,6 +121,8 @@ def clean(freeform, min_void_mm: float, *, where: str = "freeform voids") -> tup
         if not isinstance(geom, (Polygon, MultiPolygon)):
             raise LacunaError(f"freeform void #{i + 1} is a {type(geom).__name__}, not an area.", where=where,
                               hint="Pass the closed void outlines (shapely polygons) from the extraction step.")
+        # Coordinates on a micrometre grid: overlays then never meet edges a rounding error apart.
+        geom = shapely.set_precision(geom, 1e-6)
         if not geom.is_valid:
             geom = shapely.make_valid(geom)
         parts = [p for p in shapely.get_parts(geom) if isinstance(p, Polygon) and p.area > 0.0]
