@@ -104,9 +104,10 @@ def _validate_rules(rules: Rules) -> None:
                           hint="It is the middle fraction of the depth that voids may use, e.g. 0.5.")
 
 
-def _min_size(panel: Panel, rules: Rules) -> float:
+def least_void_size(rules: Rules, thickness_mm: float) -> float:
+    """The least void size in force (mm): min_void, or the profile's multiple of the thickness if larger."""
     _, per_t, _ = _extras(rules)
-    return max(rules.min_void_mm, per_t * panel.thickness_mm)
+    return max(rules.min_void_mm, per_t * thickness_mm)
 
 
 def _depth_axis(panel: Panel) -> int:
@@ -415,7 +416,7 @@ def check_layout(panel: Panel, voids: Sequence[Void], rules: Rules) -> list[Viol
                                      f"{_region_name(z, 'keep zone')}, which must stay solid."))
 
     # size and stock sizes
-    least = _min_size(panel, rules)
+    least = least_void_size(rules, panel.thickness_mm)
     for i, v in enumerate(voids):
         if b.size[i] < least - tol:
             out.append(Violation("min_void", _pt(b.size_at[i]), float(b.size[i]), least, _handles(v), (v.id,),
@@ -516,7 +517,7 @@ def _room(region) -> float:
 def impossible_rules(panel: Panel, rules: Rules):
     """Raise LacunaError in plain words when no void of the least size can be placed at all; else return
     :func:`allowed_region` (the fitting stage calls this first)."""
-    least = max(_min_size(panel, rules), TOLERANCE_MM)
+    least = max(least_void_size(rules, panel.thickness_mm), TOLERANCE_MM)
     W, H, ec = panel.width_mm, panel.height_mm, rules.edge_cover_mm
     axis = _depth_axis(panel)
     depth, length = (W, H)[axis], (W, H)[1 - axis]

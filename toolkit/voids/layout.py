@@ -135,12 +135,13 @@ def resolve_settings(settings: VoidOptions, rules: Rules, thickness_mm: float = 
         if not (math.isfinite(value) and value >= 0.0):
             raise LacunaError(f"{name} must be a length of zero or more, got {value!r}.", where=f"[rules] {name}",
                               hint=f"Give {name} as a length in the job file's units.")
-    # A profile may tie the least void size to the thickness and the web to the voids' size (ProfileRules).
-    least = max(rules.min_void_mm, float(getattr(rules, "min_void_per_thickness", 0.0) or 0.0) * thickness_mm)
+    from ..rules.check import least_void_size
+
+    least = least_void_size(rules, thickness_mm)
     return Resolved(family=settings.family, sides=settings.sides, bore_diameters_mm=tuple(sorted(bores)),
                     slot_widths_mm=tuple(sorted(slots)), max_types=settings.max_types, snap_mm=settings.snap_mm,
                     corner=corner, corner_mm=float(corner_mm or 0.0), min_void_mm=least,
-                    min_web_mm=rules.min_web_mm, web_ratio=float(getattr(rules, "web_ratio", 0.0) or 0.0))
+                    min_web_mm=rules.min_web_mm, web_ratio=float(rules.web_ratio or 0.0))
 
 
 def _check_lengths(values, where: str, what: str, example: str) -> None:
