@@ -164,7 +164,7 @@ class Site:
     """Where void material may go and how far apart voids stay: answers "may this void stand here?"."""
 
     def __init__(self, allowed, min_web_mm: float, move_step_mm: float, web_ratio: float = 0.0,
-                 least_mm: float = 0.0):
+                 least_mm: float = 0.0, openings=()):
         inner = shapely.buffer(allowed, -SAFETY_MM, quad_segs=4) if not allowed.is_empty else allowed
         shapely.prepare(inner)
         self.inner = inner
@@ -173,12 +173,17 @@ class Site:
         self.ratio = web_ratio
         self.least = least_mm
         self.step = move_step_mm
+        # The allowed region already keeps min_web from the openings; a web ratio also ties that web to the
+        # larger of the void and the opening, which only a per-void test can say.
+        self.openings = list(openings) if web_ratio > 0.0 else []
 
     def inside(self, shape) -> bool:
         return bool(self.inner.covers(shape))
 
     def clear(self, shape, others) -> bool:
-        """At least the web from every other void; with a web ratio, that times the larger one's extent."""
+        """At least the web from every other void and opening; with a web ratio, that times the larger one's
+        extent (the diameter of its smallest enclosing circle, as rules.check measures it)."""
+        others = list(others) + self.openings
         if not others:
             return True
         others = np.asarray(others, dtype=object)
@@ -400,7 +405,8 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
                            "void of the stock sizes fits in it; dropped.")
         drafts.extend(got)
 
-    site = Site(allowed, r.min_web_mm, r.snap_mm, r.web_ratio, r.min_void_mm)
+    site = Site(allowed, r.min_web_mm, r.snap_mm, r.web_ratio, r.min_void_mm,
+                openings=[o.shape for o in panel.openings])
     placed, change_recs, drop_recs = place(drafts, site, r)
     for source, reason in drop_recs:
         v = by_source[source]
