@@ -412,10 +412,18 @@ def demo_files() -> tuple[Path, Path]:
     return Path(str(base / f"{DEMO_NAME}.dxf")), Path(str(base / f"{DEMO_NAME}.toml"))
 
 
-def run_demo(out_dir, *, force: bool = False) -> Outcome:
-    """``lacuna demo``: the whole job on the bundled loft lintel."""
+def run_demo(out_dir, *, force: bool = False, on_iteration=None) -> Outcome:
+    """``lacuna demo``: the whole job on the bundled loft lintel: the solid panel's analysis, then the
+    optimisation; both sets of files in ``out_dir``. The summary is the optimisation's, listing every file."""
     dxf, job = demo_files()
-    return analyze_file(dxf, job, out_dir=out_dir, force=force)
+    out_dir = Path(out_dir)
+    # Both steps are checked against the folder before either writes, so a refused run writes nothing.
+    stem = dxf.stem
+    plan_outputs(out_dir, [f"{stem}-analysis.json", f"{stem}-optimize.json"], inputs=[dxf, job], force=force)
+    analysed = analyze_file(dxf, job, out_dir=out_dir, force=force)
+    optimised = optimize_file(dxf, job, out_dir=out_dir, force=force, on_iteration=on_iteration)
+    optimised.summary["outputs"] = analysed.summary["outputs"] + optimised.summary["outputs"]
+    return optimised
 
 
 def write_starter(directory, *, force: bool = False) -> list[Path]:

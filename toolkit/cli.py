@@ -200,7 +200,8 @@ def convert(source: Path, target: Path, layers: str | None, units: str | None, f
         click.echo(line)
 
 
-@main.command(help=f"""Run lacuna on the bundled demo panel (a glulam loft lintel) and write the results.
+@main.command(help=f"""Run the whole job on the bundled demo panel (a glulam loft lintel over a barn door): the
+solid panel's stress figure, the optimisation, the voids to make, the drawing copy, schedule and report.
 
 \b
 {CAUTION}""")
@@ -209,7 +210,11 @@ def convert(source: Path, target: Path, layers: str | None, units: str | None, f
 @_json_option
 @_force_option
 def demo(out_dir: Path, as_json: bool, force: bool) -> None:
-    outcome = api.run_demo(out_dir, force=force)
+    progress = _Progress(api.iteration_limit(api.demo_files()[1]))
+    try:
+        outcome = api.run_demo(out_dir, force=force, on_iteration=progress)
+    finally:
+        progress.close()
     _emit(outcome.summary, as_json, outcome.text_lines())
 
 
