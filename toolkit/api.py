@@ -336,12 +336,13 @@ def check_file(dxf_path, job_path=None, *, profile=None, layers=None, out_dir=No
 
 def iteration_limit(job_path) -> int:
     """The job's iteration cap, for a progress bar (the default where the job cannot be read yet)."""
-    from .jobfile import OptimizeOptions, read_job
+    from .jobfile import read_job
+    from .optimize import OptimizeSettings
 
     try:
-        return read_job(job_path).optimize.max_iterations if job_path else OptimizeOptions().max_iterations
+        return read_job(job_path).optimize.max_iterations if job_path else OptimizeSettings().max_iterations
     except LacunaError:
-        return OptimizeOptions().max_iterations  # the real reading reports the fault
+        return OptimizeSettings().max_iterations  # the real reading reports the fault
 
 
 def convert_file(source, target, *, layers: str | None = None, units: str | None = None,

@@ -20,6 +20,7 @@ from importlib import resources
 from pathlib import Path
 
 from .errors import LacunaError
+from .optimize.settings import OptimizeSettings
 from .model import Layers, LineLoad, Load, Material, Point, PointLoad, Support
 from .units import MM_PER_UNIT
 
@@ -37,21 +38,6 @@ class PanelOptions:
     element_size_mm: float | None = None
     name: str = ""
     self_weight: bool = False
-
-
-@dataclass(frozen=True)
-class OptimizeOptions:
-    """[optimize]: the BESO settings. Defaults after Huang & Xie 2010 (see docs/jobfile.md)."""
-
-    volume_fraction: float = 0.6
-    evolution_rate: float = 0.02
-    filter_radius_mm: float | None = None  # None: three element sizes
-    symmetry: str = "none"
-    max_iterations: int = 200
-    penalty: float = 3.0
-    void_density: float = 1e-3
-    admission_ratio: float = 0.02
-    convergence_tolerance: float = 0.001
 
 
 DEFAULT_BORE_DIAMETERS_MM = (20.0, 25.0, 32.0, 40.0, 50.0, 65.0, 80.0, 100.0, 125.0, 150.0)
@@ -100,7 +86,7 @@ class Job:
     supports: tuple[Support, ...] = ()
     loads: tuple[Load, ...] = ()
     case_weights: tuple[tuple[str, float], ...] = ()
-    optimize: OptimizeOptions = field(default_factory=OptimizeOptions)
+    optimize: OptimizeSettings = field(default_factory=OptimizeSettings)
     voids: VoidOptions = field(default_factory=VoidOptions)
     rules: RuleOptions = field(default_factory=RuleOptions)
     given: frozenset[str] = frozenset()
@@ -509,11 +495,11 @@ class _Reader:
             weights.append((name, value))
         return tuple(weights)
 
-    def read_optimize(self, t: dict) -> OptimizeOptions:
+    def read_optimize(self, t: dict) -> OptimizeSettings:
         w = lambda key: self.where("optimize", key)  # noqa: E731
-        d = OptimizeOptions()
+        d = OptimizeSettings()
         get = lambda key, read, default: read(t[key], w(key)) if key in t else default  # noqa: E731
-        return OptimizeOptions(
+        return OptimizeSettings(
             volume_fraction=get("volume_fraction", lambda v, where: self.number(
                 v, where, low=0.0, high=1.0, low_open=True,
                 hint="The share of the design region kept solid, e.g. 0.6."), d.volume_fraction),

@@ -77,21 +77,6 @@ def job_rules(job: Job) -> Rules:
     return rules_for(r.profile, overrides)
 
 
-def job_settings(job: Job) -> OptimizeSettings:
-    o = job.optimize
-    return OptimizeSettings(
-        volume_fraction=o.volume_fraction,
-        evolution_rate=o.evolution_rate,
-        filter_radius_mm=o.filter_radius_mm,
-        symmetry=o.symmetry,
-        max_iterations=o.max_iterations,
-        penalty=o.penalty,
-        void_density=o.void_density,
-        admission_ratio=o.admission_ratio,
-        convergence_tolerance=o.convergence_tolerance,
-    )
-
-
 def strain_energy_density(result: Analysis, panel: Panel) -> np.ndarray:
     """(ne,) weighted strain-energy density of the solid panel, N mm / mm2 (per unit area of the panel)."""
     g = result.grid
@@ -118,7 +103,7 @@ def optimize_panel(
 ) -> OptimizeRun:
     """The whole job on ``panel`` with ``job``'s settings and rules."""
     rules = job_rules(job)
-    settings = job_settings(job)
+    settings = job.optimize
     impossible_rules(panel, rules)  # before any work: "no void can be placed: ..." in plain words
     solid = analyze(panel)
     zones = ZoneSettings(

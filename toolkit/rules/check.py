@@ -461,6 +461,9 @@ def _fmt(p) -> str:
 
 def _grow(geom, distance: float):
     """``geom`` grown by ``distance``, polygon circumscribing the true offset (never smaller than it)."""
+    if distance < 1e-9:
+        # GEOS returns an EMPTY geometry for a vanishing (e.g. denormal) positive distance: grow by nothing.
+        return geom
     return shapely.buffer(geom, distance / math.cos(math.pi / (4 * _QUAD_SEGS)), quad_segs=_QUAD_SEGS)
 
 
