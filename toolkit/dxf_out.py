@@ -19,7 +19,7 @@ from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass, field
 
 import numpy as np
-from ezdxf import colors
+from ezdxf import bbox, colors
 from ezdxf.document import Drawing as DxfDocument
 from ezdxf.lldxf import const, validator
 from shapely.geometry import MultiPolygon, Polygon
@@ -134,6 +134,8 @@ def add_results(
 
     added = Added()
     added.removed = _clear_or_refuse(doc, replace)
+    # Measured before anything of ours is added: the drafter's own annotation under the panel stays readable.
+    floor = _floor_below(doc, frame, extent) if (schedule is None and voids) or schedule or notes else extent[1]
     added.layers_created = _ensure_layers(doc, frame)
     msp = doc.modelspace()
     out = _Pen(msp, frame, added, legacy=doc.dxfversion <= const.DXF12)
@@ -156,7 +158,7 @@ def add_results(
 
     rows = [list(map(str, row)) for row in (schedule if schedule is not None else _schedule_rows(voids, frame))]
     if rows or notes:
-        _note_block(out, rows, list(notes), extent, h_mm)
+        _note_block(out, rows, list(notes), (extent[0], floor, extent[2], extent[3]), h_mm)
     return added
 
 
@@ -360,6 +362,21 @@ def _schedule_rows(voids: list[Void], frame: Frame) -> list[list[str]]:
             _fmt(v.area_mm2 / frame.mm_per_unit ** 2),
         ])
     return rows
+
+
+def _floor_below(doc: DxfDocument, frame: Frame, extent) -> float:
+    """The lowest local y of the drawing's model-space entities standing under the panel (overlapping its local
+    x range and reaching below it), or the extent's own bottom: the notes go below all of them."""
+    floor = extent[1]
+    for box in bbox.multi_flat(doc.modelspace(), fast=True):
+        if not box.has_data:
+            continue
+        (x0, y0), (x1, y1) = box.extmin.vec2, box.extmax.vec2
+        corners = frame.to_local(np.array([[x0, y0], [x1, y0], [x1, y1], [x0, y1]], dtype=float))
+        lo, hi = corners.min(axis=0), corners.max(axis=0)
+        if hi[0] >= extent[0] and lo[0] <= extent[2] and lo[1] < floor:
+            floor = float(lo[1])
+    return floor
 
 
 def _default_text_height(extent) -> float:
