@@ -122,3 +122,18 @@ def test_optimize_document_in_place(tmp_path):
     assert len(doc.modelspace()) > count
     with pytest.raises(toolkit.errors.LacunaError, match="LACUNA"):
         toolkit.optimize_document(doc, JOB)  # a second run must be asked for (replace=True)
+
+
+def test_a_second_run_on_a_result_drawing_needs_replace(optimized, tmp_path):
+    dxf, s = optimized
+    result_dxf = next(p for p in s["outputs"] if p.endswith("-lacuna.dxf"))
+    job = dxf.with_suffix(".toml")
+    refused = CliRunner().invoke(main, ["optimize", result_dxf, "--job", str(job), "--out", str(tmp_path / "a")])
+    assert refused.exit_code == 2 and "--replace" in refused.output
+    assert not (tmp_path / "a").exists()
+    again = CliRunner().invoke(main, ["optimize", result_dxf, "--job", str(job), "--out", str(tmp_path / "b"),
+                                      "--replace", "--json"])
+    assert again.exit_code == 0, again.output
+    copy = ezdxf.readfile(next(p for p in json.loads(again.stdout)["outputs"] if p.endswith(".dxf")))
+    # Replaced, not doubled: one set of bores, as many as the new run made.
+    assert len(copy.modelspace().query('CIRCLE[layer=="LACUNA-VOID-BORE"]')) == len(json.loads(again.stdout)["voids"])

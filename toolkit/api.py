@@ -253,13 +253,14 @@ def schedule_csv(run: OptimizeRun) -> str:
 
 
 def optimize_file(dxf_path, job_path=None, *, out_dir=None, force: bool = False, frames: int = 0,
-                  on_iteration=None, dxf_version: str | None = None) -> Outcome:
+                  on_iteration=None, dxf_version: str | None = None, replace: bool = False) -> Outcome:
     """``lacuna optimize``: the whole job; writes the drawing copy with our layers, figures, schedule, JSON."""
-    from .dxf_out import result_copy_bytes
+    from .dxf_out import refuse_earlier_results, result_copy_bytes
     from .svg_out import convergence_svg, layout_frame_svg, result_svg
 
     dxf_path = Path(dxf_path)
     panel, job, drawing = load_panel(dxf_path, job_path)
+    refuse_earlier_results(dxf_path, replace=replace)
     run = optimize_panel(panel, job, on_iteration=on_iteration, keep_every=frames)
     summary = optimize_summary(run, drawing)
     stem = dxf_path.stem
@@ -269,6 +270,7 @@ def optimize_file(dxf_path, job_path=None, *, out_dir=None, force: bool = False,
     files[f"{stem}-lacuna.dxf"] = result_copy_bytes(
         dxf_path, panel.frame, voids=run.voids, freeform=list(run.freeform),
         notes=_notes(run), panel_size_mm=(panel.width_mm, panel.height_mm), dxf_version=dxf_version,
+        replace=replace,
     )
     files[f"{stem}-result.svg"] = result_svg(
         panel, grid, densities=run.beso.densities, freeform=run.freeform, voids=run.voids,

@@ -133,12 +133,14 @@ result, the convergence plot, the void schedule (CSV) and the JSON summary.
 @click.option("--frames", type=click.IntRange(min=0), default=0, show_default=True,
               help="Also write an SVG of the evolving layout every K iterations (0: none).")
 @click.option("--dxf-version", default=None, help="Write the drawing as this DXF version (default: as the input).")
+@click.option("--replace", is_flag=True,
+              help="The drawing already holds results of an earlier run: replace them in the copy.")
 def optimize(panel: Path, job_path: Path | None, out_dir: Path | None, as_json: bool, force: bool, frames: int,
-             dxf_version: str | None) -> None:
+             dxf_version: str | None, replace: bool) -> None:
     progress = _Progress(api.iteration_limit(job_path))
     try:
         outcome = api.optimize_file(panel, job_path, out_dir=out_dir, force=force, frames=frames,
-                                    on_iteration=progress, dxf_version=dxf_version)
+                                    on_iteration=progress, dxf_version=dxf_version, replace=replace)
     finally:
         progress.close()
     _emit(outcome.summary, as_json, outcome.text_lines())

@@ -196,6 +196,14 @@ def _draw_markers(out, markers, h_mm: float) -> None:
         out.text(marker.label, at, 0.8 * h_mm, CHECK)
 
 
+def refuse_earlier_results(input_path, *, replace: bool = False) -> None:
+    """Fail fast, before any long computation, when the drawing already holds results and ``replace`` is off."""
+    from .dxf_in.source import open_document
+
+    doc, _warnings = open_document(os.fspath(input_path))
+    _clear_or_refuse(doc, replace)  # on a throwaway copy in memory: with replace it only checks placement
+
+
 def _clear_or_refuse(doc: DxfDocument, replace: bool, layers=None) -> int:
     """Refuse a drawing holding entities on ``layers`` (default: all of ours), or (``replace``) delete them
     from model space.
