@@ -38,6 +38,7 @@ class OptimizeRun:
     freeform: tuple[Polygon, ...]
     rationalised: Rationalised
     final: Analysis                 # the panel with the voids to make cut exactly
+    freeform_analysis: Analysis     # the panel with the freeform outlines cut exactly (like for like)
     warnings: tuple[str, ...] = ()
 
     @property
@@ -51,6 +52,11 @@ class OptimizeRun:
     @property
     def mass_removed_percent(self) -> float:
         return 100.0 * self.removed_area_mm2 / float(self.panel.solid.area)
+
+    @property
+    def freeform_removed_percent(self) -> float:
+        """Share of the drawn material the freeform outlines remove, as analysed."""
+        return 100.0 * (1.0 - float(self.freeform_analysis.fractions.sum()) / float(self.solid.fractions.sum()))
 
     @property
     def mass_removed_kg(self) -> float | None:
@@ -94,6 +100,28 @@ def with_voids(panel: Panel, voids) -> Panel:
     return dataclasses.replace(panel, openings=panel.openings + extra)
 
 
+def with_freeform(panel: Panel, freeform, grid) -> Panel:
+    """The panel with the optimiser's freeform outlines cut as openings, so it is analysed like the voids to make.
+
+    The contour may pass within a fraction of an element of a support or a point load (the zones keep the
+    elements there solid, not the contour); a disc of one element diagonal round each stays material, so every
+    load and support still bears on the panel.
+    """
+    if not freeform:
+        return panel
+    reach = float(np.hypot(grid.dx, grid.dy))
+    anchors = [shapely.Point(load.at) for load in panel.loads if hasattr(load, "at")]
+    anchors += [shapely.LineString(s.points) if len(s.points) == 2 else shapely.Point(s.points[0])
+                for s in panel.supports]
+    cut = shapely.union_all(list(freeform))
+    if anchors:
+        cut = shapely.difference(cut, shapely.buffer(shapely.union_all(anchors), reach))
+    cut = shapely.intersection(cut, panel.envelope)
+    if cut.is_empty:
+        return panel
+    return dataclasses.replace(panel, openings=panel.openings + (Region(shape=cut, layer="LACUNA-FREEFORM"),))
+
+
 def optimize_panel(
     panel: Panel,
     job: Job,
@@ -118,6 +146,7 @@ def optimize_panel(
     energy = (solid.grid, strain_energy_density(solid, panel))
     rationalised = rationalise(panel, list(freeform), job.voids, rules, energy=energy)
     final = analyze(with_voids(panel, rationalised.voids), grid=solid.grid)
+    freeform_analysis = analyze(with_freeform(panel, freeform, solid.grid), grid=solid.grid)
     warnings = []
     if not beso.converged:
         warnings.append(
@@ -128,5 +157,5 @@ def optimize_panel(
         warnings.append("no void could be made under the rules: the panel is left solid.")
     return OptimizeRun(
         panel=panel, rules=rules, settings=settings, solid=solid, beso=beso, freeform=freeform,
-        rationalised=rationalised, final=final, warnings=tuple(warnings),
+        rationalised=rationalised, final=final, freeform_analysis=freeform_analysis, warnings=tuple(warnings),
     )

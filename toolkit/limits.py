@@ -1,0 +1,173 @@
+"""Resource limits: the memory a grid will need, estimated before any of it is allocated, against what is free.
+
+A grid too fine for the machine would otherwise run for minutes and then die in the middle of a factorisation
+(or take the machine's swap with it). The estimate is a law fitted to the peak resident memory measured by
+``benchmarks/bench_load.py memory`` (SuperLU in the grid's nested-dissection order):
+
+    bytes per element = a + b log2(ne)        (the factor's fill grows like n log n)
+
+measured on grids of 5,000 to 270,000 elements, every point within 3 % of the law (figures in
+docs/robustness-limits.md); :data:`SAFETY` is kept on top for the allocator's slack and other solvers.
+"""
+
+from __future__ import annotations
+
+import math
+import os
+from pathlib import Path
+
+from .errors import LacunaError
+
+# kB (1024 bytes) per element = a + b * log2(ne); benchmarks/bench_load.py memory, 2 cores, Python 3.11,
+# scipy's SuperLU. "analysis": one solid analysis. "optimize": the solid analysis kept while BESO runs.
+LAW_KB = {"analysis": (2.632, 0.3661), "optimize": (5.912, 0.5056)}
+# Each load case beyond the first: its displacements, forces, stresses and element energies (measured: +0.2 kB
+# per element for two more cases at 400 x 130; taken whole per case to stay on the safe side).
+PER_EXTRA_CASE_KB = 0.2
+# Each filter weight beyond the default radius's 32 per element, while the filter is one sparse matrix
+# (measured: +1.5 kB per element going from 32 to 156 weights); above optimize.filters' limit it runs by FFT
+# and costs no more than the default.
+PER_FILTER_WEIGHT_KB = 0.0122
+DEFAULT_FILTER_WEIGHTS = 32
+SAFETY = 1.25
+# Where the free memory cannot be read (not Linux): assume this much.
+FALLBACK_BYTES = 4 * 10**9
+
+STAGES = ("analysis", "optimize")
+
+
+def _filter_weights(dx: float, dy: float, radius_mm: float | None) -> int:
+    """Weights per element of the BESO filter at this radius (default: three element sizes)."""
+    import numpy as np
+
+    r = 3.0 * max(dx, dy) if radius_mm is None else float(radius_mm)
+    kx, ky = int(math.ceil(r / dx)), int(math.ceil(r / dy))
+    ox = np.arange(-kx, kx + 2)
+    oy = np.arange(-ky, ky + 2)
+    # The same kernel as optimize.filters.SensitivityFilter: nodes within the radius of the element's centre.
+    dist = np.hypot((ox[None, :] - 0.5) * dx, (oy[:, None] - 0.5) * dy)
+    return int(np.count_nonzero(dist < r))
+
+
+def peak_memory_bytes(nx: int, ny: int, dx: float = 1.0, dy: float = 1.0, *, stage: str = "analysis",
+                      cases: int = 1, filter_radius_mm: float | None = None) -> float:
+    """Estimated peak memory, bytes, of analysing (``stage="analysis"``) or optimising an nx x ny grid.
+
+    ``dx``, ``dy`` (mm) and ``filter_radius_mm`` matter only for the optimiser's filter; safety margin included.
+    """
+    from .optimize.filters import _SPARSE_LIMIT
+
+    if stage not in STAGES:
+        raise ValueError(f"stage must be one of {STAGES}, got {stage!r}")
+    ne = float(nx) * float(ny)
+    a, b = LAW_KB[stage]
+    per_element = a + b * math.log2(max(ne, 2.0)) + PER_EXTRA_CASE_KB * max(int(cases) - 1, 0)
+    if stage == "optimize":
+        # Only the weights count, so an enormous radius on an enormous grid is not itself counted here.
+        weights = _filter_weights(dx, dy, filter_radius_mm) if ne < 1e9 else DEFAULT_FILTER_WEIGHTS
+        if weights <= _SPARSE_LIMIT:
+            per_element += PER_FILTER_WEIGHT_KB * max(weights - DEFAULT_FILTER_WEIGHTS, 0)
+    return SAFETY * 1024.0 * per_element * ne
+
+
+def available_memory_bytes(meminfo: str | os.PathLike = "/proc/meminfo",
+                           cgroup: str | os.PathLike = "/sys/fs/cgroup") -> int:
+    """Memory this process may still take, bytes: the kernel's MemAvailable, lowered to what is left under a
+    control-group limit (containers) where there is one; :data:`FALLBACK_BYTES` where neither can be read."""
+    found = []
+    try:
+        for line in Path(meminfo).read_text().splitlines():
+            if line.startswith("MemAvailable:"):
+                found.append(int(line.split()[1]) * 1024)
+                break
+    except (OSError, ValueError, IndexError):
+        pass
+    try:
+        limit = Path(cgroup, "memory.max").read_text().strip()
+        if limit != "max":
+            used = int(Path(cgroup, "memory.current").read_text().strip())
+            found.append(max(int(limit) - used, 0))
+    except (OSError, ValueError):
+        pass
+    return min(found) if found else FALLBACK_BYTES
+
+
+def _grid_shape(width_mm: float, height_mm: float, size_mm: float) -> tuple[int, int]:
+    # The rounding of fe.grid.make_grid.
+    return max(1, round(width_mm / size_mm)), max(1, round(height_mm / size_mm))
+
+
+def _fits(width_mm, height_mm, size_mm, budget, stage, cases, filter_radius_mm) -> bool:
+    nx, ny = _grid_shape(width_mm, height_mm, size_mm)
+    return peak_memory_bytes(nx, ny, width_mm / nx, height_mm / ny, stage=stage, cases=cases,
+                             filter_radius_mm=filter_radius_mm) <= budget
+
+
+def _round_up(value: float) -> float:
+    """Up to two significant figures: a size a drafter can type (4.1 -> 4.1, 4.13 -> 4.2, 312 -> 320)."""
+    step = 10.0 ** (math.floor(math.log10(value)) - 1)
+    return round(math.ceil(value / step - 1e-9) * step, 12)
+
+
+def smallest_element_size(width_mm: float, height_mm: float, budget_bytes: float, *, stage: str = "analysis",
+                          cases: int = 1, filter_radius_mm: float | None = None) -> float | None:
+    """The smallest element size (mm, two significant figures) whose grid fits ``budget_bytes``; None if not
+    even one element does."""
+    args = (budget_bytes, stage, cases, filter_radius_mm)
+    biggest = max(width_mm, height_mm)
+    if not _fits(width_mm, height_mm, biggest, *args):
+        return None
+    # The estimate grows with the element count, so bisect the count, then check the rounded size itself.
+    lo, hi = 1.0, max(width_mm * height_mm, 1.0)
+    if peak_memory_bytes(1, 1, stage=stage, cases=cases) > budget_bytes:
+        return None
+    unit = peak_memory_bytes(1, 1, stage=stage, cases=cases)
+    hi = min(hi, budget_bytes / unit * 4.0 + 4.0)  # per-element cost is at least the one-element figure
+    for _ in range(200):
+        mid = math.sqrt(lo * hi)
+        side = int(math.isqrt(int(mid))) or 1
+        if peak_memory_bytes(side, max(int(mid // side), 1), stage=stage, cases=cases) <= budget_bytes:
+            lo = mid
+        else:
+            hi = mid
+        if hi / lo < 1.0001:
+            break
+    size = _round_up(math.sqrt(width_mm * height_mm / lo))
+    for _ in range(400):
+        if _fits(width_mm, height_mm, size, *args):
+            return size
+        size = _round_up(size * 1.01 + 1e-12)
+    return _round_up(biggest)
+
+
+def _amount(n_bytes: float) -> str:
+    if n_bytes >= 10e9:
+        return f"{n_bytes / 1e9:.0f} GB"
+    if n_bytes >= 1e9:
+        return f"{n_bytes / 1e9:.1f} GB"
+    return f"{max(n_bytes / 1e6, 1):.0f} MB"
+
+
+def check_memory(nx: int, ny: int, dx: float, dy: float, *, stage: str = "analysis", cases: int = 1,
+                 filter_radius_mm: float | None = None, budget_bytes: float | None = None) -> None:
+    """LacunaError (where ``[panel] element_size``) when the grid's estimated peak memory exceeds the budget
+    (default: :func:`available_memory_bytes`), naming the element size that would fit."""
+    need = peak_memory_bytes(nx, ny, dx, dy, stage=stage, cases=cases, filter_radius_mm=filter_radius_mm)
+    budget = available_memory_bytes() if budget_bytes is None else budget_bytes
+    if need <= budget:
+        return
+    width, height = nx * dx, ny * dy
+    verb = "analyse" if stage == "analysis" else "optimise"
+    fit = smallest_element_size(width, height, budget, stage=stage, cases=cases, filter_radius_mm=filter_radius_mm)
+    if fit is None:
+        hint = "Close other programs or run on a machine with more memory."
+    else:
+        fx, fy = _grid_shape(width, height, fit)
+        hint = (f"Raise element_size to at least {fit:g} mm ({fx} x {fy} elements), or run on a machine with "
+                "more memory.")
+    raise LacunaError(
+        f"this grid ({nx} x {ny} elements of {dx:.4g} x {dy:.4g} mm) needs about {_amount(need)} of memory to "
+        f"{verb}, and about {_amount(budget)} is free.",
+        where="[panel] element_size",
+        hint=hint,
+    )
