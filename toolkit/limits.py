@@ -41,6 +41,8 @@ def _filter_weights(dx: float, dy: float, radius_mm: float | None) -> int:
     import numpy as np
 
     r = 3.0 * max(dx, dy) if radius_mm is None else float(radius_mm)
+    if r * r > 1000.0 * dx * dy:
+        return int(math.pi * r * r / (dx * dy))  # far past the sparse filter's limit: no need to count exactly
     kx, ky = int(math.ceil(r / dx)), int(math.ceil(r / dy))
     ox = np.arange(-kx, kx + 2)
     oy = np.arange(-ky, ky + 2)
@@ -63,8 +65,7 @@ def peak_memory_bytes(nx: int, ny: int, dx: float = 1.0, dy: float = 1.0, *, sta
     a, b = LAW_KB[stage]
     per_element = a + b * math.log2(max(ne, 2.0)) + PER_EXTRA_CASE_KB * max(int(cases) - 1, 0)
     if stage == "optimize":
-        # Only the weights count, so an enormous radius on an enormous grid is not itself counted here.
-        weights = _filter_weights(dx, dy, filter_radius_mm) if ne < 1e9 else DEFAULT_FILTER_WEIGHTS
+        weights = _filter_weights(dx, dy, filter_radius_mm)
         if weights <= _SPARSE_LIMIT:
             per_element += PER_FILTER_WEIGHT_KB * max(weights - DEFAULT_FILTER_WEIGHTS, 0)
     return SAFETY * 1024.0 * per_element * ne
@@ -114,30 +115,23 @@ def smallest_element_size(width_mm: float, height_mm: float, budget_bytes: float
     """The smallest element size (mm, two significant figures) whose grid fits ``budget_bytes``; None if not
     even one element does."""
     args = (budget_bytes, stage, cases, filter_radius_mm)
-    biggest = max(width_mm, height_mm)
-    if not _fits(width_mm, height_mm, biggest, *args):
+    hi = max(width_mm, height_mm)
+    if not _fits(width_mm, height_mm, hi, *args):
         return None
-    # The estimate grows with the element count, so bisect the count, then check the rounded size itself.
-    lo, hi = 1.0, max(width_mm * height_mm, 1.0)
-    if peak_memory_bytes(1, 1, stage=stage, cases=cases) > budget_bytes:
-        return None
-    unit = peak_memory_bytes(1, 1, stage=stage, cases=cases)
-    hi = min(hi, budget_bytes / unit * 4.0 + 4.0)  # per-element cost is at least the one-element figure
-    for _ in range(200):
+    lo = hi * 1e-6  # a million elements along the longer side: far beyond any machine's memory
+    if _fits(width_mm, height_mm, lo, *args):
+        return _round_up(lo)
+    # Fewer elements never need more memory, so bisect on the size (in ratio), then check the rounded size.
+    while hi / lo > 1.001:
         mid = math.sqrt(lo * hi)
-        side = int(math.isqrt(int(mid))) or 1
-        if peak_memory_bytes(side, max(int(mid // side), 1), stage=stage, cases=cases) <= budget_bytes:
-            lo = mid
-        else:
+        if _fits(width_mm, height_mm, mid, *args):
             hi = mid
-        if hi / lo < 1.0001:
-            break
-    size = _round_up(math.sqrt(width_mm * height_mm / lo))
-    for _ in range(400):
-        if _fits(width_mm, height_mm, size, *args):
-            return size
-        size = _round_up(size * 1.01 + 1e-12)
-    return _round_up(biggest)
+        else:
+            lo = mid
+    size = _round_up(hi)
+    while not _fits(width_mm, height_mm, size, *args):  # the grid's rounding can make a size a hair short
+        size = _round_up(size * 1.01)
+    return size
 
 
 def _amount(n_bytes: float) -> str:
