@@ -137,3 +137,28 @@ def test_a_second_run_on_a_result_drawing_needs_replace(optimized, tmp_path):
     copy = ezdxf.readfile(next(p for p in json.loads(again.stdout)["outputs"] if p.endswith(".dxf")))
     # Replaced, not doubled: one set of bores, as many as the new run made.
     assert len(copy.modelspace().query('CIRCLE[layer=="LACUNA-VOID-BORE"]')) == len(json.loads(again.stdout)["voids"])
+
+
+def test_office_drawing_through_optimize_keeps_everything(tmp_path):
+    # The office drawing of tests/test_dxf_out.py (text, dimension, block with attributes, hatch, paper-space
+    # sheet, turned 30 degrees 6,000 km out); its markers carry the supports and loads.
+    from test_dxf_out import office_drawing
+
+    dxf = office_drawing(tmp_path)
+    job = tmp_path / "job.toml"
+    job.write_text('units = "mm"\n[panel]\nthickness = 100\nelement_size = 50\n[material]\nE_MPa = 11000\n'
+                   'nu = 0.3\n[optimize]\nvolume_fraction = 0.6\nmax_iterations = 40\n[voids]\nfamily = "bore"\n')
+    result = CliRunner().invoke(main, ["optimize", str(dxf), "--job", str(job), "--out", str(tmp_path / "o"),
+                                       "--json"])
+    assert result.exit_code == 0, result.output
+    s = json.loads(result.stdout)
+    before = ezdxf.readfile(dxf)
+    after = ezdxf.readfile(next(p for p in s["outputs"] if p.endswith(".dxf")))
+    for layout in before.layouts_and_blocks():
+        for entity in layout:
+            twin = after.entitydb.get(entity.dxf.handle)
+            assert twin is not None and twin.dxftype() == entity.dxftype()
+            assert dict(twin.dxfattribs()) == dict(entity.dxfattribs())
+    auditor = after.audit()
+    assert not auditor.has_errors
+    assert len(after.modelspace().query('CIRCLE[layer=="LACUNA-VOID-BORE"]')) == len(s["voids"])

@@ -55,6 +55,10 @@ class VoidOptions:
     corner: str = "none"
     corner_size_mm: float | None = None
     slot_widths_mm: tuple[float, ...] | None = None  # None: the bore diameters (a slot is cut with a bit)
+    # Mirror-symmetric layout: True, False, or None to follow [optimize] symmetry. The reader copies that
+    # setting into ``optimize_symmetry`` so the voids stage needs nothing but these options (docs/voids.md).
+    symmetric: bool | None = None
+    optimize_symmetry: str = "none"
 
 
 @dataclass(frozen=True)
@@ -117,7 +121,8 @@ TABLE_KEYS: dict[str, tuple[str, ...]] = {
         "admission_ratio",
         "convergence_tolerance",
     ),
-    "voids": ("family", "sides", "bore_diameters", "max_types", "snap", "corner", "corner_size", "slot_widths"),
+    "voids": ("family", "sides", "bore_diameters", "max_types", "snap", "corner", "corner_size", "slot_widths",
+              "symmetric"),
     "rules": ("profile", "min_web", "edge_cover", "min_void", "bearing_clearance"),
 }
 TOP_KEYS: tuple[str, ...] = ("units", "panel", "material", "layers", "support", "load", "cases", "optimize",
@@ -345,7 +350,9 @@ class _Reader:
         if job.panel.self_weight and (job.material is None or job.material.density_kg_m3 is None):
             raise LacunaError("self-weight needs the material's density.", where=self.where("panel", "self_weight"),
                               hint="Add density_kg_m3 to [material], or set self_weight = false.")
-        return replace(job, given=frozenset(self.given), warnings=tuple(self.warnings))
+        # [voids] symmetric follows [optimize] symmetry unless it is given: the voids stage gets both in one value.
+        voids = replace(job.voids, optimize_symmetry=job.optimize.symmetry)
+        return replace(job, voids=voids, given=frozenset(self.given), warnings=tuple(self.warnings))
 
     def read_units(self, data: dict) -> str:
         if "units" not in data:
@@ -552,6 +559,7 @@ class _Reader:
             corner_size_mm=corner_size,
             slot_widths_mm=self.lengths(t["slot_widths"], w("slot_widths"), "slot_widths")
             if "slot_widths" in t else d.slot_widths_mm,
+            symmetric=self.boolean(t["symmetric"], w("symmetric")) if "symmetric" in t else d.symmetric,
         )
 
     def read_rules(self, t: dict) -> RuleOptions:

@@ -109,9 +109,18 @@ class Grid:
 
 
 def make_grid(
-    width_mm: float, height_mm: float, element_size_mm: float | None = None, target_elements: int = 20000
+    width_mm: float,
+    height_mm: float,
+    element_size_mm: float | None = None,
+    target_elements: int = 20000,
+    *,
+    check_memory: bool = True,
 ) -> Grid:
-    """A grid covering width x height exactly, elements near ``element_size_mm`` (or about ``target_elements``)."""
+    """A grid covering width x height exactly, elements near ``element_size_mm`` (or about ``target_elements``).
+
+    With ``check_memory``, a grid whose analysis would not fit in the free memory is refused before anything is
+    allocated (:func:`toolkit.limits.check_memory`).
+    """
     if not (width_mm > 0 and height_mm > 0):
         raise LacunaError(f"panel envelope {width_mm} x {height_mm} mm has no area.")
     if element_size_mm is None:
@@ -124,6 +133,10 @@ def make_grid(
         )
     nx = max(1, round(width_mm / element_size_mm))
     ny = max(1, round(height_mm / element_size_mm))
+    if check_memory:
+        from ..limits import check_memory as refuse_if_too_big
+
+        refuse_if_too_big(nx, ny, width_mm / nx, height_mm / ny, stage="analysis")
     if nx * ny > 5_000_000:
         raise LacunaError(
             f"an element size of {element_size_mm:g} mm gives {nx} x {ny} elements, too many to solve here.",
