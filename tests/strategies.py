@@ -161,7 +161,9 @@ class PanelCase:
                 add_support(msp, pl, [a, b], fix=fix, text_at=text_at)
         if self.load_markers:
             for at, f in self.point_loads:
-                add_load(msp, pl, at, f, kN=float(np.hypot(*f)), how=self.load_markers,
+                kn = float(np.hypot(*f))
+                # Every digit in the text, so the force read back is the force drawn.
+                add_load(msp, pl, at, f, kN=kn, text=f"{kn!r} kN", how=self.load_markers,
                          length_mm=self.marker_length_mm, text_offset=(5.0, 5.0))
         return doc
 
@@ -234,10 +236,10 @@ class PanelCase:
 
 
 def _turn(v, angle_deg: float) -> np.ndarray:
+    """Vectors (shape (2,) or (n, 2)) turned counter-clockwise by ``angle_deg``."""
     a = math.radians(angle_deg)
     c, s = math.cos(a), math.sin(a)
-    x, y = np.asarray(v, dtype=float)
-    return np.array([c * x - s * y, s * x + c * y])
+    return np.asarray(v, dtype=float) @ np.array([[c, s], [-s, c]])
 
 
 def _roller_fix(angle_deg: float) -> str:
@@ -261,11 +263,12 @@ def _spread(candidates, keep_apart, gap: float):
 
 
 @st.composite
-def valid_panels(draw, *, max_holes: int = 3, elements=(150, 450)) -> PanelCase:
-    """A random valid panel (see the module's docstring); ``elements``: the range of the FE element count."""
+def valid_panels(draw, *, max_holes: int = 3, elements=(150, 450), units=UNITS) -> PanelCase:
+    """A random valid panel (see the module's docstring); ``elements``: the range of the FE element count;
+    ``units``: the drawing units to draw in."""
     width = draw(st.floats(1200.0, 4000.0))
     height = draw(st.floats(300.0, min(1200.0, width)))
-    unit = draw(st.sampled_from(UNITS))
+    unit = draw(st.sampled_from(units))
     # Angles within half a degree of 45 + k 90 would leave the reader's choice of local x to rounding.
     angle = draw(st.floats(0.0, 360.0, exclude_max=True).filter(lambda a: abs((a % 90.0) - 45.0) > 0.5))
     far = draw(st.sampled_from([0.0, 1e3, 1e5, 6e6]))
@@ -481,8 +484,14 @@ def _damage_bytes(draw, data: bytes) -> tuple[bytes, str]:
 
 @st.composite
 def damaged_drawings(draw, *, base=None) -> DamagedCase:
-    """A valid panel's drawing with random damage (see the module's docstring)."""
-    case = draw(base if base is not None else valid_panels(max_holes=2, elements=(100, 200)))
+    """A valid panel's drawing with random damage (see the module's docstring).
+
+    The default base panels are drawn in metres or feet: a wrong but known $INSUNITS code then makes the panel
+    at most 3.3 times larger (feet read as metres), so the element count stays in the thousands. Pass ``base``
+    (e.g. ``valid_panels(elements=(100, 200))``) to damage drawings in any unit; their grids may grow up to
+    a millionfold (millimetres read as metres), and the run then measures the grid-size refusal too.
+    """
+    case = draw(base if base is not None else valid_panels(max_holes=2, elements=(100, 200), units=("m", "ft")))
     job = case.job_text()
     kind = draw(st.sampled_from(["ascii", "ascii", "ascii", "binary-dxf", "garbage"]))
     if kind == "garbage":

@@ -48,7 +48,7 @@ def test_nested_dissection_is_a_permutation():
     assert np.array_equal(np.sort(nested_dissection(g)), np.arange(g.n_nodes))
 
 
-BACKENDS = ["superlu", pytest.param("pardiso", marks=pytest.mark.skipif(
+BACKENDS = ["superlu", "multifrontal", pytest.param("pardiso", marks=pytest.mark.skipif(
     not pardiso_available(), reason="optional package pypardiso not installed"))]
 
 
@@ -64,7 +64,7 @@ def test_solver_matches_dense_solution_for_several_cases_and_refactor(backend):
     rng = np.random.default_rng(3)
     F = rng.standard_normal((g.n_dofs, 3))
     F[fixed] = 0
-    for use_grid in (g, None):
+    for use_grid in (g, None) if backend != "multifrontal" else (g,):
         scale = rng.uniform(1e-3, 1.0, g.n_elements)
         K = a.matrix(ke, scale)
         solver = LinearSolver(K, free, grid=use_grid, backend=backend)
@@ -85,3 +85,62 @@ def test_singular_system_is_reported_in_words(backend):
     K = Assembler(g).matrix(q4_stiffness(1, 1, 1, 0.3, 1))
     with pytest.raises(LacunaError, match="singular"):
         LinearSolver(K, np.ones(g.n_dofs, bool), grid=g, backend=backend).solve(np.ones(g.n_dofs))
+
+
+def test_multifrontal_matches_dense_solution_with_held_dofs_anywhere():
+    # Reference: numpy's dense solve of K restricted to the free dofs. Grids whose sides give every kind of
+    # box in the dissection (thin strips, odd and even sides, a single element); dofs held on the left edge
+    # and at random inside; about half the elements a thousand times softer. (Loads on every dof of a 1e-9
+    # contrast make the system too ill-conditioned for any solver to be checked to a tight tolerance: the
+    # optimiser's contrast is checked against SuperLU below, with the load on the solid.)
+    rng = np.random.default_rng(7)
+    for nx, ny in [(1, 1), (9, 1), (1, 6), (13, 7), (24, 24), (37, 11)]:
+        g = Grid(nx, ny, 10.0, 7.0)
+        scale = np.where(rng.random(g.n_elements) < 0.5, 1.0, 1e-3)
+        K = Assembler(g).matrix(q4_stiffness(g.dx, g.dy, 1000.0, 0.3, 5.0), scale)
+        free = np.ones(g.n_dofs, bool)
+        left = np.arange(ny + 1) * (nx + 1)
+        free[2 * left] = free[2 * left + 1] = False
+        free[rng.integers(0, g.n_dofs, 3)] = False
+        F = rng.standard_normal((g.n_dofs, 2))
+        solver = LinearSolver(K, free, grid=g, backend="multifrontal")
+        assert solver.backend == "multifrontal"
+        U = solver.solve(F)
+        reference = np.linalg.solve(K.toarray()[np.ix_(free, free)], F[free])
+        np.testing.assert_allclose(U[free], reference, rtol=0, atol=1e-9 * np.abs(reference).max())
+        assert np.all(U[~free] == 0)
+
+
+def test_multifrontal_gives_the_superlu_displacements_on_an_optimiser_like_design():
+    # Two independent factorisations of one matrix: SuperLU (scipy) and ours, 1e-9 void contrast as in BESO.
+    g = Grid(60, 20, 1.0, 1.0)
+    ix, iy = np.meshgrid(np.arange(60), np.arange(20))
+    solid = ((ix // 6 + iy // 5) % 2 == 0) | (iy < 3) | (iy > 16)
+    K = Assembler(g).matrix(q4_stiffness(1, 1, 1, 0.3, 1), np.where(solid.ravel(), 1.0, 1e-9))
+    free = np.ones(g.n_dofs, bool)
+    free[2 * np.arange(21) * 61] = False
+    free[2 * 60 + 1] = False
+    F = np.zeros(g.n_dofs)
+    F[2 * (20 * 61) + 1] = -1.0
+    U_mf = LinearSolver(K, free, grid=g, backend="multifrontal").solve(F)
+    U_lu = LinearSolver(K, free, grid=g, backend="superlu").solve(F)
+    assert F @ U_mf == pytest.approx(F @ U_lu, rel=1e-9)
+    np.testing.assert_allclose(U_mf, U_lu, rtol=0, atol=1e-8 * np.abs(U_lu).max())
+
+
+def test_matrix_off_the_grid_pattern_goes_to_superlu_or_is_refused(monkeypatch):
+    # "auto" takes the multifrontal backend from a size on; here for any size, to see it step aside.
+    monkeypatch.setattr("toolkit.fe.solve.MULTIFRONTAL_MIN_DOFS", 0)
+    g = Grid(4, 3, 1.0, 1.0)
+    free = np.ones(g.n_dofs, bool)
+    free[[0, 1, 9]] = False  # node 0 pinned, node 4 (the other bottom corner) on a roller
+    assert LinearSolver(Assembler(g).matrix(q4_stiffness(1, 1, 1, 0.3, 1)), free, grid=g).backend == "multifrontal"
+    K = Assembler(g).matrix(q4_stiffness(1, 1, 1, 0.3, 1)).tolil()
+    far = 2 * g.n_nodes - 1  # the y dof of the last node, coupled below to the x dof of node 1
+    K[2, far] = K[far, 2] = -1e-3
+    K = K.tocsc()
+    assert LinearSolver(K, free, grid=g).backend in ("superlu", "pardiso")
+    with pytest.raises(ValueError, match="neighbours"):
+        LinearSolver(K, free, grid=g, backend="multifrontal")
+    with pytest.raises(ValueError, match="needs the grid"):
+        LinearSolver(K, free, backend="multifrontal")

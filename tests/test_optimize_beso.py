@@ -68,6 +68,17 @@ def test_half_mbb_beam_at_least_as_stiff_as_the_published_simp_result():
 
 
 
+
+def test_half_mbb_beam_is_the_same_with_either_sparse_solver():
+    # The multifrontal backend (taken by "auto" on large grids) against SuperLU (scipy), forced on the 60 x 20
+    # beam: the same design at every step, so the same layout and compliance (192.38, the figure above).
+    settings = OptimizeSettings(volume_fraction=0.5, filter_radius_mm=2.4, penalty=3.0)
+    a = run_beso(half_mbb(), settings, backend="superlu")
+    b = run_beso(half_mbb(), settings, backend="multifrontal")
+    assert np.array_equal(a.densities, b.densities) and a.iterations == b.iterations
+    np.testing.assert_allclose(b.compliance_Nmm, a.compliance_Nmm, rtol=1e-9)
+    assert b.compliance_Nmm[-1] == pytest.approx(192.38, abs=0.005)
+
 @pytest.mark.slow
 @pytest.mark.parametrize("nx, ny, simp", [(150, 50, 219.52), (300, 100, 222.29)])
 def test_half_mbb_finer_meshes(nx, ny, simp):

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import logging
 import os
 import sys
 import traceback
@@ -77,7 +78,11 @@ CAUTION: {CAUTION}
 @click.version_option(__version__, prog_name="lacuna")
 @click.option("--debug", is_flag=True, help="Show a traceback with any error.")
 def main(debug: bool) -> None:
-    pass
+    ezdxf_log = logging.getLogger("ezdxf")
+    if not debug and not any(isinstance(h, logging.NullHandler) for h in ezdxf_log.handlers):
+        # ezdxf logs what it repairs in a damaged file straight to stderr; lacuna reports the repairs in its
+        # own warnings, so a refusal stays the one paragraph the exit code promises.
+        ezdxf_log.addHandler(logging.NullHandler())
 
 
 @main.command(help=f"""Analyse a panel: stresses, deflection, reactions; writes a JSON summary and an SVG figure.

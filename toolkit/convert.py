@@ -24,12 +24,14 @@ from pathlib import Path
 
 import ezdxf
 import numpy as np
+from ezdxf import bbox
 from ezdxf.addons.drawing import Frontend, RenderContext, layout as draw_layout, svg as draw_svg
 from ezdxf.addons.drawing.config import BackgroundPolicy, Configuration
 from ezdxf.document import Drawing as DxfDocument
 from ezdxf.lldxf import const
 from ezdxf.math import Matrix44
 
+from .dxf_in.pieces import ENTITY_DATA_ERRORS
 from .dxf_out import dxf_version_code, serialise
 from .errors import LacunaError
 from .units import INSUNITS_TO_UNIT, MM_PER_UNIT, UNIT_TO_INSUNITS, mm_per
@@ -148,6 +150,27 @@ class _Backend(draw_svg.SVGBackend):
         return _LayerGroups(page, settings)
 
 
+def _damaged(doc: DxfDocument, where: str) -> LacunaError:
+    """The error for a drawing the drawing add-on cannot draw: it names the entities whose data is missing or
+    not finite."""
+    bad = []
+    for entity in doc.modelspace():
+        try:
+            box = bbox.extents([entity], fast=True)
+            sound = not box.has_data or np.isfinite([*box.extmin, *box.extmax]).all()
+        except ENTITY_DATA_ERRORS:
+            sound = False
+        if not sound:
+            bad.append(f"{entity.dxftype()} {entity.dxf.handle}")
+    listed = ", ".join(bad[:10]) + (f" and {len(bad) - 10} more" if len(bad) > 10 else "")
+    return LacunaError(
+        "the drawing cannot be drawn: it has coordinates that are missing or not finite numbers (a damaged file?)"
+        + (f" in {listed}." if bad else "."),
+        where=f"{where}, {listed}" if bad else where,
+        hint="Redraw or delete those entities, or pick other layers with --layers.",
+    )
+
+
 def _svg_id(layer: str, k: int) -> str:
     # XML ids must start with a letter and hold no spaces; the exact name lives in lacuna:layer.
     slug = re.sub(r"[^a-z0-9_.-]+", "-", layer.casefold()).strip("-")
@@ -179,11 +202,17 @@ def dxf_to_svg(doc: DxfDocument, *, layers: list[str] | None = None, scale: floa
         ctx.set_layer_properties_override(only_chosen)
     backend = _Backend()
     config = Configuration(background_policy=BackgroundPolicy.WHITE)
-    Frontend(ctx, backend, config=config).draw_layout(doc.modelspace(), finalize=True)
+    try:
+        Frontend(ctx, backend, config=config).draw_layout(doc.modelspace(), finalize=True)
+    except ENTITY_DATA_ERRORS:
+        raise _damaged(doc, where) from None
     page = draw_layout.Page(0, 0, draw_layout.Units.mm, margins=draw_layout.Margins.all(PAGE_MARGIN_MM))
     settings = draw_layout.Settings(fit_page=False, scale=mm / scale, output_coordinate_space=COORDINATE_SPACE)
-    root = backend.get_xml_root_element(page, settings=settings)
-    if backend.transformation_matrix is None or next(root.iter("path"), None) is None:
+    drawn = backend.player().bbox()
+    if drawn.has_data and not np.isfinite([*drawn.extmin, *drawn.extmax]).all():
+        raise _damaged(doc, where)
+    root = backend.get_xml_root_element(page, settings=settings) if drawn.has_data else None
+    if root is None or backend.transformation_matrix is None or next(root.iter("path"), None) is None:
         chosen_text = f" on the layers {', '.join(layers)}" if layers else ""
         raise LacunaError(f"there is nothing to draw{chosen_text} in model space.", where=where,
                           hint="Choose layers that hold entities in model space.")

@@ -2,12 +2,13 @@
 
 A grid too fine for the machine would otherwise run for minutes and then die in the middle of a factorisation
 (or take the machine's swap with it). The estimate is a law fitted to the peak resident memory measured by
-``benchmarks/bench_load.py memory`` (SuperLU in the grid's nested-dissection order):
+``benchmarks/bench_load.py memory`` with the solver toolkit.fe.solve chooses by default:
 
     bytes per element = a + b log2(ne)        (the factor's fill grows like n log n)
 
-measured on grids of 5,000 to 270,000 elements, every point within 3 % of the law (figures in
-docs/robustness-limits.md); :data:`SAFETY` is kept on top for the allocator's slack and other solvers.
+taken as the envelope of grids of 5,000 to 270,000 elements (every measured size at or under it), and
+:data:`SAFETY` on top for the allocator's slack and the machine's other work. The coefficients belong to the
+solver: when toolkit/fe/solve.py changes, run the benchmark again (docs/robustness-limits.md).
 """
 
 from __future__ import annotations
@@ -17,10 +18,13 @@ import os
 from pathlib import Path
 
 from .errors import LacunaError
+from .fe.grid import grid_shape
 
-# kB (1024 bytes) per element = a + b * log2(ne); benchmarks/bench_load.py memory, 2 cores, Python 3.11,
-# scipy's SuperLU. "analysis": one solid analysis. "optimize": the solid analysis kept while BESO runs.
-LAW_KB = {"analysis": (2.632, 0.3661), "optimize": (5.912, 0.5056)}
+# kB (1024 bytes) per element = a + b * log2(ne); benchmarks/bench_load.py memory, 2 cores, Python 3.11, the
+# default ("auto") solver: multifrontal nested dissection from 20,000 dofs, SuperLU below. "analysis": one solid
+# analysis. "optimize": the solid analysis kept while BESO runs. (With SuperLU alone at every size the same
+# benchmark measured about twice these figures: 7.3 to 9.4 kB per element for an analysis.)
+LAW_KB = {"analysis": (3.582, 0.0898), "optimize": (3.109, 0.2901)}
 # Each load case beyond the first: its displacements, forces, stresses and element energies (measured: +0.2 kB
 # per element for two more cases at 400 x 130; taken whole per case to stay on the safe side).
 PER_EXTRA_CASE_KB = 0.2
@@ -30,6 +34,10 @@ PER_EXTRA_CASE_KB = 0.2
 PER_FILTER_WEIGHT_KB = 0.0122
 DEFAULT_FILTER_WEIGHTS = 32
 SAFETY = 1.25
+# Added to every estimate: below 20,000 dofs the default solver is SuperLU, at up to 12.5 kB per element for an
+# optimisation (measured at 100 x 50 elements, 61 MB in all); this allowance covers those small grids, whose law
+# the one above is not.
+FIXED_BYTES = 64 * 2**20
 # Where the free memory cannot be read (not Linux): assume this much.
 FALLBACK_BYTES = 4 * 10**9
 
@@ -68,7 +76,7 @@ def peak_memory_bytes(nx: int, ny: int, dx: float = 1.0, dy: float = 1.0, *, sta
         weights = _filter_weights(dx, dy, filter_radius_mm)
         if weights <= _SPARSE_LIMIT:
             per_element += PER_FILTER_WEIGHT_KB * max(weights - DEFAULT_FILTER_WEIGHTS, 0)
-    return SAFETY * 1024.0 * per_element * ne
+    return SAFETY * 1024.0 * per_element * ne + FIXED_BYTES
 
 
 def available_memory_bytes(meminfo: str | os.PathLike = "/proc/meminfo",
@@ -93,13 +101,8 @@ def available_memory_bytes(meminfo: str | os.PathLike = "/proc/meminfo",
     return min(found) if found else FALLBACK_BYTES
 
 
-def _grid_shape(width_mm: float, height_mm: float, size_mm: float) -> tuple[int, int]:
-    # The rounding of fe.grid.make_grid.
-    return max(1, round(width_mm / size_mm)), max(1, round(height_mm / size_mm))
-
-
 def _fits(width_mm, height_mm, size_mm, budget, stage, cases, filter_radius_mm) -> bool:
-    nx, ny = _grid_shape(width_mm, height_mm, size_mm)
+    nx, ny = grid_shape(width_mm, height_mm, size_mm)
     return peak_memory_bytes(nx, ny, width_mm / nx, height_mm / ny, stage=stage, cases=cases,
                              filter_radius_mm=filter_radius_mm) <= budget
 
@@ -135,6 +138,8 @@ def smallest_element_size(width_mm: float, height_mm: float, budget_bytes: float
 
 
 def _amount(n_bytes: float) -> str:
+    if n_bytes >= 1e12:
+        return f"{n_bytes / 1e12:,.0f} TB" if n_bytes >= 100e12 else f"{n_bytes / 1e12:.2g} TB"
     if n_bytes >= 10e9:
         return f"{n_bytes / 1e9:.0f} GB"
     if n_bytes >= 1e9:
@@ -156,7 +161,7 @@ def check_memory(nx: int, ny: int, dx: float, dy: float, *, stage: str = "analys
     if fit is None:
         hint = "Close other programs or run on a machine with more memory."
     else:
-        fx, fy = _grid_shape(width, height, fit)
+        fx, fy = grid_shape(width, height, fit)
         hint = (f"Raise element_size to at least {fit:g} mm ({fx} x {fy} elements), or run on a machine with "
                 "more memory.")
     raise LacunaError(

@@ -56,8 +56,9 @@ def write_atomic(path: Path, data: bytes | str) -> None:
     """Write ``data`` to ``path`` through a temporary file in the same folder and an atomic rename."""
     payload = data.encode("utf-8") if isinstance(data, str) else data
     path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=path.parent)
+    tmp = None
     try:
+        fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=path.parent)
         os.chmod(tmp, 0o666 & ~_umask())  # mkstemp makes 0600; a result file should read like any other
         with os.fdopen(fd, "wb") as f:
             f.write(payload)
@@ -66,10 +67,11 @@ def write_atomic(path: Path, data: bytes | str) -> None:
         os.replace(tmp, path)
     except BaseException:
         # Ctrl-C or a full disk: the target keeps its old content (or stays absent), the temporary goes.
-        try:
-            os.unlink(tmp)
-        except FileNotFoundError:
-            pass
+        if tmp is not None:
+            try:
+                os.unlink(tmp)
+            except FileNotFoundError:
+                pass
         raise
 
 

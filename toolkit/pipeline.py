@@ -15,7 +15,7 @@ import shapely
 from shapely.geometry import Polygon
 
 from .analysis import Analysis, analyze
-from .fe.grid import make_grid
+from .fe.grid import grid_shape
 from .jobfile import Job
 from .limits import check_memory
 from .model import Panel, Region, Rules, Void
@@ -136,10 +136,10 @@ def optimize_panel(
     settings = job.optimize
     impossible_rules(panel, rules)  # before any work: "no void can be placed: ..." in plain words
     # The optimiser needs more memory than the analysis: refuse a grid too fine for it before either runs.
-    grid = make_grid(panel.width_mm, panel.height_mm, panel.element_size_mm, check_memory=False)
-    check_memory(grid.nx, grid.ny, grid.dx, grid.dy, stage="optimize", cases=len(panel.cases),
+    nx, ny = grid_shape(panel.width_mm, panel.height_mm, panel.element_size_mm)
+    check_memory(nx, ny, panel.width_mm / nx, panel.height_mm / ny, stage="optimize", cases=len(panel.cases),
                  filter_radius_mm=settings.filter_radius_mm)
-    solid = analyze(panel, grid=grid)
+    solid = analyze(panel)
     zones = ZoneSettings(
         edge_cover_mm=rules.edge_cover_mm,
         bearing_clearance_mm=rules.bearing_clearance_mm,

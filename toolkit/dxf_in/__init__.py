@@ -22,7 +22,7 @@ from ..units import mm_per
 from .chains import join
 from .markers import DEFAULT_CASE, XDATA_APPID, loads, marker_xdata, supports
 from .outline import ANGLE_TOL_DEG, rectangle
-from .pieces import ANNOTATION, Piece, pieces_from
+from .pieces import ANNOTATION, ENTITY_DATA_ERRORS, Piece, pieces_from
 from .reading import Reading
 from .regions import regions
 from .source import Item, drawing_unit, model_items, open_document
@@ -57,7 +57,12 @@ def _read(doc, layers: Layers, path: str, join_mm: float, chord_mm: float, warni
             raise LacunaError(f"{name} must be a positive length in mm, got {value!r}.", where=name)
     unit, unit_warnings = drawing_unit(doc, path)
     warnings = warnings + unit_warnings
-    items = model_items(doc, [layers.support, layers.load], path, warnings)
+    markers = [layers.support, layers.load]
+    wanted = [layers.outline, layers.openings, layers.keep] + markers
+    items = model_items(doc, markers, path, warnings, only_layers=wanted)
+    if not items:
+        # Nothing on the panel's layers: walk everything once more to tell an empty drawing from a misnamed layer.
+        items = model_items(doc, markers, path, [])
     if not items:
         raise LacunaError(
             "the drawing is empty: its model space holds no entities.",
@@ -70,7 +75,8 @@ def _read(doc, layers: Layers, path: str, join_mm: float, chord_mm: float, warni
 
     outline_items = by_layer.get(layers.outline.casefold(), [])
     if not outline_items:
-        names = sorted({item.layer for item in items} | {layer.dxf.name for layer in doc.layers})
+        every = model_items(doc, markers, path, [])  # the error names every layer in use, not only ours
+        names = sorted({item.layer for item in every} | {layer.dxf.name for layer in doc.layers})
         raise LacunaError(
             f"nothing is drawn on the outline layer {layers.outline!r}; the drawing has the layers "
             f"{', '.join(repr(n) for n in names)}.",
@@ -104,10 +110,24 @@ def _read(doc, layers: Layers, path: str, join_mm: float, chord_mm: float, warni
 
 def _reference_point(items: list[Item]) -> np.ndarray:
     # Any point near the panel will do: it is subtracted from every coordinate before any arithmetic.
-    box = bbox.extents([item.entity for item in items], fast=True)
-    if box.has_data:
-        return np.array([box.center.x, box.center.y], dtype=float)
-    return np.zeros(2)
+    centre = _centre([item.entity for item in items])
+    for item in items if centre is None else ():
+        # A damaged entity spoils the extents of all: take the first sound one (the piece reader names the bad).
+        centre = _centre([item.entity])
+        if centre is not None:
+            break
+    return np.zeros(2) if centre is None else centre
+
+
+def _centre(entities) -> np.ndarray | None:
+    try:
+        box = bbox.extents(entities, fast=True)
+    except ENTITY_DATA_ERRORS:
+        return None
+    if not box.has_data:
+        return None
+    centre = np.array([box.center.x, box.center.y], dtype=float)
+    return centre if np.isfinite(centre).all() else None
 
 
 def _outline(items: list[Item], layer: str, r: Reading) -> tuple[float, float, tuple[str, ...]]:

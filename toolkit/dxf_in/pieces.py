@@ -22,6 +22,10 @@ from ..errors import LacunaError
 # still gives a recognisable shape (a full circle has at least 8 sides).
 MAX_CHORD_ANGLE = math.pi / 4
 
+# Points further than this from the reference point (drawing units; a million km in mm) are damage, not
+# drafting: their squared distances would overflow. NaN fails the comparison too.
+FARTHEST = 1e12
+
 ANNOTATION = frozenset({"TEXT", "MTEXT", "DIMENSION", "ARC_DIMENSION", "LARGE_RADIAL_DIMENSION", "LEADER",
                         "MULTILEADER", "MLEADER", "TOLERANCE", "ATTRIB"})
 
@@ -48,6 +52,24 @@ class Piece:
 
 def pieces_from(item, ref: np.ndarray, flat_tol: float, where: str) -> list[Piece]:
     """The pieces one entity draws; a LacunaError for entities that draw no outline or region."""
+    try:
+        pieces = _pieces_of(item, ref, flat_tol, where)
+    except ENTITY_DATA_ERRORS as error:
+        raise damaged_entity(item, where, error) from None
+    for piece in pieces:
+        # A damaged file can hold "nan", "inf" or 1e300 where a coordinate, radius or bulge should be;
+        # nothing downstream (joining, shapely, the FE grid) can work with such a point.
+        if not (np.isfinite(piece.bulges).all() and (np.abs(piece.points) <= FARTHEST).all()):
+            raise LacunaError(
+                f"{item.kind} {item.handle} has a coordinate, radius or bulge that is not a finite number, "
+                f"or lies more than {FARTHEST:.0e} drawing units from the panel.",
+                where=where_of(where, item),
+                hint="Redraw the entity, or delete it if it is not part of the panel.",
+            )
+    return pieces
+
+
+def _pieces_of(item, ref: np.ndarray, flat_tol: float, where: str) -> list[Piece]:
     e = item.entity
     kind = e.dxftype()
     one = ((kind,), (item.handle,))
@@ -102,6 +124,20 @@ def pieces_from(item, ref: np.ndarray, flat_tol: float, where: str) -> list[Piec
             raise unsupported(item, where, "the HATCH has no boundary path")
         return pieces
     raise unsupported(item, where, "this kind of entity draws no outline or closed shape")
+
+
+# What reading an entity of a damaged file raises when it lacks a value (a VERTEX without a location: TypeError
+# from Vec3(None), AttributeError from None.x) or holds one of the wrong kind (ValueError). Found by fuzzing.
+ENTITY_DATA_ERRORS = (TypeError, ValueError, AttributeError)
+
+
+def damaged_entity(item, where: str, error: Exception) -> LacunaError:
+    """The error for an entity whose data ezdxf could not turn into geometry."""
+    return LacunaError(
+        f"{item.kind} {item.handle} cannot be read: its data is incomplete or damaged ({error}).",
+        where=where_of(where, item),
+        hint="Redraw the entity, or delete it if it is not part of the panel.",
+    )
 
 
 def unsupported(item, where: str, why: str) -> LacunaError:

@@ -2,8 +2,11 @@
 
 from __future__ import annotations
 
+import gc
 import os
 import re
+import struct
+from contextlib import contextmanager
 from dataclasses import dataclass
 from typing import Iterable, Iterator
 
@@ -15,6 +18,13 @@ from ezdxf.lldxf.const import DXFError, DXFStructureError
 
 from ..errors import LacunaError
 from ..units import INSUNITS_TO_UNIT, UNIT_TO_INSUNITS
+
+# What ezdxf's readers raise on damaged bytes besides their own DXFError: a tag stream that ends early
+# (StopIteration, IndexError), a truncated binary record (struct.error), a value of the wrong kind
+# (ValueError), an unknown binary group code (KeyError), text that is not in the file's encoding
+# (UnicodeDecodeError). Found by fuzzing (tests/test_fuzz.py).
+DAMAGED_FILE_ERRORS = (DXFError, UnicodeDecodeError, ValueError, IndexError, KeyError, StopIteration,
+                       struct.error)
 
 # Block references nested deeper than this are almost surely a reference cycle in a damaged file.
 MAX_BLOCK_DEPTH = 32
@@ -36,6 +46,23 @@ class Item:
     @property
     def kind(self) -> str:
         return self.entity.dxftype()
+
+
+@contextmanager
+def _bulk_load():
+    """The cyclic garbage collector paused while a document is parsed.
+
+    Parsing allocates hundreds of thousands of objects that all stay alive; every automatic collection would
+    walk the growing heap again for nothing (a fifth of the parse time of a 200,000-entity drawing:
+    docs/robustness-limits.md). Reference counting still frees everything as usual.
+    """
+    was_enabled = gc.isenabled()
+    gc.disable()
+    try:
+        yield
+    finally:
+        if was_enabled:
+            gc.enable()
 
 
 def open_document(path: str) -> tuple[DxfDocument, list[str]]:
@@ -60,16 +87,19 @@ def open_document(path: str) -> tuple[DxfDocument, list[str]]:
         )
     if looks_like_dxf:
         try:
-            doc = ezdxf.readfile(path)
-        except (DXFError, UnicodeDecodeError, ValueError):
+            with _bulk_load():
+                doc = ezdxf.readfile(path)
+        except DAMAGED_FILE_ERRORS:
             pass  # damaged: the recover reader below says what it had to repair
         else:
             return doc, []
     try:
-        doc, auditor = recover.readfile(path)
-    except (DXFError, UnicodeDecodeError, ValueError, IndexError, OSError) as error:
+        with _bulk_load():
+            doc, auditor = recover.readfile(path)
+    except (*DAMAGED_FILE_ERRORS, OSError) as error:
+        why = str(error).strip().rstrip(".") or type(error).__name__
         raise LacunaError(
-            f"the file is not a DXF drawing, or is too damaged to read ({error}).",
+            f"the file is not a DXF drawing, or is too damaged to read ({why}).",
             where=where,
             hint="Open it in the drafting program it came from and save it again as DXF.",
         ) from None
@@ -110,23 +140,40 @@ def drawing_unit(doc: DxfDocument, where: str) -> tuple[str, list[str]]:
     return INSUNITS_TO_UNIT[code], []
 
 
-def model_items(doc: DxfDocument, keep_whole_layers: Iterable[str], where: str, warnings: list[str]) -> list[Item]:
+def model_items(
+    doc: DxfDocument,
+    keep_whole_layers: Iterable[str],
+    where: str,
+    warnings: list[str],
+    only_layers: Iterable[str] | None = None,
+) -> list[Item]:
     """Every graphic entity of the model space, block references resolved (nested and arrayed ones too).
 
     An INSERT on one of ``keep_whole_layers`` (case-insensitive) is kept as it is: there it is a marker whose
-    insertion point and attributes matter, not a container of geometry.
+    insertion point and attributes matter, not a container of geometry. With ``only_layers``, entities on
+    other layers are passed over (block references are still opened: their contents may be on those layers).
     """
     keep = {name.casefold() for name in keep_whole_layers}
-    return list(_walk(doc.modelspace(), "", "", keep, 0, where, warnings))
+    only = None if only_layers is None else {name.casefold() for name in only_layers}
+    return list(_walk(doc.modelspace(), "", "", keep, 0, where, warnings, only))
 
 
 def _walk(
-    entities, parent: str, parent_layer: str, keep: set[str], depth: int, where: str, warnings: list[str]
+    entities, parent: str, parent_layer: str, keep: set[str], depth: int, where: str, warnings: list[str],
+    only: set[str] | None = None,
 ) -> Iterator[Item]:
     for entity in entities:
+        if not entity.dxf.is_supported("layer"):
+            # Only a damaged file puts a record that is no graphic entity into a layout.
+            warnings.append(f"{where}: a {entity.dxftype()} record {entity.dxf.get('handle', '')} in the model "
+                            "space is not a drawing entity; skipped.")
+            continue
         layer = entity.dxf.get("layer", "0")
         if parent_layer and layer == "0":
             layer = parent_layer  # the DXF convention for block contents on layer 0
+        if only is not None and layer.casefold() not in only and entity.dxftype() != "INSERT":
+            # A drawing of a whole site holds far more than the panel: no Item for what is never looked at.
+            continue
         own = entity.dxf.handle
         if own is None and entity.source_of_copy is not None:
             own = entity.source_of_copy.dxf.handle
@@ -140,6 +187,13 @@ def _walk(
                 where=f"{where}, INSERT {handle}",
                 hint="Explode or redefine the block.",
             )
+        name = entity.dxf.get("name")
+        if not isinstance(name, str) or not name or (entity.doc is not None and name not in entity.doc.blocks):
+            # A damaged file's reference to nothing draws nothing in any drafting program either: say so, go on.
+            said = "names no block" if not isinstance(name, str) or not name else \
+                f"names the block {name!r}, which the drawing does not define"
+            warnings.append(f"{where}, layer {layer}, INSERT {handle}: the block reference {said}; skipped.")
+            continue
         arrayed = list(entity.multi_insert()) if entity.mcount > 1 else [entity]
         for k, insert in enumerate(arrayed):
             label = f"{handle}[{k}]" if len(arrayed) > 1 else handle
@@ -155,4 +209,4 @@ def _walk(
                     where=f"{where}, layer {layer}, INSERT {handle}",
                     hint="Redefine the block or explode the reference.",
                 ) from None
-            yield from _walk(contents, label, layer, keep, depth + 1, where, warnings)
+            yield from _walk(contents, label, layer, keep, depth + 1, where, warnings, only)

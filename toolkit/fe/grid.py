@@ -108,19 +108,10 @@ class Grid:
         return np.repeat(self.active_nodes(active_elements), 2)
 
 
-def make_grid(
-    width_mm: float,
-    height_mm: float,
-    element_size_mm: float | None = None,
-    target_elements: int = 20000,
-    *,
-    check_memory: bool = True,
-) -> Grid:
-    """A grid covering width x height exactly, elements near ``element_size_mm`` (or about ``target_elements``).
-
-    With ``check_memory``, a grid whose analysis would not fit in the free memory is refused before anything is
-    allocated (:func:`toolkit.limits.check_memory`).
-    """
+def grid_shape(
+    width_mm: float, height_mm: float, element_size_mm: float | None = None, target_elements: int = 20000
+) -> tuple[int, int]:
+    """(nx, ny) of the grid :func:`make_grid` lays over width x height; allocates nothing."""
     if not (width_mm > 0 and height_mm > 0):
         raise LacunaError(f"panel envelope {width_mm} x {height_mm} mm has no area.")
     if element_size_mm is None:
@@ -131,15 +122,24 @@ def make_grid(
         raise LacunaError(
             f"element size must be positive, got {element_size_mm} mm.", where="[panel] element_size"
         )
-    nx = max(1, round(width_mm / element_size_mm))
-    ny = max(1, round(height_mm / element_size_mm))
-    if check_memory:
-        from ..limits import check_memory as refuse_if_too_big
+    return max(1, round(width_mm / element_size_mm)), max(1, round(height_mm / element_size_mm))
 
-        refuse_if_too_big(nx, ny, width_mm / nx, height_mm / ny, stage="analysis")
+
+def make_grid(
+    width_mm: float, height_mm: float, element_size_mm: float | None = None, target_elements: int = 20000
+) -> Grid:
+    """A grid covering width x height exactly, elements near ``element_size_mm`` (or about ``target_elements``).
+
+    A grid whose analysis would not fit in the free memory is refused before anything is allocated
+    (:func:`toolkit.limits.check_memory`, with the element size that would fit).
+    """
+    from ..limits import check_memory
+
+    nx, ny = grid_shape(width_mm, height_mm, element_size_mm, target_elements)
+    check_memory(nx, ny, width_mm / nx, height_mm / ny, stage="analysis")
     if nx * ny > 5_000_000:
         raise LacunaError(
-            f"an element size of {element_size_mm:g} mm gives {nx} x {ny} elements, too many to solve here.",
+            f"the element size gives {nx} x {ny} elements, too many to solve here.",
             where="[panel] element_size",
             hint="Use a larger element size (a few hundred thousand elements at most).",
         )

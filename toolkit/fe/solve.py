@@ -2,12 +2,77 @@
 
 from __future__ import annotations
 
+from contextlib import nullcontext
+
 import numpy as np
 import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
 from ..errors import LacunaError
 from .grid import Grid
+
+try:  # optional: holds BLAS to one thread where that pays (see _BlasOneThread)
+    from threadpoolctl import ThreadpoolController
+except ImportError:
+    ThreadpoolController = None
+
+
+class _BlasOneThread:
+    """Runs BLAS/LAPACK on one thread inside ``with``, where the package threadpoolctl is installed.
+
+    The fronts are many small dense matrices and a few of a few hundred rows: OpenBLAS's threads gain little
+    on them even on an idle machine, and on a machine whose cores are busy with other work a threaded
+    Cholesky of a 400 x 400 front was measured at 0.4 s instead of 2 ms (docs/fe.md). The libraries are
+    looked up once, here, not at every call.
+    """
+
+    def __init__(self):
+        self._controller = ThreadpoolController() if ThreadpoolController is not None else None
+
+    def __call__(self):
+        return self._controller.limit(limits=1, user_api="blas") if self._controller else nullcontext()
+
+
+def _dissection_tree(nxp: int, nyp: int, leaf: int) -> tuple[list[tuple[int, int, int, int]], list[list[int]]]:
+    """Boxes of nodes [i0, i1) x [j0, j1) of the nested dissection, parents before children, and each box's
+    children (first half, second half). A box with children is split by its separator line: the middle column
+    when it is at least as wide as tall, else the middle row; a box no larger than ``leaf`` nodes a side is a
+    leaf."""
+    boxes: list[tuple[int, int, int, int]] = []
+    children: list[list[int]] = []
+    stack = [(0, nxp, 0, nyp, -1)]
+    while stack:
+        i0, i1, j0, j1, parent = stack.pop()
+        boxes.append((i0, i1, j0, j1))
+        children.append([])
+        if parent >= 0:
+            children[parent].append(len(boxes) - 1)
+        w, h = i1 - i0, j1 - j0
+        if max(w, h) <= leaf:
+            continue
+        if w >= h:
+            m = (i0 + i1) // 2
+            halves = [(i0, m, j0, j1), (m + 1, i1, j0, j1)]
+        else:
+            m = (j0 + j1) // 2
+            halves = [(i0, i1, j0, m), (i0, i1, m + 1, j1)]
+        for i0h, i1h, j0h, j1h in reversed(halves):
+            if i1h > i0h and j1h > j0h:
+                stack.append((i0h, i1h, j0h, j1h, len(boxes) - 1))
+    return boxes, children
+
+
+def _own_nodes(box: tuple[int, int, int, int], is_leaf: bool) -> tuple[np.ndarray, np.ndarray]:
+    """(di, dj) offsets from the box's lower-left node of the nodes the box eliminates itself: all of a leaf's,
+    the separator line of any other box."""
+    i0, i1, j0, j1 = box
+    w, h = i1 - i0, j1 - j0
+    if is_leaf:
+        di, dj = np.meshgrid(np.arange(w), np.arange(h))
+        return di.ravel(), dj.ravel()
+    if w >= h:
+        return np.full(h, (i0 + i1) // 2 - i0), np.arange(h)
+    return np.arange(w), np.full(w, (j0 + j1) // 2 - j0)
 
 
 def nested_dissection(grid: Grid, leaf: int = 2) -> np.ndarray:
@@ -17,31 +82,17 @@ def nested_dissection(grid: Grid, leaf: int = 2) -> np.ndarray:
     about half the size they have under its own orderings (benchmarks/bench_fe.py has the figures).
     """
     nxp = grid.nx + 1
+    boxes, children = _dissection_tree(nxp, grid.ny + 1, leaf)
     parts: list[np.ndarray] = []
-    stack = [(0, grid.nx + 1, 0, grid.ny + 1, False)]
-    # An explicit stack instead of recursion; a "separator" entry is emitted after both halves it splits.
+    # Children before their parent: the preorder with each box's children reversed, read backwards.
+    stack, post = [0], []
     while stack:
-        i0, i1, j0, j1, separator = stack.pop()
-        if separator:
-            parts.append((np.arange(j0, j1)[:, None] * nxp + np.arange(i0, i1)[None, :]).ravel())
-            continue
-        w, h = i1 - i0, j1 - j0
-        if w <= 0 or h <= 0:
-            continue
-        if max(w, h) <= leaf:
-            parts.append((np.arange(j0, j1)[:, None] * nxp + np.arange(i0, i1)[None, :]).ravel())
-            continue
-        if w >= h:
-            m = (i0 + i1) // 2
-            halves = [(i0, m, j0, j1, False), (m + 1, i1, j0, j1, False)]
-            cut = (m, m + 1, j0, j1, True)
-        else:
-            m = (j0 + j1) // 2
-            halves = [(i0, i1, j0, m, False), (i0, i1, m + 1, j1, False)]
-            cut = (i0, i1, m, m + 1, True)
-        # Popped last-in first-out: first half, second half, then the separator.
-        stack.append(cut)
-        stack.extend(reversed(halves))
+        b = stack.pop()
+        post.append(b)
+        stack.extend(children[b])
+    for b in reversed(post):
+        di, dj = _own_nodes(boxes[b], not children[b])
+        parts.append((boxes[b][2] + dj) * nxp + boxes[b][0] + di)
     return np.concatenate(parts)
 
 
@@ -50,11 +101,196 @@ def nested_dissection(grid: Grid, leaf: int = 2) -> np.ndarray:
 SINGULAR_PIVOT = 1e-12
 
 
+# Below this many dofs "auto" takes SuperLU: measured at 60 x 20 elements it factorises in a third of the time
+# (the multifrontal backend pays some Python per group of boxes), at 120 x 40 (10,000 dofs) the two are even,
+# at 200 x 60 the multifrontal one is 1.5 times faster and at 600 x 200 two to three times.
+MULTIFRONTAL_MIN_DOFS = 20_000
+
+
 def _singular() -> LacunaError:
     return LacunaError(
         "the stiffness matrix is singular: part of the panel can move without resistance.",
         hint="Check that every part of the panel is held by supports in x and y and against rotation.",
     )
+
+
+class _Group:
+    """Boxes of one shape and one set of outer sides, so of one front structure: factorised as a batch."""
+
+    def __init__(self, own: np.ndarray, ring: np.ndarray, own_free: np.ndarray, dest: np.ndarray,
+                 src: np.ndarray):
+        self.own, self.ring, self.own_free = own, ring, own_free  # (B, k), (B, r) dofs; (B, k) bool
+        self.k, self.m = own.shape[1], own.shape[1] + ring.shape[1]
+        self.dest, self.src = dest, src  # front entry (flat) <- K.data entry, for the entries of K itself
+        # (child group, first member, runs (child start, child stop, front start)) of each child slot.
+        self.kids: list[tuple[int, int, list[tuple[int, int, int]]]] = []
+        self.last_use = -1  # the last group that reads this one's update matrices
+        self.Linv: np.ndarray | None = None  # (B, k, k) inverse of the Cholesky factor of the pivot block
+        self.W: np.ndarray | None = None  # (B, k, r) Linv times the coupling of own to ring dofs
+
+
+class _Multifrontal:
+    """Sparse Cholesky of K on a structured grid: the multifrontal method over the nested-dissection tree.
+
+    Each box of the dissection owns the nodes it eliminates (a leaf: all its nodes; any other box: its
+    separator line) and couples only to the ring of nodes just outside it, which belong to the separators of
+    its ancestors. Its front is the dense matrix on own + ring dofs: the rows of K on its own dofs plus the
+    update matrices of its children (extend-add); eliminating the own dofs leaves the ring's update for the
+    parent (Duff & Reid 1983, ACM TOMS 9:302; George 1973, SIAM J Numer Anal 10:345, for the order). On a
+    grid, boxes of one shape and one set of outer sides have identical fronts, so they are factorised in
+    batches by dense LAPACK/BLAS calls over stacked arrays: a few hundred calls for the whole grid.
+
+    Dofs outside ``free`` get an identity row and column, which keeps every front of a batch alike.
+    """
+
+    def __init__(self, K: sp.csc_matrix, free: np.ndarray, grid: Grid, leaf: int = 4):
+        n = K.shape[0]
+        nxp, nyp = grid.nx + 1, grid.ny + 1
+        self.n = n
+        self.free = free
+        # Slot of K[a, b] in K.data, looked up by column b and the code of a's node offset from b's node
+        # (3 x 3 neighbours) and a's parity: a node couples only to its eight neighbours.
+        col = np.repeat(np.arange(n), np.diff(K.indptr))
+        row = K.indices.astype(np.int64)
+        di = (row // 2) % nxp - (col // 2) % nxp
+        dj = (row // 2) // nxp - (col // 2) // nxp
+        near = (np.abs(di) <= 1) & (np.abs(dj) <= 1)
+        entry = np.arange(K.nnz)
+        if not near.all():
+            if np.any(~near & free[row] & free[col] & (K.data != 0)):
+                raise ValueError("the matrix couples nodes that are not grid neighbours")
+            col, row, di, dj, entry = col[near], row[near], di[near], dj[near], entry[near]
+        slots = np.full(18 * n, K.nnz, dtype=np.int64)
+        slots[18 * col + ((dj + 1) * 3 + di + 1) * 2 + row % 2] = entry
+        slots = slots.reshape(n, 18)
+
+        boxes, children = _dissection_tree(nxp, nyp, leaf)
+        box = np.array(boxes)
+        sig = np.stack([box[:, 1] - box[:, 0], box[:, 3] - box[:, 2], box[:, 0] > 0, box[:, 1] < nxp,
+                        box[:, 2] > 0, box[:, 3] < nyp], axis=1).astype(np.int64)
+        keys, gid = np.unique(sig, axis=0, return_inverse=True)
+        # Smaller boxes first: every child is then factorised before its parent.
+        by_area = np.argsort(keys[:, 0] * keys[:, 1], kind="stable")
+        rank = np.empty_like(by_area)
+        rank[by_area] = np.arange(by_area.size)
+        gid = rank[gid.ravel()]
+        # Members in an order that makes the children in each slot of each group one run of their group.
+        members: list[list[int]] = [[] for _ in range(keys.shape[0])]
+        members[gid[0]].append(0)
+        first_child: dict[tuple[int, int], int] = {}
+        for g in range(len(members) - 1, -1, -1):
+            for slot in range(len(children[members[g][0]]) if members[g] else 0):
+                kids = [children[b][slot] for b in members[g]]
+                first_child[g, slot] = len(members[gid[kids[0]]])
+                members[gid[kids[0]]].extend(kids)
+
+        self.groups: list[_Group] = []
+        ring_rel: list[np.ndarray] = []
+        for g, mem in enumerate(members):
+            b0 = mem[0]
+            i0, i1, j0, j1 = boxes[b0]
+            w, h = i1 - i0, j1 - j0
+            odi, odj = _own_nodes(boxes[b0], not children[b0])
+            own_rel = odj * nxp + odi
+            # The ring by sides (bottom and top rows with the corners, then left and right columns), each side in
+            # order: a child's ring is then a few runs of its parent's front.
+            span, up = np.arange(-1, w + 1), np.arange(h)
+            rdi = np.concatenate([span, span, np.full(h, -1), np.full(h, w)])
+            rdj = np.concatenate([np.full(w + 2, -1), np.full(w + 2, h), up, up])
+            inside = (rdi + i0 >= 0) & (rdi + i0 < nxp) & (rdj + j0 >= 0) & (rdj + j0 < nyp)
+            ring_rel.append(rdj[inside] * nxp + rdi[inside])
+            front_rel = np.concatenate([own_rel, ring_rel[g]])
+            base = np.array([boxes[b][2] * nxp + boxes[b][0] for b in mem])
+            nodes = base[:, None] + front_rel[None, :]
+            dofs = np.stack([2 * nodes, 2 * nodes + 1], axis=2).reshape(len(mem), -1)
+            k, m = 2 * own_rel.size, dofs.shape[1]
+            # K's entries in the own rows of the front (all columns), mirrored into the ring rows. Which front
+            # entries couple grid neighbours is the same for every box of the group: found once on offsets.
+            fdi, fdj = np.concatenate([odi, rdi[inside]]), np.concatenate([odj, rdj[inside]])
+            ddi = np.repeat(fdi[:own_rel.size, None] - fdi[None, :], 2, axis=0).repeat(2, axis=1)
+            ddj = np.repeat(fdj[:own_rel.size, None] - fdj[None, :], 2, axis=0).repeat(2, axis=1)
+            ri, ci = np.nonzero((np.abs(ddi) <= 1) & (np.abs(ddj) <= 1))
+            code = ((ddj[ri, ci] + 1) * 3 + ddi[ri, ci] + 1) * 2 + ri % 2
+            a, b = dofs[:, ri], dofs[:, ci]
+            src = np.where(free[a] & free[b], slots[b, code], K.nnz)
+            src = np.where((a == b) & ~free[a], K.nnz + 1, src)  # identity on held dofs
+            bi, ti = np.nonzero(src != K.nnz)
+            src, ri, ci = src[bi, ti], ri[ti], ci[ti]
+            dest = (bi * m + ri) * m + ci
+            off = ci >= k
+            dest = np.concatenate([dest, (bi[off] * m + ci[off]) * m + ri[off]])
+            src = np.concatenate([src, src[off]])
+            group = _Group(dofs[:, :k], dofs[:, k:], free[dofs[:, :k]], dest, src)
+            for slot, kid in enumerate(children[b0]):
+                cg = gid[kid]
+                kid_rel = boxes[kid][2] * nxp + boxes[kid][0] - (j0 * nxp + i0) + ring_rel[cg]
+                sorter = np.argsort(front_rel)
+                p = sorter[np.searchsorted(front_rel, kid_rel, sorter=sorter)]
+                assert np.array_equal(front_rel[p], kid_rel), "a child's ring must lie in its parent's front"
+                pos = np.stack([2 * p, 2 * p + 1], axis=1).ravel()
+                cut = np.flatnonzero(np.diff(pos) != 1) + 1
+                starts, stops = np.r_[0, cut], np.r_[cut, pos.size]
+                group.kids.append((int(cg), first_child[g, slot],
+                                   [(int(s0), int(s1), int(pos[s0])) for s0, s1 in zip(starts, stops)]))
+                self.groups[cg].last_use = g
+            self.groups.append(group)
+
+    def factor(self, data: np.ndarray) -> None:
+        """Factorise the matrix with entries ``data`` (K.data of the pattern given at construction)."""
+        values = np.concatenate([data, [0.0, 1.0]])
+        updates: list[np.ndarray | None] = [None] * len(self.groups)
+        smallest, largest = np.inf, 0.0
+        for g, G in enumerate(self.groups):
+            B, k, m = G.own.shape[0], G.k, G.m
+            F = np.zeros((B, m, m))
+            F.ravel()[G.dest] = values[G.src]
+            for cg, first, runs in G.kids:
+                U = updates[cg][first:first + B]
+                for a0, a1, pa in runs:
+                    for b0, b1, pb in runs:
+                        F[:, pa:pa + a1 - a0, pb:pb + b1 - b0] += U[:, a0:a1, b0:b1]
+            for cg, _, _ in G.kids:
+                if self.groups[cg].last_use == g:
+                    updates[cg] = None
+            try:
+                L = np.linalg.cholesky(F[:, :k, :k])
+            except np.linalg.LinAlgError as exc:
+                raise _singular() from exc
+            pivots = np.diagonal(L, axis1=1, axis2=2)[G.own_free] ** 2
+            if pivots.size:
+                smallest, largest = min(smallest, pivots.min()), max(largest, pivots.max())
+            G.Linv = np.linalg.inv(L)
+            if m > k:
+                G.W = G.Linv @ F[:, :k, k:]
+                F[:, k:, k:] -= np.matmul(G.W.transpose(0, 2, 1), G.W)
+                updates[g] = F[:, k:, k:]
+        if not smallest > SINGULAR_PIVOT * largest:
+            raise _singular()
+
+    def solve(self, b: np.ndarray) -> np.ndarray:
+        """x with K x = b (n, ncases); rows of held dofs in b are ignored and come back zero."""
+        b = b.copy()
+        b[~self.free] = 0.0
+        n, nc = b.shape
+        ys = []
+        for G in self.groups:  # forward: L y = b, children first
+            y = G.Linv @ b[G.own]
+            ys.append(y)
+            if G.W is not None:
+                d = np.matmul(G.W.transpose(0, 2, 1), y)
+                for c in range(nc):
+                    b[:, c] -= np.bincount(G.ring.ravel(), weights=d[:, :, c].ravel(), minlength=n)
+        x = np.zeros_like(b)
+        for G, y in zip(reversed(self.groups), reversed(ys)):  # back: L^T x = y, parents first
+            if G.W is not None:
+                y = y - G.W @ x[G.ring]
+            x[G.own] = np.matmul(G.Linv.transpose(0, 2, 1), y)
+        return x
+
+
+def _sorted_csc(K: sp.spmatrix) -> sp.csc_matrix:
+    K = sp.csc_matrix(K)
+    return K if K.has_sorted_indices else K.sorted_indices()
 
 
 def pardiso_available() -> bool:
@@ -76,31 +312,50 @@ def _new_pardiso():
 class LinearSolver:
     """Factorises K restricted to the free dofs; ``refactor`` takes a new K of the same pattern.
 
-    The restriction (with the fill-reducing order folded in) is an index map into ``K.data`` built once, so a
-    new matrix from the same :class:`~toolkit.fe.assembly.Assembler` costs one gather plus the factorisation.
-    With ``grid`` given, the grid's nested-dissection order is used; without, SuperLU's minimum degree on
-    K + K^T. The stiffness is symmetric positive definite on the free dofs, so no pivoting is needed.
+    ``backend``:
 
-    ``backend``: "superlu" (scipy, always there), "pardiso" (MKL's sparse Cholesky through the optional
-    pypardiso package, two to three times faster at 600 x 200 elements: benchmarks/bench_fe.py) or "auto",
-    the default: pardiso where the package is installed, else superlu.
+    - "multifrontal" (needs ``grid``): our sparse Cholesky over the grid's nested-dissection tree, in dense
+      batches (:class:`_Multifrontal`); two to three times faster than SuperLU at 600 x 200 elements
+      (benchmarks/bench_fe.py). Held dofs are kept in the system with an identity row.
+    - "superlu" (scipy): K restricted to the free dofs through an index map into ``K.data`` built once, with
+      the grid's nested-dissection order folded in where ``grid`` is given, else SuperLU's minimum degree on
+      K + K^T. The stiffness is symmetric positive definite on the free dofs, so no pivoting is needed.
+    - "pardiso": MKL's sparse Cholesky through the optional pypardiso package, on the same restriction.
+    - "auto", the default: "multifrontal" with a grid of at least ``MULTIFRONTAL_MIN_DOFS`` dofs, else
+      "pardiso" where installed, else "superlu".
     """
 
     def __init__(self, K: sp.spmatrix, free: np.ndarray, grid: Grid | None = None, backend: str = "auto"):
-        if backend == "auto":
-            backend = "pardiso" if pardiso_available() else "superlu"
-        if backend not in ("superlu", "pardiso"):
+        if backend not in ("auto", "multifrontal", "superlu", "pardiso"):
             raise ValueError(f"unknown solver backend {backend!r}")
-        self.backend = backend
-        K = sp.csc_matrix(K)
+        if backend == "multifrontal" and grid is None:
+            raise ValueError("the multifrontal backend needs the grid")
+        K = _sorted_csc(K)
         n = K.shape[0]
+        if grid is not None and grid.n_dofs != n:
+            raise ValueError(f"grid has {grid.n_dofs} dofs, the matrix {n}")
         free = np.asarray(free)
         free_idx = np.flatnonzero(free) if free.dtype == bool else np.asarray(free, dtype=np.int64)
         if free_idx.size == 0:
             raise LacunaError("every degree of freedom is held by a support: there is nothing to solve.")
+        self.n = n
+        if backend == "multifrontal" or (backend == "auto" and grid is not None and n >= MULTIFRONTAL_MIN_DOFS):
+            is_free = np.zeros(n, dtype=bool)
+            is_free[free_idx] = True
+            try:
+                self._frontal = _Multifrontal(K, is_free, grid)
+            except ValueError:  # K couples more than grid neighbours: not the matrix of this grid
+                if backend == "multifrontal":
+                    raise
+            else:
+                self._one_thread = _BlasOneThread()
+                self.backend = "multifrontal"
+                self.refactor(K)
+                return
+        if backend in ("auto", "multifrontal"):
+            backend = "pardiso" if pardiso_available() else "superlu"
+        self.backend = backend
         if grid is not None:
-            if grid.n_dofs != n:
-                raise ValueError(f"grid has {grid.n_dofs} dofs, the matrix {n}")
             nodes = nested_dissection(grid)
             order = np.stack([2 * nodes, 2 * nodes + 1], axis=1).ravel()
             is_free = np.zeros(n, dtype=bool)
@@ -110,7 +365,6 @@ class LinearSolver:
         else:
             order = free_idx
             self._permc = "MMD_AT_PLUS_A"
-        self.n = n
         self.order = order
         # Carry entry numbers through the slicing to learn which entries of K.data land where in K_ff.
         probe = sp.csc_matrix((np.arange(1, K.nnz + 1, dtype=float), K.indices, K.indptr), shape=K.shape)
@@ -129,7 +383,11 @@ class LinearSolver:
 
     def refactor(self, K: sp.spmatrix) -> None:
         """Factorise a new matrix of the same sparsity pattern as the one given at construction."""
-        data = K.data if sp.issparse(K) else np.asarray(K)
+        data = _sorted_csc(K).data if sp.issparse(K) else np.asarray(K)
+        if self.backend == "multifrontal":
+            with self._one_thread():
+                self._frontal.factor(data)
+            return
         m = self.order.size
         Kff = sp.csc_matrix((data[self._take], self._indices, self._indptr), shape=(m, m))
         if self.backend == "pardiso":
@@ -159,13 +417,18 @@ class LinearSolver:
     def solve(self, F: np.ndarray) -> np.ndarray:
         """Full displacement vector(s) for load vector(s) F (ndof,) or (ndof, ncases); zero at held dofs."""
         F = np.asarray(F, dtype=float)
-        rhs = np.ascontiguousarray(F[self.order])
-        if self.backend == "pardiso":
-            u = self._pardiso.solve(self._upper, rhs)
+        if self.backend == "multifrontal":
+            with self._one_thread():
+                U = self._frontal.solve(F.reshape(self.n, -1)).reshape(F.shape)
+            u = U
         else:
-            u = self._lu.solve(rhs)
-        U = np.zeros(F.shape)
-        U[self.order] = u
+            rhs = np.ascontiguousarray(F[self.order])
+            if self.backend == "pardiso":
+                u = self._pardiso.solve(self._upper, rhs)
+            else:
+                u = self._lu.solve(rhs)
+            U = np.zeros(F.shape)
+            U[self.order] = u
         if not np.all(np.isfinite(u)):
             raise LacunaError(
                 "the solution is not finite: the panel is not held against every rigid motion.",

@@ -20,6 +20,11 @@ saved. Only candidates removing at least ``MIXED_MIN_SHARE`` of the largest cand
 small bore in a quiet corner does not win by removing nearly nothing. Without an energy field the least fit
 error decides.
 
+**Symmetric layouts** (``symmetry``). When the settings ask for mirror symmetry and the problem has it, the
+freeform voids are folded onto the lower-left half (or quarter), the seeds fitted there (those on a mid-line made
+symmetric about it), and every step above works on seeds with each seed's mirror images checked beside it; the
+images are added at the end. Symmetry asked for but absent in the problem is not enforced; a note says why.
+
 Ids are "V1", "V2", ... in order of the final centres, left to right and, for equal x, bottom to top.
 """
 
@@ -38,10 +43,12 @@ from ..errors import LacunaError
 from ..jobfile import VoidOptions
 from ..model import Panel, Rules, Void
 from ..rules import check as rule_check
-from .fit import fit_bores, fit_error, fit_polygon, fit_slot
+from .fit import fit_bores, fit_error, fit_polygon, fit_slot, overlay
 from .measure import FreeformVoid, clean, inscribed_width
 from .outline import Draft
 from .standardise import snap_centres, standardise_sizes
+from .symmetry import (Mirror, fold, layout_mirror, split_centre, symmetric_bores, symmetric_polygon,
+                       symmetric_slot)
 
 FAMILIES = ("polygon", "slot", "bore", "mixed")
 CORNERS = ("none", "chamfer", "radius")
@@ -60,7 +67,7 @@ class Rationalised:
     ``dropped``: freeform voids that gave no void, with the reason; ``fit_errors``: (void id, fit error of the
     void's freeform, see ``fit.fit_error``; bores of one freeform share it); ``violations``: what
     ``rules.check.check_layout`` found in the final layout (empty: the rules are proved);
-    ``notes``: islands filled and settings taken from the rules.
+    ``notes``: islands filled, settings taken from the rules, symmetry kept or refused (and why).
     """
 
     voids: tuple[Void, ...]
@@ -164,7 +171,7 @@ class Site:
     """Where void material may go and how far apart voids stay: answers "may this void stand here?"."""
 
     def __init__(self, allowed, min_web_mm: float, move_step_mm: float, web_ratio: float = 0.0,
-                 least_mm: float = 0.0, openings=()):
+                 least_mm: float = 0.0, openings=(), mirror: Mirror | None = None):
         inner = shapely.buffer(allowed, -SAFETY_MM, quad_segs=4) if not allowed.is_empty else allowed
         shapely.prepare(inner)
         self.inner = inner
@@ -176,6 +183,12 @@ class Site:
         # The allowed region already keeps min_web from the openings; a web ratio also ties that web to the
         # larger of the void and the opening, which only a per-void test can say.
         self.openings = list(openings) if web_ratio > 0.0 else []
+        # In a symmetric layout every draft stands for itself and its mirror images: each is checked.
+        self.mirror = mirror if mirror is not None else Mirror()
+
+    def shapes(self, draft: Draft) -> list:
+        """The shapes of ``draft`` and of its mirror images."""
+        return [_shape(d) for d in self.mirror.orbit(draft)]
 
     def inside(self, shape) -> bool:
         return bool(self.inner.covers(shape))
@@ -211,16 +224,30 @@ class Site:
 
     def fits(self, trial: Draft, i: int, state: list[Draft], move: bool = True) -> Draft | None:
         """``trial`` (or a copy moved a little, when ``move``) if it keeps the rules beside the others in
-        ``state`` (item ``i`` of ``state`` is the void's own former self and is ignored)."""
-        if not self.big_enough(trial):
+        ``state`` (item ``i`` of ``state`` is the void's own former self and is ignored). In a symmetric layout
+        the trial's mirror images are checked too, against the others' images and each other; a void on a
+        mid-line only moves along it."""
+        if not self.big_enough(trial) or not self.mirror.keeps(trial):
             return None
-        others = [_shape(d) for j, d in enumerate(state) if j != i and d is not None]
-        for dx, dy in self.offsets(trial.size) if move else [(0.0, 0.0)]:
+        others = [g for j, d in enumerate(state) if j != i and d is not None for g in self.shapes(d)]
+        offsets = self.offsets(trial.size) if move else [(0.0, 0.0)]
+        for dx, dy in self.mirror.along(trial, offsets):
             cand = trial.moved(dx, dy) if (dx or dy) else trial
-            shape = _shape(cand)
-            if self.inside(shape) and self.clear(shape, others):
+            shapes = self.shapes(cand)
+            if all(self.inside(g) for g in shapes) and all(self.clear(g, others + shapes[:k])
+                                                           for k, g in enumerate(shapes)):
                 return cand
         return None
+
+    def why(self, d: Draft, r: Resolved) -> str:
+        """Why ``d`` does not fit where it is, in words."""
+        shapes = self.shapes(d)
+        pair = len(shapes) > 1
+        if not all(self.inside(g) for g in shapes):
+            return ("it" + (" or a mirror image of it" if pair else "") + " reaches outside the area open to "
+                    "voids (edge cover, webs to openings, bearing zones, KEEP zones)")
+        return (f"it comes closer than the minimum web {r.min_web_mm:g} mm to another void"
+                + (" or to its own mirror image" if pair else ""))
 
 
 def _smaller(d: Draft, r: Resolved) -> list[Draft]:
@@ -236,14 +263,6 @@ def _smaller(d: Draft, r: Resolved) -> list[Draft]:
     return [d.scaled(d.size * f) for f in SHRINK_STEPS]
 
 
-def _why(d: Draft, site: Site, others, r: Resolved) -> str:
-    shape = _shape(d)
-    if not site.inside(shape):
-        return ("it reaches outside the area open to voids (edge cover, webs to openings, bearing zones, "
-                "KEEP zones)")
-    return f"it comes closer than the minimum web {r.min_web_mm:g} mm to another void"
-
-
 def place(drafts: list[Draft], site: Site, r: Resolved):
     """Place drafts largest first, moving or shrinking those that break a rule; returns
     (placed drafts, change records (draft, what, why), dropped records (source, reason))."""
@@ -251,14 +270,13 @@ def place(drafts: list[Draft], site: Site, r: Resolved):
     placed: list[Draft] = []
     changes, dropped = [], []
     for d in order:
-        others = [_shape(p) for p in placed]
         why = None
         for trial in _smaller(d, r):
             got = site.fits(trial, -1, placed)
             if got is None:
                 continue
             if got != d:
-                why = why or _why(d, site, others, r)
+                why = why or site.why(d, r)
                 if abs(got.size - d.size) > 1e-9 or abs(got.length - d.length) > 1e-9:
                     changes.append((got, f"made smaller ({_describe(d)} -> {_describe(got)})", why))
                 if math.dist(got.centre, d.centre) > 1e-9:
@@ -266,7 +284,7 @@ def place(drafts: list[Draft], site: Site, r: Resolved):
             placed.append(got)
             break
         else:
-            dropped.append((d.source, f"{_describe(d)}: {_why(d, site, others, r)}, and no smaller or nearby "
+            dropped.append((d.source, f"{_describe(d)}: {site.why(d, r)}, and no smaller or nearby "
                                       "void of its kind fits"))
     return placed, changes, dropped
 
@@ -330,14 +348,24 @@ def mean_over(shape, sample, spacing: float | None) -> float:
 # --- fitting by family ------------------------------------------------------------------------------------
 
 
-def _fit(v: FreeformVoid, family: str, r: Resolved, allowed, tolerance: float) -> list[Draft]:
+def _fit(v: FreeformVoid, family: str, r: Resolved, allowed, tolerance: float, fixed: tuple[str, ...] = (),
+         mirror: Mirror | None = None) -> list[Draft]:
+    """Drafts for one freeform void; on mid-lines (``fixed``) made symmetric about them."""
     if family == "polygon":
-        return [fit_polygon(v.shape, r.sides, allowed=allowed, source=v.index, corner=r.corner,
-                            corner_mm=r.corner_mm)]
+        d = fit_polygon(v.shape, r.sides, allowed=allowed, source=v.index, corner=r.corner, corner_mm=r.corner_mm)
+        if fixed:
+            d = symmetric_polygon(d, v.shape, fixed, mirror, allowed)
+        return [d] if d is not None else []
     if family == "slot":
         widths = [w for w in r.slot_widths_mm if w >= r.min_void_mm]
         d = fit_slot(v.shape, widths, allowed=allowed, source=v.index) if widths else None
+        if d is not None and fixed:
+            d = symmetric_slot(d, v.shape, fixed, mirror, allowed)
         return [d] if d is not None else []
+    if fixed:
+        return symmetric_bores(v.shape, r.bore_diameters_mm, fixed=fixed, mirror=mirror, allowed=allowed,
+                               min_web_mm=r.min_web_mm + SAFETY_MM, tolerance_mm=tolerance,
+                               smallest_mm=r.min_void_mm, source=v.index)
     return fit_bores(v.shape, r.bore_diameters_mm, allowed=allowed, min_web_mm=r.min_web_mm + SAFETY_MM,
                      tolerance_mm=tolerance, smallest_mm=r.min_void_mm, source=v.index)
 
@@ -359,13 +387,51 @@ def _choose(v: FreeformVoid, fits: dict[str, list[Draft]], sample, spacing) -> s
 # --- the whole step ---------------------------------------------------------------------------------------
 
 
+def _seeds(freeform, mirror: Mirror, r: Resolved):
+    """The freeform voids to fit: as given, or, in a symmetric layout, folded onto the lower-left side.
+
+    Returns the kept voids (``clean``), the mid-lines each stands on (by index), and the notes.
+    """
+    if not mirror.axes:
+        kept, notes = clean(freeform, r.min_void_mm)
+        return kept, {}, notes
+    filled, notes = clean(freeform, 0.0)  # checks the input and fills islands; drops nothing with area
+    seeds = fold([v.shape for v in filled], mirror)
+    if r.family == "polygon" and r.sides % 2 and len(mirror.axes) == 2:
+        split = []
+        for shape, fixed in seeds:
+            if len(fixed) == 2:
+                c = shape.centroid
+                notes.append(f"freeform void at ({c.x:.0f}, {c.y:.0f}) on both mid-lines: a {r.sides}-gon cannot "
+                             "be symmetric about both, so it is made as a pair, one each side of the horizontal "
+                             "mid-line.")
+                split.extend((part, ("x",)) for part in split_centre(shape, mirror, r.min_web_mm / 2.0))
+            else:
+                split.append((shape, fixed))
+        seeds = split
+    kept, more = clean([shape for shape, _ in seeds], r.min_void_mm, where="folded freeform voids")
+    return kept, {i: fixed for i, (_, fixed) in enumerate(seeds)}, notes + more
+
+
+def _region_for(allowed, mirror: Mirror, fixed, r: Resolved, cache: dict):
+    """The region open to a seed: the allowed region, on the lower-left side of each mid-line the seed does not
+    stand on and half a web clear of it (so that the seed and its mirror image keep the web)."""
+    free = tuple(a for a in mirror.axes if a not in fixed)
+    if free not in cache:
+        cache[free] = overlay(shapely.intersection, allowed, mirror.side(free, margin=r.min_web_mm / 2.0)) \
+            if free else allowed
+    return cache[free]
+
+
 def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, energy=None,
                 allowed=None) -> Rationalised:
     """Freeform voids (shapely polygons, local mm) -> voids a shop can make, keeping ``rules``.
 
     ``energy``: the solid panel's strain-energy density for the ``mixed`` family, as a function of points or
     a (grid, per-element values) pair. ``allowed``: the region open to voids; by default the one
-    ``rules.check.impossible_rules`` returns (``allowed_region``). Raises LacunaError when the rules leave no
+    ``rules.check.impossible_rules`` returns (``allowed_region``). With ``settings.symmetric`` (or, by default,
+    ``settings.optimize_symmetry``) the layout is kept mirror-symmetric about the mid-lines the problem is
+    symmetric about (``symmetry``; a note says which and why not). Raises LacunaError when the rules leave no
     room for any void or a setting is out of range.
     """
     r = resolve_settings(settings, rules, panel.thickness_mm)
@@ -373,16 +439,27 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
     if allowed is None:
         allowed = region
     sample, spacing = energy_sampler(energy) if energy is not None else (None, None)
+    mirror, notes = layout_mirror(panel, settings, r.snap_mm)
 
-    kept, clean_notes = clean(freeform, r.min_void_mm)
+    kept, comp_fixed, clean_notes = _seeds(freeform, mirror, r)
     dropped = [n for n in clean_notes if n.endswith("dropped.")]
-    notes = [n for n in clean_notes if not n.endswith("dropped.")]
+    notes += [n for n in clean_notes if not n.endswith("dropped.")]
     tolerance = max(0.5 * r.snap_mm, 0.5)
     by_source = {v.index: v for v in kept}
+    regions: dict = {}
+
+    def where(i: int) -> str:
+        v = by_source[i]
+        twins = " and its mirror image" if mirror.elements(comp_fixed.get(i, ())) else ""
+        return f"freeform void #{i + 1} at ({v.centroid[0]:.0f}, {v.centroid[1]:.0f}){twins}"
 
     drafts: list[Draft] = []
     families = ("polygon", "slot", "bore") if r.family == "mixed" else (r.family,)
-    fitted = {v.index: {f: _fit(v, f, r, allowed, tolerance) for f in families} for v in kept}
+    fitted = {}
+    for v in kept:
+        fixed = comp_fixed.get(v.index, ())
+        room = _region_for(allowed, mirror, fixed, r, regions)
+        fitted[v.index] = {f: _fit(v, f, r, room, tolerance, fixed, mirror) for f in families}
     chosen = {i: (_choose(by_source[i], fits, sample, spacing) if r.family == "mixed" else r.family)
               for i, fits in fitted.items()}
     if r.family == "mixed":
@@ -400,44 +477,53 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
     for i, f in chosen.items():
         got = fitted[i].get(f, []) if f else []
         if not got:
-            v = by_source[i]
-            dropped.append(f"freeform void #{i + 1} at ({v.centroid[0]:.0f}, {v.centroid[1]:.0f}): no {r.family} "
-                           "void of the stock sizes fits in it; dropped.")
+            dropped.append(f"{where(i)}: no {r.family} void of the stock sizes fits in it; dropped.")
         drafts.extend(got)
 
     site = Site(allowed, r.min_web_mm, r.snap_mm, r.web_ratio, r.min_void_mm,
-                openings=[o.shape for o in panel.openings])
+                openings=[o.shape for o in panel.openings], mirror=mirror)
     placed, change_recs, drop_recs = place(drafts, site, r)
     for source, reason in drop_recs:
-        v = by_source[source]
-        dropped.append(f"freeform void #{source + 1} at ({v.centroid[0]:.0f}, {v.centroid[1]:.0f}): {reason}; "
-                       "dropped.")
+        dropped.append(f"{where(source)}: {reason}; dropped.")
 
     stock = {"bore": r.bore_diameters_mm, "slot": r.slot_widths_mm}
     before = list(placed)
     placed, size_recs = standardise_sizes(placed, r.max_types, r.snap_mm, stock, r.min_void_mm, site.fits)
-    placed, snap_recs = snap_centres(placed, r.snap_mm, lambda t, i, s: site.fits(t, i, s, move=False))
+    placed, snap_recs = snap_centres(placed, r.snap_mm, lambda t, i, s: site.fits(t, i, s, move=False),
+                                     origin=mirror.origin)
     # Change records point at drafts; follow each to the final draft of the same void.
     final_of = {(d.source, d.part): d for d in placed if d is not None}
     records = [((d.source, d.part), what, why) for d, what, why in change_recs]
     for i, what, why in size_recs + snap_recs:
         if placed[i] is None:
-            v = by_source[before[i].source]
-            dropped.append(f"freeform void #{v.index + 1} at ({v.centroid[0]:.0f}, {v.centroid[1]:.0f}): "
-                           f"{_describe(before[i])}: {why}; dropped.")
+            dropped.append(f"{where(before[i].source)}: {_describe(before[i])}: {why}; dropped.")
         else:
             records.append(((before[i].source, before[i].part), what, why))
     placed = [d for d in placed if d is not None]
 
-    ordered = sorted(placed, key=lambda d: (round(d.centre[0], 6), round(d.centre[1], 6), d.source, d.part))
-    ids = {(d.source, d.part): f"V{k}" for k, d in enumerate(ordered, 1)}
-    voids = tuple(d.void(ids[(d.source, d.part)]) for d in ordered)
-    changes = tuple(f"{ids[key]}: {what} ({why})" for key, what, why in records if key in final_of)
+    # Every seed and its mirror images; a key (source, part, map) tells them apart.
+    entries = []
+    for d in placed:
+        entries.append((d, (d.source, d.part, ())))
+        entries.extend((img, (d.source, d.part, g)) for g, img in mirror.images(d))
+    entries.sort(key=lambda e: (round(e[0].centre[0], 6), round(e[0].centre[1], 6), e[1]))
+    ids = {key: f"V{k}" for k, (_, key) in enumerate(entries, 1)}
+    voids = tuple(d.void(ids[key]) for d, key in entries)
+    orbit_ids: dict[tuple[int, int], list[str]] = {}
+    for _, key in entries:
+        orbit_ids.setdefault(key[:2], []).append(ids[key])
+    changes = tuple(f"{', '.join(orbit_ids[key])}: {what} ({why})" for key, what, why in records if key in final_of)
+
+    # Fit error per freeform void: the voids fitted to it (or to its mirror image) against it.
+    def piece(key):
+        source, _, g = key
+        return source, tuple(a for a in g if a not in comp_fixed.get(source, ()))
 
     errors = []
-    for d, v in zip(ordered, voids):
-        group = shapely.union_all([w.shape for w, e in zip(voids, ordered) if e.source == d.source])
-        errors.append((v.id, round(fit_error(group, by_source[d.source].shape), 6)))
+    for (_, key), v in zip(entries, voids):
+        group = shapely.union_all([w.shape for (_, k), w in zip(entries, voids) if piece(k) == piece(key)])
+        source, g = piece(key)
+        errors.append((v.id, round(fit_error(group, mirror.geometry(by_source[source].shape, g)), 6)))
     violations = tuple(rule_check.check_layout(panel, list(voids), rules))
     return Rationalised(voids=voids, changes=changes, dropped=tuple(dropped), fit_errors=tuple(errors),
                         violations=violations, notes=tuple(notes))

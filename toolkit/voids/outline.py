@@ -35,7 +35,9 @@ class Draft:
 
     ``source`` is the index of the freeform void it was fitted to and ``part`` its number among the voids
     fitted to that one (bores: several); ``corner`` / ``corner_mm`` the easing of a
-    polygon's corners ("none", "chamfer" or "radius").
+    polygon's corners ("none", "chamfer" or "radius"). ``fixed`` names the panel mid-lines ("x": the vertical
+    one, "y": the horizontal one) the void stands on and is itself symmetric about, in a symmetric layout:
+    its centre stays on them whatever the later stages do (see ``symmetry``).
     """
 
     family: str
@@ -48,6 +50,7 @@ class Draft:
     corners: tuple[Point, ...] = ()
     corner: str = "none"
     corner_mm: float = 0.0
+    fixed: tuple[str, ...] = ()
 
     def scaled(self, size: float) -> Draft:
         """The same void at another size, about the same centre (a slot keeps its straight part's ratio)."""
@@ -101,7 +104,8 @@ class Draft:
             pts = self.sharp
             extent = float(np.max(np.linalg.norm(pts[:, None, :] - pts[None, :, :], axis=2)))
             first = self.corners[0]
-            angle = math.degrees(math.atan2(first[1], first[0])) % 360.0  # towards the first corner
+            # towards the first corner; adding 360 first keeps a turn of -1e-17 from coming out as 360
+            angle = (math.degrees(math.atan2(first[1], first[0])) + 360.0) % 360.0
             return Void(id=id, family="polygon", centre=self.centre, size_mm=self.size, shape=shape,
                         outline=outline, sides=len(self.corners), length_mm=extent, angle_deg=angle,
                         tool=f"{len(self.corners)}-gon former, {self.size:g} mm across corners")

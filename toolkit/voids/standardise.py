@@ -180,19 +180,24 @@ def standardise_sizes(drafts: list[Draft], max_types: int, snap: float, stock: d
     return state, changes
 
 
-def snap_centres(drafts: list[Draft], snap: float, fits: Callable[[Draft, int, list[Draft]], Draft | None]
-                 ) -> tuple[list[Draft], list[tuple[int, str, str]]]:
-    """Move every centre to the nearest point of the ``snap`` grid where the rules allow (else leave it)."""
+def snap_centres(drafts: list[Draft], snap: float, fits: Callable[[Draft, int, list[Draft]], Draft | None],
+                 origin: tuple[float, float] = (0.0, 0.0)) -> tuple[list[Draft], list[tuple[int, str, str]]]:
+    """Move every centre to the nearest point of the ``snap`` grid where the rules allow (else leave it).
+
+    The grid runs through ``origin``: the panel's corner, or a mid-line the layout is symmetric about (a grid
+    through the mirror line is its own mirror image, so mirror pairs both land on it).
+    """
     state = list(drafts)
     changes: list[tuple[int, str, str]] = []
     if snap <= 0.0:
         return state, changes
+    ox, oy = origin
     for i, d in enumerate(state):
         if d is None:
             continue
         cx, cy = d.centre
-        gx, gy = math.floor(cx / snap), math.floor(cy / snap)
-        points = [((gx + a) * snap, (gy + b) * snap) for a in range(-1, 3) for b in range(-1, 3)]
+        gx, gy = math.floor((cx - ox) / snap), math.floor((cy - oy) / snap)
+        points = [(ox + (gx + a) * snap, oy + (gy + b) * snap) for a in range(-1, 3) for b in range(-1, 3)]
         points.sort(key=lambda p: (math.dist(p, d.centre), p))
         for p in points:
             placed = fits(d.at(p), i, state)
