@@ -262,18 +262,34 @@ def _with_vertex_without_location() -> bytes:
 def _with_unknown_record() -> bytes:
     text = _ascii(panel_doc())
     at = text.index("\n  0\nENDSEC\n", text.index("ENTITIES"))
-    return (text[:at] + "\n  0\nLACUNA-NONSENSE\n  8\nPANEL\n" + text[at:]).encode()
+    return (text[:at] + "\n  0\nLACUNA-NONSENSE\n  8\nPANEL" + text[at:]).encode()
+
+
+def _with_huge_line() -> bytes:
+    doc = panel_doc()
+    doc.modelspace().add_line((1300, 200), (1500, 200), dxfattribs={"layer": "OPENING"})
+    text = _ascii(doc)
+    head, tail = text.rsplit("\n 11\n1500.0\n", 1)  # the new line's end x (group code 11)
+    return (head + "\n 11\n1e300\n" + tail).encode()
+
+
+def _empty() -> bytes:
+    doc = ezdxf.new("R2013")
+    return _ascii(doc).encode()
 
 
 REGRESSIONS = {
     # name: (drawing bytes, the commands that crashed on it, the fragment of the refusal or None if it reads)
-    "binary-dxf-truncated": (lambda: _binary(panel_doc())[:1200], ("analyze", "check", "convert"),
-                             "too damaged to read"),
+    # Cut inside a binary value (struct.error) and inside the header (IndexError) on the first reading.
+    "binary-dxf-cut-in-a-value": (lambda: _binary(panel_doc())[:36], ("analyze", "check", "convert"), None),
+    "binary-dxf-cut-in-header": (lambda: _binary(panel_doc())[:52], ("analyze", "check", "convert"), None),
     "ascii-cut-in-header": (lambda: _ascii(panel_doc())[:130].encode(), ("analyze", "check", "convert"), None),
     "nan-radius": (_with_nan_circle, ("analyze", "check", "convert"), "not a finite number"),
     "nameless-insert": (_with_nameless_insert, ("analyze", "check"), None),
     "vertex-without-location": (_with_vertex_without_location, ("analyze", "check"), "cannot be read"),
     "unknown-record": (_with_unknown_record, ("analyze", "check"), None),
+    "huge-coordinate": (_with_huge_line, ("analyze", "check", "convert"), "not a finite number"),
+    "empty-model-space": (_empty, ("analyze", "check", "convert"), "empty"),
 }
 
 

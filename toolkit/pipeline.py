@@ -150,7 +150,9 @@ def optimize_panel(
     openings = shapely.union_all([o.shape for o in panel.openings]) if panel.openings else None
     freeform = tuple(freeform_voids(problem.grid, beso.densities, exclude=openings))
     energy = (solid.grid, strain_energy_density(solid, panel))
-    rationalised = rationalise(panel, list(freeform), job.voids, rules, energy=energy)
+    # The voids follow [optimize] symmetry unless [voids] symmetric says otherwise, however the Job was built.
+    void_options = dataclasses.replace(job.voids, optimize_symmetry=job.optimize.symmetry)
+    rationalised = rationalise(panel, list(freeform), void_options, rules, energy=energy)
     final = analyze(with_voids(panel, rationalised.voids), grid=solid.grid)
     freeform_analysis = analyze(with_freeform(panel, freeform, solid.grid), grid=solid.grid)
     warnings = []
