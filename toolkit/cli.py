@@ -28,7 +28,7 @@ class _Lacuna(click.Group):
         except LacunaError as error:
             if debug:
                 traceback.print_exc()
-            click.echo(f"lacuna: {error}", err=True)
+            click.echo(f"lacuna: {one_paragraph(str(error))}", err=True)
             ctx.exit(EXIT_BAD_INPUT)
         except (click.exceptions.Exit, click.ClickException, click.Abort, KeyboardInterrupt):
             raise
@@ -40,11 +40,20 @@ class _Lacuna(click.Group):
             if debug:
                 traceback.print_exc()
             click.echo(
-                f"lacuna: internal error ({type(error).__name__}: {error}). This is a fault in lacuna, not in your "
-                "input; run again with --debug and report the traceback.",
+                f"lacuna: internal error ({type(error).__name__}: {one_paragraph(str(error))}). This is a fault in "
+                "lacuna, not in your input; run again with --debug and report the traceback.",
                 err=True,
             )
             ctx.exit(EXIT_INTERNAL)
+
+
+def one_paragraph(text: str) -> str:
+    """``text`` as one printable line: line breaks become spaces, other control characters their escapes.
+
+    Messages quote names and values from the files they are about; a damaged file's control characters (a
+    form feed, an escape sequence) would otherwise break the paragraph or reach the terminal.
+    """
+    return "".join(c if c.isprintable() else " " if c in "\n\r\t" else repr(c)[1:-1] for c in text)
 
 
 def _emit(summary: dict, as_json: bool, lines: list[str]) -> None:
@@ -52,7 +61,7 @@ def _emit(summary: dict, as_json: bool, lines: list[str]) -> None:
         click.echo(json.dumps(summary, indent=2, allow_nan=False))
     else:
         for line in lines:
-            click.echo(line)
+            click.echo(one_paragraph(line))  # warnings quote the drawing, damaged bytes and all
 
 
 _out_option = click.option(
@@ -204,7 +213,7 @@ Examples:
 @_force_option
 def convert(source: Path, target: Path, layers: str | None, units: str | None, force: bool) -> None:
     for line in api.convert_file(source, target, layers=layers, units=units, force=force):
-        click.echo(line)
+        click.echo(one_paragraph(line))
 
 
 @main.command(help=f"""Run the whole job on the bundled demo panel (a glulam loft lintel over a barn door): the

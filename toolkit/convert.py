@@ -867,8 +867,17 @@ _HEADER_SIZES = ("$LTSCALE", "$TEXTSIZE", "$DIMSCALE")
 def _scale_document(doc: DxfDocument, factor: float, where: str, notes: list[str]) -> None:
     from ezdxf import transform
 
-    msp = doc.modelspace()
-    log = transform.inplace(msp, Matrix44.scale(factor, factor, factor))
+    m = Matrix44.scale(factor, factor, factor)
+    log = []
+    for entity in list(doc.modelspace()):  # one at a time, so a damaged entity is named
+        try:
+            log += list(transform.inplace([entity], m))
+        except ENTITY_DATA_ERRORS as error:
+            handle = entity.dxf.get("handle", "?")
+            raise LacunaError(
+                f"the {entity.dxftype()} {handle} cannot be scaled: its data is incomplete or damaged ({error}).",
+                where=f"{where}, entity {handle}", hint="Redraw or delete it in the drafting program and convert again.",
+            ) from None
     for entry in log:
         entity = getattr(entry, "entity", None)
         handle = entity.dxf.handle if entity is not None else "?"

@@ -259,7 +259,21 @@ def nearest_aci(rgb: tuple[int, int, int]) -> int:
     return int(np.argmin(((table - target) ** 2).sum(axis=1))) + 1
 
 
+def _ensure_plot_style(doc: DxfDocument) -> None:
+    """Give a damaged drawing back the plot style "Normal" that ezdxf ties every new layer to (DXF R2000+)."""
+    if doc.dxfversion <= const.DXF12:
+        return
+    root = doc.rootdict
+    names = root.get("ACAD_PLOTSTYLENAME")
+    if names is None:
+        names = doc.objects.add_dictionary_with_default(owner=root.dxf.handle, hard_owned=False)
+        root["ACAD_PLOTSTYLENAME"] = names
+    if "Normal" not in names:
+        names["Normal"] = doc.objects.add_placeholder(owner=names.dxf.handle)
+
+
 def _ensure_layers(doc: DxfDocument, frame: Frame) -> list[str]:
+    _ensure_plot_style(doc)  # a file read in recovery mode may have lost it: no layer could be added then
     if DASHED not in doc.linetypes:
         dash, gap = DASH_MM / frame.mm_per_unit, GAP_MM / frame.mm_per_unit
         doc.linetypes.add(DASHED, pattern=[dash + gap, dash, -gap], description="lacuna dashed __ __ __")

@@ -54,7 +54,9 @@ def _umask() -> int:
 
 def write_atomic(path: Path, data: bytes | str) -> None:
     """Write ``data`` to ``path`` through a temporary file in the same folder and an atomic rename."""
-    payload = data.encode("utf-8") if isinstance(data, str) else data
+    # A damaged drawing's undecodable bytes reach messages as lone surrogates, which UTF-8 cannot hold: they are
+    # written as escapes (\udc8c) rather than lose the whole file.
+    payload = data.encode("utf-8", errors="backslashreplace") if isinstance(data, str) else data
     path.parent.mkdir(parents=True, exist_ok=True)
     tmp = None
     try:

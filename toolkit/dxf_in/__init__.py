@@ -25,7 +25,7 @@ from .outline import ANGLE_TOL_DEG, rectangle
 from .pieces import ANNOTATION, ENTITY_DATA_ERRORS, Piece, pieces_from
 from .reading import Reading
 from .regions import regions
-from .source import Item, drawing_unit, model_items, open_document
+from .source import RECOVERED, Item, drawing_unit, model_items, open_document
 
 __all__ = ["read_drawing", "read_document", "marker_xdata", "XDATA_APPID", "DEFAULT_CASE", "ANGLE_TOL_DEG"]
 
@@ -64,6 +64,13 @@ def _read(doc, layers: Layers, path: str, join_mm: float, chord_mm: float, warni
         # Nothing on the panel's layers: walk everything once more to tell an empty drawing from a misnamed layer.
         items = model_items(doc, markers, path, [])
     if not items:
+        if any(RECOVERED in w for w in warnings):  # a truncated file: nothing of its model space was saved
+            raise LacunaError(
+                f"the drawing is empty: its model space holds no entities ({RECOVERED}; nothing of its model "
+                "space could be saved).",
+                where=path,
+                hint="Open the drawing in the drafting program it came from and save it again as DXF.",
+            )
         raise LacunaError(
             "the drawing is empty: its model space holds no entities.",
             where=path,
@@ -188,10 +195,10 @@ def _loops(items: list[Item], layer: str, what: str, r: Reading) -> list[Piece]:
         gap = float(np.hypot(*(a - b))) * r.mm_per_unit
         kinds = sorted(set(chain.kinds))
         raise LacunaError(
-            f"an open {'/'.join(kinds)} ({chain.label}) cannot be a {what}: its ends {r.fmt(a)} and {r.fmt(b)} "
+            f"an open {'/'.join(kinds)} ({chain.label}) cannot be {_a(what)}: its ends {r.fmt(a)} and {r.fmt(b)} "
             f"are {gap:.4g} mm apart (the join tolerance is {r.join_mm:g} mm).",
             where=r.where(layer, [chain.label]),
-            hint=f"Close the shape, or move the entity to another layer if it is not a {what}.",
+            hint=f"Close the shape, or move the entity to another layer if it is not {_a(what)}.",
         )
     return [loop for loop in joined.loops if len(loop.points) >= 2]
 
@@ -206,6 +213,10 @@ def _report_healing(joined, layer: str, what: str, r: Reading) -> None:
         r.warnings.append(
             f"{r.where(layer, sorted(set(joined.merged)))}: pieces drawn on top of each other were merged."
         )
+
+
+def _a(noun: str) -> str:
+    return f"{'an' if noun[:1] in 'aeiou' else 'a'} {noun}"
 
 
 def _count(n: int) -> str:

@@ -22,7 +22,7 @@ from shapely.geometry import Point
 
 from ..errors import LacunaError
 from ..model import PointLoad, Support
-from .pieces import ANNOTATION
+from .pieces import ANNOTATION, FARTHEST
 from .reading import Reading
 
 XDATA_APPID = "LACUNA"
@@ -56,13 +56,13 @@ def supports(items, layer: str, width: float, height: float, openings, r: Readin
         kind, e = item.kind, item.entity
         label = f"{kind} {item.handle}"
         if kind == "POINT":
-            geom = _rel([e.dxf.location], r)
+            geom = _rel([e.dxf.location], r, item)
         elif kind == "LINE":
-            geom = _rel([e.dxf.start, e.dxf.end], r)
+            geom = _rel([e.dxf.start, e.dxf.end], r, item)
         elif kind == "INSERT":
-            geom = _rel([e.ocs().to_wcs(e.dxf.insert)], r)
+            geom = _rel([e.ocs().to_wcs(e.dxf.insert)], r, item)
         elif kind in ("TEXT", "MTEXT"):
-            texts.append((item, _text_position(e, r), _plain(e)))
+            texts.append((item, _text_position(item, r), _plain(e)))
             continue
         else:
             _not_a_marker(item, r, "a POINT or a LINE on the outline (with an optional TEXT giving the fixity)")
@@ -129,9 +129,9 @@ def loads(items, layer: str, width: float, height: float, openings, r: Reading) 
     for item in items:
         kind, e = item.kind, item.entity
         if kind == "LINE":
-            lines.append((item, _rel([e.dxf.start, e.dxf.end], r)))
+            lines.append((item, _rel([e.dxf.start, e.dxf.end], r, item)))
         elif kind in ("TEXT", "MTEXT"):
-            texts.append((item, _text_position(e, r), _plain(e)))
+            texts.append((item, _text_position(item, r), _plain(e)))
         else:
             _not_a_marker(item, r, "a LINE from the point of application along the force, with a TEXT in kN")
 
@@ -310,17 +310,27 @@ def _distance_to(p: np.ndarray, geom: np.ndarray) -> float:
     return float(np.hypot(*(p - a - t * d)))
 
 
-def _text_position(e, r: Reading) -> np.ndarray:
+def _text_position(item, r: Reading) -> np.ndarray:
+    e = item.entity
     if e.dxftype() == "MTEXT":
-        return _rel([e.dxf.insert], r)[0]
+        return _rel([e.dxf.insert], r, item)[0]
     aligned = e.dxf.get("halign", 0) or e.dxf.get("valign", 0)
     point = e.dxf.align_point if aligned and e.dxf.hasattr("align_point") else e.dxf.insert
-    return _rel([e.ocs().to_wcs(point)], r)[0]
+    return _rel([e.ocs().to_wcs(point)], r, item)[0]
 
 
 def _plain(e) -> str:
     return e.plain_text().strip()
 
 
-def _rel(points, r: Reading) -> np.ndarray:
-    return np.array([(p[0], p[1]) for p in points], dtype=float) - r.ref
+def _rel(points, r: Reading, item) -> np.ndarray:
+    rel = np.array([(p[0], p[1]) for p in points], dtype=float) - r.ref
+    if not (np.abs(rel) <= FARTHEST).all():  # NaN fails too: a damaged file's "nan" or "inf"
+        label = f"{item.kind} {item.handle}"
+        raise LacunaError(
+            f"{label} has a coordinate that is not a finite number, or lies more than {FARTHEST:.0e} drawing "
+            "units from the panel.",
+            where=r.where(item.layer, [label]),
+            hint="Redraw the marker, or delete it.",
+        )
+    return rel

@@ -44,7 +44,8 @@ def regions(loops: list[Piece], layer: str, what: str, width: float, height: flo
                 f"the {what} drawn by {'; '.join(labels)} lies wholly outside the panel "
                 f"(its centre is at {r.fmt_local(poly.centroid.coords[0])}).",
                 where=r.where(layer, labels),
-                hint=f"Move it inside the outline, or put it on another layer if it is not a {what}.",
+                hint=f"Move it inside the outline, or put it on another layer if it is not "
+                f"{'an' if what[:1] in 'aeiou' else 'a'} {what}.",
             )
         if not grown.contains(poly):
             crossing = shapely.intersection(poly.boundary, envelope.boundary)

@@ -21,10 +21,15 @@ from ..units import INSUNITS_TO_UNIT, UNIT_TO_INSUNITS
 
 # What ezdxf's readers raise on damaged bytes besides their own DXFError: a tag stream that ends early
 # (StopIteration, IndexError), a truncated binary record (struct.error), a value of the wrong kind
-# (ValueError), an unknown binary group code (KeyError), text that is not in the file's encoding
-# (UnicodeDecodeError). Found by fuzzing (tests/test_fuzz.py).
-DAMAGED_FILE_ERRORS = (DXFError, UnicodeDecodeError, ValueError, IndexError, KeyError, StopIteration,
-                       struct.error)
+# (ValueError; TypeError, e.g. a header whose $ACADVER lost its value), an unknown binary group code
+# (KeyError), an object left half-built (AttributeError: a LAYOUT without its attributes), text that is not in
+# the file's encoding (UnicodeDecodeError). Only ezdxf's code runs inside these calls. Found by fuzzing
+# (tests/test_fuzz.py).
+DAMAGED_FILE_ERRORS = (DXFError, UnicodeDecodeError, ValueError, TypeError, IndexError, KeyError, AttributeError,
+                       StopIteration, struct.error)
+
+# The warning that says a file was read by ezdxf's recover module (the reader's errors look for it).
+RECOVERED = "the file was damaged and has been read in recovery mode"
 
 # Block references nested deeper than this are almost surely a reference cycle in a damaged file.
 MAX_BLOCK_DEPTH = 32
@@ -103,10 +108,19 @@ def open_document(path: str) -> tuple[DxfDocument, list[str]]:
             where=where,
             hint="Open it in the drafting program it came from and save it again as DXF.",
         ) from None
-    warnings = [f"{where}: the file was damaged and has been read in recovery mode."]
-    warnings += [f"{where}: repaired: {fix.message}" for fix in auditor.fixes]
-    warnings += [f"{where}: damage left as found: {err.message}" for err in auditor.errors]
+    warnings = [f"{where}: {RECOVERED}."]
+    warnings += _audit_lines(auditor.fixes, f"{where}: repaired")
+    warnings += _audit_lines(auditor.errors, f"{where}: damage left as found")
     return doc, warnings
+
+
+def _audit_lines(entries, lead: str) -> list[str]:
+    """One line per kind of audit entry: a file cut in its header gives hundreds of the same repair."""
+    by_code: dict[int, list[str]] = {}
+    for entry in entries:
+        by_code.setdefault(entry.code, []).append(entry.message)
+    return [f"{lead}: {messages[0]}" + (f" (and {len(messages) - 1} more like it)" if len(messages) > 1 else "")
+            for messages in by_code.values()]
 
 
 def _has_dxf_sections(path: str) -> bool:
