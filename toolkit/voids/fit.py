@@ -269,6 +269,16 @@ def fit_slot(target: Polygon, widths, *, allowed=None, source: int = 0) -> Draft
 # --- bores ------------------------------------------------------------------------------------------------
 
 
+def bore_room(target: Polygon, diameters, smallest_mm: float, tolerance_mm: float, allowed):
+    """The stock diameters usable (largest first) and the region bores may fill: the void grown by the
+    tolerance, within ``allowed``."""
+    stock = sorted({float(d) for d in diameters if d >= smallest_mm}, reverse=True)
+    region = shapely.buffer(target, tolerance_mm) if tolerance_mm > 0 else target
+    if allowed is not None:
+        region = overlay(shapely.intersection, region, allowed)
+    return stock, region
+
+
 def fit_bores(target: Polygon, diameters, *, allowed=None, min_web_mm: float = 0.0, tolerance_mm: float = 0.5,
               smallest_mm: float = 0.0, source: int = 0, max_bores: int = 64) -> list[Draft]:
     """Stock-size bores covering ``target`` greedily, largest first, ``min_web_mm`` apart, inside ``allowed``.
@@ -276,12 +286,9 @@ def fit_bores(target: Polygon, diameters, *, allowed=None, min_web_mm: float = 0
     A bore may stand out of the void by ``tolerance_mm`` (the freeform outline is only as exact as the grid it
     was contoured on); it never leaves ``allowed``. Diameters under ``smallest_mm`` are not used.
     """
-    stock = sorted({float(d) for d in diameters if d >= smallest_mm}, reverse=True)
+    stock, region = bore_room(target, diameters, smallest_mm, tolerance_mm, allowed)
     if not stock:
         return []
-    region = shapely.buffer(target, tolerance_mm) if tolerance_mm > 0 else target
-    if allowed is not None:
-        region = overlay(shapely.intersection, region, allowed)
     out: list[Draft] = []
     while len(out) < max_bores and not region.is_empty and region.area > 0.0:
         mic = shapely.maximum_inscribed_circle(region, 1e-3)

@@ -38,7 +38,7 @@ from shapely.geometry import LineString, Point, Polygon, box
 
 from ..errors import LacunaError
 from ..model import LineLoad, Panel, PointLoad
-from .fit import MIN_TURN, _objective, overlay
+from .fit import MIN_TURN, _objective, bore_room, overlay
 from .measure import second_moments
 from .outline import Draft
 
@@ -538,12 +538,9 @@ def symmetric_bores(target: Polygon, diameters, *, fixed, mirror: Mirror, allowe
     bore where the void's own centre is). The bore and its images under ``fixed`` are then taken out, grown by
     the web. Bores off the mid-lines are returned once: their images come from ``Mirror.images``.
     """
-    stock = sorted({float(d) for d in diameters if d >= smallest_mm}, reverse=True)
+    stock, region = bore_room(target, diameters, smallest_mm, tolerance_mm, allowed)
     if not stock:
         return []
-    region = shapely.buffer(target, tolerance_mm) if tolerance_mm > 0 else target
-    if allowed is not None:
-        region = overlay(shapely.intersection, region, allowed)
     sub = Mirror(axes=tuple(fixed), centre=mirror.centre)
     step = max(0.25, min(1.0, tolerance_mm))
     out: list[Draft] = []
