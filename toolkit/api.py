@@ -62,9 +62,10 @@ def _optimize_lines(s: dict) -> list[str]:
     lines.append(f"  {'':22s}{'solid':>14s}{'freeform':>14s}{'to make':>14s}")
     lines.append(f"  {'compliance, N mm':22s}{s['compliance_solid_Nmm']:14.6g}{s['compliance_freeform_Nmm']:14.6g}"
                  f"{s['compliance_rationalized_Nmm']:14.6g}")
-    lines.append(f"  {'largest deflection, mm':22s}{sol['max_deflection_mm']:14.4g}{'':14s}"
-                 f"{s['max_deflection_rationalized_mm']:14.4g}")
-    lines.append(f"  {'material removed':22s}{'0 %':>14s}{'':14s}{s['mass_removed_percent']:12.1f} %")
+    lines.append(f"  {'largest deflection, mm':22s}{sol['max_deflection_mm']:14.4g}"
+                 f"{s['max_deflection_freeform_mm']:14.4g}{s['max_deflection_rationalized_mm']:14.4g}")
+    lines.append(f"  {'material removed':22s}{'0 %':>14s}{s['mass_removed_freeform_percent']:12.1f} %"
+                 f"{s['mass_removed_percent']:12.1f} %")
     lines.append(f"  {len(s['voids'])} voids; rules {s['rules']['profile']}: "
                  f"{len(s['rules']['violations'])} violations")
     return lines
