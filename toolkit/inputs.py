@@ -85,25 +85,9 @@ def _assemble(drawing: Drawing, job: Job, *, need_material: bool = True) -> tupl
             hint="Add thickness = <out-of-plane thickness> under [panel] in the job file.",
         )
 
-    if job.supports:
-        supports = tuple(_support_to_local(s, frame) for s in job.supports)
-        if drawing.supports:
-            notes.append(
-                f"{len(drawing.supports)} support marker(s) on the drawing were overridden by the "
-                f"{len(job.supports)} [[support]] table(s) of {job_name}."
-            )
-    else:
-        supports = tuple(drawing.supports)
-
-    if job.loads:
-        loads = tuple(_load_to_local(item, frame) for item in job.loads)
-        if drawing.loads:
-            notes.append(
-                f"{len(drawing.loads)} load marker(s) on the drawing were overridden by the "
-                f"{len(job.loads)} [[load]] table(s) of {job_name}."
-            )
-    else:
-        loads = tuple(drawing.loads)
+    supports = _job_wins("support", job.supports, drawing.supports, lambda s: _support_to_local(s, frame),
+                         job_name, notes)
+    loads = _job_wins("load", job.loads, drawing.loads, lambda item: _load_to_local(item, frame), job_name, notes)
 
     notes += _case_notes(loads, job.case_weights, job_name)
 
@@ -124,6 +108,16 @@ def _assemble(drawing: Drawing, job: Job, *, need_material: bool = True) -> tupl
         source=drawing.path,
     )
     return panel, notes
+
+
+def _job_wins(kind: str, from_job, from_drawing, to_local, job_name: str, notes: list[str]) -> tuple:
+    """The job's items of ``kind`` (mapped to the local frame) if it has any, else the drawing's markers."""
+    if not from_job:
+        return tuple(from_drawing)
+    if from_drawing:
+        notes.append(f"{len(from_drawing)} {kind} marker(s) on the drawing were overridden by the "
+                     f"{len(from_job)} [[{kind}]] table(s) of {job_name}.")
+    return tuple(to_local(item) for item in from_job)
 
 
 def _points_to_local(points_mm, frame: Frame) -> tuple[tuple[float, float], ...]:
