@@ -48,8 +48,7 @@ volume_fraction = 0.6
 filter_radius = 150
 max_iterations = 40
 [voids]
-family = "polygon"
-sides = 6
+family = "bore"
 [rules]
 profile = "timber-bored"
 """

@@ -66,8 +66,12 @@ def _optimize_lines(s: dict) -> list[str]:
                  f"{s['max_deflection_freeform_mm']:14.4g}{s['max_deflection_rationalized_mm']:14.4g}")
     lines.append(f"  {'material removed':22s}{'0 %':>14s}{s['mass_removed_freeform_percent']:12.1f} %"
                  f"{s['mass_removed_percent']:12.1f} %")
+    if s.get("capture_percent") is not None:
+        lines.append(f"  {'kept of the saving':22s}{'':14s}{'':14s}{s['capture_percent']:12.1f} %")
     lines.append(f"  {len(s['voids'])} voids; rules {s['rules']['profile']}: "
                  f"{len(s['rules']['violations'])} violations")
+    if s.get("limit"):
+        lines.append(f"  limit: {s['limit']}")
     return lines
 
 
@@ -163,17 +167,47 @@ def analyze_file(dxf_path, job_path=None, *, out_dir=None, force: bool = False) 
 
 
 def _void_json(panel: Panel, void) -> dict:
+    """One schedule line: what a shop needs to make the void, in the drawing's frame and unit. An n-gon carries
+    its corners (the sharp ones, before easing) and whether it is regular; a slot the centres of its two end
+    arcs and its width; a bore its diameter."""
     f = panel.frame
-    return {
+    out = {
         "id": void.id,
         "family": void.family,
         "centre": _drawing_xy(panel, void.centre),
         "sides": void.sides,
         "size": f.length_to_drawing(void.size_mm),
         "length": f.length_to_drawing(void.length_mm),
-        "angle_deg": (void.angle_deg + f.angle_deg) % 360.0,
+        "angle_deg": (void.angle_deg + f.angle_deg) % (360.0 / void.sides if void.regular else 360.0),
         "area": void.area_mm2 / f.mm_per_unit**2,
         "tool": void.tool,
+    }
+    if void.family == "polygon":
+        out["regular"] = bool(void.regular)
+        out["corners"] = [_drawing_xy(panel, c) for c in void.corners]
+    elif void.family == "slot":
+        a = np.radians(void.angle_deg)
+        half = (void.length_mm - void.size_mm) / 2.0 * np.array([np.cos(a), np.sin(a)])
+        c = np.asarray(void.centre, dtype=float)
+        out["ends"] = [_drawing_xy(panel, c - half), _drawing_xy(panel, c + half)]
+        out["width"] = f.length_to_drawing(void.size_mm)
+    else:
+        out["diameter"] = f.length_to_drawing(void.size_mm)
+    return out
+
+
+def _shape_json(run: OptimizeRun) -> dict | None:
+    """The made layout before and after the shape optimisation (its own analyses: voided elements at a trace of
+    stiffness, loads of the solid panel), or None when it did not run."""
+    shape = run.rationalised.shape
+    if shape is None:
+        return None
+    solid = float(run.panel.solid.area)
+    names = ("first_fit", "same_mass", "grown")
+    return {
+        **{f"compliance_{n}_Nmm": float(c) for n, c in zip(names, shape.compliance_Nmm)},
+        **{f"removed_{n}_percent": 100.0 * float(a) / solid for n, a in zip(names, shape.area_mm2)},
+        "analyses": int(shape.analyses),
     }
 
 
@@ -214,6 +248,9 @@ def optimize_summary(run: OptimizeRun, drawing: Drawing | None) -> dict:
         "max_von_mises_rationalized_MPa": run.final.max_von_mises_MPa,
         "mass_removed_percent": run.mass_removed_percent,
         "mass_removed_kg": run.mass_removed_kg,
+        "capture_percent": run.capture_percent,
+        "limit": run.limit,
+        "shape_optimisation": _shape_json(run),
         "freeform_voids": len(run.freeform),
         "voids": [_void_json(panel, v) for v in run.voids],
         "rules": {
@@ -248,11 +285,14 @@ def schedule_csv(run: OptimizeRun) -> str:
     w = csv.writer(buf, lineterminator="\n")
     unit = run.panel.frame.unit
     w.writerow(["id", "family", f"centre_x_{unit}", f"centre_y_{unit}", "sides", f"size_{unit}",
-                f"length_{unit}", "angle_deg", f"area_{unit}2", "tool"])
+                f"length_{unit}", "angle_deg", f"area_{unit}2", "tool", "regular", f"points_{unit}"])
     for v in (_void_json(run.panel, v) for v in run.voids):
+        # The points a shop sets out from: an n-gon's corners, a slot's two arc centres; a bore needs its centre.
+        points = v.get("corners") or v.get("ends") or []
         w.writerow([v["id"], v["family"], f"{v['centre'][0]:.3f}", f"{v['centre'][1]:.3f}", v["sides"],
                     f"{v['size']:.3f}", f"{v['length']:.3f}", f"{v['angle_deg']:.2f}", f"{v['area']:.2f}",
-                    v["tool"]])
+                    v["tool"], {True: "yes", False: "no"}.get(v.get("regular"), ""),
+                    "; ".join(f"{x:.3f} {y:.3f}" for x, y in points)])
     return buf.getvalue()
 
 

@@ -59,6 +59,9 @@ class VoidOptions:
     # setting into ``optimize_symmetry`` so the voids stage needs nothing but these options (docs/voids.md).
     symmetric: bool | None = None
     optimize_symmetry: str = "none"
+    # n-gons: True makes every one regular (equal sides and angles, a stock former or template); False lets each
+    # take the irregular convex shape that fills its freeform void best, scheduled by its corners.
+    regular: bool = False
 
 
 @dataclass(frozen=True)
@@ -67,6 +70,7 @@ class RuleOptions:
 
     profile: str | None = None
     min_web_mm: float | None = None
+    web_ratio: float | None = None  # a web at least this times the larger void's size (0: none)
     edge_cover_mm: float | None = None
     min_void_mm: float | None = None
     bearing_clearance_mm: float | None = None
@@ -122,8 +126,8 @@ TABLE_KEYS: dict[str, tuple[str, ...]] = {
         "convergence_tolerance",
     ),
     "voids": ("family", "sides", "bore_diameters", "max_types", "snap", "corner", "corner_size", "slot_widths",
-              "symmetric"),
-    "rules": ("profile", "min_web", "edge_cover", "min_void", "bearing_clearance"),
+              "symmetric", "regular"),
+    "rules": ("profile", "min_web", "edge_cover", "min_void", "bearing_clearance", "web_ratio"),
 }
 TOP_KEYS: tuple[str, ...] = ("units", "panel", "material", "layers", "support", "load", "cases", "optimize",
                              "voids", "rules")
@@ -560,6 +564,7 @@ class _Reader:
             slot_widths_mm=self.lengths(t["slot_widths"], w("slot_widths"), "slot_widths")
             if "slot_widths" in t else d.slot_widths_mm,
             symmetric=self.boolean(t["symmetric"], w("symmetric")) if "symmetric" in t else d.symmetric,
+            regular=self.boolean(t["regular"], w("regular")) if "regular" in t else d.regular,
         )
 
     def read_rules(self, t: dict) -> RuleOptions:
@@ -571,4 +576,7 @@ class _Reader:
                                                    hint=f"A length in {self.units}, 0 or more.")
         profile = self.text(t["profile"], w("profile"), hint="Write the profile name in double quotes; "
                             "`lacuna profiles` lists them.") if "profile" in t else None
-        return RuleOptions(profile=profile, **lengths)
+        ratio = self.number(t["web_ratio"], w("web_ratio"), low=0.0,
+                            hint="A ratio of 0 or more, e.g. 0.5 for a web half the larger void's size."
+                            ) if "web_ratio" in t else None
+        return RuleOptions(profile=profile, web_ratio=ratio, **lengths)

@@ -257,6 +257,8 @@ class Rules:
     web_ratio: float = 0.0
     min_void_per_thickness: float = 0.0
     depth_band: float | None = None
+    # Shortest side of a made n-gon (0: the fitting's own default from the corner easing, see voids.layout).
+    least_feature_mm: float = 0.0
     sources: tuple[tuple[str, str], ...] = ()
 
     def source(self, rule: str) -> str:
@@ -278,7 +280,8 @@ class Void:
     id: str
     family: str                      # "polygon", "slot" or "bore"
     centre: Point
-    size_mm: float                   # bore: diameter; slot: width; polygon: circumscribed diameter
+    size_mm: float                   # bore: diameter; slot: width; polygon: diameter of the smallest circle
+                                     # round its corners (a regular n-gon: across corners)
     shape: Polygon
     outline: tuple[Vertex, ...] = ()
     sides: int = 0                   # polygon vertex count; 0 for slots and bores
@@ -287,6 +290,8 @@ class Void:
     tool: str = ""                   # the bit, cutter or former that makes it, e.g. "bore 50 mm"
     handle: str | None = None        # drawing entity, when read from a drawing
     layer: str = ""
+    corners: tuple[Point, ...] = ()  # polygon: the sharp corners before any easing, counter-clockwise
+    regular: bool = False            # polygon: equal sides and equal angles
 
     @property
     def area_mm2(self) -> float:

@@ -7,7 +7,8 @@ No files here: :func:`optimize_panel` takes model values and returns every figur
 from __future__ import annotations
 
 import dataclasses
-from dataclasses import dataclass
+import time
+from dataclasses import dataclass, field
 from typing import Callable
 
 import numpy as np
@@ -42,6 +43,14 @@ class OptimizeRun:
     final: Analysis                 # the panel with the voids to make cut exactly
     freeform_analysis: Analysis     # the panel with the freeform outlines cut exactly (like for like)
     warnings: tuple[str, ...] = ()
+    timings_s: dict = field(default_factory=dict)  # wall seconds of each stage, for benchmarks and reports
+    limit: str = ""  # the rule that stopped the made layout short, and what relaxing it would give
+
+    @property
+    def capture_percent(self) -> float | None:
+        """Material removed by the voids to make per material removed by the freeform layout, %."""
+        free = self.freeform_removed_percent
+        return 100.0 * self.mass_removed_percent / free if free > 1e-9 else None
 
     @property
     def voids(self) -> tuple[Void, ...]:
@@ -77,6 +86,7 @@ def job_rules(job: Job) -> Rules:
         "edge_cover": r.edge_cover_mm,
         "min_void": r.min_void_mm,
         "bearing_clearance": r.bearing_clearance_mm,
+        "web_ratio": r.web_ratio,
         "bore_diameters": v.bore_diameters_mm if job.is_set("voids.bore_diameters") else None,
         "slot_widths": v.slot_widths_mm,
         "corner": v.corner if job.is_set("voids.corner") else None,
@@ -134,27 +144,48 @@ def optimize_panel(
     """The whole job on ``panel`` with ``job``'s settings and rules."""
     rules = job_rules(job)
     settings = job.optimize
-    impossible_rules(panel, rules)  # before any work: "no void can be placed: ..." in plain words
+    # Before any work: "no void can be placed: ..." in plain words; else the region open to voids.
+    void_region = impossible_rules(panel, rules)
     # The optimiser needs more memory than the analysis: refuse a grid too fine for it before either runs.
     nx, ny = grid_shape(panel.width_mm, panel.height_mm, panel.element_size_mm)
     check_memory(nx, ny, panel.width_mm / nx, panel.height_mm / ny, stage="optimize", cases=len(panel.cases),
                  filter_radius_mm=settings.filter_radius_mm)
+    clock = [time.perf_counter()]
+    timings: dict[str, float] = {}
+
+    def lap(stage: str) -> None:
+        now = time.perf_counter()
+        timings[stage] = now - clock[0]
+        clock[0] = now
+
     solid = analyze(panel)
+    lap("analysis")
     zones = ZoneSettings(
         edge_cover_mm=rules.edge_cover_mm,
         bearing_clearance_mm=rules.bearing_clearance_mm,
         min_web_mm=rules.min_web_mm,
+        void_region=void_region,
     )
     problem = build_problem(panel, zones)
     beso = run_beso(problem, settings, on_iteration=on_iteration, keep_every=keep_every)
+    lap("optimisation")
     openings = shapely.union_all([o.shape for o in panel.openings]) if panel.openings else None
     freeform = tuple(freeform_voids(problem.grid, beso.densities, exclude=openings))
     energy = (solid.grid, strain_energy_density(solid, panel))
     # The voids follow [optimize] symmetry unless [voids] symmetric says otherwise, however the Job was built.
     void_options = dataclasses.replace(job.voids, optimize_symmetry=job.optimize.symmetry)
+    lap("freeform outlines")
     rationalised = rationalise(panel, list(freeform), void_options, rules, energy=energy)
+    lap("voids")
+    made = float(sum(v.area_mm2 for v in rationalised.voids))
+    free = float(sum(g.area for g in freeform))
+    limit = ""
+    if free > 0 and made < LIMIT_SHARE * free:
+        limit = limiting_rule(panel, list(freeform), void_options, rules, energy, made, free)
+    lap("limit")
     final = analyze(with_voids(panel, rationalised.voids), grid=solid.grid)
     freeform_analysis = analyze(with_freeform(panel, freeform, solid.grid), grid=solid.grid)
+    lap("re-analysis")
     warnings = []
     if not beso.converged:
         warnings.append(
@@ -166,4 +197,42 @@ def optimize_panel(
     return OptimizeRun(
         panel=panel, rules=rules, settings=settings, solid=solid, beso=beso, freeform=freeform,
         rationalised=rationalised, final=final, freeform_analysis=freeform_analysis, warnings=tuple(warnings),
+        timings_s=timings, limit=limit,
     )
+
+
+# Below this share of the freeform layout's removed area the report names the rule that held the layout back.
+LIMIT_SHARE = 0.8
+
+
+def limiting_rule(panel: Panel, freeform, void_options, rules: Rules, energy, made_mm2: float,
+                  free_mm2: float) -> str:
+    """Which spacing rule held the made layout short of the freeform one, in words with the figure relaxing it
+    would give: the layout is fitted again (first fit, no shape optimisation: a lower bound) with the web ratio
+    halved, and with the minimum web halved; the larger gain is named."""
+    trials = []
+    if rules.web_ratio:
+        trials.append(("web_ratio", dataclasses.replace(rules, web_ratio=rules.web_ratio / 2.0),
+                       f"the web ratio ({rules.web_ratio:g} x the larger void's size)",
+                       f"a web ratio of {rules.web_ratio / 2.0:g}"))
+    if rules.min_web_mm > 0:
+        trials.append(("min_web", dataclasses.replace(rules, min_web_mm=rules.min_web_mm / 2.0),
+                       f"the minimum web ({rules.min_web_mm:g} mm)",
+                       f"a minimum web of {rules.min_web_mm / 2.0:g} mm"))
+    best = None
+    for key, relaxed, name, change in trials:
+        got = rationalise(panel, freeform, void_options, relaxed, energy=energy, shape_steps=0)
+        area = float(sum(v.area_mm2 for v in got.voids))
+        if best is None or area > best[0]:
+            best = (area, key, name, change)
+    solid = float(panel.solid.area)
+    share = 100.0 * made_mm2 / free_mm2
+    if best is None or best[0] <= made_mm2 * 1.02:
+        return (f"the voids to make keep {share:.0f} % of the freeform saving; neither a smaller web nor a smaller "
+                "web ratio would keep much more: the freeform voids are too slender or too close to the edge zones "
+                "for voids of the stock sizes and the least feature.")
+    area, key, name, change = best
+    return (f"{name} held the voids to make to {100 * made_mm2 / solid:.1f} % of the panel ({share:.0f} % of the "
+            f"freeform saving of {100 * free_mm2 / solid:.1f} %); with {change} the panel could lose at least "
+            f"{100 * area / solid:.1f} % ([rules] {key}; the profile's value has its source, check it before "
+            "changing it).")

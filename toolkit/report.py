@@ -11,6 +11,30 @@ def _num(value, digits: int = 4) -> str:
     return f"{value:.{digits}g}"
 
 
+def _limit_and_shape(s: dict) -> list[str]:
+    """What held the layout back, and the shape optimisation's before and after."""
+    out = []
+    if s.get("limit"):
+        out += [f"**What held the layout back.** {s['limit']}", ""]
+    shape = s.get("shape_optimisation")
+    if shape:
+        out += [
+            "**Shape optimisation of the voids to make** (its own analyses: emptied elements at a trace of stiffness, "
+            "the solid panel's loads):",
+            "",
+            "| | first fit | same material, moved | grown |",
+            "|---|---:|---:|---:|",
+            f"| compliance, N mm | {_num(shape['compliance_first_fit_Nmm'], 6)} | "
+            f"{_num(shape['compliance_same_mass_Nmm'], 6)} | {_num(shape['compliance_grown_Nmm'], 6)} |",
+            f"| material removed | {shape['removed_first_fit_percent']:.1f} % | "
+            f"{shape['removed_same_mass_percent']:.1f} % | {shape['removed_grown_percent']:.1f} % |",
+            "",
+            f"Every step held every fabrication rule; {shape['analyses']} analyses.",
+            "",
+        ]
+    return out
+
+
 def report_markdown(summary: dict, *, result_svg: str, convergence_svg: str, schedule_csv: str,
                     date: str) -> str:
     """The report for ``lacuna optimize``'s JSON ``summary``; figure and schedule names are relative links."""
@@ -39,6 +63,8 @@ def report_markdown(summary: dict, *, result_svg: str, convergence_svg: str, sch
         f"| material removed from the panel | 0 % | {s['mass_removed_freeform_percent']:.1f} % | "
         f"{s['mass_removed_percent']:.1f} %"
         + (f" ({s['mass_removed_kg']:.1f} kg)" if s.get("mass_removed_kg") is not None else "") + " |",
+        *([f"| kept of the freeform saving | | | {s['capture_percent']:.0f} % |"]
+          if s.get("capture_percent") is not None else []),
         "",
         f"Stiffness lost by the voids to make: compliance {s['stiffness_loss_percent']:+.1f} % against the solid "
         "panel. All three columns are analyses of drawn geometry with the openings cut exactly from one grid; the "
@@ -49,6 +75,7 @@ def report_markdown(summary: dict, *, result_svg: str, convergence_svg: str, sch
         f"({'converged' if s['converged'] else 'stopped at the iteration limit, NOT converged'}); the volume "
         f"target {s['volume_fraction_target']:g} is the {s['volume_fraction_basis']}.",
         "",
+        *_limit_and_shape(s),
         f"![Voids to make]({result_svg})",
         "",
         f"![Convergence]({convergence_svg})",

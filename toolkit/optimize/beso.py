@@ -187,6 +187,11 @@ def run_beso(
 
         v_next = next_volume(volume, settings.volume_fraction, settings.evolution_rate)
         n_next = n_final if v_next == settings.volume_fraction else v_next * n_design
+        n_now = np.count_nonzero(x[design_idx] >= 1.0)
+        if n_now != n_final and round(n_next) == n_now:
+            # A small design region: a 2 % step is less than half an element and the count would round back to
+            # where it is for ever; one element a step towards the target instead.
+            n_next = n_now + (1 if n_final > n_now else -1)
         solid_orbit = update_design(alpha_orbit, solid_orbit, orbit_size, n_next, n_admit)
         x[design_idx] = np.where(solid_orbit[orbit], 1.0, xmin)
 

@@ -128,11 +128,15 @@ class ZoneSettings:
     - ``edge_cover_mm``: solid band along the whole outline (keeps the straight edges).
     - ``bearing_clearance_mm``: solid radius around every support and point load.
     - ``min_web_mm``: solid band around every existing opening.
+    - ``void_region``: where the fabrication rules let a made void go (a shapely geometry, local mm), or None.
+      Elements sharing area with the rest of the panel stay solid: a freeform void where no made void may stand
+      (outside a profile's depth band, say) is a saving the layout could never keep.
     """
 
     edge_cover_mm: float = 0.0
     bearing_clearance_mm: float = 0.0
     min_web_mm: float = 0.0
+    void_region: object = None
 
     def __post_init__(self):
         for key, value in (

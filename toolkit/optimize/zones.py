@@ -30,10 +30,12 @@ class Zones:
     web: np.ndarray
     keep: np.ndarray
     opening: np.ndarray
+    rules: np.ndarray | None = None
 
     @property
     def passive(self) -> np.ndarray:
-        return self.edge | self.bearing | self.web | self.keep | self.opening
+        out = self.edge | self.bearing | self.web | self.keep | self.opening
+        return out if self.rules is None else out | self.rules
 
     @property
     def design(self) -> np.ndarray:
@@ -85,6 +87,8 @@ def non_design_zones(grid: Grid, panel: Panel, settings: ZoneSettings) -> Zones:
       load's segment passes through or runs along are added too, so no load ever acts on void.
     - ``web``: elements sharing area with each opening grown by ``min_web_mm``, less the opening elements.
     - ``keep``: elements sharing area with a KEEP region (the whole region stays solid).
+    - ``rules``: with ``settings.void_region``, elements sharing area with the envelope outside it (the profile's
+      depth band and every other rule that keeps voids away), opening elements excepted.
     - ``opening``: elements sharing area with an opening (intersects and not merely touches, so an element
       whose corner or edge only meets the opening is not one). They are passive with their drawn fraction.
     """
@@ -118,4 +122,11 @@ def non_design_zones(grid: Grid, panel: Panel, settings: ZoneSettings) -> Zones:
     for region in panel.keep:
         keep |= boxes.overlapping(region.shape)
 
-    return Zones(edge=edge, bearing=bearing, web=web, keep=keep, opening=opening)
+    rules = None
+    if settings.void_region is not None:
+        # Any shared area, as the other zones: a freeform void reaching past the region would count material in
+        # the freeform saving that no made void may take (on a coarse grid the region loses up to an element at
+        # each side: the optimiser is held to what the voids can use).
+        rules = boxes.overlapping(shapely.difference(envelope, settings.void_region)) & ~opening
+
+    return Zones(edge=edge, bearing=bearing, web=web, keep=keep, opening=opening, rules=rules)

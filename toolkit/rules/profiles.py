@@ -29,7 +29,9 @@ LENGTH_RULES = {
     "edge_cover": "material between any void and the panel outline",
     "min_void": "smallest void worth making: diameter of the largest circle inside it",
     "bearing_clearance": "solid radius around each support and point load",
+    "least_feature": "shortest side of a made n-gon: no two of its corners closer than this",
 }
+OPTIONAL_RULES = ("least_feature",)
 LIST_RULES = {
     "bore_diameters": "stock bore diameters",
     "slot_widths": "stock slot (cutter or former) widths",
@@ -39,7 +41,7 @@ RATIO_RULES = {
     "min_void_per_thickness": ("ratio", "void at least this many times the panel thickness"),
     "depth_band": ("fraction", "void material within this middle fraction of the panel's depth"),
 }
-REQUIRED_RULES = (*LENGTH_RULES, *LIST_RULES, "corner")
+REQUIRED_RULES = (*(k for k in LENGTH_RULES if k not in OPTIONAL_RULES), *LIST_RULES, "corner")
 CORNER_KINDS = ("none", "chamfer", "radius")
 MATERIAL_KEYS = ("name", "E_MPa", "nu", "density_kg_m3", "source")
 
@@ -140,7 +142,7 @@ def read_profile_file(path: Path | str) -> Profile:
         raise LacunaError("the profile has no description.", where=f"{where}, description",
                           hint='Add description = "..." saying what the profile is for.')
 
-    known = {*REQUIRED_RULES, *RATIO_RULES, "material", "name", "description"}
+    known = {*REQUIRED_RULES, *OPTIONAL_RULES, *RATIO_RULES, "material", "name", "description"}
     for key in data:
         if key not in known:
             near = difflib.get_close_matches(key, sorted(known), n=1, cutoff=0.6)
@@ -266,6 +268,7 @@ _RULES_FIELD = {
     "web_ratio": "web_ratio",
     "min_void_per_thickness": "min_void_per_thickness",
     "depth_band": "depth_band",
+    "least_feature": "least_feature_mm",
 }
 
 

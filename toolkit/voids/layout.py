@@ -31,7 +31,7 @@ Ids are "V1", "V2", ... in order of the final centres, left to right and, for eq
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from functools import lru_cache
 from typing import Callable
 
@@ -43,9 +43,13 @@ from ..errors import LacunaError
 from ..jobfile import VoidOptions
 from ..model import Panel, Rules, Void
 from ..rules import check as rule_check
-from .fit import fit_bores, fit_error, fit_polygon, fit_slot, overlay
+from .cover import _inscribed as cover_inscribed
+from .cover import (hex_cells, hull_ngon, inscribed_slot, largest_part, major_axis_deg, packed_bores,
+                    regular_corners, regular_ngon, split)
+from .fit import fit_error, fit_polygon, fit_slot, overlay
 from .measure import FreeformVoid, clean, inscribed_width
 from .outline import Draft
+from .shape import shape_ok
 from .standardise import snap_centres, standardise_sizes
 from .symmetry import (Mirror, fold, layout_mirror, split_centre, symmetric_bores, symmetric_polygon,
                        symmetric_slot)
@@ -57,6 +61,16 @@ SAFETY_MM = 0.05
 MIXED_MIN_SHARE = 0.5
 SHRINK_STEPS = tuple(1.0 - 0.05 * k for k in range(11))  # down to half size
 MOVE_RINGS = 4
+# The most voids one freeform void is split into along its length.
+MAX_PIECES = 4
+# The words a schedule uses for the tool that makes each family, by the trade of the profile: a timber panel's
+# voids are routed and bored, a steel plate's cut, a precast panel's cast round formers.
+TOOL_WORDS = {
+    "timber-bored": ("routed", "routed slot", "hole saw"),
+    "steel-cut": ("cut", "cut slot", "cut hole"),
+    "precast-formed": ("former", "slot former", "pipe former"),
+    "custom": ("cut", "slot", "bore"),
+}
 
 
 @dataclass(frozen=True)
@@ -76,6 +90,7 @@ class Rationalised:
     fit_errors: tuple[tuple[str, float], ...]
     violations: tuple
     notes: tuple[str, ...] = ()
+    shape: object = None  # shape.ShapeResult of the shape optimisation, when it ran
 
 
 @dataclass(frozen=True)
@@ -93,6 +108,13 @@ class Resolved:
     min_void_mm: float
     min_web_mm: float
     web_ratio: float = 0.0
+    least_feature_mm: float = 0.0
+    regular: bool = False
+    tools: tuple[str, str, str] = ("cut", "slot", "bore")
+
+    def web(self, a: float, b: float = 0.0) -> float:
+        """The web the rules ask between voids of extents ``a`` and ``b`` (with the margin kept to spare)."""
+        return max(self.min_web_mm, self.web_ratio * max(a, b)) + SAFETY_MM
 
 
 def resolve_settings(settings: VoidOptions, rules: Rules, thickness_mm: float = 0.0) -> Resolved:
@@ -145,10 +167,15 @@ def resolve_settings(settings: VoidOptions, rules: Rules, thickness_mm: float = 
     from ..rules.check import least_void_size
 
     least = least_void_size(rules, thickness_mm)
+    corner_mm = float(corner_mm or 0.0)
+    # Without a profile value, a side must at least hold the easing at both its ends with a little straight between.
+    feature = float(getattr(rules, "least_feature_mm", 0.0) or 0.0) or max(2.5 * corner_mm, 10.0)
     return Resolved(family=settings.family, sides=settings.sides, bore_diameters_mm=tuple(sorted(bores)),
                     slot_widths_mm=tuple(sorted(slots)), max_types=settings.max_types, snap_mm=settings.snap_mm,
-                    corner=corner, corner_mm=float(corner_mm or 0.0), min_void_mm=least,
-                    min_web_mm=rules.min_web_mm, web_ratio=float(rules.web_ratio or 0.0))
+                    corner=corner, corner_mm=corner_mm, min_void_mm=least,
+                    min_web_mm=rules.min_web_mm, web_ratio=float(rules.web_ratio or 0.0),
+                    least_feature_mm=feature, regular=bool(getattr(settings, "regular", False)),
+                    tools=TOOL_WORDS.get(rules.profile, TOOL_WORDS["custom"]))
 
 
 def _check_lengths(values, where: str, what: str, example: str) -> None:
@@ -171,7 +198,7 @@ class Site:
     """Where void material may go and how far apart voids stay: answers "may this void stand here?"."""
 
     def __init__(self, allowed, min_web_mm: float, move_step_mm: float, web_ratio: float = 0.0,
-                 least_mm: float = 0.0, openings=(), mirror: Mirror | None = None):
+                 least_mm: float = 0.0, openings=(), mirror: Mirror | None = None, feature_mm: float = 0.0):
         inner = shapely.buffer(allowed, -SAFETY_MM, quad_segs=4) if not allowed.is_empty else allowed
         shapely.prepare(inner)
         self.inner = inner
@@ -179,6 +206,7 @@ class Site:
         self.web = min_web_mm
         self.ratio = web_ratio
         self.least = least_mm
+        self.feature = feature_mm
         self.step = move_step_mm
         # The allowed region already keeps min_web from the openings; a web ratio also ties that web to the
         # larger of the void and the opening, which only a per-void test can say.
@@ -217,9 +245,10 @@ class Site:
         return out
 
     def big_enough(self, draft: Draft) -> bool:
-        """At least the least void size: a polygon's inscribed circle, a slot's width, a bore's diameter."""
+        """At least the least void size: a polygon's inscribed circle, a slot's width, a bore's diameter; and a
+        polygon still one the shop can make (sides of the least feature, corners neither flat nor sharp)."""
         if draft.family == "polygon":
-            return inscribed_width(_shape(draft)) >= self.least + SAFETY_MM
+            return inscribed_width(_shape(draft)) >= self.least + SAFETY_MM and shape_ok(draft, self.feature)
         return draft.size >= self.least - 1e-9
 
     def fits(self, trial: Draft, i: int, state: list[Draft], move: bool = True) -> Draft | None:
@@ -246,7 +275,9 @@ class Site:
         if not all(self.inside(g) for g in shapes):
             return ("it" + (" or a mirror image of it" if pair else "") + " reaches outside the area open to "
                     "voids (edge cover, webs to openings, bearing zones, KEEP zones)")
-        return (f"it comes closer than the minimum web {r.min_web_mm:g} mm to another void"
+        web = f"the minimum web {r.min_web_mm:g} mm" + (f" (or {r.web_ratio:g} x the larger one's size)"
+                                                          if r.web_ratio else "")
+        return (f"it comes closer than {web} to another void or an opening"
                 + (" or to its own mirror image" if pair else ""))
 
 
@@ -348,40 +379,314 @@ def mean_over(shape, sample, spacing: float | None) -> float:
 # --- fitting by family ------------------------------------------------------------------------------------
 
 
-def _fit(v: FreeformVoid, family: str, r: Resolved, allowed, tolerance: float, fixed: tuple[str, ...] = (),
-         mirror: Mirror | None = None) -> list[Draft]:
-    """Drafts for one freeform void; on mid-lines (``fixed``) made symmetric about them."""
+def _fit_fixed(v: FreeformVoid, family: str, r: Resolved, allowed, tolerance: float, fixed: tuple[str, ...],
+               mirror: Mirror) -> list[Draft]:
+    """Drafts for a seed standing on mid-lines (``fixed``), made symmetric about them (``symmetry``)."""
     if family == "polygon":
         d = fit_polygon(v.shape, r.sides, allowed=allowed, source=v.index, corner=r.corner, corner_mm=r.corner_mm)
-        if fixed:
-            d = symmetric_polygon(d, v.shape, fixed, mirror, allowed)
-        return [d] if d is not None else []
+        d = symmetric_polygon(d, v.shape, fixed, mirror, allowed)
+        return [_dressed(d, r)] if d is not None else []
     if family == "slot":
         widths = [w for w in r.slot_widths_mm if w >= r.min_void_mm]
         d = fit_slot(v.shape, widths, allowed=allowed, source=v.index) if widths else None
-        if d is not None and fixed:
+        if d is not None:
             d = symmetric_slot(d, v.shape, fixed, mirror, allowed)
-        return [d] if d is not None else []
-    if fixed:
-        return symmetric_bores(v.shape, r.bore_diameters_mm, fixed=fixed, mirror=mirror, allowed=allowed,
-                               min_web_mm=r.min_web_mm + SAFETY_MM, tolerance_mm=tolerance,
-                               smallest_mm=r.min_void_mm, source=v.index)
-    return fit_bores(v.shape, r.bore_diameters_mm, allowed=allowed, min_web_mm=r.min_web_mm + SAFETY_MM,
-                     tolerance_mm=tolerance, smallest_mm=r.min_void_mm, source=v.index)
+        return [_dressed(d, r)] if d is not None else []
+    return [_dressed(d, r) for d in symmetric_bores(
+        v.shape, r.bore_diameters_mm, fixed=fixed, mirror=mirror, allowed=allowed,
+        min_web_mm=r.min_web_mm + SAFETY_MM, tolerance_mm=tolerance, smallest_mm=r.min_void_mm, source=v.index)]
 
 
-def _choose(v: FreeformVoid, fits: dict[str, list[Draft]], sample, spacing) -> str | None:
-    """The family that removes the least-working material for the material removed (see module text)."""
-    removed = {f: shapely.union_all([_shape(d) for d in ds]) for f, ds in fits.items() if ds}
-    if not removed:
-        return None
-    largest = max(g.area for g in removed.values())
-    scores = {}
-    for f, g in removed.items():
-        if g.area < MIXED_MIN_SHARE * largest:
+def _dressed(d: Draft, r: Resolved) -> Draft:
+    return replace(d, tools=r.tools, corner=r.corner if d.family == "polygon" else d.corner,
+                   corner_mm=r.corner_mm if d.family == "polygon" else d.corner_mm)
+
+
+def _extent(shape) -> float:
+    return 2.0 * float(shapely.minimum_bounding_radius(shape))
+
+
+class Room:
+    """The room one freeform void gives its voids: the void within the region open to voids, less a margin from
+    every neighbouring freeform void so that the web the rules ask for fits between them.
+
+    Two neighbours a bar of width b apart, each needing a web W, each give up (W - b) / 2 of their own side: a
+    void of extent D keeps (web(D) + b) / 2 from a neighbour's outline. A void from the neighbour then lies
+    inside that outline, itself (web + b) / 2 back from ours, so the web holds for like sizes; the placing step
+    settles the rest.
+    """
+
+    def __init__(self, v: FreeformVoid, room, others: list, r: Resolved, tolerance: float, openings=()):
+        self.v, self.r = v, r
+        # Openings are fixed: a void keeps the whole web from them (the region open to voids already keeps the
+        # minimum web; a web ratio ties it to the larger of the two as well).
+        self.openings = [(o, _extent(o)) for o in openings] if r.web_ratio else []
+        self.region = largest_part(overlay(shapely.intersection, shapely.buffer(v.shape, tolerance), room)) \
+            if room is not None else v.shape
+        others = np.asarray(others, dtype=object)
+        if len(others):
+            gaps = shapely.distance(v.shape, others)
+            reach = r.web(_extent(v.shape)) if r.web_ratio else r.min_web_mm + SAFETY_MM
+            near = gaps < reach
+            self.others, self.gaps = others[near], gaps[near]
+        else:
+            self.others, self.gaps = others, np.zeros(0)
+
+    @classmethod
+    def bare(cls, region, r: Resolved, openings=()) -> Room:
+        """A room with no neighbours: ``region`` as it is."""
+        room = cls.__new__(cls)
+        room.v, room.r, room.region = None, r, region
+        room.others, room.gaps = np.zeros(0, dtype=object), np.zeros(0)
+        room.openings = [(o, _extent(o)) for o in openings] if r.web_ratio else []
+        return room
+
+    def within(self, part, extent: float):
+        """``part`` less the margins its neighbours ask for a void of ``extent``."""
+        if part is None or part.is_empty:
+            return None
+        web = self.r.web(extent)
+        close = self.gaps < web
+        margins = list(shapely.buffer(self.others[close], (web + self.gaps[close]) / 2.0, quad_segs=8)) \
+            if close.any() else []
+        margins += [shapely.buffer(o, self.r.web(extent, size), quad_segs=8) for o, size in self.openings]
+        if margins:
+            part = largest_part(overlay(shapely.difference, part, shapely.union_all(margins)))
+        return part if part is not None and part.area > 0.0 else None
+
+
+def _settled(room: Room, part, fit) -> tuple | None:
+    """``fit(space)`` -> (extent, area, result) in the room ``part`` leaves for a void of the size it finds.
+
+    The margin from the neighbours depends on the void's own size when the rules tie the web to it, and the size
+    on the margin: start from the part's extent, refit with the size found, and keep the largest fit whose size
+    is no more than the one its margin was made for (a few rounds reach it)."""
+    extent = _extent(part)
+    best = None
+    for _ in range(4 if room.r.web_ratio else 1):
+        space = room.within(part, extent)
+        got = fit(space) if space is not None else None
+        if got is None:
+            if best is not None:
+                break
+            extent *= 0.7
             continue
-        scores[f] = mean_over(g, sample, spacing) if sample is not None else fit_error(g, v.shape)
-    return min(scores, key=lambda f: (scores[f], FAMILIES.index(f)))
+        if got[0] <= extent + 1e-6 and (best is None or got[1] > best[1]):
+            best = got
+        if abs(got[0] - extent) <= 1e-3 * extent:
+            break
+        extent = got[0]
+    return best[2] if best is not None else None
+
+
+def _polygon_in(room: Room, part, r: Resolved, source: int, k: int) -> Draft | None:
+    """The largest n-gon in ``part`` that keeps its web to the neighbours."""
+
+    def fit(space):
+        if r.regular:
+            found = regular_ngon(space, r.sides, r.least_feature_mm)
+            if found is None:
+                return None
+            pts, centre = regular_corners(found[0], found[1], found[2], r.sides), np.asarray(found[0])
+        else:
+            pts = hull_ngon(space, r.sides, r.least_feature_mm)
+            if pts is None:
+                return None
+            centre = np.asarray(Polygon(pts).centroid.coords[0])
+        poly = Polygon(pts)
+        if inscribed_width(poly) < r.min_void_mm + SAFETY_MM:
+            return None
+        return _extent(poly), poly.area, (pts, centre)
+
+    got = _settled(room, part, fit)
+    if got is None:
+        return None
+    pts, centre = got
+    rel = pts - centre
+    return Draft(family="polygon", centre=(float(centre[0]), float(centre[1])),
+                 size=2.0 * float(np.max(np.linalg.norm(rel, axis=1))), source=source, part=k,
+                 corners=tuple((float(x), float(y)) for x, y in rel), corner=r.corner, corner_mm=r.corner_mm,
+                 regular=r.regular, tools=r.tools)
+
+
+def _slot_in(room: Room, part, r: Resolved, source: int, k: int) -> Draft | None:
+    """The slot of a stock width removing most in ``part`` that keeps its web to the neighbours."""
+    widths = [w for w in r.slot_widths_mm if w >= r.min_void_mm]
+    if not widths:
+        return None
+
+    def fit(space):
+        got = inscribed_slot(space, widths)
+        if got is None:
+            return None
+        _, _, width, length = got
+        return length, width * (length - width) + math.pi * width * width / 4.0, got
+
+    got = _settled(room, part, fit)
+    if got is None:
+        return None
+    centre, angle, width, length = got
+    return Draft(family="slot", centre=centre, size=width, length=length, angle_deg=angle, source=source, part=k,
+                 tools=r.tools)
+
+
+def _bores_in(room: Room, r: Resolved, source: int) -> list[Draft]:
+    stock = [d for d in r.bore_diameters_mm if d >= r.min_void_mm]
+    if not stock:
+        return []
+    width = inscribed_width(room.region)
+    largest = max([d for d in stock if d <= width] or [stock[0]])
+    space = room.within(room.region, largest)
+    if space is None:
+        return []
+    bores = packed_bores(space, stock, r.web)
+    return [Draft(family="bore", centre=(x, y), size=d, source=source, part=k, tools=r.tools)
+            for k, (x, y, d) in enumerate(bores)]
+
+
+def _pitches(room: Room, r: Resolved) -> list[float]:
+    """Void sizes to try for a honeycomb of voids in one freeform void: from the least void that holds its corners
+    up to half the void's extent, in steps of a quarter."""
+    least = max(r.min_void_mm * 1.5, 3.0 * r.least_feature_mm if r.family != "slot" else 0.0, 1e-6)
+    top = _extent(room.region) / 2.0
+    sizes = []
+    size = top
+    while size >= least and len(sizes) < 6:
+        sizes.append(size)
+        size *= 0.75
+    return sizes
+
+
+def candidates(room: Room, family: str, r: Resolved, *, trials: int = 2) -> list[list[Draft]]:
+    """The layouts one freeform void could become in one family: the whole void; split into 2 to ``MAX_PIECES``
+    voids along its length; a honeycomb of smaller voids (a web tied to the void's size is narrower between small
+    voids); bores packed into it. The honeycombs are ranked by the area of their pieces and only the best
+    ``trials`` are fitted."""
+    v = room.v
+    if room.region is None:
+        return []
+    if family == "bore":
+        got = _bores_in(room, r, v.index)
+        return [got] if got else []
+    fit = _polygon_in if family == "polygon" else _slot_in
+    layouts: list[list] = []
+    length = _extent(room.region)
+    most = int(min(MAX_PIECES, max(1, length // max(r.min_void_mm + r.min_web_mm, 1e-9))))
+    for k in range(1, most + 1):
+        pieces = split(room.region, k, r.web(length / k)) if k > 1 else [room.region]
+        if k > 1 and r.web_ratio and pieces:
+            # the web between pieces follows the pieces' own size
+            pieces = split(room.region, k, r.web(max(_extent(p) for p in pieces)))
+        layouts.append(pieces)
+    angle = major_axis_deg(room.region)
+    combs = []
+    for size in _pitches(room, r):
+        web = r.web(size)
+        for offset in ((0.0, 0.0), (0.5, 0.5)):
+            pieces = hex_cells(room.region, size + web, web, angle, offset)
+            useful = [p for p in pieces if inscribed_width(p) >= r.min_void_mm]
+            if useful:
+                combs.append((sum(p.area for p in useful), useful))
+    combs.sort(key=lambda c: -c[0])
+    layouts += [pieces for _, pieces in combs[:trials]]
+    out = []
+    for pieces in layouts:
+        drafts = [d for i, p in enumerate(pieces) if (d := fit(room, p, r, v.index, i)) is not None]
+        if drafts:
+            out.append(drafts)
+    return out
+
+
+def lattice_layout(allowed, family: str, r: Resolved, score, *, source: int = -1, openings=()) -> list[Draft]:
+    """A layout laid over the whole region open to voids, ignoring the freeform voids: a honeycomb of voids of one
+    size with the web the rules ask between them (a row where the region is one void deep), each cell keeping
+    its void only where the material it removes is worth it (``score`` above zero). Where the rules tie the web
+    to the void's size, few large voids in a row can beat the optimiser's many small ones; the caller compares.
+    """
+    region = largest_part(allowed) if allowed is not None else None
+    if region is None:
+        return []
+    depth = inscribed_width(region)
+    best: tuple[float, list[Draft]] = (0.0, [])
+    sizes = sorted({min(depth, s) for s in (depth, 0.8 * depth, 0.6 * depth, 0.45 * depth)}, reverse=True)
+    for size in sizes:
+        if size < max(r.min_void_mm, 1e-6):
+            continue
+        web = r.web(size)
+        pitch = size + web
+        row = pitch * math.sqrt(3.0) / 2.0
+        # Offsets along the rows, and across them: the plain one and the one putting a row through the middle of
+        # the region's depth (a band one void deep holds one row).
+        centre_y = cover_inscribed(region)[0][1]
+        through = ((centre_y - (region.bounds[1] - row)) / row) % 1.0
+        for offset in [(ox, oy) for oy in (0.0, through) for ox in (0.0, 0.25, 0.5, 0.75)]:
+            pieces = hex_cells(region, pitch, web, 0.0, offset)
+            drafts = []
+            for i, p in enumerate(pieces):
+                if inscribed_width(p) < r.min_void_mm:
+                    continue
+                if family == "bore":
+                    stock = [d for d in r.bore_diameters_mm if r.min_void_mm <= d <= inscribed_width(p)]
+                    if stock:
+                        c, _ = cover_inscribed(p)
+                        drafts.append(Draft(family="bore", centre=(float(c[0]), float(c[1])), size=max(stock),
+                                            source=source, part=i, tools=r.tools))
+                    continue
+                room = Room.bare(p, r, openings)
+                d = (_polygon_in if family == "polygon" else _slot_in)(room, p, r, source, i)
+                if d is not None:
+                    drafts.append(d)
+            worth = [d for d in drafts if score(_shape(d)) > 0.0]
+            total = sum(score(_shape(d)) for d in worth)
+            if total > best[0]:
+                best = (total, worth)
+    return best[1]
+
+
+def threshold_density(grid, energy: np.ndarray, voids, band: float = 2.0) -> float | None:
+    """The strain-energy density (N mm / mm2) of the solid material within ``band`` elements of the voids in a
+    design analysed with them cut (``energy``: per element, u^T ke u of the solid element): the median, taken as
+    the density at which the optimiser stopped removing material (what it left round its voids is what it would
+    have removed next)."""
+    if not voids:
+        return None
+    union = shapely.union_all(list(voids))
+    reach = band * max(grid.dx, grid.dy)
+    centres = grid.element_centres
+    near = shapely.dwithin(union, shapely.points(centres), reach) & ~shapely.contains_xy(
+        shapely.buffer(union, 0.5 * max(grid.dx, grid.dy)), centres[:, 0], centres[:, 1])
+    if not near.any():
+        return None
+    return float(np.median(energy[near])) / (2.0 * grid.element_area)
+
+
+def _within_cap(drafts: list[Draft], evaluate, cap: float, rounds: int = 5) -> tuple[float, list[Draft]]:
+    """``drafts`` less the voids that cost most stiffness for their area, a fifth at a time, until the compliance is
+    at most ``cap``: (compliance, drafts left)."""
+    state = list(drafts)
+    c, energy = evaluate(state)
+    for _ in range(rounds):
+        if c <= cap or not state:
+            break
+        grid = evaluate.grid
+        centres = np.array([d.centre for d in state])
+        ix = np.clip((centres[:, 0] / grid.dx).astype(int), 0, grid.nx - 1)
+        iy = np.clip((centres[:, 1] / grid.dy).astype(int), 0, grid.ny - 1)
+        worst = np.argsort(-energy[iy * grid.nx + ix])[: max(1, len(state) // 5)]
+        state = [d for k, d in enumerate(state) if k not in set(worst.tolist())]
+        c, energy = evaluate(state)
+    return c, state
+
+
+def _removed(drafts: list[Draft]):
+    return shapely.union_all([_shape(d) for d in drafts])
+
+
+def _choose_layout(options: list[list[Draft]], score) -> list[Draft]:
+    """The layout of the most worth (``score``; see ``rationalise``) among ``options``; [] when there is none."""
+    if not options:
+        return []
+    return max(options, key=lambda ds: (score(_removed(ds)), -len(ds)))
 
 
 # --- the whole step ---------------------------------------------------------------------------------------
@@ -424,7 +729,7 @@ def _region_for(allowed, mirror: Mirror, fixed, r: Resolved, cache: dict):
 
 
 def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, energy=None,
-                allowed=None) -> Rationalised:
+                allowed=None, shape_steps: int = 6) -> Rationalised:
     """Freeform voids (shapely polygons, local mm) -> voids a shop can make, keeping ``rules``.
 
     ``energy``: the solid panel's strain-energy density for the ``mixed`` family, as a function of points or
@@ -449,19 +754,46 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
     regions: dict = {}
 
     def where(i: int) -> str:
+        if i not in by_source:
+            return "a void of the honeycomb over the region open to voids"
         v = by_source[i]
         twins = " and its mirror image" if mirror.elements(comp_fixed.get(i, ())) else ""
         return f"freeform void #{i + 1} at ({v.centroid[0]:.0f}, {v.centroid[1]:.0f}){twins}"
 
-    drafts: list[Draft] = []
+    # Worth of a layout: the area it removes less what that area costs in stiffness, priced at the rate at which
+    # the optimiser itself stopped removing material. The first-order rise of compliance from removing material
+    # is twice the strain energy it held, so area A holding energy E is worth A - E / rho, rho being the energy
+    # density at the optimiser's removal threshold (taken as the highest mean density of a freeform void): a
+    # layout scores above zero where it removes material that works less than what the optimiser removed.
+    # Without an energy field the area alone decides.
+    rho = None
+    if sample is not None and kept:
+        density = lambda g: mean_over(g, sample, spacing)  # noqa: E731
+        rho = max(max(density(v.shape) for v in kept), 1e-300)
+        score = lambda g: g.area * (1.0 - density(g) / rho)  # noqa: E731
+    else:
+        score = lambda g: g.area  # noqa: E731
+
+    opening_shapes = [o.shape for o in panel.openings]
     families = ("polygon", "slot", "bore") if r.family == "mixed" else (r.family,)
-    fitted = {}
-    for v in kept:
+    options: dict[int, dict[str, list[list[Draft]]]] = {}
+    shapes = [v.shape for v in kept]
+    for k, v in enumerate(kept):
         fixed = comp_fixed.get(v.index, ())
-        room = _region_for(allowed, mirror, fixed, r, regions)
-        fitted[v.index] = {f: _fit(v, f, r, room, tolerance, fixed, mirror) for f in families}
-    chosen = {i: (_choose(by_source[i], fits, sample, spacing) if r.family == "mixed" else r.family)
-              for i, fits in fitted.items()}
+        space = _region_for(allowed, mirror, fixed, r, regions)
+        if fixed:
+            options[v.index] = {f: [d] if (d := _fit_fixed(v, f, r, space, tolerance, fixed, mirror)) else []
+                                for f in families}
+            continue
+        room = Room(v, space, shapes[:k] + shapes[k + 1:], r, tolerance, openings=opening_shapes)
+        options[v.index] = {f: candidates(room, f, r) for f in families}
+    best = {i: {f: _choose_layout(layouts, score) for f, layouts in fams.items()} for i, fams in options.items()}
+
+    def pick(fits: dict[str, list[Draft]]) -> str | None:
+        worth = {f: score(_removed(ds)) for f, ds in fits.items() if ds}
+        return max(worth, key=lambda f: (worth[f], -FAMILIES.index(f))) if worth else None
+
+    chosen = {i: pick(fits) for i, fits in best.items()}
     if r.family == "mixed":
         counts: dict[str, int] = {}
         for f in chosen.values():
@@ -471,26 +803,68 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
             keep = sorted(counts, key=lambda f: (-counts[f], FAMILIES.index(f)))[: r.max_types]
             notes.append(f"mixed voids limited to {', '.join(keep)}: max_types = {r.max_types} allows no more "
                          "families")
-            for i, fits in fitted.items():
+            for i, fits in best.items():
                 if chosen[i] not in keep:
-                    chosen[i] = _choose(by_source[i], {f: fits[f] for f in keep}, sample, spacing)
+                    chosen[i] = pick({f: fits[f] for f in keep})
+    drafts: list[Draft] = []
     for i, f in chosen.items():
-        got = fitted[i].get(f, []) if f else []
+        got = best[i].get(f, []) if f else []
         if not got:
             dropped.append(f"{where(i)}: no {r.family} void of the stock sizes fits in it; dropped.")
         drafts.extend(got)
 
     site = Site(allowed, r.min_web_mm, r.snap_mm, r.web_ratio, r.min_void_mm,
-                openings=[o.shape for o in panel.openings], mirror=mirror)
+                openings=[o.shape for o in panel.openings], mirror=mirror, feature_mm=r.least_feature_mm)
     placed, change_recs, drop_recs = place(drafts, site, r)
+    grid = energy[0] if isinstance(energy, tuple) else None
+    evaluate = cap = None
+    if grid is not None and not mirror.axes and kept and rho is not None:
+        from .shape import Evaluator
+
+        evaluate = Evaluator(panel, grid)
+        # The made layout must be no softer than the freeform one it stands for, and the price of stiffness is
+        # where the optimiser stopped: the strain-energy density of the material left round its voids.
+        cap, e_free = evaluate.shapes([v.shape for v in kept])
+        rho = threshold_density(grid, e_free, [v.shape for v in kept]) or rho
+        c_fit, _ = evaluate(placed)
+        grid_drafts = lattice_layout(allowed, r.family, r, score, openings=opening_shapes) \
+            if r.family != "mixed" else []
+        other = place(grid_drafts, site, r) if grid_drafts else None
+        if other is not None and other[0]:
+            c_grid, lattice = _within_cap(other[0], evaluate, cap)
+            area_fit, area_grid = (sum(_shape(d).area for d in ds) for ds in (placed, lattice))
+            if c_grid <= cap and (c_fit > cap or area_grid > area_fit):
+                notes.append(f"the voids are laid as a honeycomb over the region open to voids: under the web the "
+                             f"rules ask it keeps more of the saving than voids fitted one by one to the "
+                             f"optimiser's freeform voids ({area_grid:.0f} against {area_fit:.0f} mm2 removed, "
+                             "no softer than the freeform layout).")
+                keep_ids = {id(d) for d in lattice}
+                placed, change_recs, drop_recs = lattice, [c for c in other[1] if id(c[0]) in keep_ids], other[2]
     for source, reason in drop_recs:
         dropped.append(f"{where(source)}: {reason}; dropped.")
+
+    shaped = None
+    if shape_steps and evaluate is not None and placed:
+        from .shape import optimise
+
+        def keeps(t, i, s):
+            return site.fits(t, i, s, move=False)
+
+        shaped = optimise(placed, evaluate, keeps, rho=rho, target_area_mm2=sum(v.area_mm2 for v in kept),
+                          feature_mm=r.least_feature_mm, step_mm=max(grid.dx, grid.dy), steps=shape_steps,
+                          cap_Nmm=cap)
+        notes += list(shaped.notes)
+        placed = list(shaped.drafts)
+    elif shape_steps and mirror.axes:
+        notes.append("symmetric layout: the shape optimisation of the made voids is not run on it yet; the first "
+                     "fit is kept.")
 
     stock = {"bore": r.bore_diameters_mm, "slot": r.slot_widths_mm}
     before = list(placed)
     placed, size_recs = standardise_sizes(placed, r.max_types, r.snap_mm, stock, r.min_void_mm, site.fits)
-    placed, snap_recs = snap_centres(placed, r.snap_mm, lambda t, i, s: site.fits(t, i, s, move=False),
-                                     origin=mirror.origin)
+    placed, snap_recs = snap_centres(
+        placed, r.snap_mm, lambda t, i, s: site.fits(t, i, s, move=False) if shape_ok(t, r.least_feature_mm) else None,
+        origin=mirror.origin)
     # Change records point at drafts; follow each to the final draft of the same void.
     final_of = {(d.source, d.part): d for d in placed if d is not None}
     records = [((d.source, d.part), what, why) for d, what, why in change_recs]
@@ -523,7 +897,9 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
     for (_, key), v in zip(entries, voids):
         group = shapely.union_all([w.shape for (_, k), w in zip(entries, voids) if piece(k) == piece(key)])
         source, g = piece(key)
-        errors.append((v.id, round(fit_error(group, mirror.geometry(by_source[source].shape, g)), 6)))
+        target = by_source[source].shape if source in by_source else shapely.union_all([k.shape for k in kept])
+        errors.append((v.id, round(fit_error(group, mirror.geometry(target, g)), 6)) if not target.is_empty
+                      else (v.id, 1.0))
     violations = tuple(rule_check.check_layout(panel, list(voids), rules))
     return Rationalised(voids=voids, changes=changes, dropped=tuple(dropped), fit_errors=tuple(errors),
-                        violations=violations, notes=tuple(notes))
+                        violations=violations, notes=tuple(notes), shape=shaped)

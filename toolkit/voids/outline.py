@@ -51,6 +51,8 @@ class Draft:
     corner: str = "none"
     corner_mm: float = 0.0
     fixed: tuple[str, ...] = ()
+    regular: bool = False
+    tools: tuple[str, str, str] = ("former", "slot cutter", "bore")
 
     def scaled(self, size: float) -> Draft:
         """The same void at another size, about the same centre (a slot keeps its straight part's ratio)."""
@@ -69,6 +71,25 @@ class Draft:
 
     def at(self, centre: Point) -> Draft:
         return replace(self, centre=(float(centre[0]), float(centre[1])))
+
+    def corners_snapped(self, snap: float, origin=(0.0, 0.0)) -> Draft | None:
+        """An irregular n-gon with every corner moved to the ``snap`` grid point next to it towards the centre
+        (so the shape shrinks rather than grows); None when two corners would meet."""
+        pts = self.sharp - np.asarray(origin, dtype=float)
+        inward = np.asarray(self.centre, dtype=float) - np.asarray(origin, dtype=float) - pts
+        snapped = np.where(inward >= 0, np.ceil(pts / snap - 1e-9), np.floor(pts / snap + 1e-9)) * snap
+        snapped = snapped + np.asarray(origin, dtype=float)
+        if len(np.unique(np.round(snapped, 9), axis=0)) < len(snapped):
+            return None
+        x, y = snapped[:, 0], snapped[:, 1]
+        a2 = x * np.roll(y, -1) - np.roll(x, -1) * y
+        area = a2.sum() / 2.0
+        if area <= 0:
+            return None
+        c = (float(np.sum((x + np.roll(x, -1)) * a2) / (6 * area)), float(np.sum((y + np.roll(y, -1)) * a2) / (6 * area)))
+        rel = snapped - c
+        return replace(self, centre=c, size=2.0 * float(np.max(np.linalg.norm(rel, axis=1))),
+                       corners=tuple((float(px), float(py)) for px, py in rel))
 
     def mirrored(self, axis: str, about: float) -> Draft:
         """Mirror image about the line x = about (axis "x": the vertical mid-line) or y = about (axis "y")."""
@@ -100,20 +121,40 @@ class Draft:
         """The finished :class:`~toolkit.model.Void`."""
         outline = self.outline()
         shape = outline_polygon(outline)
+        polygon_tool, slot_tool, bore_tool = self.tools
         if self.family == "polygon":
             pts = self.sharp
+            n = len(pts)
             extent = float(np.max(np.linalg.norm(pts[:, None, :] - pts[None, :, :], axis=2)))
-            first = self.corners[0]
-            # towards the first corner; adding 360 first keeps a turn of -1e-17 from coming out as 360
-            angle = (math.degrees(math.atan2(first[1], first[0])) + 360.0) % 360.0
-            return Void(id=id, family="polygon", centre=self.centre, size_mm=self.size, shape=shape,
-                        outline=outline, sides=len(self.corners), length_mm=extent, angle_deg=angle,
-                        tool=f"{len(self.corners)}-gon former, {self.size:g} mm across corners")
+            corners = tuple((float(x), float(y)) for x, y in pts)
+            if self.regular:
+                # The size of a regular n-gon is across corners: twice its centre-to-corner distance (the corners
+                # are built from it, so the drawing measures the same to rounding). Its turn is that of the first
+                # corner, within one n-th of a revolution.
+                size = self.size
+                first = self.corners[0]
+                angle = (math.degrees(math.atan2(first[1], first[0])) + 360.0) % (360.0 / n)
+                tool = f"regular {n}-gon {polygon_tool}, {size:.0f} mm across corners"
+            else:
+                size = 2.0 * float(shapely.minimum_bounding_radius(shapely.multipoints(pts)))
+                angle = principal_direction(pts)
+                tool = f"irregular {n}-gon {polygon_tool} to the corner list, {size:.0f} mm overall"
+            return Void(id=id, family="polygon", centre=self.centre, size_mm=size, shape=shape,
+                        outline=outline, sides=n, length_mm=extent, angle_deg=angle, tool=tool,
+                        corners=corners, regular=self.regular)
         if self.family == "slot":
             return Void(id=id, family="slot", centre=self.centre, size_mm=self.size, shape=shape, outline=outline,
-                        length_mm=self.length, angle_deg=self.angle_deg, tool=f"slot cutter {self.size:g} mm")
+                        length_mm=self.length, angle_deg=self.angle_deg,
+                        tool=f"{slot_tool} {self.size:g} mm, {self.length:.0f} mm long")
         return Void(id=id, family="bore", centre=self.centre, size_mm=self.size, shape=shape, outline=(),
-                    tool=f"bore {self.size:g} mm")
+                    tool=f"{bore_tool} {self.size:g} mm")
+
+
+def principal_direction(pts: np.ndarray) -> float:
+    """Direction of the major principal axis of a polygon's area, degrees in [0, 180)."""
+    from .measure import principal_axes
+
+    return principal_axes(Polygon(pts))[0]
 
 
 def outline_polygon(outline) -> Polygon:

@@ -133,6 +133,8 @@ def standardise_sizes(drafts: list[Draft], max_types: int, snap: float, stock: d
     changes: list[tuple[int, str, str]] = []
     by_family: dict[str, list[int]] = {}
     for i, d in enumerate(state):
+        if d.family == "polygon" and not d.regular:
+            continue  # each irregular n-gon is cut to its own corners: its size is no tool or former to stock
         by_family.setdefault(d.family, []).append(i)
     share = share_types({f: [state[i].size for i in idx] for f, idx in by_family.items()}, max_types)
     for family in sorted(by_family):
@@ -194,6 +196,14 @@ def snap_centres(drafts: list[Draft], snap: float, fits: Callable[[Draft, int, l
     ox, oy = origin
     for i, d in enumerate(state):
         if d is None:
+            continue
+        if d.family == "polygon" and not d.regular:
+            trial = d.corners_snapped(snap, origin)
+            placed = fits(trial, i, state) if trial is not None else None
+            if placed is not None:
+                state[i] = placed
+            else:
+                changes.append((i, "corners not snapped", f"the {snap:g} mm grid would break a rule or the shape"))
             continue
         cx, cy = d.centre
         gx, gy = math.floor((cx - ox) / snap), math.floor((cy - oy) / snap)

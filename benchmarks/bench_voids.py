@@ -1,0 +1,86 @@
+"""How much of the optimiser's saving the made voids keep, what it costs, and how long each stage takes.
+
+Runs the whole job in memory on the scenarios of benchmarks/scenarios.py (our own panels) and prints, per panel:
+material removed by the freeform layout and by the voids to make, the share kept, compliance solid / freeform /
+made, the shape optimisation's compliance at the first fit and at the same material after it, the rule that held
+the layout back, and the seconds of each stage. With --ref PATH (the plain numpy/scipy BESO port kept beside the
+project, ../shared/ref_beso.py), the plate's whole job is timed against that port's BESO alone at the same
+iteration count, in the same run. Prints figures; asserts nothing.
+
+    python benchmarks/bench_voids.py                     # every scenario
+    python benchmarks/bench_voids.py plate --ref ../shared/ref_beso.py
+"""
+
+from __future__ import annotations
+
+import argparse
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parents[1]
+sys.path.insert(0, str(ROOT))
+sys.path.insert(0, str(ROOT / "benchmarks"))
+
+
+def main() -> None:
+    from threadpoolctl import threadpool_limits
+
+    from scenarios import SCENARIOS
+    from toolkit.pipeline import optimize_panel
+
+    ap = argparse.ArgumentParser()
+    ap.add_argument("only", nargs="?", default="", help="run the scenarios whose name holds this text")
+    ap.add_argument("--ref", help="path of the plain BESO port to time against (plate scenario)")
+    args = ap.parse_args()
+    rows = []
+    with threadpool_limits(1):  # one core, as the targets are stated
+        for name, make in SCENARIOS.items():
+            if args.only not in name:
+                continue
+            panel, job = make()
+            t0 = time.perf_counter()
+            run = optimize_panel(panel, job)
+            total = time.perf_counter() - t0
+            shape = run.rationalised.shape
+            rows.append((name, run, total, shape))
+            free, made = run.freeform_removed_percent, run.mass_removed_percent
+            print(f"\n{name}")
+            print(f"  removed: freeform {free:.1f} %, made {made:.1f} % ({len(run.voids)} voids); "
+                  f"kept of the saving {run.capture_percent or 0:.0f} %")
+            print(f"  compliance N mm: solid {run.solid.compliance_Nmm:.6g}, freeform "
+                  f"{run.freeform_analysis.compliance_Nmm:.6g}, made {run.final.compliance_Nmm:.6g}")
+            if shape is not None:
+                c, a = shape.compliance_Nmm, shape.area_mm2
+                area = float(panel.solid.area)
+                print(f"  shape optimisation: first fit {c[0]:.6g} N mm at {100 * a[0] / area:.1f} %, same material "
+                      f"{c[1]:.6g} N mm at {100 * a[1] / area:.1f} %, grown {c[2]:.6g} N mm at "
+                      f"{100 * a[2] / area:.1f} % ({shape.analyses} analyses)")
+            if run.limit:
+                print(f"  limit: {run.limit}")
+            print("  seconds: " + ", ".join(f"{k} {v:.2f}" for k, v in run.timings_s.items())
+                  + f"; whole job {total:.2f} ({run.beso.iterations} BESO iterations)")
+    print("\n| panel | freeform removed | made removed | kept of the saving | C made <= C freeform | "
+          "stiffer than first fit | voids s |")
+    print("|---|---:|---:|---:|---|---|---:|")
+    for name, run, total, shape in rows:
+        stiffer = "n/a" if shape is None else ("yes" if shape.compliance_Nmm[1] <= shape.compliance_Nmm[0] else "no")
+        print(f"| {name} | {run.freeform_removed_percent:.1f} % | {run.mass_removed_percent:.1f} % | "
+              f"{run.capture_percent or 0:.0f} % | "
+              f"{'yes' if run.final.compliance_Nmm <= run.freeform_analysis.compliance_Nmm else 'no'} | {stiffer} | "
+              f"{run.timings_s.get('voids', 0):.1f} |")
+    if args.ref:
+        plate = [r for r in rows if "1000 plate" in r[0]]
+        if plate:
+            name, run, total, _ = plate[0]
+            done = subprocess.run([sys.executable, args.ref, "300", "100", "0.5", "--mbb", "--iters",
+                                   str(run.beso.iterations)], capture_output=True, text=True, check=True)
+            print(f"\nplain port ({args.ref}), 300 x 100, {run.beso.iterations} iterations: {done.stdout.strip()}")
+            spi = float(done.stdout.split("s_per_iter")[1])
+            print(f"lacuna whole job on the plate {total:.1f} s against the port's BESO alone "
+                  f"{spi * run.beso.iterations:.1f} s: ratio {spi * run.beso.iterations / total:.2f}")
+
+
+if __name__ == "__main__":
+    main()

@@ -1,0 +1,468 @@
+"""The largest shape of a family that a region holds: n-gons, slots and stock bores fitted *inside* a region.
+
+Where ``fit`` asks "which shape looks most like this freeform void?", this module asks "how much of this region can
+a shop remove?": every shape returned lies inside the region it was given (within the caller's tolerance), so a
+void fitted inside the room the rules leave keeps them before any placing step moves it. All searches are
+vectorised: many candidate shapes are built as one shapely array and tested in one call (no scalar search over
+polygon overlays).
+
+- **n-gon, irregular**: the region's convex hull cut down to ``sides`` corners (deleting a corner of a convex
+  polygon cuts a triangle off, so the result stays inside the hull), corners closer than the least feature
+  merged, corners sharper than ``MIN_INTERIOR_DEG`` or turning less than ``MIN_TURN_DEG`` removed, and sharp
+  corners chamfered until there are ``sides`` again (a chamfer also cuts a triangle off); then scaled about the
+  best of a few centres to the largest copy inside the region.
+- **n-gon, regular**: equal sides and angles; for a few centres near the region's largest inscribed circle and a
+  fan of turns, the largest circumradius inside the region, found by bisection on all candidates at once.
+- **slot**: for each stock width, the region shrunk by half the width holds the slot's axis; the longest axis
+  along a fan of directions about the region's major axis is found on a family of parallel chords.
+- **bores**: a triangular lattice of one stock diameter along the region's major axis (pitch = diameter + web),
+  the offset that places most bores; the room left is then filled with smaller stock sizes, largest circle first
+  (graded where the region narrows). The greedy fill alone is also tried; the layout removing more wins.
+- **split**: a region cut across its major axis into ``k`` pieces of equal area with a web between them, so that
+  one long freeform void can become several voids.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import shapely
+from shapely.geometry import Polygon
+
+from .measure import principal_axes
+
+# Corners sharper than this are chamfered: a former's sharp arris spalls, a sharp corner in timber splits, a
+# torch rounds it anyway (common practice, no source).
+MIN_INTERIOR_DEG = 30.0
+# A corner turning less than this is not one a drafter would count (common practice, no source).
+MIN_TURN_DEG = 5.0
+# Scales tried when a shape is shrunk into its region: the largest that fits wins (2 % steps).
+_SCALES = np.linspace(1.0, 0.2, 41)
+
+
+def largest_part(geom) -> Polygon | None:
+    """The polygon of largest area in ``geom`` (None when it has none)."""
+    parts = [p for p in shapely.get_parts(geom) if isinstance(p, Polygon) and p.area > 0.0]
+    return max(parts, key=lambda p: p.area) if parts else None
+
+
+def major_axis_deg(region) -> float:
+    """Direction of the region's major principal axis, degrees in [0, 180) (0 for a round region)."""
+    return principal_axes(Polygon(region.exterior))[0]
+
+
+def _inscribed(region, tol: float | None = None) -> tuple[np.ndarray, float]:
+    tol = tol if tol is not None else max(1e-3, 1e-3 * math.sqrt(max(region.area, 1e-12)))
+    mic = shapely.maximum_inscribed_circle(region, tol)
+    xy = shapely.get_coordinates(mic)
+    return xy[0], float(mic.length)
+
+
+# --- n-gons ---------------------------------------------------------------------------------------------------
+
+
+def _ccw(pts: np.ndarray) -> np.ndarray:
+    x, y = pts[:, 0], pts[:, 1]
+    area2 = np.sum(x * np.roll(y, -1) - np.roll(x, -1) * y)
+    return pts if area2 >= 0 else pts[::-1]
+
+
+def corner_measures(pts: np.ndarray):
+    """Per corner of a counter-clockwise polygon: interior angle (deg), turn (deg), length of the side to the next
+    corner, and the area of the triangle the corner would cut off if deleted."""
+    prev, nxt = np.roll(pts, 1, axis=0), np.roll(pts, -1, axis=0)
+    a, b = prev - pts, nxt - pts
+    la, lb = np.linalg.norm(a, axis=1), np.linalg.norm(b, axis=1)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        cosang = np.sum(a * b, axis=1) / (la * lb)
+    interior = np.degrees(np.arccos(np.clip(np.nan_to_num(cosang, nan=-1.0), -1.0, 1.0)))
+    tri = 0.5 * np.abs(a[:, 0] * b[:, 1] - a[:, 1] * b[:, 0])
+    return interior, 180.0 - interior, lb, tri
+
+
+def _chamfer(pts: np.ndarray, i: int, feature: float) -> np.ndarray | None:
+    """Corner ``i`` cut by a chamfer whose three sides are all at least ``feature`` long (None: no room)."""
+    n = len(pts)
+    p, prev, nxt = pts[i], pts[i - 1], pts[(i + 1) % n]
+    a, b = np.linalg.norm(prev - p), np.linalg.norm(nxt - p)
+    theta = math.radians(corner_measures(pts)[0][i])
+    # A little over the least feature, so the chamfer survives the scaling into the region.
+    need = 1.25 * feature / (2.0 * math.sin(theta / 2.0)) if theta > 0 else math.inf
+    room = min(a, b) - 1.001 * feature
+    if need > room:
+        return None
+    c = min(max(0.2 * min(a, b), need), room)
+    q1 = p + c * (prev - p) / a
+    q2 = p + c * (nxt - p) / b
+    return np.vstack([pts[:i], q1, q2, pts[i + 1:]])
+
+
+def tidy_ngon(pts: np.ndarray, sides: int, feature: float) -> np.ndarray | None:
+    """A convex polygon brought to exactly ``sides`` corners a shop can make, every step cutting a triangle off.
+
+    No side shorter than ``feature``, no corner turning less than ``MIN_TURN_DEG``, none sharper than
+    ``MIN_INTERIOR_DEG`` (chamfered). None when the polygon is too small for that many corners of that size.
+    """
+    pts = _ccw(np.asarray(pts, dtype=float))
+    for _ in range(8 * sides + 4 * len(pts)):
+        n = len(pts)
+        if n < 3:
+            return None
+        interior, turn, side, tri = corner_measures(pts)
+        flat = turn < MIN_TURN_DEG
+        if flat.any() and n > 3:
+            pts = np.delete(pts, int(np.flatnonzero(flat)[np.argmin(tri[flat])]), axis=0)
+            continue
+        if side.min() < feature and n > 3:
+            i = int(np.argmin(side))
+            j = (i + 1) % n
+            pts = np.delete(pts, i if tri[i] <= tri[j] else j, axis=0)
+            continue
+        if n > sides:
+            pts = np.delete(pts, int(np.argmin(tri)), axis=0)
+            continue
+        sharp = interior < MIN_INTERIOR_DEG
+        if n == sides and not sharp.any():
+            return pts if side.min() >= feature - 1e-9 else None
+        if n == sides:
+            # A sharp corner with no corner to spare: give up the corner that cuts least (not a sharp one).
+            blunt = np.flatnonzero(~sharp)
+            if blunt.size == 0 or n <= 3:
+                return None
+            pts = np.delete(pts, int(blunt[np.argmin(tri[blunt])]), axis=0)
+            continue
+        # Fewer corners than asked: chamfer the sharpest corner that has room.
+        for i in np.argsort(interior, kind="stable"):
+            cut = _chamfer(pts, int(i), feature)
+            if cut is not None:
+                pts = cut
+                break
+        else:
+            return None
+    return None
+
+
+def _halfplanes(points: np.ndarray, directions: np.ndarray, keep: np.ndarray, reach: float):
+    """Big polygons standing for the half-planes bounded by the line through each point along each direction, on
+    the side of ``keep``: (len(points) * len(directions),) array."""
+    P = np.repeat(points, len(directions), axis=0)
+    U = np.tile(directions, (len(points), 1))
+    N = np.column_stack([-U[:, 1], U[:, 0]])
+    side = np.sign(np.sum((keep - P) * N, axis=1))
+    N *= np.where(side == 0, 1.0, side)[:, None]
+    corners = np.stack([P - reach * U, P + reach * U, P + reach * U + reach * N, P - reach * U + reach * N], axis=1)
+    return shapely.polygons(corners)
+
+
+def carve(region, pts: np.ndarray, rounds: int = 12) -> np.ndarray | None:
+    """The convex polygon ``pts`` cut by straight lines until ``region`` covers it, each cut losing least area.
+
+    Each piece of the polygon outside the region is cut off by the line, through one of that piece's corners and
+    along one of a fan of directions, that keeps most of the polygon and leaves none of the piece: a convex
+    polygon stays convex under such cuts, and a re-entrant bay of the region costs a sliver, not a scaling of
+    the whole shape."""
+    Q = Polygon(pts)
+    shapely.prepare(region)
+    reach = 4.0 * (Q.length + 1.0)
+    directions = np.column_stack([np.cos(np.linspace(0, np.pi, 12, endpoint=False)),
+                                  np.sin(np.linspace(0, np.pi, 12, endpoint=False))])
+    boundary = region.boundary
+    for _ in range(rounds):
+        outside = shapely.difference(Q, region)
+        if outside.is_empty or outside.area <= 1e-6 * Q.area:
+            break
+        piece = max(shapely.get_parts(outside), key=lambda g: g.area)
+        corners = shapely.get_coordinates(piece)[:-1]
+        # The cut goes through a point where the region's edge enters the polygon: corners of the outside piece
+        # on the region's boundary (at most a dozen, evenly taken).
+        on_edge = corners[shapely.dwithin(boundary, shapely.points(corners), 1e-6 * math.sqrt(Q.area))]
+        corners = on_edge if len(on_edge) else corners
+        if len(corners) > 12:
+            corners = corners[np.linspace(0, len(corners) - 1, 12).astype(int)]
+        centre = np.asarray(Q.centroid.coords[0])
+        planes = _halfplanes(corners, directions, centre, reach)
+        left = shapely.area(shapely.intersection(piece, planes))
+        kept = shapely.area(shapely.intersection(Q, planes))
+        clear = left <= 1e-6 * max(piece.area, 1e-12)
+        k = int(np.argmax(np.where(clear, kept, -np.inf))) if clear.any() else int(np.argmin(left - 1e-9 * kept))
+        cut = largest_part(shapely.intersection(Q, planes[k]))
+        if cut is None or cut.area <= 0:
+            return None
+        Q = shapely.convex_hull(cut)
+    out = shapely.get_coordinates(Q.exterior)[:-1]
+    return _ccw(out) if len(out) >= 3 else None
+
+
+def fit_inside(region, pts: np.ndarray, feature: float = 0.0) -> np.ndarray | None:
+    """The largest copy of polygon ``pts`` scaled about one of a few centres that ``region`` covers (None: none).
+
+    Centres tried: the polygon's own centroid and the region's largest inscribed circle's centre.
+    """
+    pts = np.asarray(pts, dtype=float)
+    centres = [pts.mean(axis=0), _inscribed(region)[0]]
+    shapely.prepare(region)
+    best = None
+    for c in centres:
+        cand = c + _SCALES[:, None, None] * (pts - c)[None, :, :]
+        ok = shapely.covers(region, shapely.polygons(cand))
+        if ok.any():
+            k = int(np.argmax(ok))
+            if best is None or _SCALES[k] > best[0]:
+                best = (_SCALES[k], cand[k])
+    if best is None:
+        return None
+    out = best[1]
+    if feature > 0 and corner_measures(out)[2].min() < feature - 1e-9:
+        return None
+    return out
+
+
+def hull_ngon(region, sides: int, feature: float) -> np.ndarray | None:
+    """An irregular convex ``sides``-gon inside ``region``, as large as the hull method finds (see module text)."""
+    hull = shapely.convex_hull(region)
+    if not isinstance(hull, Polygon) or hull.area <= 0:
+        return None
+    pts = shapely.get_coordinates(hull.exterior)[:-1]
+    tidy = tidy_ngon(pts, sides, feature)
+    if tidy is None:
+        return None
+    if not shapely.covers(region, Polygon(tidy)):
+        cut = carve(region, tidy)
+        if cut is not None:
+            cut = tidy_ngon(cut, sides, feature)
+        if cut is not None:
+            tidy = cut
+    return fit_inside(region, tidy, feature)
+
+
+def regular_corners(centre, radius, turn, sides: int) -> np.ndarray:
+    """(..., sides, 2) corners of regular n-gons; centre (..., 2), radius and turn (...) broadcast."""
+    t = np.asarray(turn, dtype=float)[..., None] + 2.0 * np.pi * np.arange(sides) / sides
+    r = np.asarray(radius, dtype=float)[..., None]
+    c = np.asarray(centre, dtype=float)
+    return np.stack([c[..., 0:1] + r * np.cos(t), c[..., 1:2] + r * np.sin(t)], axis=-1)
+
+
+def regular_ngon(region, sides: int, feature: float = 0.0, turns: int = 12
+                 ) -> tuple[np.ndarray, float, float] | None:
+    """The largest regular ``sides``-gon inside ``region``: (centre, circumradius, turn of the first corner).
+
+    Its inscribed circle is no larger than the region's, so the circumradius lies between the region's inscribed
+    radius r0 times cos(pi/n) (fits at the circle's centre) and r0 / cos(pi/n); bisection on every (centre, turn)
+    candidate at once.
+    """
+    c0, r0 = _inscribed(region)
+    if r0 <= 0:
+        return None
+    ang = math.radians(major_axis_deg(region))
+    u = np.array([math.cos(ang), math.sin(ang)])
+    v = np.array([-u[1], u[0]])
+    centres = np.array([c0, c0 + 0.25 * r0 * u, c0 - 0.25 * r0 * u, c0 + 0.25 * r0 * v, c0 - 0.25 * r0 * v])
+    fan = ang + np.arange(turns) * (2.0 * np.pi / sides) / turns
+    C = np.repeat(centres, turns, axis=0)
+    T = np.tile(fan, len(centres))
+    lo = np.full(len(C), 0.0)
+    hi = np.full(len(C), r0 / math.cos(math.pi / sides) * (1.0 + 1e-9))
+    shapely.prepare(region)
+    for _ in range(18):
+        mid = 0.5 * (lo + hi)
+        ok = shapely.covers(region, shapely.polygons(regular_corners(C, mid, T, sides)))
+        lo = np.where(ok, mid, lo)
+        hi = np.where(ok, hi, mid)
+    k = int(np.argmax(lo))
+    if lo[k] <= 0.0:
+        return None
+    side = 2.0 * lo[k] * math.sin(math.pi / sides)
+    if side < feature:
+        return None
+    return C[k], float(lo[k]), float(T[k])
+
+
+# --- slots ----------------------------------------------------------------------------------------------------
+
+
+def _rotate(xy: np.ndarray, angle: float) -> np.ndarray:
+    c, s = math.cos(angle), math.sin(angle)
+    return xy @ np.array([[c, s], [-s, c]])
+
+
+def longest_chords(region, angle_deg: float, lines: int = 24):
+    """Longest segments inside ``region`` along ``angle_deg``, one per chord line across it: (length, a, b)."""
+    a = math.radians(angle_deg)
+    turned = shapely.transform(region, lambda xy: _rotate(xy, a))
+    x0, y0, x1, y1 = turned.bounds
+    ys = y0 + (np.arange(lines) + 0.5) * (y1 - y0) / lines
+    chords = shapely.linestrings(np.stack([np.column_stack([np.full(lines, x0 - 1.0), ys]),
+                                           np.column_stack([np.full(lines, x1 + 1.0), ys])], axis=1))
+    cut = shapely.intersection(turned, chords)
+    parts, index = shapely.get_parts(cut, return_index=True)
+    if len(parts) == 0:
+        return None
+    lengths = shapely.length(parts)
+    k = int(np.argmax(lengths))
+    xy = shapely.get_coordinates(parts[k])
+    if len(xy) < 2:
+        return None
+    ends = _rotate(xy[[0, -1]], -a)
+    return float(lengths[k]), ends[0], ends[1]
+
+
+def inscribed_slot(region, widths, angle_deg: float | None = None, fan_deg=(0.0, -8.0, 8.0, -16.0, 16.0)):
+    """The slot of a stock width removing most area inside ``region``: (centre, angle_deg, width, length) or None.
+
+    The slot's axis lies in the region shrunk by half the width; along each direction of the fan about the major
+    axis the longest such axis is found on parallel chords.
+    """
+    angle = major_axis_deg(region) if angle_deg is None else angle_deg
+    _, r0 = _inscribed(region)
+    best = None
+    for w in sorted({float(x) for x in widths}, reverse=True):
+        if w > 2.0 * r0 * (1.0 + 1e-6):
+            continue
+        core = shapely.buffer(region, -w / 2.0, quad_segs=8)
+        if core.is_empty:
+            continue
+        for df in fan_deg:
+            got = longest_chords(core, angle + df)
+            if got is None:
+                # the core is a point or a sliver: a slot as long as it is wide, at the inscribed circle
+                continue
+            length, p, q = got
+            area = w * length + math.pi * w * w / 4.0
+            if best is None or area > best[0]:
+                centre = (p + q) / 2.0
+                d = q - p
+                ang = math.degrees(math.atan2(d[1], d[0])) % 180.0 if length > 0 else (angle + df) % 180.0
+                best = (area, (float(centre[0]), float(centre[1])), ang, w, length + w)
+        if best is not None and best[3] == w and w * w >= 0.5 * best[0]:
+            break  # a wider cutter fills the region's width already: narrower ones only add length
+    if best is None:
+        return None
+    return best[1], best[2], best[3], best[4]
+
+
+# --- bores ----------------------------------------------------------------------------------------------------
+
+
+def lattice_bores(region, diameter: float, web: float, angle_deg: float, offsets: int = 4) -> np.ndarray:
+    """(k, 2) centres of a triangular lattice of bores of ``diameter`` along ``angle_deg`` inside ``region``,
+    ``web`` clear between neighbours; the lattice offset placing most of them."""
+    core = shapely.buffer(region, -diameter / 2.0, quad_segs=8)
+    if core.is_empty:
+        return np.zeros((0, 2))
+    pitch = diameter + web
+    row = pitch * math.sqrt(3.0) / 2.0
+    a = math.radians(angle_deg)
+    x0, y0, x1, y1 = shapely.transform(core, lambda xy: _rotate(xy, a)).bounds
+    nx, ny = int((x1 - x0) / pitch) + 3, int((y1 - y0) / row) + 3
+    i, j = np.meshgrid(np.arange(nx), np.arange(ny))
+    base = np.column_stack([(i + 0.5 * (j % 2)).ravel() * pitch, j.ravel() * row]) + (x0 - pitch, y0 - row)
+    shapely.prepare(core)
+    best = np.zeros((0, 2))
+    for ox in range(offsets):
+        for oy in range(offsets):
+            pts = _rotate(base + (ox * pitch / offsets, oy * row / offsets), -a)
+            inside = pts[shapely.contains_xy(core, pts[:, 0], pts[:, 1])]
+            if len(inside) > len(best):
+                best = inside
+    return best
+
+
+def greedy_bores(region, stock, web_of, start=(), limit: int = 64) -> list[tuple[float, float, float]]:
+    """Bores filling ``region`` largest circle first, the largest stock size that fits each time; ``start``:
+    bores already placed (x, y, d) that the new ones keep their webs from. ``web_of(d1, d2)`` gives the web."""
+    stock = sorted({float(d) for d in stock}, reverse=True)
+    placed = list(start)
+    room = region
+    if placed:
+        room = shapely.difference(room, shapely.union_all(
+            [shapely.buffer(shapely.Point(x, y), d / 2.0 + web_of(d, stock[0]), quad_segs=16)
+             for x, y, d in placed]))
+    out = []
+    while len(out) < limit and not room.is_empty and room.area > 0:
+        c, r = _inscribed(room)
+        fits = [d for d in stock if d / 2.0 <= r * (1.0 + 1e-9)]
+        if not fits:
+            break
+        d = fits[0]
+        out.append((float(c[0]), float(c[1]), d))
+        room = shapely.difference(room, shapely.buffer(shapely.Point(c), d / 2.0 + web_of(d, stock[0]),
+                                                       quad_segs=16))
+    return out
+
+
+def packed_bores(region, stock, web_of, angle_deg: float | None = None) -> list[tuple[float, float, float]]:
+    """Bores (x, y, d) of stock diameters inside ``region``: the better of a lattice graded by a greedy fill and
+    the greedy fill alone, by area removed."""
+    stock = sorted({float(d) for d in stock}, reverse=True)
+    if not stock:
+        return []
+    _, r0 = _inscribed(region)
+    angle = major_axis_deg(region) if angle_deg is None else angle_deg
+    options = [greedy_bores(region, stock, web_of)]
+    for d in [s for s in stock if s <= 2.0 * r0][:3]:
+        centres = lattice_bores(region, d, web_of(d, d), angle)
+        if len(centres) == 0:
+            continue
+        lattice = [(float(x), float(y), d) for x, y in centres]
+        options.append(lattice + greedy_bores(region, [s for s in stock if s <= d], web_of, start=lattice))
+    return max(options, key=lambda bores: sum(d * d for _, _, d in bores))
+
+
+# --- splitting ------------------------------------------------------------------------------------------------
+
+
+def split(region, k: int, gap: float, angle_deg: float | None = None) -> list[Polygon]:
+    """``region`` cut across its major axis into ``k`` pieces of about equal area, ``gap`` apart."""
+    if k <= 1:
+        return [region]
+    a = math.radians(major_axis_deg(region) if angle_deg is None else angle_deg)
+    turned = shapely.transform(region, lambda xy: _rotate(xy, a))
+    x0, y0, x1, y1 = turned.bounds
+    ts = np.linspace(x0, x1, 65)
+    left = shapely.area(shapely.intersection(turned, shapely.box(x0 - 1.0, y0 - 1.0, ts, y1 + 1.0)))
+    cuts = np.interp(np.arange(1, k) / k * turned.area, left, ts)
+    edges = np.concatenate([[x0 - 1.0], cuts, [x1 + 1.0]])
+    pieces = []
+    for lo, hi in zip(edges[:-1], edges[1:]):
+        lo2 = lo + (gap / 2.0 if lo > x0 else 0.0)
+        hi2 = hi - (gap / 2.0 if hi < x1 else 0.0)
+        if hi2 <= lo2:
+            continue
+        part = largest_part(shapely.intersection(turned, shapely.box(lo2, y0 - 1.0, hi2, y1 + 1.0)))
+        if part is not None:
+            pieces.append(shapely.transform(part, lambda xy: _rotate(xy, -a)))
+    return pieces
+
+
+def hex_cells(region, pitch: float, web: float, angle_deg: float, offset: tuple[float, float] = (0.0, 0.0)
+              ) -> list[Polygon]:
+    """``region`` cut by a honeycomb of pitch ``pitch`` (distance between neighbouring cell centres), lined up with
+    ``angle_deg``, into pieces ``web`` apart: each cell shrunk by half the web on every side, within the region.
+
+    The pieces are where several voids side by side can go when one void would need a web wider than the bars
+    round it (a web tied to the void's size)."""
+    inner = pitch - web  # across flats of the shrunk cell
+    if inner <= 0:
+        return []
+    a = math.radians(angle_deg)
+    turned = shapely.transform(region, lambda xy: _rotate(xy, a))
+    x0, y0, x1, y1 = turned.bounds
+    row = pitch * math.sqrt(3.0) / 2.0
+    nx, ny = int((x1 - x0) / pitch) + 3, int((y1 - y0) / row) + 3
+    i, j = np.meshgrid(np.arange(nx), np.arange(ny))
+    centres = np.column_stack([(i + 0.5 * (j % 2)).ravel() * pitch, j.ravel() * row])
+    centres += (x0 - pitch + offset[0] * pitch, y0 - row + offset[1] * row)
+    # Flat-topped along the rows: corners at 30 + 60 k degrees, circumradius inner / sqrt(3).
+    t = np.radians(30.0 + 60.0 * np.arange(6))
+    hexagon = (inner / math.sqrt(3.0)) * np.column_stack([np.cos(t), np.sin(t)])
+    cells = shapely.polygons(centres[:, None, :] + hexagon[None, :, :])
+    hit = shapely.intersects(turned, cells)
+    pieces = shapely.intersection(turned, cells[hit])
+    out = []
+    for g in pieces:
+        part = largest_part(g)
+        if part is not None:
+            out.append(shapely.transform(part, lambda xy: _rotate(xy, -a)))
+    return out

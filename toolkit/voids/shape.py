@@ -1,0 +1,315 @@
+"""Shape optimisation of the made layout: move, turn and grow the voids a shop can make, the rules held at every step.
+
+The method belongs to the family of explicit void parameterisations analysed on a fixed grid by exact area
+fractions (moving morphable voids, geometry projection; docs/voids.md names the papers): each made void is a few
+numbers (an irregular n-gon's corners; a regular n-gon's centre, size and turn; a slot's centre, direction and
+length; a bore's centre), the grid's elements keep the solid fraction the voids leave them, and compliance's
+self-adjoint gradient
+
+    dC/dp = sum_e (d area(void n box_e) / dp) / A_e * sum_c w_c u_ec^T ke u_ec     (``sensitivity``)
+
+steers the numbers. The outline's vertices are a smooth function of the numbers, so its Jacobian is taken by
+central differences of the geometry alone (no analysis), and dC/dp = J^T dC/dv.
+
+Two stages, each a few steps of one analysis:
+
+1. *Same material, stiffer.* Each void moves along minus its compliance gradient with the part along its area
+   gradient taken out (first order: its area stays), so the panel loses the same material in better places.
+2. *Grow.* Each void moves along grad A - grad C / (2 rho): material is worth removing while the stiffness it costs
+   is below what the optimiser paid at its removal threshold (``rho``, a strain-energy density; removing area dA
+   where the density is w raises the compliance by 2 w dA). A step is kept when it removes more and the panel
+   stays no softer than ``cap_Nmm`` (the freeform layout's compliance); growth stops at the optimiser's removed
+   area.
+
+Every trial step of every void is checked against the rules (the caller's ``fits``: region open to voids, webs,
+least size) and against the shape's own limits (corner count, least side, corner angles); a void whose step
+breaks one halves it, then keeps its place. A step the analysis shows to be worse is undone and the step length
+halved. A stage that cannot improve keeps what it was given, and says so.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, replace
+from typing import Callable
+
+import numpy as np
+import shapely
+
+from ..fe.assembly import Assembler
+from ..fe.boundary import fixed_dofs
+from ..fe.element import q4_stiffness
+from ..fe.fractions import solid_fractions
+from ..fe.loads import load_matrix
+from ..fe.solve import LinearSolver
+from ..model import Panel
+from .cover import MIN_INTERIOR_DEG, MIN_TURN_DEG, corner_measures
+from .outline import Draft
+from .sensitivity import compliance_gradient, element_energy
+
+# Elements a void empties keep this share of their stiffness, so the system keeps one pattern and one set of
+# free dofs from step to step (the final figures come from the full analysis, which leaves them out).
+EMPTY_SHARE = 1e-6
+# Stage 1 moves the voids at the same material: a step may change the removed area by this share at most.
+SAME_AREA = 2e-3
+# Step of the geometry-only central differences for the outline's Jacobian (mm, radians).
+_H = 1e-4
+
+
+class Evaluator:
+    """Compliance and element energies of the panel with a layout of drafts cut out, on one grid."""
+
+    def __init__(self, panel: Panel, grid):
+        self.panel, self.grid = panel, grid
+        solid = panel.solid
+        base = solid_fractions(grid, solid)
+        m = panel.material
+        self.ke = q4_stiffness(grid.dx, grid.dy, m.E_MPa, m.nu, panel.thickness_mm)
+        self.fixed = fixed_dofs(grid, panel.supports, solid=solid, active_nodes=grid.active_nodes(base > 0),
+                                frame=panel.frame)
+        self.F = load_matrix(grid, panel, fractions=base, solid=solid)
+        self.weights = np.array([panel.case_weight(c) for c in panel.cases], dtype=float)
+        self.assembler = Assembler(grid)
+        self.solid = solid
+        self.solver: LinearSolver | None = None
+        self.analyses = 0
+
+    def __call__(self, drafts) -> tuple[float, np.ndarray]:
+        return self.shapes([d.shape() for d in drafts])
+
+    def shapes(self, shapes) -> tuple[float, np.ndarray]:
+        """Compliance and element energies with ``shapes`` (shapely polygons) cut out."""
+        cut = shapely.difference(self.solid, shapely.union_all(shapes)) if shapes else self.solid
+        f = solid_fractions(self.grid, cut)
+        K = self.assembler.matrix(self.ke, np.maximum(f, EMPTY_SHARE))
+        if self.solver is None:
+            self.solver = LinearSolver(K, ~self.fixed, grid=self.grid)
+        else:
+            self.solver.refactor(K)
+        U = self.solver.solve(self.F)
+        self.analyses += 1
+        c = float(self.weights @ np.einsum("ic,ic->c", self.F, U))
+        return c, element_energy(self.grid, U, self.ke, self.weights)
+
+
+# --- parameters of a draft ----------------------------------------------------------------------------------
+
+
+def params(d: Draft) -> np.ndarray:
+    """The numbers that move: see the module text."""
+    if d.family == "polygon":
+        if d.regular:
+            first = np.asarray(d.corners[0])
+            return np.array([*d.centre, math.hypot(*first), math.atan2(first[1], first[0])])
+        return d.sharp.ravel().copy()
+    if d.family == "slot":
+        return np.array([*d.centre, math.radians(d.angle_deg), d.length])
+    return np.array(d.centre, dtype=float)
+
+
+def with_params(d: Draft, p: np.ndarray) -> Draft:
+    """``d`` with the numbers ``p``."""
+    p = np.asarray(p, dtype=float)
+    if d.family == "polygon":
+        n = len(d.corners)
+        if d.regular:
+            t = p[3] + 2.0 * np.pi * np.arange(n) / n
+            rel = p[2] * np.column_stack([np.cos(t), np.sin(t)])
+            return replace(d, centre=(float(p[0]), float(p[1])), size=2.0 * float(p[2]),
+                           corners=tuple(map(tuple, rel.tolist())))
+        pts = p.reshape(n, 2)
+        area2 = pts[:, 0] * np.roll(pts[:, 1], -1) - np.roll(pts[:, 0], -1) * pts[:, 1]
+        a = area2.sum() / 2.0
+        if abs(a) < 1e-12:
+            return d
+        cx = float(np.sum((pts[:, 0] + np.roll(pts[:, 0], -1)) * area2) / (6.0 * a))
+        cy = float(np.sum((pts[:, 1] + np.roll(pts[:, 1], -1)) * area2) / (6.0 * a))
+        rel = pts - (cx, cy)
+        return replace(d, centre=(cx, cy), size=2.0 * float(np.max(np.linalg.norm(rel, axis=1))),
+                       corners=tuple(map(tuple, rel.tolist())))
+    if d.family == "slot":
+        return replace(d, centre=(float(p[0]), float(p[1])), angle_deg=math.degrees(p[2]) % 180.0,
+                       length=float(max(p[3], d.size)))
+    return replace(d, centre=(float(p[0]), float(p[1])))
+
+
+def vertices(d: Draft) -> np.ndarray:
+    """(m, 2) distinct vertices of the draft's flattened outline."""
+    return np.asarray(d.shape().exterior.coords)[:-1, :2]
+
+
+def jacobian(d: Draft) -> tuple[np.ndarray, np.ndarray] | None:
+    """The outline's vertices (m, 2) and their Jacobian (2m, len(params)).
+
+    An n-gon is taken by its sharp corners (the easing moves with them and changes the gradient only where the
+    corners are): the corners themselves for an irregular one, closed forms for a regular one. Slots and bores
+    by central differences of their flattened outline (None where a step changes the number of vertices)."""
+    if d.family == "polygon":
+        v = d.sharp
+        if not d.regular:
+            return v, np.eye(v.size)
+        rel = v - np.asarray(d.centre)
+        r = float(np.mean(np.linalg.norm(rel, axis=1)))
+        J = np.zeros((v.size, 4))
+        J[0::2, 0] = 1.0
+        J[1::2, 1] = 1.0
+        J[:, 2] = (rel / r).ravel()
+        J[:, 3] = np.column_stack([-rel[:, 1], rel[:, 0]]).ravel()
+        return v, J
+    p = params(d)
+    v0 = vertices(d)
+    cols = []
+    for j in range(p.size):
+        e = np.zeros(p.size)
+        e[j] = _H
+        a, b = vertices(with_params(d, p + e)), vertices(with_params(d, p - e))
+        if a.shape != v0.shape or b.shape != v0.shape:
+            return None
+        cols.append(((a - b) / (2.0 * _H)).ravel())
+    return v0, np.column_stack(cols)
+
+
+def area_gradient(v: np.ndarray) -> np.ndarray:
+    """d area / d vertex (m, 2) of a counter-clockwise polygon (the shoelace formula's derivative)."""
+    nxt, prev = np.roll(v, -1, axis=0), np.roll(v, 1, axis=0)
+    return 0.5 * np.column_stack([nxt[:, 1] - prev[:, 1], prev[:, 0] - nxt[:, 0]])
+
+
+def gradients(grid, energy: np.ndarray, drafts) -> list[tuple[np.ndarray, np.ndarray, np.ndarray] | None]:
+    """Per draft: (dC/dp, dA/dp, J) or None (see ``jacobian``)."""
+    jac = [jacobian(d) for d in drafts]
+    ok = [j for j in jac if j is not None]
+    gv = compliance_gradient(grid, energy, [v for v, _ in ok]) if ok else []
+    out, k = [], 0
+    for j in jac:
+        if j is None:
+            out.append(None)
+            continue
+        v, J = j
+        out.append((J.T @ gv[k].ravel(), J.T @ area_gradient(v).ravel(), J))
+        k += 1
+    return out
+
+
+def shape_ok(d: Draft, feature: float) -> bool:
+    """Whether the draft is still a shape the shop can make: a convex n-gon with sides of at least ``feature``
+    and corners neither flat nor sharp; a slot at least as long as it is wide."""
+    if d.family == "polygon":
+        pts = d.sharp
+        x, y = pts[:, 0], pts[:, 1]
+        if np.sum(x * np.roll(y, -1) - np.roll(x, -1) * y) <= 0:
+            return False
+        interior, turn, side, _ = corner_measures(pts)
+        a, b = pts - np.roll(pts, 1, axis=0), np.roll(pts, -1, axis=0) - pts
+        convex = np.all(a[:, 0] * b[:, 1] - a[:, 1] * b[:, 0] > 0)
+        return bool(convex and side.min() >= feature - 1e-9 and interior.min() >= MIN_INTERIOR_DEG - 1e-9
+                    and turn.min() >= MIN_TURN_DEG - 1e-9)
+    if d.family == "slot":
+        return d.length >= d.size - 1e-9
+    return True
+
+
+# --- the stages ---------------------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class ShapeResult:
+    """What the shape optimisation did: the drafts, compliance and removed area at each stage (first fit, after
+    stage 1, after stage 2), the analyses it ran and its notes."""
+
+    drafts: tuple
+    compliance_Nmm: tuple[float, float, float]
+    area_mm2: tuple[float, float, float]
+    analyses: int
+    notes: tuple[str, ...]
+
+
+def _area(drafts) -> float:
+    return float(sum(d.shape().area for d in drafts))
+
+
+def _direction(stage: int, gc: np.ndarray, ga: np.ndarray, rho: float) -> np.ndarray:
+    if stage == 1:
+        aa = float(ga @ ga)
+        return -(gc - (gc @ ga) / aa * ga) if aa > 0 else -gc
+    return ga - gc / (2.0 * rho)
+
+
+def _free_corners(d: Draft, p: np.ndarray, move: np.ndarray, i: int, state, fits, feature: float):
+    """The step ``move`` of an irregular n-gon's corners with each corner that breaks a rule on its own held back:
+    every corner is tried alone; the corners whose lone move keeps the rules move together."""
+    n = len(d.corners)
+    free = np.zeros(n, dtype=bool)
+    for k in range(n):
+        lone = np.zeros_like(move)
+        lone[2 * k:2 * k + 2] = move[2 * k:2 * k + 2]
+        if not lone.any():
+            continue
+        t = with_params(d, p + lone)
+        free[k] = shape_ok(t, feature) and fits(t, i, state) is not None
+    if not free.any():
+        return None
+    return with_params(d, p + move * np.repeat(free, 2))
+
+
+def optimise(drafts, evaluate: Evaluator, fits: Callable, *, rho: float, target_area_mm2: float,
+             feature_mm: float, step_mm: float, steps: int = 6, cap_Nmm: float = math.inf) -> ShapeResult:
+    """Stage 1 then stage 2 (module text) on ``drafts``. ``fits(trial, i, state)`` returns the trial when draft i
+    may become it beside the others (the rules), else None; ``step_mm``: the first step, as the largest move of
+    any outline vertex; ``cap_Nmm``: growth stops short of this compliance (the freeform layout's)."""
+    state = list(drafts)
+    c0, energy = evaluate(state)
+    a0 = _area(state)
+    record = [(c0, a0)]
+    notes = []
+    for stage in (1, 2):
+        c_now, a_now = record[-1]
+        step = step_mm
+        improved = False
+        for _ in range(steps):
+            if stage == 2 and a_now >= target_area_mm2:
+                break
+            grads = gradients(evaluate.grid, energy, state)
+            trial_state = list(state)
+            moved = False
+            for i, (d, g) in enumerate(zip(state, grads)):
+                if g is None:
+                    continue
+                gc, ga, J = g
+                direction = _direction(stage, gc, ga, rho)
+                reach = np.max(np.linalg.norm((J @ direction).reshape(-1, 2), axis=1)) if direction.any() else 0.0
+                if not reach > 0:
+                    continue
+                p = params(d)
+                for halving in range(4):
+                    move = direction * (step / reach) * 0.5 ** halving
+                    trial = with_params(d, p + move)
+                    if not (shape_ok(trial, feature_mm) and fits(trial, i, trial_state) is not None) \
+                            and halving == 0 and stage == 2 and d.family == "polygon" and not d.regular:
+                        # Corners against a rule stay where they are; the others still move (an active set).
+                        trial = _free_corners(d, p, move, i, trial_state, fits, feature_mm)
+                    if trial is not None and shape_ok(trial, feature_mm) and fits(trial, i, trial_state) is not None:
+                        trial_state[i] = trial
+                        moved = True
+                        break
+            if not moved:
+                step *= 0.5
+                continue
+            c_new, e_new = evaluate(trial_state)
+            a_new = _area(trial_state)
+            # Stage 1 keeps the material (to first order; a step that loses more than SAME_AREA of it is not a
+            # like-for-like gain); stage 2 must remove more and stay within the cap.
+            better = (c_new < c_now and a_new >= a_now * (1.0 - SAME_AREA)) if stage == 1 else \
+                (a_new > a_now and c_new <= cap_Nmm)
+            if better:
+                state, energy, c_now, a_now = trial_state, e_new, c_new, a_new
+                improved = True
+            else:
+                step *= 0.5
+        record.append((c_now, a_now))
+        if not improved:
+            notes.append("the shape optimisation found no " + ("stiffer placing of the same material"
+                                                                if stage == 1 else "room to grow under the rules")
+                         + " than the first fit; that stage kept the layout it was given.")
+    return ShapeResult(drafts=tuple(state), compliance_Nmm=tuple(c for c, _ in record),
+                       area_mm2=tuple(a for _, a in record), analyses=evaluate.analyses, notes=tuple(notes))
