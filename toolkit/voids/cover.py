@@ -53,7 +53,7 @@ def major_axis_deg(region) -> float:
 
 
 def _inscribed(region, tol: float | None = None) -> tuple[np.ndarray, float]:
-    tol = tol if tol is not None else max(1e-3, 1e-3 * math.sqrt(max(region.area, 1e-12)))
+    tol = tol if tol is not None else max(1e-3, 5e-3 * math.sqrt(max(region.area, 1e-12)))
     mic = shapely.maximum_inscribed_circle(region, tol)
     xy = shapely.get_coordinates(mic)
     return xy[0], float(mic.length)
@@ -165,8 +165,8 @@ def carve(region, pts: np.ndarray, rounds: int = 12) -> np.ndarray | None:
     Q = Polygon(pts)
     shapely.prepare(region)
     reach = 4.0 * (Q.length + 1.0)
-    directions = np.column_stack([np.cos(np.linspace(0, np.pi, 12, endpoint=False)),
-                                  np.sin(np.linspace(0, np.pi, 12, endpoint=False))])
+    directions = np.column_stack([np.cos(np.linspace(0, np.pi, 8, endpoint=False)),
+                                  np.sin(np.linspace(0, np.pi, 8, endpoint=False))])
     boundary = region.boundary
     for _ in range(rounds):
         outside = shapely.difference(Q, region)
@@ -175,11 +175,11 @@ def carve(region, pts: np.ndarray, rounds: int = 12) -> np.ndarray | None:
         piece = max(shapely.get_parts(outside), key=lambda g: g.area)
         corners = shapely.get_coordinates(piece)[:-1]
         # The cut goes through a point where the region's edge enters the polygon: corners of the outside piece
-        # on the region's boundary (at most a dozen, evenly taken).
+        # on the region's boundary (at most eight, evenly taken).
         on_edge = corners[shapely.dwithin(boundary, shapely.points(corners), 1e-6 * math.sqrt(Q.area))]
         corners = on_edge if len(on_edge) else corners
-        if len(corners) > 12:
-            corners = corners[np.linspace(0, len(corners) - 1, 12).astype(int)]
+        if len(corners) > 8:
+            corners = corners[np.linspace(0, len(corners) - 1, 8).astype(int)]
         centre = np.asarray(Q.centroid.coords[0])
         planes = _halfplanes(corners, directions, centre, reach)
         left = shapely.area(shapely.intersection(piece, planes))

@@ -61,6 +61,12 @@ SAFETY_MM = 0.05
 MIXED_MIN_SHARE = 0.5
 SHRINK_STEPS = tuple(1.0 - 0.05 * k for k in range(11))  # down to half size
 MOVE_RINGS = 4
+# A made void may stand this far out of its freeform void (the contour is no more exact than the grid); the
+# snapping step may move an irregular n-gon's corners by up to half the snap on top.
+ROOM_TOLERANCE_MM = 0.5
+# Relative tolerance of the largest-inscribed-circle searches that only choose among candidates (the proof and
+# the placing step measure finely).
+FIT_RTOL = 5e-3
 # The most voids one freeform void is split into along its length.
 MAX_PIECES = 4
 # The words a schedule uses for the tool that makes each family, by the trade of the profile: a timber panel's
@@ -213,6 +219,7 @@ class Site:
         self.openings = list(openings) if web_ratio > 0.0 else []
         # In a symmetric layout every draft stands for itself and its mirror images: each is checked.
         self.mirror = mirror if mirror is not None else Mirror()
+        self._extents: dict[int, tuple] = {}
 
     def shapes(self, draft: Draft) -> list:
         """The shapes of ``draft`` and of its mirror images."""
@@ -228,11 +235,32 @@ class Site:
         if not others:
             return True
         others = np.asarray(others, dtype=object)
+        reach = self.web + SAFETY_MM
+        own = 0.0
+        if self.ratio > 0.0:
+            own = self._extent(shape)
+            reach = max(reach, self.ratio * max(own, max(self._extent(g) for g in others)) + SAFETY_MM)
+        # Only the others within the largest web can break one: the rest are left out before measuring.
+        x0, y0, x1, y1 = shape.bounds
+        near = shapely.intersects(shapely.box(x0 - reach, y0 - reach, x1 + reach, y1 + reach), others)
+        others = others[near]
+        if not len(others):
+            return True
         need = np.full(len(others), self.web)
         if self.ratio > 0.0:
-            extent = 2.0 * shapely.minimum_bounding_radius(np.append(others, shape))
-            need = np.maximum(need, self.ratio * np.maximum(extent[:-1], extent[-1]))
+            extent = np.array([self._extent(g) for g in others])
+            need = np.maximum(need, self.ratio * np.maximum(extent, own))
         return bool(np.all(shapely.distance(shape, others) >= need + SAFETY_MM))
+
+    def _extent(self, shape) -> float:
+        """Diameter of the smallest circle round ``shape``, kept per shape (the same shapes are asked about again
+        and again while voids are placed and moved)."""
+        key = id(shape)
+        hit = self._extents.get(key)
+        if hit is None or hit[0] is not shape:
+            hit = (shape, 2.0 * float(shapely.minimum_bounding_radius(shape)))
+            self._extents[key] = hit
+        return hit[1]
 
     def offsets(self, size: float) -> list[tuple[float, float]]:
         """(0, 0), then rings of 8 directions further and further out, nearest first."""
@@ -494,7 +522,7 @@ def _polygon_in(room: Room, part, r: Resolved, source: int, k: int) -> Draft | N
                 return None
             centre = np.asarray(Polygon(pts).centroid.coords[0])
         poly = Polygon(pts)
-        if inscribed_width(poly) < r.min_void_mm + SAFETY_MM:
+        if inscribed_width(poly, FIT_RTOL) < r.min_void_mm + SAFETY_MM:
             return None
         return _extent(poly), poly.area, (pts, centre)
 
@@ -584,7 +612,7 @@ def candidates(room: Room, family: str, r: Resolved, *, trials: int = 2) -> list
         web = r.web(size)
         for offset in ((0.0, 0.0), (0.5, 0.5)):
             pieces = hex_cells(room.region, size + web, web, angle, offset)
-            useful = [p for p in pieces if inscribed_width(p) >= r.min_void_mm]
+            useful = [p for p in pieces if inscribed_width(p, FIT_RTOL) >= r.min_void_mm]
             if useful:
                 combs.append((sum(p.area for p in useful), useful))
     combs.sort(key=lambda c: -c[0])
@@ -623,7 +651,7 @@ def lattice_layout(allowed, family: str, r: Resolved, score, *, source: int = -1
             pieces = hex_cells(region, pitch, web, 0.0, offset)
             drafts = []
             for i, p in enumerate(pieces):
-                if inscribed_width(p) < r.min_void_mm:
+                if inscribed_width(p, FIT_RTOL) < r.min_void_mm:
                     continue
                 if family == "bore":
                     stock = [d for d in r.bore_diameters_mm if r.min_void_mm <= d <= inscribed_width(p)]
@@ -643,6 +671,32 @@ def lattice_layout(allowed, family: str, r: Resolved, score, *, source: int = -1
     return best[1]
 
 
+def _fill(placed: list[Draft], allowed, site: Site, r: Resolved, score, evaluate, cap: float, openings
+          ) -> tuple[list[Draft], int]:
+    """New voids in the room the layout leaves (the region open to voids less every void grown by its web): a
+    honeycomb there, each new void kept where it keeps the rules beside the others and is worth it; then those
+    costing most stiffness dropped until the panel is no softer than ``cap``. Returns the drafts and how many
+    were added."""
+    if not placed:
+        return placed, 0
+    grown = [shapely.buffer(_shape(d), r.web(_extent(_shape(d)))) for d in placed]
+    room = overlay(shapely.difference, allowed, shapely.union_all(grown))
+    extra = lattice_layout(room, r.family, r, score, source=-1, openings=openings) if not room.is_empty else []
+    state = list(placed)
+    added = []
+    for d in extra:
+        got = site.fits(d, -1, state, move=False)
+        if got is not None:
+            state.append(got)
+            added.append(got)
+    if not added:
+        return placed, 0
+    c, kept = _within_cap(state, evaluate, cap, keep=len(placed))
+    if c > cap or len(kept) <= len(placed):
+        return placed, 0
+    return kept, len(kept) - len(placed)
+
+
 def threshold_density(grid, energy: np.ndarray, voids, band: float = 2.0) -> float | None:
     """The strain-energy density (N mm / mm2) of the solid material within ``band`` elements of the voids in a
     design analysed with them cut (``energy``: per element, u^T ke u of the solid element): the median, taken as
@@ -660,20 +714,23 @@ def threshold_density(grid, energy: np.ndarray, voids, band: float = 2.0) -> flo
     return float(np.median(energy[near])) / (2.0 * grid.element_area)
 
 
-def _within_cap(drafts: list[Draft], evaluate, cap: float, rounds: int = 5) -> tuple[float, list[Draft]]:
+def _within_cap(drafts: list[Draft], evaluate, cap: float, rounds: int = 5, keep: int = 0
+                ) -> tuple[float, list[Draft]]:
     """``drafts`` less the voids that cost most stiffness for their area, a fifth at a time, until the compliance is
-    at most ``cap``: (compliance, drafts left)."""
+    at most ``cap``: (compliance, drafts left). The first ``keep`` drafts are not dropped."""
     state = list(drafts)
     c, energy = evaluate(state)
     for _ in range(rounds):
-        if c <= cap or not state:
+        if c <= cap or len(state) <= keep:
             break
         grid = evaluate.grid
         centres = np.array([d.centre for d in state])
         ix = np.clip((centres[:, 0] / grid.dx).astype(int), 0, grid.nx - 1)
         iy = np.clip((centres[:, 1] / grid.dy).astype(int), 0, grid.ny - 1)
-        worst = np.argsort(-energy[iy * grid.nx + ix])[: max(1, len(state) // 5)]
-        state = [d for k, d in enumerate(state) if k not in set(worst.tolist())]
+        hot = energy[iy * grid.nx + ix]
+        hot[:keep] = -np.inf
+        worst = set(np.argsort(-hot)[: max(1, (len(state) - keep) // 5)].tolist())
+        state = [d for k, d in enumerate(state) if k < keep or k not in worst]
         c, energy = evaluate(state)
     return c, state
 
@@ -729,7 +786,7 @@ def _region_for(allowed, mirror: Mirror, fixed, r: Resolved, cache: dict):
 
 
 def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, energy=None,
-                allowed=None, shape_steps: int = 6) -> Rationalised:
+                allowed=None, shape_steps: int = 4) -> Rationalised:
     """Freeform voids (shapely polygons, local mm) -> voids a shop can make, keeping ``rules``.
 
     ``energy``: the solid panel's strain-energy density for the ``mixed`` family, as a function of points or
@@ -785,7 +842,7 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
             options[v.index] = {f: [d] if (d := _fit_fixed(v, f, r, space, tolerance, fixed, mirror)) else []
                                 for f in families}
             continue
-        room = Room(v, space, shapes[:k] + shapes[k + 1:], r, tolerance, openings=opening_shapes)
+        room = Room(v, space, shapes[:k] + shapes[k + 1:], r, ROOM_TOLERANCE_MM, openings=opening_shapes)
         options[v.index] = {f: candidates(room, f, r) for f in families}
     best = {i: {f: _choose_layout(layouts, score) for f, layouts in fams.items()} for i, fams in options.items()}
 
@@ -855,6 +912,11 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
                           cap_Nmm=cap)
         notes += list(shaped.notes)
         placed = list(shaped.drafts)
+        if r.family != "mixed":
+            placed, filled = _fill(placed, allowed, site, r, score, evaluate, cap, opening_shapes)
+            if filled:
+                notes.append(f"{filled} more void(s) placed in the room the layout left, where the material works "
+                             "least, the panel staying no softer than the freeform layout.")
     elif shape_steps and mirror.axes:
         notes.append("symmetric layout: the shape optimisation of the made voids is not run on it yet; the first "
                      "fit is kept.")

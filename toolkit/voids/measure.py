@@ -88,11 +88,12 @@ def principal_axes(polygon: Polygon) -> tuple[float, tuple[float, float]]:
     return angle, (float(radii[0]), float(radii[1]))
 
 
-def inscribed_width(polygon) -> float:
-    """Diameter of the largest circle inside the shape (0 for an empty one)."""
+def inscribed_width(polygon, rtol: float = 1e-4) -> float:
+    """Diameter of the largest circle inside the shape (0 for an empty one), found to ``rtol`` of the square root
+    of its area (the search returns a circle that fits, so a coarse answer errs small)."""
     if polygon.is_empty or polygon.area <= 0.0:
         return 0.0
-    tol = max(1e-3, 1e-4 * math.sqrt(polygon.area))
+    tol = max(1e-3, rtol * math.sqrt(polygon.area))
     return 2.0 * float(shapely.maximum_inscribed_circle(polygon, tol).length)
 
 

@@ -72,12 +72,16 @@ class Draft:
     def at(self, centre: Point) -> Draft:
         return replace(self, centre=(float(centre[0]), float(centre[1])))
 
-    def corners_snapped(self, snap: float, origin=(0.0, 0.0)) -> Draft | None:
-        """An irregular n-gon with every corner moved to the ``snap`` grid point next to it towards the centre
-        (so the shape shrinks rather than grows); None when two corners would meet."""
+    def corners_snapped(self, snap: float, origin=(0.0, 0.0), inward: bool = True) -> Draft | None:
+        """An irregular n-gon with every corner moved to the ``snap`` grid: to the grid point next to it towards the
+        centre (the shape shrinks rather than grows), or with ``inward`` False to the nearest one. None when two
+        corners would meet."""
         pts = self.sharp - np.asarray(origin, dtype=float)
-        inward = np.asarray(self.centre, dtype=float) - np.asarray(origin, dtype=float) - pts
-        snapped = np.where(inward >= 0, np.ceil(pts / snap - 1e-9), np.floor(pts / snap + 1e-9)) * snap
+        if inward:
+            towards = np.asarray(self.centre, dtype=float) - np.asarray(origin, dtype=float) - pts
+            snapped = np.where(towards >= 0, np.ceil(pts / snap - 1e-9), np.floor(pts / snap + 1e-9)) * snap
+        else:
+            snapped = np.round(pts / snap) * snap
         snapped = snapped + np.asarray(origin, dtype=float)
         if len(np.unique(np.round(snapped, 9), axis=0)) < len(snapped):
             return None

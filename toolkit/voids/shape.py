@@ -50,6 +50,8 @@ from .sensitivity import compliance_gradient, element_energy
 # Elements a void empties keep this share of their stiffness, so the system keeps one pattern and one set of
 # free dofs from step to step (the final figures come from the full analysis, which leaves them out).
 EMPTY_SHARE = 1e-6
+# Stage 2's first reach, in steps (element sizes) of travel of a void's furthest vertex.
+GROW_REACH = 6.0
 # Stage 1 moves the voids at the same material: a step may change the removed area by this share at most.
 SAME_AREA = 2e-3
 # Step of the geometry-only central differences for the outline's Jacobian (mm, radians).
@@ -252,6 +254,59 @@ def _free_corners(d: Draft, p: np.ndarray, move: np.ndarray, i: int, state, fits
     return with_params(d, p + move * np.repeat(free, 2))
 
 
+def _grow_step(state, grads, rho: float, fits, feature: float, reach_mm: float):
+    """Every void moved along grad A - grad C / (2 rho) as far as the rules let it, up to ``reach_mm`` of travel of
+    its furthest vertex (bisection), one void after the other; returns the new drafts and each moved void's
+    (parameters before, move)."""
+    trial_state = list(state)
+    moves = {}
+    for i, (d, g) in enumerate(zip(state, grads)):
+        if g is None:
+            continue
+        gc, ga, J = g
+        direction = _direction(2, gc, ga, rho)
+        travel = np.max(np.linalg.norm((J @ direction).reshape(-1, 2), axis=1)) if direction.any() else 0.0
+        if not travel > 0:
+            continue
+        unit = direction / travel
+        p = params(d)
+
+        def ok(t):
+            return t is not None and shape_ok(t, feature) and fits(t, i, trial_state) is not None
+
+        best = None
+        lo, hi = 0.0, reach_mm
+        top = with_params(d, p + hi * unit)
+        if ok(top):
+            best = (hi, top)
+        else:
+            for _ in range(6):
+                mid = 0.5 * (lo + hi)
+                t = with_params(d, p + mid * unit)
+                if ok(t):
+                    lo, best = mid, (mid, t)
+                else:
+                    hi = mid
+        if best is None and d.family == "polygon" and not d.regular:
+            t = _free_corners(d, p, unit * reach_mm / 8.0, i, trial_state, fits, feature)
+            if ok(t):
+                best = (None, t)
+        if best is not None:
+            trial_state[i] = best[1]
+            moves[i] = (p, params(best[1]) - p)
+    return trial_state, moves
+
+
+def _backed_off(state, trial_state, moves, share: float, fits, feature: float):
+    """The moves of ``_grow_step`` cut to ``share`` of their length (a void whose shorter move breaks a rule stays
+    where it was)."""
+    out = list(trial_state)
+    for i, (p, move) in moves.items():
+        t = with_params(state[i], p + share * move)
+        out[i] = t if shape_ok(t, feature) and fits(t, i, out) is not None else state[i]
+    return out
+
+
 def optimise(drafts, evaluate: Evaluator, fits: Callable, *, rho: float, target_area_mm2: float,
              feature_mm: float, step_mm: float, steps: int = 6, cap_Nmm: float = math.inf) -> ShapeResult:
     """Stage 1 then stage 2 (module text) on ``drafts``. ``fits(trial, i, state)`` returns the trial when draft i
@@ -262,54 +317,75 @@ def optimise(drafts, evaluate: Evaluator, fits: Callable, *, rho: float, target_
     a0 = _area(state)
     record = [(c0, a0)]
     notes = []
-    for stage in (1, 2):
-        c_now, a_now = record[-1]
-        step = step_mm
-        improved = False
-        for _ in range(steps):
-            if stage == 2 and a_now >= target_area_mm2:
-                break
-            grads = gradients(evaluate.grid, energy, state)
-            trial_state = list(state)
-            moved = False
-            for i, (d, g) in enumerate(zip(state, grads)):
-                if g is None:
-                    continue
-                gc, ga, J = g
-                direction = _direction(stage, gc, ga, rho)
-                reach = np.max(np.linalg.norm((J @ direction).reshape(-1, 2), axis=1)) if direction.any() else 0.0
-                if not reach > 0:
-                    continue
-                p = params(d)
-                for halving in range(4):
-                    move = direction * (step / reach) * 0.5 ** halving
-                    trial = with_params(d, p + move)
-                    if not (shape_ok(trial, feature_mm) and fits(trial, i, trial_state) is not None) \
-                            and halving == 0 and stage == 2 and d.family == "polygon" and not d.regular:
-                        # Corners against a rule stay where they are; the others still move (an active set).
-                        trial = _free_corners(d, p, move, i, trial_state, fits, feature_mm)
-                    if trial is not None and shape_ok(trial, feature_mm) and fits(trial, i, trial_state) is not None:
-                        trial_state[i] = trial
-                        moved = True
-                        break
-            if not moved:
-                step *= 0.5
+    # Stage 1: same material, stiffer: small steps, each kept only when the analysis shows a stiffer panel.
+    c_now, a_now = record[-1]
+    step = step_mm
+    improved = False
+    for _ in range(steps):
+        grads = gradients(evaluate.grid, energy, state)
+        trial_state = list(state)
+        moved = False
+        for i, (d, g) in enumerate(zip(state, grads)):
+            if g is None:
                 continue
+            gc, ga, J = g
+            direction = _direction(1, gc, ga, rho)
+            reach = np.max(np.linalg.norm((J @ direction).reshape(-1, 2), axis=1)) if direction.any() else 0.0
+            if not reach > 0:
+                continue
+            p = params(d)
+            for halving in range(4):
+                trial = with_params(d, p + direction * (step / reach) * 0.5 ** halving)
+                if shape_ok(trial, feature_mm) and fits(trial, i, trial_state) is not None:
+                    trial_state[i] = trial
+                    moved = True
+                    break
+        if not moved:
+            step *= 0.5
+            continue
+        c_new, e_new = evaluate(trial_state)
+        a_new = _area(trial_state)
+        # The material stays (to first order; a step losing more than SAME_AREA of it is no like-for-like gain).
+        if c_new < c_now and a_new >= a_now * (1.0 - SAME_AREA):
+            state, energy, c_now, a_now = trial_state, e_new, c_new, a_new
+            improved = True
+        else:
+            step *= 0.5
+    record.append((c_now, a_now))
+    if not improved:
+        notes.append("the shape optimisation found no stiffer placing of the same material than the first fit; "
+                     "it kept the first fit.")
+
+    # Stage 2: grow. Each void goes as far along its ascent direction as the rules let it (bisection on the
+    # rules alone, no analysis); then one analysis, and the moves are halved while the panel is softer than
+    # the cap.
+    improved = False
+    reach_mm = GROW_REACH * step_mm
+    price = rho
+    for _ in range(steps):
+        if a_now >= target_area_mm2:
+            break
+        grads = gradients(evaluate.grid, energy, state)
+        trial_state, moves = _grow_step(state, grads, price, fits, feature_mm, reach_mm)
+        if not moves or _area(trial_state) <= a_now:
+            # Growing here costs more stiffness than the optimiser's own rate; while the panel is stiffer than the
+            # cap there is stiffness to spend: price it lower (the cap still bounds the result).
+            price *= 4.0
+            continue
+        for halving in range(4):
             c_new, e_new = evaluate(trial_state)
             a_new = _area(trial_state)
-            # Stage 1 keeps the material (to first order; a step that loses more than SAME_AREA of it is not a
-            # like-for-like gain); stage 2 must remove more and stay within the cap.
-            better = (c_new < c_now and a_new >= a_now * (1.0 - SAME_AREA)) if stage == 1 else \
-                (a_new > a_now and c_new <= cap_Nmm)
-            if better:
-                state, energy, c_now, a_now = trial_state, e_new, c_new, a_new
-                improved = True
-            else:
-                step *= 0.5
-        record.append((c_now, a_now))
-        if not improved:
-            notes.append("the shape optimisation found no " + ("stiffer placing of the same material"
-                                                                if stage == 1 else "room to grow under the rules")
-                         + " than the first fit; that stage kept the layout it was given.")
+            if c_new <= cap_Nmm or halving == 3:
+                break
+            trial_state = _backed_off(state, trial_state, moves, 0.5 ** (halving + 1), fits, feature_mm)
+        if a_new > a_now and c_new <= cap_Nmm:
+            state, energy, c_now, a_now = trial_state, e_new, c_new, a_new
+            improved = True
+        else:
+            reach_mm *= 0.5
+    record.append((c_now, a_now))
+    if not improved:
+        notes.append("the shape optimisation found no room to grow the voids under the rules and the stiffness of "
+                     "the freeform layout; it kept the layout it had.")
     return ShapeResult(drafts=tuple(state), compliance_Nmm=tuple(c for c, _ in record),
                        area_mm2=tuple(a for _, a in record), analyses=evaluate.analyses, notes=tuple(notes))

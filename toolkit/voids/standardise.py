@@ -198,8 +198,13 @@ def snap_centres(drafts: list[Draft], snap: float, fits: Callable[[Draft, int, l
         if d is None:
             continue
         if d.family == "polygon" and not d.regular:
-            trial = d.corners_snapped(snap, origin)
-            placed = fits(trial, i, state) if trial is not None else None
+            # The nearest grid points first (the shape keeps its size); where that breaks a rule, towards the centre.
+            placed = None
+            for inward in (False, True):
+                trial = d.corners_snapped(snap, origin, inward=inward)
+                placed = fits(trial, i, state) if trial is not None else None
+                if placed is not None:
+                    break
             if placed is not None:
                 state[i] = placed
             else:
