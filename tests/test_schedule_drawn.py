@@ -151,8 +151,15 @@ def _run(tmp_path: Path, job: str, size=(1500, 500)) -> tuple[dict, Path]:
     add_rectangle(doc.modelspace(), Placement(), 0, 0, *size)
     dxf = write(doc, tmp_path / "panel.dxf")
     (tmp_path / "job.toml").write_text(job)
-    out = optimize_file(dxf, tmp_path / "job.toml", out_dir=tmp_path / "out")
+    optimize_file(dxf, tmp_path / "job.toml", out_dir=tmp_path / "out")
     schedule = json.loads((tmp_path / "out" / "panel-schedule.json").read_text())
+    summary = json.loads((tmp_path / "out" / "panel-optimize.json").read_text())
+    # The share of the freeform saving kept is the two removed shares' ratio; the made layout is no softer.
+    assert summary["capture_percent"] == pytest.approx(
+        100 * summary["mass_removed_percent"] / summary["mass_removed_freeform_percent"], rel=1e-9)
+    assert summary["compliance_rationalized_Nmm"] <= summary["compliance_freeform_Nmm"] * (1 + 1e-9)
+    shape = summary["shape_optimisation"]
+    assert shape["compliance_same_mass_Nmm"] <= shape["compliance_first_fit_Nmm"]
     return schedule, tmp_path / "out" / "panel-lacuna.dxf"
 
 

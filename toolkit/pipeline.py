@@ -24,7 +24,7 @@ from .optimize import BesoResult, OptimizeSettings, ZoneSettings, build_problem,
 from .rules.check import impossible_rules
 from .rules.profiles import rules_for
 from .voids.extract import freeform_voids
-from .voids.layout import Rationalised, rationalise
+from .voids.layout import Rationalised, rationalise, refuse_impossible
 
 G_M_S2 = 9.81
 
@@ -146,6 +146,7 @@ def optimize_panel(
     settings = job.optimize
     # Before any work: "no void can be placed: ..." in plain words; else the region open to voids.
     void_region = impossible_rules(panel, rules)
+    refuse_impossible(panel, dataclasses.replace(job.voids, optimize_symmetry=job.optimize.symmetry), rules)
     # The optimiser needs more memory than the analysis: refuse a grid too fine for it before either runs.
     nx, ny = grid_shape(panel.width_mm, panel.height_mm, panel.element_size_mm)
     check_memory(nx, ny, panel.width_mm / nx, panel.height_mm / ny, stage="optimize", cases=len(panel.cases),

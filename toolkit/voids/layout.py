@@ -184,6 +184,46 @@ def resolve_settings(settings: VoidOptions, rules: Rules, thickness_mm: float = 
                     tools=TOOL_WORDS.get(rules.profile, TOOL_WORDS["custom"]))
 
 
+def refuse_impossible(panel: Panel, settings: VoidOptions, rules: Rules) -> None:
+    """LacunaError, before any long work, when the stock sizes or the n-gon's limits leave no void possible in the
+    room the rules leave (``rules.check.impossible_rules`` has already said whether any void of the least size
+    fits): one paragraph naming the setting and the smallest change that would admit a void."""
+    r = resolve_settings(settings, rules, panel.thickness_mm)
+    region = rule_check.impossible_rules(panel, rules)
+    room = inscribed_width(region) if not region.is_empty else 0.0
+    where_room = (f"the largest circle the rules leave room for (edge cover, bearing zones, webs round openings"
+                  + (", the depth band" if rules.depth_band else "") + f") is {room:.0f} mm across")
+    bores = [d for d in r.bore_diameters_mm if d >= r.min_void_mm]
+    slots = [w for w in r.slot_widths_mm if w >= r.min_void_mm]
+    # A regular n-gon with sides of the least feature has an inscribed circle of feature / tan(pi / n) across.
+    ngon = max(r.min_void_mm, r.least_feature_mm / math.tan(math.pi / r.sides))
+    problems = []
+    if r.family in ("bore", "mixed"):
+        if not bores:
+            problems.append((f"every bore diameter listed is under the least void of {r.min_void_mm:g} mm",
+                             "[voids] bore_diameters", f"List a diameter of at least {r.min_void_mm:g} mm."))
+        elif min(bores) > room:
+            problems.append((f"{where_room}, and the smallest bore listed is {min(bores):g} mm",
+                             "[voids] bore_diameters", f"Add a bore of at most {math.floor(room):g} mm."))
+    if r.family in ("slot", "mixed"):
+        if not slots:
+            problems.append((f"every slot width is under the least void of {r.min_void_mm:g} mm",
+                             "[voids] slot_widths", f"List a width of at least {r.min_void_mm:g} mm."))
+        elif min(slots) > room:
+            problems.append((f"{where_room}, and the narrowest slot listed is {min(slots):g} mm wide",
+                             "[voids] slot_widths", f"Add a slot width of at most {math.floor(room):g} mm."))
+    if r.family in ("polygon", "mixed") and ngon > room:
+        problems.append((f"{where_room}, and the smallest {r.sides}-gon with sides of the least feature "
+                         f"{r.least_feature_mm:g} mm is {ngon:.0f} mm across its flats",
+                         "[voids] sides",
+                         f"Use fewer sides (a {r.sides}-gon needs room for {r.sides} sides of "
+                         f"{r.least_feature_mm:g} mm), or a profile with a smaller least feature."))
+    families = {"mixed": 3}.get(r.family, 1)
+    if len(problems) >= families:
+        what, where, hint = problems[0]
+        raise LacunaError(f"no void can be made: {what}.", where=where, hint=hint)
+
+
 def _check_lengths(values, where: str, what: str, example: str) -> None:
     if not values:
         raise LacunaError(f"no {what} given; at least one is needed.", where=where, hint=f"List them, {example}.")

@@ -346,7 +346,7 @@ def optimise(drafts, evaluate: Evaluator, fits: Callable, *, rho: float, target_
         c_new, e_new = evaluate(trial_state)
         a_new = _area(trial_state)
         # The material stays (to first order; a step losing more than SAME_AREA of it is no like-for-like gain).
-        if c_new < c_now and a_new >= a_now * (1.0 - SAME_AREA):
+        if c_new < c_now and a_new >= a0 * (1.0 - SAME_AREA):
             state, energy, c_now, a_now = trial_state, e_new, c_new, a_new
             improved = True
         else:
