@@ -209,7 +209,7 @@ LIMIT_SHARE = 0.8
 def limiting_rule(panel: Panel, freeform, void_options, rules: Rules, energy, made_mm2: float,
                   free_mm2: float) -> str:
     """Which spacing rule held the made layout short of the freeform one, in words with the figure relaxing it
-    would give: the layout is fitted again (first fit, no shape optimisation: a lower bound) with the web ratio
+    would give: the layout is fitted again (first fit by area, no analysis: a lower bound) with the web ratio
     halved, and with the minimum web halved; the larger gain is named."""
     trials = []
     if rules.web_ratio:
@@ -222,7 +222,7 @@ def limiting_rule(panel: Panel, freeform, void_options, rules: Rules, energy, ma
                        f"a minimum web of {rules.min_web_mm / 2.0:g} mm"))
     best = None
     for key, relaxed, name, change in trials:
-        got = rationalise(panel, freeform, void_options, relaxed, energy=energy, shape_steps=0)
+        got = rationalise(panel, freeform, void_options, relaxed, shape_steps=0)
         area = float(sum(v.area_mm2 for v in got.voids))
         if best is None or area > best[0]:
             best = (area, key, name, change)

@@ -155,7 +155,7 @@ def _halfplanes(points: np.ndarray, directions: np.ndarray, keep: np.ndarray, re
     return shapely.polygons(corners)
 
 
-def carve(region, pts: np.ndarray, rounds: int = 12) -> np.ndarray | None:
+def carve(region, pts: np.ndarray, rounds: int = 8) -> np.ndarray | None:
     """The convex polygon ``pts`` cut by straight lines until ``region`` covers it, each cut losing least area.
 
     Each piece of the polygon outside the region is cut off by the line, through one of that piece's corners and
@@ -223,6 +223,9 @@ def hull_ngon(region, sides: int, feature: float) -> np.ndarray | None:
     hull = shapely.convex_hull(region)
     if not isinstance(hull, Polygon) or hull.area <= 0:
         return None
+    # Douglas-Peucker only deletes corners, so the simplified hull is convex and inside the hull; it leaves the
+    # few corners that matter for the cut-down below (a contoured hull has dozens).
+    hull = shapely.simplify(hull, max(0.05 * feature, 2e-3 * math.sqrt(hull.area)))
     pts = shapely.get_coordinates(hull.exterior)[:-1]
     tidy = tidy_ngon(pts, sides, feature)
     if tidy is None:
@@ -466,3 +469,47 @@ def hex_cells(region, pitch: float, web: float, angle_deg: float, offset: tuple[
         if part is not None:
             out.append(shapely.transform(part, lambda xy: _rotate(xy, -a)))
     return out
+
+
+def slot_rows(region, widths, web_of, angle_deg: float | None = None, most: int = 24
+              ) -> list[tuple[tuple[float, float], float, float, float]]:
+    """Slots of one stock width side by side along the region's major axis, a web apart: (centre, angle_deg,
+    width, length) each; the width and row offset removing most area.
+
+    Each row is a strip one slot wide; the slot's axis is the longest chord of the strip's part of the region shrunk
+    by half the width. With a web tied to the slot's size the rows are set a web for the longest slot apart."""
+    angle = major_axis_deg(region) if angle_deg is None else angle_deg
+    a = math.radians(angle)
+    turned = shapely.transform(region, lambda xy: _rotate(xy, a))
+    x0, y0, x1, y1 = turned.bounds
+    _, r0 = _inscribed(region)
+    best: tuple[float, list] = (0.0, [])
+    for w in sorted({float(x) for x in widths if x <= 2.0 * r0}, reverse=True)[:3]:
+        core = shapely.buffer(turned, -w / 2.0, quad_segs=8)
+        if core.is_empty:
+            continue
+        for length_guess in (x1 - x0, 0.5 * (x1 - x0)):
+            pitch = w + web_of(max(length_guess, w), max(length_guess, w))
+            for offset in (0.0, 0.5):
+                ys = np.arange(y0 + w / 2.0 + offset * pitch, y1, pitch)
+                if ys.size == 0 or ys.size > most:
+                    continue
+                lines = shapely.linestrings(np.stack([np.column_stack([np.full(ys.size, x0 - 1.0), ys]),
+                                                      np.column_stack([np.full(ys.size, x1 + 1.0), ys])], axis=1))
+                cut = shapely.intersection(core, lines)
+                slots, area = [], 0.0
+                for g in cut:
+                    parts = [p for p in shapely.get_parts(g) if p.length > 0]
+                    if not parts:
+                        continue
+                    seg = max(parts, key=lambda p: p.length)
+                    xy = _rotate(shapely.get_coordinates(seg)[[0, -1]], -a)
+                    length = float(seg.length) + w
+                    if length > length_guess + w + 1e-6:
+                        continue  # longer than the web was set for
+                    c = xy.mean(axis=0)
+                    slots.append(((float(c[0]), float(c[1])), angle % 180.0, w, length))
+                    area += w * (length - w) + math.pi * w * w / 4.0
+                if area > best[0]:
+                    best = (area, slots)
+    return best[1]

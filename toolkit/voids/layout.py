@@ -45,7 +45,7 @@ from ..model import Panel, Rules, Void
 from ..rules import check as rule_check
 from .cover import _inscribed as cover_inscribed
 from .cover import (hex_cells, hull_ngon, inscribed_slot, largest_part, major_axis_deg, packed_bores,
-                    regular_corners, regular_ngon, split)
+                    regular_corners, regular_ngon, slot_rows, split)
 from .fit import fit_error, fit_polygon, fit_slot, overlay
 from .measure import FreeformVoid, clean, inscribed_width
 from .outline import Draft
@@ -67,6 +67,9 @@ ROOM_TOLERANCE_MM = 0.5
 # Relative tolerance of the largest-inscribed-circle searches that only choose among candidates (the proof and
 # the placing step measure finely).
 FIT_RTOL = 5e-3
+# A honeycomb over the whole region replaces the voids fitted to the freeform ones only when it removes this many
+# times their area (or they are softer than the freeform layout): the optimiser's load paths are worth keeping.
+LATTICE_GAIN = 1.1
 # The most voids one freeform void is split into along its length.
 MAX_PIECES = 4
 # The words a schedule uses for the tool that makes each family, by the trade of the profile: a timber panel's
@@ -193,25 +196,20 @@ def refuse_impossible(panel: Panel, settings: VoidOptions, rules: Rules) -> None
     room = inscribed_width(region) if not region.is_empty else 0.0
     where_room = (f"the largest circle the rules leave room for (edge cover, bearing zones, webs round openings"
                   + (", the depth band" if rules.depth_band else "") + f") is {room:.0f} mm across")
-    bores = [d for d in r.bore_diameters_mm if d >= r.min_void_mm]
-    slots = [w for w in r.slot_widths_mm if w >= r.min_void_mm]
     # A regular n-gon with sides of the least feature has an inscribed circle of feature / tan(pi / n) across.
     ngon = max(r.min_void_mm, r.least_feature_mm / math.tan(math.pi / r.sides))
     problems = []
-    if r.family in ("bore", "mixed"):
-        if not bores:
-            problems.append((f"every bore diameter listed is under the least void of {r.min_void_mm:g} mm",
-                             "[voids] bore_diameters", f"List a diameter of at least {r.min_void_mm:g} mm."))
-        elif min(bores) > room:
-            problems.append((f"{where_room}, and the smallest bore listed is {min(bores):g} mm",
-                             "[voids] bore_diameters", f"Add a bore of at most {math.floor(room):g} mm."))
-    if r.family in ("slot", "mixed"):
-        if not slots:
-            problems.append((f"every slot width is under the least void of {r.min_void_mm:g} mm",
-                             "[voids] slot_widths", f"List a width of at least {r.min_void_mm:g} mm."))
-        elif min(slots) > room:
-            problems.append((f"{where_room}, and the narrowest slot listed is {min(slots):g} mm wide",
-                             "[voids] slot_widths", f"Add a slot width of at most {math.floor(room):g} mm."))
+    for family, stock, key, noun, ask in (("bore", r.bore_diameters_mm, "bore_diameters", "smallest bore", "a bore"),
+                                          ("slot", r.slot_widths_mm, "slot_widths", "narrowest slot", "a slot width")):
+        if r.family not in (family, "mixed"):
+            continue
+        usable = [d for d in stock if d >= r.min_void_mm]
+        if not usable:
+            problems.append((f"every {key.replace('_', ' ')[:-1]} listed is under the least void of "
+                             f"{r.min_void_mm:g} mm", f"[voids] {key}", f"List {ask} of at least {r.min_void_mm:g} mm."))
+        elif min(usable) > room:
+            problems.append((f"{where_room}, and the {noun} listed is {min(usable):g} mm", f"[voids] {key}",
+                             f"Add {ask} of at most {math.floor(room):g} mm."))
     if r.family in ("polygon", "mixed") and ngon > room:
         problems.append((f"{where_room}, and the smallest {r.sides}-gon with sides of the least feature "
                          f"{r.least_feature_mm:g} mm is {ngon:.0f} mm across its flats",
@@ -662,6 +660,14 @@ def candidates(room: Room, family: str, r: Resolved, *, trials: int = 2) -> list
         drafts = [d for i, p in enumerate(pieces) if (d := fit(room, p, r, v.index, i)) is not None]
         if drafts:
             out.append(drafts)
+    if family == "slot":
+        # Slots side by side along the void's length, in the room its neighbours leave for slots of the void's size.
+        widths = [w for w in r.slot_widths_mm if w >= r.min_void_mm]
+        space = room.within(room.region, min(length, max(widths or [0.0])))
+        rows = slot_rows(space, widths, r.web) if space is not None and widths else []
+        if rows:
+            out.append([Draft(family="slot", centre=c, size=w, length=n, angle_deg=ang, source=v.index, part=k,
+                              tools=r.tools) for k, (c, ang, w, n) in enumerate(rows)])
     return out
 
 
@@ -687,7 +693,7 @@ def lattice_layout(allowed, family: str, r: Resolved, score, *, source: int = -1
         # the region's depth (a band one void deep holds one row).
         centre_y = cover_inscribed(region)[0][1]
         through = ((centre_y - (region.bounds[1] - row)) / row) % 1.0
-        for offset in [(ox, oy) for oy in (0.0, through) for ox in (0.0, 0.25, 0.5, 0.75)]:
+        for offset in [(ox, oy) for oy in (0.0, through) for ox in (0.0, 0.5)]:
             pieces = hex_cells(region, pitch, web, 0.0, offset)
             drafts = []
             for i, p in enumerate(pieces):
@@ -927,10 +933,13 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
         grid_drafts = lattice_layout(allowed, r.family, r, score, openings=opening_shapes) \
             if r.family != "mixed" else []
         other = place(grid_drafts, site, r) if grid_drafts else None
-        if other is not None and other[0]:
+        area_fit = sum(_shape(d).area for d in placed)
+        # The honeycomb is analysed only when it could be taken: it removes more, or the fit is too soft.
+        if other is not None and other[0] and (c_fit > cap or sum(_shape(d).area for d in other[0]) > area_fit):
             c_grid, lattice = _within_cap(other[0], evaluate, cap)
-            area_fit, area_grid = (sum(_shape(d).area for d in ds) for ds in (placed, lattice))
-            if c_grid <= cap and (c_fit > cap or area_grid > area_fit):
+            area_grid = sum(_shape(d).area for d in lattice)
+            # The optimiser's own topology is kept unless the honeycomb removes clearly more (LATTICE_GAIN).
+            if c_grid <= cap and (c_fit > cap or area_grid > LATTICE_GAIN * area_fit):
                 notes.append(f"the voids are laid as a honeycomb over the region open to voids: under the web the "
                              f"rules ask it keeps more of the saving than voids fitted one by one to the "
                              f"optimiser's freeform voids ({area_grid:.0f} against {area_fit:.0f} mm2 removed, "

@@ -230,11 +230,18 @@ def _area(drafts) -> float:
     return float(sum(d.shape().area for d in drafts))
 
 
-def _direction(stage: int, gc: np.ndarray, ga: np.ndarray, rho: float) -> np.ndarray:
+def _direction(stage: int, g, rho: float) -> np.ndarray | None:
+    """A void's step direction in its parameters, scaled so that its furthest outline vertex travels 1 mm per unit
+    (None when it does not move): stage 1, minus the compliance gradient with the area gradient's part taken out;
+    stage 2, grad A - grad C / (2 rho)."""
+    gc, ga, J = g
     if stage == 1:
         aa = float(ga @ ga)
-        return -(gc - (gc @ ga) / aa * ga) if aa > 0 else -gc
-    return ga - gc / (2.0 * rho)
+        d = -(gc - (gc @ ga) / aa * ga) if aa > 0 else -gc
+    else:
+        d = ga - gc / (2.0 * rho)
+    travel = np.max(np.linalg.norm((J @ d).reshape(-1, 2), axis=1)) if d.any() else 0.0
+    return d / travel if travel > 0 else None
 
 
 def _free_corners(d: Draft, p: np.ndarray, move: np.ndarray, i: int, state, fits, feature: float):
@@ -261,14 +268,9 @@ def _grow_step(state, grads, rho: float, fits, feature: float, reach_mm: float):
     trial_state = list(state)
     moves = {}
     for i, (d, g) in enumerate(zip(state, grads)):
-        if g is None:
+        unit = _direction(2, g, rho) if g is not None else None
+        if unit is None:
             continue
-        gc, ga, J = g
-        direction = _direction(2, gc, ga, rho)
-        travel = np.max(np.linalg.norm((J @ direction).reshape(-1, 2), axis=1)) if direction.any() else 0.0
-        if not travel > 0:
-            continue
-        unit = direction / travel
         p = params(d)
 
         def ok(t):
@@ -326,16 +328,12 @@ def optimise(drafts, evaluate: Evaluator, fits: Callable, *, rho: float, target_
         trial_state = list(state)
         moved = False
         for i, (d, g) in enumerate(zip(state, grads)):
-            if g is None:
-                continue
-            gc, ga, J = g
-            direction = _direction(1, gc, ga, rho)
-            reach = np.max(np.linalg.norm((J @ direction).reshape(-1, 2), axis=1)) if direction.any() else 0.0
-            if not reach > 0:
+            unit = _direction(1, g, rho) if g is not None else None
+            if unit is None:
                 continue
             p = params(d)
             for halving in range(4):
-                trial = with_params(d, p + direction * (step / reach) * 0.5 ** halving)
+                trial = with_params(d, p + unit * step * 0.5 ** halving)
                 if shape_ok(trial, feature_mm) and fits(trial, i, trial_state) is not None:
                     trial_state[i] = trial
                     moved = True
