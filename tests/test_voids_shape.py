@@ -68,6 +68,18 @@ def test_parameter_gradient_matches_finite_differences(name):
     assert np.linalg.norm(gc - fd) <= 1e-4 * np.linalg.norm(fd), (gc, fd)
 
 
+def test_the_evaluator_cuts_the_voids_exactly():
+    # Its fractions (each void's area taken off the cells under it) against shapely's cut of the whole panel
+    # (toolkit.fe.fractions): the same areas, to rounding.
+    from toolkit.fe.fractions import solid_fractions
+    import shapely
+
+    grid = make_grid(PANEL.width_mm, PANEL.height_mm, PANEL.element_size_mm)
+    shapes = [d.shape() for d in DRAFTS.values()]
+    cut = shapely.difference(PANEL.solid, shapely.union_all(shapes))
+    np.testing.assert_allclose(Evaluator(PANEL, grid).fractions(shapes), solid_fractions(grid, cut), atol=1e-9)
+
+
 def test_the_shape_optimisation_never_leaves_a_worse_layout():
     # A cantilever plate of our own with three freeform voids drawn roughly where a cantilever loses material:
     # the optimisation may only make the same material stiffer (stage 1), then grow while the panel stays no

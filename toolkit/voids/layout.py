@@ -314,7 +314,7 @@ class Site:
         """At least the least void size: a polygon's inscribed circle, a slot's width, a bore's diameter; and a
         polygon still one the shop can make (sides of the least feature, corners neither flat nor sharp)."""
         if draft.family == "polygon":
-            return inscribed_width(_shape(draft)) >= self.least + SAFETY_MM and shape_ok(draft, self.feature)
+            return inscribed_width(_shape(draft), FIT_RTOL) >= self.least + SAFETY_MM and shape_ok(draft, self.feature)
         return draft.size >= self.least - 1e-9
 
     def fits(self, trial: Draft, i: int, state: list[Draft], move: bool = True) -> Draft | None:
@@ -529,7 +529,7 @@ def _settled(room: Room, part, fit) -> tuple | None:
     is no more than the one its margin was made for (a few rounds reach it)."""
     extent = _extent(part)
     best = None
-    for _ in range(4 if room.r.web_ratio else 1):
+    for _ in range(3 if room.r.web_ratio else 1):
         space = room.within(part, extent)
         got = fit(space) if space is not None else None
         if got is None:
