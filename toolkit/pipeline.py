@@ -182,7 +182,7 @@ def optimize_panel(
     free = float(sum(g.area for g in freeform))
     limit = ""
     if free > 0 and made < LIMIT_SHARE * free:
-        limit = limiting_rule(panel, list(freeform), void_options, rules, energy, made, free)
+        limit = limiting_rule(panel, list(freeform), void_options, rules, rationalised.voids, made, free)
     lap("limit")
     final = analyze(with_voids(panel, rationalised.voids), grid=solid.grid)
     freeform_analysis = analyze(with_freeform(panel, freeform, solid.grid), grid=solid.grid)
@@ -206,17 +206,21 @@ def optimize_panel(
 LIMIT_SHARE = 0.8
 
 
-def limiting_rule(panel: Panel, freeform, void_options, rules: Rules, energy, made_mm2: float,
+def limiting_rule(panel: Panel, freeform, void_options, rules: Rules, made_voids, made_mm2: float,
                   free_mm2: float) -> str:
     """Which spacing rule held the made layout short of the freeform one, in words with the figure relaxing it
     would give: the layout's first fit (by area, no analysis) is made again as it is, with the web ratio halved
-    and with the minimum web halved; the larger gain, applied to the made layout, is named."""
+    and, where it sets the web, with the minimum web halved; the larger gain, applied to the made layout, is
+    named."""
     trials = []
     if rules.web_ratio:
         trials.append(("web_ratio", dataclasses.replace(rules, web_ratio=rules.web_ratio / 2.0),
                        f"the web ratio ({rules.web_ratio:g} x the larger void's size)",
                        f"a web ratio of {rules.web_ratio / 2.0:g}"))
-    if rules.min_web_mm > 0:
+    # The minimum web is tried only where it, not the web ratio, sets the web of a void of the made layout's
+    # middle size (each trial is a fitting run of its own).
+    sizes = sorted(2.0 * float(shapely.minimum_bounding_radius(v.shape)) for v in made_voids) or [0.0]
+    if rules.min_web_mm > 0 and rules.min_web_mm >= rules.web_ratio * sizes[len(sizes) // 2]:
         trials.append(("min_web", dataclasses.replace(rules, min_web_mm=rules.min_web_mm / 2.0),
                        f"the minimum web ({rules.min_web_mm:g} mm)",
                        f"a minimum web of {rules.min_web_mm / 2.0:g} mm"))
