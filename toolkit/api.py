@@ -40,6 +40,7 @@ class Outcome:
         else:
             lines = [f"{s.get('panel', 'panel')}: {s['elements']} elements"] + _figure_lines(s)
         lines += [f"  warning: {w}" for w in s.get("warnings", [])]
+        lines += [f"  note: {n}" for n in s.get("notes", [])]
         lines += [f"  wrote {p}" for p in s.get("outputs", [])]
         lines.append(f"  caution: {CAUTION}")
         return lines
@@ -269,8 +270,10 @@ def optimize_summary(run: OptimizeRun, drawing: Drawing | None) -> dict:
             "compliance_Nmm": [float(c) for c in beso.compliance_Nmm],
             "volume_fraction": [float(v) for v in beso.volume_fraction],
         },
-        "warnings": list((drawing.warnings if drawing else ()) + run.solid.warnings + run.warnings
-                         + run.rationalised.notes),
+        "warnings": list((drawing.warnings if drawing else ()) + run.solid.warnings + run.warnings),
+        # What the fitting did that is worth knowing but nothing to fix: islands filled, symmetry kept, the
+        # honeycomb taken, voids added, a shape stage that kept its input.
+        "notes": list(run.rationalised.notes),
         "caution": CAUTION,
         "outputs": [],
     }

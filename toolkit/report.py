@@ -118,5 +118,7 @@ def report_markdown(summary: dict, *, result_svg: str, convergence_svg: str, sch
         lines += [f"- {d}" for d in s.get("dropped", [])]
     if s.get("warnings"):
         lines += ["", "## Warnings", ""] + [f"- {w}" for w in s["warnings"]]
+    if s.get("notes"):
+        lines += ["", "## Notes on the fitting", ""] + [f"- {n}" for n in s["notes"]]
     lines += ["", "---", "", CAUTION, ""]
     return "\n".join(lines)
