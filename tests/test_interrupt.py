@@ -60,7 +60,7 @@ profile = "timber-bored"
 """
 FRAMES = 3
 DATE = re.compile(rb"\d{4}-\d{2}-\d{2}")
-TEMPORARY = re.compile(r"^\.(?P<final>.+)\.[^.]+\.part$")  # tempfile.mkstemp(prefix=".<name>.", suffix=".part")
+TEMPORARY = re.compile(r"^\.(?P<final>.+)\.[^.]+\.part$")  # outputs.write_atomic: ".<name>.<random>.part"
 
 
 @pytest.fixture(scope="module")

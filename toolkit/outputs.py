@@ -7,7 +7,7 @@ written until every check has passed, so a bad input never leaves a half-made fo
 from __future__ import annotations
 
 import os
-import tempfile
+import secrets
 from pathlib import Path
 
 from .errors import LacunaError
@@ -46,12 +46,6 @@ def plan_outputs(out_dir: Path, names: list[str], *, inputs: list[Path], force: 
     return targets
 
 
-def _umask() -> int:
-    mask = os.umask(0)
-    os.umask(mask)
-    return mask
-
-
 def write_atomic(path: Path, data: bytes | str) -> None:
     """Write ``data`` to ``path`` through a temporary file in the same folder and an atomic rename."""
     # A damaged drawing's undecodable bytes reach messages as lone surrogates, which UTF-8 cannot hold: they are
@@ -60,8 +54,18 @@ def write_atomic(path: Path, data: bytes | str) -> None:
     path.parent.mkdir(parents=True, exist_ok=True)
     tmp = None
     try:
-        fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=path.parent)
-        os.chmod(tmp, 0o666 & ~_umask())  # mkstemp makes 0600; a result file should read like any other
+        # The temporary's name is known before the file exists, so a Ctrl-C at any moment after its creation
+        # finds it to remove (tempfile.mkstemp creates the file before it returns the name: a Ctrl-C in between
+        # left the file behind). O_EXCL makes the creation fail rather than reuse a name.
+        for _ in range(100):
+            tmp = path.parent / f".{path.name}.{secrets.token_hex(4)}.part"
+            try:
+                fd = os.open(tmp, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o666)  # the umask applies, as for any file
+                break
+            except FileExistsError:
+                tmp = None
+        else:
+            raise LacunaError(f"no temporary name is free beside {path}.", hint="Clear the folder's .part files.")
         with os.fdopen(fd, "wb") as f:
             f.write(payload)
             f.flush()
