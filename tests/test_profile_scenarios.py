@@ -7,7 +7,13 @@ The figures are reported (run with -s to see them) and held to what must be true
 - where the voids to make remove at least as much material as the optimiser's freeform layout did, they are no
   stiffer than it (removing the same material in worse places cannot make a panel stiffer). Both are analysed
   the same way for this comparison, openings cut exactly from the same grid, so the only error left is the
-  solver's (1e-9 relative allowed).
+  solver's (1e-9 relative allowed);
+- the voids to make are never softer than the freeform layout (a requirement of ours, issue 9, no outside
+  source): the fitting holds its own analyses to the freeform layout's compliance; those give emptied elements
+  1e-6 of their stiffness and keep the solid panel's loads, so 1e-3 relative is allowed against the full
+  re-analysis;
+- the precast n-gon scenario keeps at least 80 % of the freeform saving (issue 9's target for that family and
+  profile, a requirement of ours, no outside source; measured 93 %).
 """
 
 from __future__ import annotations
@@ -66,3 +72,6 @@ def test_profile_scenario(profile):
     assert c_made >= c_solid * (1 - 1e-12)
     if run.mass_removed_percent >= removed_free:
         assert c_made >= c_free * (1 - 1e-9)
+    assert c_made <= c_free * (1 + 1e-3)
+    if profile == "precast-formed":
+        assert run.capture_percent >= 80.0
