@@ -20,9 +20,8 @@ fit error plus a penalty on area outside the allowed region (weight ``OUTSIDE_WE
 **Slot.** A stadium along the void's major principal axis; for each stock width the offsets, turn and
 length are fitted; the width with the least fit error wins.
 
-**Bores.** Greedy: the largest stock circle that fits inside (void grown by ``tolerance_mm``) and the
-allowed region goes at the centre of the largest circle that fits there; the place it takes, grown by the
-minimum web, is taken out; repeat until no stock circle fits.
+The main layout now fits voids *inside* their room (``cover``); these best-fit shapes serve the seeds a symmetric
+layout puts on a mid-line (``symmetry``), and ``bore_room`` the symmetric bores.
 """
 
 from __future__ import annotations
@@ -32,7 +31,7 @@ import math
 import numpy as np
 import shapely
 from scipy.optimize import minimize
-from shapely.geometry import LineString, Point, Polygon
+from shapely.geometry import LineString, Polygon
 
 from ..errors import LacunaError
 from .measure import principal_axes, second_moments
@@ -277,28 +276,3 @@ def bore_room(target: Polygon, diameters, smallest_mm: float, tolerance_mm: floa
     if allowed is not None:
         region = overlay(shapely.intersection, region, allowed)
     return stock, region
-
-
-def fit_bores(target: Polygon, diameters, *, allowed=None, min_web_mm: float = 0.0, tolerance_mm: float = 0.5,
-              smallest_mm: float = 0.0, source: int = 0, max_bores: int = 64) -> list[Draft]:
-    """Stock-size bores covering ``target`` greedily, largest first, ``min_web_mm`` apart, inside ``allowed``.
-
-    A bore may stand out of the void by ``tolerance_mm`` (the freeform outline is only as exact as the grid it
-    was contoured on); it never leaves ``allowed``. Diameters under ``smallest_mm`` are not used.
-    """
-    stock, region = bore_room(target, diameters, smallest_mm, tolerance_mm, allowed)
-    if not stock:
-        return []
-    out: list[Draft] = []
-    while len(out) < max_bores and not region.is_empty and region.area > 0.0:
-        mic = shapely.maximum_inscribed_circle(region, 1e-3)
-        radius = float(mic.length)
-        fits = [d for d in stock if d / 2.0 <= radius * (1.0 + 1e-9)]
-        if not fits:
-            break
-        d = fits[0]
-        centre = mic.coords[0]
-        out.append(Draft(family="bore", centre=(float(centre[0]), float(centre[1])), size=d, source=source,
-                         part=len(out)))
-        region = overlay(shapely.difference, region, Point(centre).buffer(d / 2.0 + min_web_mm, quad_segs=32))
-    return out

@@ -1,24 +1,21 @@
 """Freeform voids -> a layout of voids a shop can make, keeping the fabrication rules: ``rationalise``.
 
-The steps, in order:
+The steps, in order (docs/voids.md says the same at length):
 
 1. clean: measure each freeform void (area, centroid, principal axes), drop those narrower than ``min_void``,
    fill solid islands (the outer outline is fitted; see ``measure``);
-2. fit each void by the chosen family (``fit``); ``mixed`` fits all three and keeps, per void, the one that
-   removes the least-working material (below);
-3. place the fitted voids, largest first: a void that leaves the allowed region or comes closer than
-   ``min_web`` to a void already placed is moved a little (rings of 8 directions around its place) and, if
-   that is not enough, made smaller step by step (polygons scaled about their centre, slots shortened then
-   narrowed to the next stock width, bores down the stock diameters); only when nothing fits is it dropped;
-4. standardise sizes (``standardise``) and snap centres, each change kept only where the rules still hold;
-5. prove: ``rules.check.check_layout`` on the final voids; its violations are returned as they are.
-
-**Mixed family measure.** The strain-energy density of the solid panel, averaged over the area a candidate
-removes (the integral over the removed shape divided by its area). The first-order loss of stiffness from
-removing material is that integral, so the lowest average removes the least stiffness per unit of material
-saved. Only candidates removing at least ``MIXED_MIN_SHARE`` of the largest candidate's area compete, so a
-small bore in a quiet corner does not win by removing nearly nothing. Without an energy field the least fit
-error decides.
+2. rooms: each freeform void within the region open to voids, less a margin from its neighbours so the web the
+   rules ask for fits between them (``Room``);
+3. candidates inside each room (``cover``): the whole room, splits along its length, honeycomb pieces, slot rows,
+   packed bores; the one of most worth kept (area less the stiffness it costs, priced where the optimiser
+   stopped); ``mixed`` lets the families compete the same way;
+4. a honeycomb over the whole region competes as a second layout (``lattice_layout``), judged by analysis;
+5. place the voids, largest first: a void that breaks a rule is moved a little, then made smaller, then dropped;
+6. shape optimisation (``shape``): the same material made stiffer, then grown under the rules and the freeform
+   layout's compliance, then new voids where room is left (``_fill``);
+7. standardise sizes (``standardise``) and snap centres (an irregular n-gon's corners), each change kept only
+   where the rules still hold;
+8. prove: ``rules.check.check_layout`` on the final voids; its violations are returned as they are.
 
 **Symmetric layouts** (``symmetry``). When the settings ask for mirror symmetry and the problem has it, the
 freeform voids are folded onto the lower-left half (or quarter), the seeds fitted there (those on a mid-line made
@@ -58,7 +55,6 @@ FAMILIES = ("polygon", "slot", "bore", "mixed")
 CORNERS = ("none", "chamfer", "radius")
 # Every rule is kept with this much to spare, so the check on differently flattened arcs agrees (mm).
 SAFETY_MM = 0.05
-MIXED_MIN_SHARE = 0.5
 SHRINK_STEPS = tuple(1.0 - 0.05 * k for k in range(11))  # down to half size
 MOVE_RINGS = 4
 # A made void may stand this far out of its freeform void (the contour is no more exact than the grid); the
@@ -194,7 +190,7 @@ def refuse_impossible(panel: Panel, settings: VoidOptions, rules: Rules) -> None
     r = resolve_settings(settings, rules, panel.thickness_mm)
     region = rule_check.impossible_rules(panel, rules)
     room = inscribed_width(region) if not region.is_empty else 0.0
-    where_room = (f"the largest circle the rules leave room for (edge cover, bearing zones, webs round openings"
+    where_room = ("the largest circle the rules leave room for (edge cover, bearing zones, webs round openings"
                   + (", the depth band" if rules.depth_band else "") + f") is {room:.0f} mm across")
     # A regular n-gon with sides of the least feature has an inscribed circle of feature / tan(pi / n) across.
     ngon = max(r.min_void_mm, r.least_feature_mm / math.tan(math.pi / r.sides))

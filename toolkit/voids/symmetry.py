@@ -532,7 +532,7 @@ def symmetric_bores(target: Polygon, diameters, *, fixed, mirror: Mirror, allowe
                     max_bores: int = 64) -> list[Draft]:
     """Stock-size bores covering a void symmetric about the mid-lines ``fixed``, greedily, largest first.
 
-    As ``fit.fit_bores``, but each step takes the largest stock circle among three kinds of place: off the
+    As ``cover.greedy_bores``, but each step takes the largest stock circle among three kinds of place: off the
     mid-lines by at least half the web (the bore and its mirror image then keep the web), on one mid-line (its own
     mirror image about it), or at the centre when the void is on both. Ties go to the place on a mid-line (one
     bore where the void's own centre is). The bore and its images under ``fixed`` are then taken out, grown by
