@@ -15,7 +15,8 @@ def _limit_and_shape(s: dict) -> list[str]:
     """What held the layout back, and the shape optimisation's before and after."""
     out = []
     if s.get("limit"):
-        out += [f"**What held the layout back.** {s['limit']}", ""]
+        limit = s["limit"]
+        out += [f"**What held the layout back.** {limit[:1].upper()}{limit[1:]}", ""]
     shape = s.get("shape_optimisation")
     if shape:
         out += [
