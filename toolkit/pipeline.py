@@ -146,7 +146,9 @@ def optimize_panel(
     settings = job.optimize
     # Before any work: "no void can be placed: ..." in plain words; else the region open to voids.
     void_region = impossible_rules(panel, rules)
-    refuse_impossible(panel, dataclasses.replace(job.voids, optimize_symmetry=job.optimize.symmetry), rules)
+    # The voids follow [optimize] symmetry unless [voids] symmetric says otherwise, however the Job was built.
+    void_options = dataclasses.replace(job.voids, optimize_symmetry=job.optimize.symmetry)
+    refuse_impossible(panel, void_options, rules, region=void_region)
     # The optimiser needs more memory than the analysis: refuse a grid too fine for it before either runs.
     nx, ny = grid_shape(panel.width_mm, panel.height_mm, panel.element_size_mm)
     check_memory(nx, ny, panel.width_mm / nx, panel.height_mm / ny, stage="optimize", cases=len(panel.cases),
@@ -173,8 +175,6 @@ def optimize_panel(
     openings = shapely.union_all([o.shape for o in panel.openings]) if panel.openings else None
     freeform = tuple(freeform_voids(problem.grid, beso.densities, exclude=openings))
     energy = (solid.grid, strain_energy_density(solid, panel))
-    # The voids follow [optimize] symmetry unless [voids] symmetric says otherwise, however the Job was built.
-    void_options = dataclasses.replace(job.voids, optimize_symmetry=job.optimize.symmetry)
     lap("freeform outlines")
     rationalised = rationalise(panel, list(freeform), void_options, rules, energy=energy)
     lap("voids")

@@ -183,12 +183,14 @@ def resolve_settings(settings: VoidOptions, rules: Rules, thickness_mm: float = 
                     tools=TOOL_WORDS.get(rules.profile, TOOL_WORDS["custom"]))
 
 
-def refuse_impossible(panel: Panel, settings: VoidOptions, rules: Rules) -> None:
+def refuse_impossible(panel: Panel, settings: VoidOptions, rules: Rules, region=None) -> None:
     """LacunaError, before any long work, when the stock sizes or the n-gon's limits leave no void possible in the
     room the rules leave (``rules.check.impossible_rules`` has already said whether any void of the least size
-    fits): one paragraph naming the setting and the smallest change that would admit a void."""
+    fits): one paragraph naming the setting and the smallest change that would admit a void. ``region``: what
+    ``impossible_rules`` returned, when the caller has it already."""
     r = resolve_settings(settings, rules, panel.thickness_mm)
-    region = rule_check.impossible_rules(panel, rules)
+    if region is None:
+        region = rule_check.impossible_rules(panel, rules)
     room = inscribed_width(region) if not region.is_empty else 0.0
     where_room = ("the largest circle the rules leave room for (edge cover, bearing zones, webs round openings"
                   + (", the depth band" if rules.depth_band else "") + f") is {room:.0f} mm across")
@@ -693,12 +695,12 @@ def lattice_layout(allowed, family: str, r: Resolved, score, *, source: int = -1
             pieces = hex_cells(region, pitch, web, 0.0, offset)
             drafts = []
             for i, p in enumerate(pieces):
-                if inscribed_width(p, FIT_RTOL) < r.min_void_mm:
+                c, radius = cover_inscribed(p)  # one search: its centre and radius go together
+                if 2.0 * radius < r.min_void_mm:
                     continue
                 if family == "bore":
-                    stock = [d for d in r.bore_diameters_mm if r.min_void_mm <= d <= inscribed_width(p)]
+                    stock = [d for d in r.bore_diameters_mm if r.min_void_mm <= d <= 2.0 * radius]
                     if stock:
-                        c, _ = cover_inscribed(p)
                         drafts.append(Draft(family="bore", centre=(float(c[0]), float(c[1])), size=max(stock),
                                             source=source, part=i, tools=r.tools))
                     continue
