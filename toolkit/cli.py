@@ -11,7 +11,9 @@ from pathlib import Path
 
 import click
 
-from . import CAUTION, __version__, api
+# Only click and the light top of the package load here, so `lacuna --help` answers at once; each command imports
+# the API (numpy, scipy, ezdxf, shapely behind it) when it runs. tests/test_startup.py holds this.
+from . import CAUTION, __version__
 from .errors import LacunaError
 
 EXIT_BAD_INPUT = 2
@@ -104,6 +106,8 @@ def main(debug: bool) -> None:
 @_json_option
 @_force_option
 def analyze(panel: Path, job_path: Path | None, out_dir: Path | None, as_json: bool, force: bool) -> None:
+    from . import api
+
     outcome = api.analyze_file(panel, job_path, out_dir=out_dir, force=force)
     _emit(outcome.summary, as_json, outcome.text_lines())
 
@@ -151,6 +155,8 @@ result, the convergence plot, the void schedule (CSV) and the JSON summary.
               help="The drawing already holds results of an earlier run: replace them in the copy.")
 def optimize(panel: Path, job_path: Path | None, out_dir: Path | None, as_json: bool, force: bool, frames: int,
              dxf_version: str | None, replace: bool) -> None:
+    from . import api
+
     progress = _Progress(api.iteration_limit(job_path))
     try:
         outcome = api.optimize_file(panel, job_path, out_dir=out_dir, force=force, frames=frames,
@@ -180,6 +186,8 @@ Exit code 1 when anything is violated; 0 when all rules hold or there is nothing
 @click.pass_context
 def check(ctx, drawing: Path, job_path: Path | None, profile: str | None, layers: str | None, out_dir: Path | None,
           as_json: bool, force: bool, replace: bool) -> None:
+    from . import api
+
     result = api.check_file(drawing, job_path, profile=profile, layers=layers, out_dir=out_dir, force=force,
                             replace=replace)
     _emit(result.summary, as_json, result.text_lines())
@@ -212,6 +220,8 @@ Examples:
               help="Unit of the output drawing.")
 @_force_option
 def convert(source: Path, target: Path, layers: str | None, units: str | None, force: bool) -> None:
+    from . import api
+
     for line in api.convert_file(source, target, layers=layers, units=units, force=force):
         click.echo(one_paragraph(line))
 
@@ -226,6 +236,8 @@ solid panel's stress figure, the optimisation, the voids to make, the drawing co
 @_json_option
 @_force_option
 def demo(out_dir: Path, as_json: bool, force: bool) -> None:
+    from . import api
+
     progress = _Progress(api.iteration_limit(api.demo_files()[1]))
     try:
         outcome = api.run_demo(out_dir, force=force, on_iteration=progress)
@@ -238,6 +250,8 @@ def demo(out_dir: Path, as_json: bool, force: bool) -> None:
 @click.argument("directory", required=False, type=click.Path(file_okay=False, path_type=Path), default=Path("."))
 @_force_option
 def init(directory: Path, force: bool) -> None:
+    from . import api
+
     for path in api.write_starter(directory, force=force):
         click.echo(f"wrote {path}")
 

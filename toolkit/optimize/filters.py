@@ -5,7 +5,6 @@ from __future__ import annotations
 import math
 
 import numpy as np
-import scipy.signal
 import scipy.sparse as sp
 
 from ..errors import LacunaError
@@ -74,6 +73,8 @@ class SensitivityFilter:
 
     def _correlate(self, nodal: np.ndarray) -> np.ndarray:
         """sum over offsets of kernel * nodal value, for every element, as an (ny, nx) image."""
+        import scipy.signal  # only large radii come here; importing it costs more than half a second, so it waits
+
         full = scipy.signal.fftconvolve(nodal, self._kernel[::-1, ::-1], mode="full")
         ny, nx = self.grid.ny, self.grid.nx
         return full[self._ky + 1 : self._ky + 1 + ny, self._kx + 1 : self._kx + 1 + nx]
