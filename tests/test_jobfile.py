@@ -400,7 +400,7 @@ def test_template_parses_and_matches_the_contract_example():
 def test_template_documents_every_key():
     text = template_text()
     for table, keys in TABLE_KEYS.items():
-        header = f"[[{table}]]" if table in ("support", "load") else f"[{table}]"
+        header = f"[[{table}]]" if table in ("support", "load", "moving_load") else f"[{table}]"
         assert header in text, header
         for key in keys:
             assert re.search(rf"^(# )?{key} = ", text, re.M), key

@@ -86,6 +86,8 @@ def _drawing_kN(panel: Panel, vector_N) -> list[float]:
 
 def analysis_summary(panel: Panel, drawing: Drawing | None, result: Analysis) -> dict:
     """The JSON of ``lacuna analyze`` (CONTRACT.md keys first). Positions and force sums in the drawing's axes."""
+    from .moving import summary as travel_summary
+
     weights = result.case_weights
     cases = {}
     for i, case in enumerate(result.cases):
@@ -117,6 +119,7 @@ def analysis_summary(panel: Panel, drawing: Drawing | None, result: Analysis) ->
         "reaction_sum_kN": _drawing_kN(panel, result.reaction_sum_N.sum(axis=0)),
         "load_sum_kN": _drawing_kN(panel, result.load_sum_N.sum(axis=0)),
         "cases": cases,
+        "moving_loads": travel_summary(panel, {"solid": result}),
         "warnings": list((drawing.warnings if drawing else ()) + result.warnings),
         "caution": CAUTION,
         "outputs": [],
@@ -214,9 +217,11 @@ def _shape_json(run: OptimizeRun) -> dict | None:
 
 def optimize_summary(run: OptimizeRun, drawing: Drawing | None) -> dict:
     """The JSON of ``lacuna optimize`` (CONTRACT.md keys), lengths of voids in the drawing's unit."""
+    from .moving import summary as travel_summary
+
     panel, beso, rules = run.panel, run.beso, run.rules
     solid = analysis_summary(panel, drawing, run.solid)
-    for key in ("command", "lacuna_version", "panel", "drawing", "warnings", "caution", "outputs"):
+    for key in ("command", "lacuna_version", "panel", "drawing", "warnings", "caution", "outputs", "moving_loads"):
         solid.pop(key, None)
     f = panel.frame
     c_solid = run.solid.compliance_Nmm
@@ -252,6 +257,9 @@ def optimize_summary(run: OptimizeRun, drawing: Drawing | None) -> dict:
         "capture_percent": run.capture_percent,
         "limit": run.limit,
         "shape_optimisation": _shape_json(run),
+        # Each travelling load's stops with the compliance of each in the three analyses (docs/moving-loads.md).
+        "moving_loads": travel_summary(panel, {"solid": run.solid, "freeform": run.freeform_analysis,
+                                               "rationalized": run.final}),
         "freeform_voids": len(run.freeform),
         "voids": [_void_json(panel, v) for v in run.voids],
         "rules": {

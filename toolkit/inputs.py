@@ -90,6 +90,7 @@ def _assemble(drawing: Drawing, job: Job, *, need_material: bool = True) -> tupl
     loads = _job_wins("load", job.loads, drawing.loads, lambda item: _load_to_local(item, frame), job_name, notes)
 
     notes += _case_notes(loads, job.case_weights, job_name)
+    travels = _travels(drawing, job, loads)
 
     panel = Panel(
         width_mm=drawing.width_mm,
@@ -99,8 +100,9 @@ def _assemble(drawing: Drawing, job: Job, *, need_material: bool = True) -> tupl
         openings=tuple(drawing.openings),
         keep=tuple(drawing.keep),
         supports=supports,
-        loads=loads,
-        case_weights=tuple(job.case_weights),
+        loads=loads + travels.loads,
+        case_weights=tuple(job.case_weights) + travels.case_weights,
+        travels=travels.travels,
         self_weight=job.panel.self_weight,
         element_size_mm=job.panel.element_size_mm,
         frame=frame,
@@ -108,6 +110,34 @@ def _assemble(drawing: Drawing, job: Job, *, need_material: bool = True) -> tupl
         source=drawing.path,
     )
     return panel, notes
+
+
+def _travels(drawing: Drawing, job: Job, loads):
+    """The job's travelling loads as load cases in the local frame, their paths checked to lie on the panel and
+    their stops counted against the memory an analysis of so many cases needs (toolkit.moving)."""
+    from . import moving
+
+    if not job.moving_loads:
+        return moving.Expanded(loads=(), case_weights=(), travels=())
+    import shapely
+    from shapely.geometry import box
+
+    from .fe.grid import grid_shape
+
+    frame = drawing.frame
+    solid = box(0.0, 0.0, drawing.width_mm, drawing.height_mm)
+    if drawing.openings:
+        solid = shapely.difference(solid, shapely.union_all([o.shape for o in drawing.openings]))
+    moving.check_on_panel(job.moving_loads, [_points_to_local((m.start, m.end), frame) for m in job.moving_loads],
+                          solid, frame)
+    static = list(dict.fromkeys(load.case for load in loads))
+    nx, ny = grid_shape(drawing.width_mm, drawing.height_mm, job.panel.element_size_mm)
+    moving.check_memory(moving.stop_counts(job.moving_loads), nx=nx, ny=ny, dx=drawing.width_mm / nx,
+                        dy=drawing.height_mm / ny, other_cases=len(static), stage="analysis")
+    expanded = moving.expand(job.moving_loads, static, [name for name, _ in job.case_weights])
+    travels = tuple(replace(t, at=_points_to_local(t.at, frame)) for t in expanded.travels)
+    return moving.Expanded(loads=tuple(_load_to_local(item, frame) for item in expanded.loads),
+                           case_weights=expanded.case_weights, travels=travels)
 
 
 def _job_wins(kind: str, from_job, from_drawing, to_local, job_name: str, notes: list[str]) -> tuple:

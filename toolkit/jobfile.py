@@ -97,6 +97,7 @@ class Job:
     optimize: OptimizeSettings = field(default_factory=OptimizeSettings)
     voids: VoidOptions = field(default_factory=VoidOptions)
     rules: RuleOptions = field(default_factory=RuleOptions)
+    moving_loads: tuple[MovingLoad, ...] = ()  # drawing axes, mm, N; toolkit.moving makes their load cases
     given: frozenset[str] = frozenset()
     source: str = ""
     warnings: tuple[str, ...] = ()
@@ -114,6 +115,8 @@ TABLE_KEYS: dict[str, tuple[str, ...]] = {
     "layers": ("outline", "openings", "keep", "support", "load"),
     "support": ("at", "from", "to", "fix"),
     "load": ("at", "from", "to", "fx_kN", "fy_kN", "wx_kN_m", "wy_kN_m", "case"),
+    "moving_load": ("from", "to", "positions", "step", "fx_kN", "fy_kN", "wx_kN_m", "wy_kN_m", "length", "case",
+                    "weight"),
     "optimize": (
         "volume_fraction",
         "evolution_rate",
@@ -130,8 +133,8 @@ TABLE_KEYS: dict[str, tuple[str, ...]] = {
     "rules": ("profile", "min_web", "edge_cover", "min_void", "bearing_clearance", "web_ratio"),
 }
 TOP_KEYS: tuple[str, ...] = ("units", "panel", "material", "layers", "support", "load", "cases", "optimize",
-                             "voids", "rules")
-ARRAY_TABLES = ("support", "load")
+                             "voids", "rules", "moving_load")
+ARRAY_TABLES = ("support", "load", "moving_load")
 
 SYMMETRIES = ("none", "x", "y", "xy")
 FAMILIES = ("polygon", "slot", "bore", "mixed")
@@ -340,6 +343,7 @@ class _Reader:
             supports=self.read_supports(data),
             loads=self.read_loads(data),
             case_weights=self.read_cases(data),
+            moving_loads=self.read_moving_loads(data),
             optimize=self.read_optimize(self.table(data, "optimize")),
             voids=self.read_voids(self.table(data, "voids")),
             rules=self.read_rules(self.table(data, "rules")),
@@ -492,6 +496,77 @@ class _Reader:
                 loads.append(LineLoad(start=points[0], end=points[1], intensity_N_per_mm=(fx, fy), case=case,
                                       source=w()))
         return tuple(loads)
+
+    def read_moving_loads(self, data: dict) -> tuple[MovingLoad, ...]:
+        """[[moving_load]]: a point load or a patch travelling along a straight path (docs/moving-loads.md)."""
+        from .model import MovingLoad
+
+        moving = []
+        for i, t in enumerate(self.array(data, "moving_load"), 1):
+            w = lambda key=None: self.where("moving_load", key, i)  # noqa: E731
+            if "at" in t:
+                raise LacunaError("a travelling load has a path, not one point: give from and to.", where=w("at"))
+            for key in ("from", "to"):
+                if key not in t:
+                    raise LacunaError(f"the travelling load's path needs {key} = [x, y].", where=w(key),
+                                      hint="A travelling load runs along a straight path from one point to another.")
+            start, end = self.point(t["from"], w("from"), "from"), self.point(t["to"], w("to"), "to")
+            path = math.dist(start, end)
+            if path == 0.0:
+                raise LacunaError(f"from and to are the same point {list(t['from'])}: the load cannot travel.",
+                                  where=w("to"), hint="Give the two ends of its path; for a load that stays put "
+                                  "write a [[load]].")
+            if ("positions" in t) == ("step" in t):
+                raise LacunaError("give either positions (the number of stops) or step (their spacing), "
+                                  + ("not both." if "positions" in t else "one of them."), where=w(),
+                                  hint="E.g. positions = 9 for nine stops from end to end.")
+            positions = step = None
+            if "positions" in t:
+                positions = self.integer(t["positions"], w("positions"), low=2,
+                                         hint="At least 2 stops (the two ends of the path); for one position "
+                                         "write a [[load]].")
+            else:
+                step = self.length(t["step"], w("step"), "step",
+                                   hint=f"The spacing of the stops along the path, a positive length in "
+                                   f"{self.units}.")
+            point_keys, patch_keys = ("fx_kN", "fy_kN"), ("wx_kN_m", "wy_kN_m")
+            is_patch = any(key in t for key in patch_keys)
+            if is_patch and any(key in t for key in point_keys):
+                raise LacunaError("give a point load (fx_kN / fy_kN) or a patch (wx_kN_m / wy_kN_m with length), "
+                                  "not both.", where=w(), hint="Split it into two [[moving_load]] tables.")
+            if not is_patch and not any(key in t for key in point_keys):
+                raise LacunaError("the travelling load needs a force: fx_kN / fy_kN for a point load, or wx_kN_m "
+                                  "/ wy_kN_m with length for a patch.", where=w(),
+                                  hint="Add e.g. fy_kN = -10 (negative is along -y of the drawing).")
+            if is_patch != ("length" in t):
+                raise LacunaError("length belongs to a patch (wx_kN_m / wy_kN_m) and a patch needs one."
+                                  if is_patch else "length is given but the load is a point load (fx_kN / fy_kN).",
+                                  where=w("length"), hint="A patch is a line load of this length travelling "
+                                  "along the path; a point load has no length.")
+            length = 0.0
+            if is_patch:
+                length = self.length(t["length"], w("length"), "length",
+                                     hint=f"The patch's length along the path, a positive length in {self.units}.")
+                if length >= path:
+                    raise LacunaError(f"the patch ({length / self.scale:g} {self.units}) is as long as its path "
+                                      f"({path / self.scale:g} {self.units}) or longer: it has nowhere to travel.",
+                                      where=w("length"), hint="Shorten the patch or lengthen the path; a load "
+                                      "covering the whole path is a [[load]] line load.")
+            keys, (unit, factor) = ((patch_keys, ("kN/m", N_PER_MM_PER_KN_PER_M)) if is_patch
+                                    else (point_keys, ("kN", N_PER_KN)))
+            force = tuple(self.number(t.get(key, 0.0), w(key), unit=unit) * factor for key in keys)
+            if force == (0.0, 0.0):
+                self.warnings.append(f"{w()}: the travelling load is zero in both directions; it has no effect.")
+            case = (self.text(t["case"], w("case"), hint='Write the case name in double quotes, e.g. "crane".')
+                    if "case" in t else "")
+            weight = self.number(t["weight"], w("weight"), low=0.0, low_open=True,
+                                 hint="The weight of the whole travelling load, shared by its stops; 1 by "
+                                 "default.") if "weight" in t else 1.0
+            moving.append(MovingLoad(start=start, end=end, positions=positions, step_mm=step,
+                                     force_N=None if is_patch else force,
+                                     intensity_N_per_mm=force if is_patch else None, length_mm=length, case=case,
+                                     weight=weight, source=w()))
+        return tuple(moving)
 
     def read_cases(self, data: dict) -> tuple[tuple[str, float], ...]:
         t = data.get("cases", {})

@@ -146,6 +146,47 @@ Load = Union[PointLoad, LineLoad]
 
 
 @dataclass(frozen=True)
+class MovingLoad:
+    """A load travelling along a straight path, as the job file gives it (drawing axes, mm, N).
+
+    A point load (``force_N``) or a patch (``intensity_N_per_mm`` over ``length_mm`` of the path); ``positions``
+    stops from end to end, or stops at most ``step_mm`` apart. ``case`` names its stops' load cases ("" for the
+    default); ``weight`` is the weight of the whole travelling load, shared equally by its stops.
+    """
+
+    start: Point
+    end: Point
+    positions: int | None = None
+    step_mm: float | None = None
+    force_N: Point | None = None
+    intensity_N_per_mm: Point | None = None
+    length_mm: float = 0.0
+    case: str = ""
+    weight: float = 1.0
+    source: str = ""
+
+    @property
+    def is_patch(self) -> bool:
+        return self.intensity_N_per_mm is not None
+
+
+@dataclass(frozen=True)
+class Travel:
+    """A travelling load as the panel carries it: one load case per stop (local frame, mm).
+
+    ``cases`` are the stops' case names in order along the path; ``at`` the load's centre at each stop.
+    """
+
+    name: str
+    cases: tuple[str, ...]
+    at: tuple[Point, ...]
+    weight: float = 1.0
+    length_mm: float = 0.0          # a patch's length (0: a point load)
+    source: str = ""                # the [[moving_load]] table(s) it comes from
+    set_by: str = "positions"       # the job key that set the number of stops: "positions" or "step"
+
+
+@dataclass(frozen=True)
 class Panel:
     """A rectangular panel in its local frame, with everything the analysis needs."""
 
@@ -160,6 +201,7 @@ class Panel:
     case_weights: tuple[tuple[str, float], ...] = ()
     self_weight: bool = False
     element_size_mm: float | None = None
+    travels: tuple[Travel, ...] = ()  # travelling loads: their stops are load cases among ``loads``
     frame: Frame = field(default_factory=Frame)
     name: str = "panel"
     source: str = ""

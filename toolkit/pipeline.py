@@ -151,6 +151,14 @@ def optimize_panel(
     refuse_impossible(panel, void_options, rules, region=void_region)
     # The optimiser needs more memory than the analysis: refuse a grid too fine for it before either runs.
     nx, ny = grid_shape(panel.width_mm, panel.height_mm, panel.element_size_mm)
+    if panel.travels:  # so many stops that the optimiser cannot hold their cases: the positions are at fault
+        from .moving import check_memory as check_stops
+
+        stops = {c for t in panel.travels for c in t.cases}
+        check_stops([(t.source, t.set_by, len(t.cases)) for t in panel.travels], nx=nx, ny=ny,
+                    dx=panel.width_mm / nx, dy=panel.height_mm / ny,
+                    other_cases=len([c for c in panel.cases if c not in stops]), stage="optimize",
+                    filter_radius_mm=settings.filter_radius_mm)
     check_memory(nx, ny, panel.width_mm / nx, panel.height_mm / ny, stage="optimize", cases=len(panel.cases),
                  filter_radius_mm=settings.filter_radius_mm)
     clock = [time.perf_counter()]

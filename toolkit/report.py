@@ -36,6 +36,29 @@ def _limit_and_shape(s: dict) -> list[str]:
     return out
 
 
+def _travel_lines(s: dict) -> list[str]:
+    """Each travelling load: the compliance at every stop, solid / freeform / made."""
+    out = []
+    unit = s["units"]
+    for t in s.get("moving_loads", []):
+        patch = f"a patch {t['patch_length']:g} {unit} long" if t["patch_length"] else "a point load"
+        out += [
+            f"**Travelling load \"{t['case']}\"** ({t['source']}): {patch} at {t['stops']} stops, optimised for all "
+            "of them at once (load cases of equal weight, their compliances summed). Compliance at each stop, "
+            "N mm:",
+            "",
+            f"| stop | x, {unit} | y, {unit} | solid panel | freeform layout | voids to make |",
+            "|---|---:|---:|---:|---:|---:|",
+        ]
+        for k, p in enumerate(t["positions"], 1):
+            out.append(f"| {k} | {p['at'][0]:.1f} | {p['at'][1]:.1f} | {_num(p['compliance_solid_Nmm'], 6)} | "
+                       f"{_num(p['compliance_freeform_Nmm'], 6)} | {_num(p['compliance_rationalized_Nmm'], 6)} |")
+        out.append(f"| largest | | | {_num(t['compliance_solid_max_Nmm'], 6)} | "
+                   f"{_num(t['compliance_freeform_max_Nmm'], 6)} | {_num(t['compliance_rationalized_max_Nmm'], 6)} |")
+        out.append("")
+    return out
+
+
 def report_markdown(summary: dict, *, result_svg: str, convergence_svg: str, schedule_csv: str,
                     date: str) -> str:
     """The report for ``lacuna optimize``'s JSON ``summary``; figure and schedule names are relative links."""
@@ -77,6 +100,7 @@ def report_markdown(summary: dict, *, result_svg: str, convergence_svg: str, sch
         f"target {s['volume_fraction_target']:g} is the {s['volume_fraction_basis']}.",
         "",
         *_limit_and_shape(s),
+        *_travel_lines(s),
         f"![Voids to make]({result_svg})",
         "",
         f"![Convergence]({convergence_svg})",
