@@ -318,3 +318,14 @@ def test_optimize_reports_every_stop_for_solid_freeform_and_made(tmp_path):
     assert 'Travelling load "moving 1"' in report
     rows = [line for line in report.splitlines() if line.startswith("| ") and "| 300.0 |" in line]
     assert len(rows) == 5
+
+
+def test_symmetry_option_converges_when_the_orbits_cannot_meet_the_target_exactly():
+    # With symmetry = "x" the solid count moves in mirror pairs; a target of an odd number of elements can only be
+    # met to within one element. The optimiser must still call the run converged (toolkit/optimize/beso.py).
+    prob = build_problem(beam(travel_job(5)), ZONES)
+    n = prob.n_design
+    odd = 2 * (n // 4) + 1
+    r = run_beso(prob, OptimizeSettings(volume_fraction=odd / n, filter_radius_mm=60.0, symmetry="x"))
+    assert r.converged and r.iterations < 200
+    assert abs(np.count_nonzero(r.densities[prob.design] >= 1.0) - odd) <= 1
