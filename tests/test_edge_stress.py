@@ -280,3 +280,175 @@ def test_web_between_two_bores():
     assert web.to == "V2" and web.width_mm == pytest.approx(60.0, abs=0.05)
     assert 10.0 * 400.0 / (400.0 - 120.0) < web.mean_stress_MPa < web.max_stress_MPa
     assert r1.peak_MPa == pytest.approx(r2.peak_MPa, rel=0.03)   # the layout is symmetric about y = 200
+
+
+# --- lacuna check with [rules] max_edge_stress_MPa ---------------------------------------------------------------
+
+STRIP_JOB = """
+units = "mm"
+[panel]
+thickness = 10
+element_size = 20
+[material]
+E_MPa = 200000
+nu = 0.3
+[[support]]
+from = [0, 0]
+to = [0, 400]
+fix = "x"
+[[support]]
+at = [0, 0]
+fix = "y"
+[[load]]
+from = [1200, 0]
+to = [1200, 400]
+wx_kN_m = 100
+[rules]
+min_web = 20
+edge_cover = 20
+min_void = 20
+bearing_clearance = 50
+"""
+
+
+def strip_drawing(tmp_path, diameter=80.0):
+    from drawings import Placement, add_circle, add_rectangle, new_doc, write
+
+    doc = new_doc()
+    pl = Placement()
+    add_rectangle(doc.modelspace(), pl, 0, 0, 1200, 400)
+    add_circle(doc.modelspace(), pl, (600, 200), diameter, layer="LACUNA-VOID-BORE")
+    return write(doc, tmp_path / "strip.dxf")
+
+
+def test_check_enforces_max_edge_stress(tmp_path):
+    """The strip pulled at 10 MPa with an 80 mm bore: the edge stress is about 31 MPa (Heywood 1952's Ktn 2.51 on
+    the net section, from memory), so 25 MPa allowed is broken and 40 MPa is kept."""
+    from toolkit.checking import check_drawing
+
+    dxf = strip_drawing(tmp_path)
+    for limit, broken in ((25.0, True), (40.0, False)):
+        job = tmp_path / f"job{limit:g}.toml"
+        job.write_text(STRIP_JOB + f"max_edge_stress_MPa = {limit}\n")
+        result = check_drawing(dxf, job)
+        edge = [v for v in result.summary["violations"] if v["rule"] == "max_edge_stress"]
+        assert bool(edge) is broken and result.exit_code == (1 if broken else 0)
+        entry = result.summary["voids"][0]
+        assert entry["peak_stress_MPa"] == pytest.approx(10.0 * 400 / 320 * 2.512, rel=0.05)  # Heywood (from memory)
+        assert entry["nominal_stress_MPa"] == pytest.approx(10.0, rel=1e-6)
+        assert result.summary["rules"]["max_edge_stress_MPa"] == limit
+        if broken:
+            assert edge[0]["measured"] == pytest.approx(entry["peak_stress_MPa"], rel=1e-6)   # MPa, not converted
+            assert edge[0]["required"] == 25.0
+
+
+def test_check_edge_stress_without_loads_is_refused(tmp_path):
+    """Asking for the edge stress with no load says so (exit 2 from the CLI) instead of reporting zero."""
+    from toolkit.checking import check_drawing
+    from toolkit.errors import LacunaError
+
+    dxf = strip_drawing(tmp_path)
+    job = tmp_path / "job.toml"
+    text = STRIP_JOB.split("[[load]]")[0] + "[rules]\nmax_edge_stress_MPa = 25\n"
+    job.write_text(text)
+    with pytest.raises(LacunaError, match="carries no load") as error:
+        check_drawing(dxf, job)
+    assert "max_edge_stress_MPa" in str(error.value)
+
+
+def test_max_edge_stress_must_be_positive():
+    from toolkit.errors import LacunaError
+    from toolkit.jobfile import parse_job
+
+    assert parse_job("[rules]\nmax_edge_stress_MPa = 12\n").rules.max_edge_stress_MPa == 12.0
+    with pytest.raises(LacunaError, match=r"\[rules\] max_edge_stress_MPa"):
+        parse_job("[rules]\nmax_edge_stress_MPa = 0\n")
+
+
+# --- lacuna optimize: the figures per void, the schedule, the report, the rule ----------------------------------
+
+BEAM_JOB = """units = "mm"
+[panel]
+thickness = 100
+element_size = 50
+[material]
+E_MPa = 11000
+nu = 0.3
+[[support]]
+from = [0, 0]
+to = [150, 0]
+[[support]]
+from = [2850, 0]
+to = [3000, 0]
+fix = "y"
+[[load]]
+from = [0, 600]
+to = [3000, 600]
+wy_kN_m = -6
+[optimize]
+volume_fraction = 0.5
+filter_radius = 150
+[voids]
+family = "bore"
+[rules]
+profile = "timber-bored"
+min_web = 60
+edge_cover = 60
+bearing_clearance = 150
+max_edge_stress_MPa = 0.01
+"""
+
+
+@pytest.fixture(scope="module")
+def beam_run(tmp_path_factory):
+    import ezdxf
+
+    from toolkit.api import optimize_file
+
+    tmp = tmp_path_factory.mktemp("edge")
+    doc = ezdxf.new("R2013")
+    doc.header["$INSUNITS"] = 4
+    doc.modelspace().add_lwpolyline([(0, 0), (3000, 0), (3000, 600), (0, 600)], close=True,
+                                    dxfattribs={"layer": "PANEL"})
+    doc.saveas(tmp / "beam.dxf")
+    (tmp / "beam.toml").write_text(BEAM_JOB)
+    return optimize_file(tmp / "beam.dxf", tmp / "beam.toml", out_dir=tmp / "out"), tmp / "out"
+
+
+def test_optimize_gives_edge_figures_per_void(beam_run):
+    """CONTRACT.md: peak_stress_MPa, nominal_stress_MPa, kt per made void; the same in the schedule and the
+    report; the local models timed under their own key."""
+    outcome, out = beam_run
+    s = outcome.summary
+    assert s["voids"]
+    for v in s["voids"]:
+        assert v["peak_stress_MPa"] > 0 and v["nominal_stress_MPa"] > 0
+        assert v["kt"] == pytest.approx(v["peak_stress_MPa"] / v["nominal_stress_MPa"])
+        assert v["peak_stress_sense"] in ("tension", "compression")
+        # the peak lies on the bore's edge
+        r = math.dist(v["peak_stress_at"], v["centre"])
+        assert r == pytest.approx(v["diameter"] / 2.0, abs=0.01)
+    assert "edge stresses" in outcome.run.timings_s
+    csv_text = (out / "beam-schedule.csv").read_text()
+    assert "peak_stress_MPa,nominal_stress_MPa,kt" in csv_text.splitlines()[0]
+    report = (out / "beam-report.md").read_text()
+    assert "## Stress at the void edges" in report
+    assert f"{s['voids'][0]['peak_stress_MPa']:.4g}" in report
+
+
+def test_optimize_lists_edge_stress_violations(beam_run):
+    """With 0.01 MPa allowed every void breaks the rule, listed with the other rule violations in MPa."""
+    outcome, _ = beam_run
+    s = outcome.summary
+    broken = [v for v in s["rules"]["violations"] if v["rule"] == "max_edge_stress"]
+    assert len(broken) == len(s["voids"])
+    for b, v in zip(broken, s["voids"]):   # listed in the voids' order
+        assert b["void_ids"] == [v["id"]] and b["where"] == pytest.approx(v["peak_stress_at"], abs=1e-5)
+        assert b["measured"] == pytest.approx(v["peak_stress_MPa"], rel=1e-5) and b["required"] == 0.01
+    assert s["rules"]["max_edge_stress_MPa"] == 0.01
+
+
+def test_grid_stress_in_a_cut_element_is_not_called_an_edge_stress(beam_run):
+    outcome, _ = beam_run
+    for w in outcome.run.final.warnings:
+        assert "indicative" not in w and "refine [panel] element_size" not in w

@@ -97,9 +97,11 @@ def analyze(panel: Panel, grid: Grid | None = None) -> Analysis:
         warnings.append("reactions do not balance the loads: the solution is not to be trusted.")
     if active[vm_element] and fractions[vm_element] < 1.0 - 1e-9:
         warnings.append(
-            f"the peak von Mises stress is in an element cut by an opening's edge, near "
-            f"{where_text(grid.element_centres[vm_element], panel.frame)}: the grid follows the edge only "
-            "roughly, so peak stresses there are indicative (refine [panel] element_size to check)."
+            f"the grid's largest von Mises stress is in an element cut by an opening's edge, near "
+            f"{where_text(grid.element_centres[vm_element], panel.frame)}: it is not the stress at that edge (the "
+            "grid cuts openings by area fraction, and its stress in a cut element neither converges to nor bounds "
+            "the edge stress as the elements shrink). Edge stresses come from the local models of the voids to "
+            "make (peak_stress_MPa per void in lacuna optimize); drawn openings get none."
         )
     return Analysis(
         grid=grid,

@@ -17,6 +17,7 @@ from .inputs import load_panel
 from .jobfile import template_text
 from .errors import LacunaError
 from .model import Drawing, Panel
+from .edge_stress import edge_json
 from .pipeline import OptimizeRun, optimize_panel
 from .report import report_markdown
 from .outputs import default_out_dir, plan_outputs, write_outputs
@@ -71,6 +72,12 @@ def _optimize_lines(s: dict) -> list[str]:
         lines.append(f"  {'kept of the saving':22s}{'':14s}{'':14s}{s['capture_percent']:12.1f} %")
     lines.append(f"  {len(s['voids'])} voids; rules {s['rules']['profile']}: "
                  f"{len(s['rules']['violations'])} violations")
+    edged = [v for v in s["voids"] if v.get("peak_stress_MPa") is not None]
+    if edged:
+        top = max(edged, key=lambda v: v["peak_stress_MPa"])
+        kt = f", Kt {top['kt']:.2f}" if top.get("kt") is not None else ""
+        lines.append(f"  largest edge stress   {top['peak_stress_MPa']:.4g} MPa at {top['id']} "
+                     f"({top['peak_stress_sense']}{kt}; local models of the voids)")
     if s.get("limit"):
         lines.append(f"  limit: {s['limit']}")
     return lines
@@ -200,6 +207,21 @@ def _void_json(panel: Panel, void) -> dict:
     return out
 
 
+EDGE_STRESS_BASIS = (
+    "peak_stress_MPa: the largest stress along the void's edge (the stress along the edge, a principal stress "
+    "there), magnitude, from a local model of the void (six-node triangles following the edges, driven by the "
+    "panel's grid displacements at the window's sides); nominal_stress_MPa: the solid panel's stress at the void "
+    "(its stress tensor averaged over the void's area, larger principal stress as a magnitude), same load case; "
+    "kt = peak / nominal. See docs/edge-stress.md."
+)
+
+
+def _voids_json(run: OptimizeRun) -> list[dict]:
+    """The schedule lines of the voids to make, each with its edge-stress figures."""
+    edges = list(getattr(run, "edge", ())) or [None] * len(run.voids)   # in ``voids`` order
+    return [_void_json(run.panel, v) | edge_json(run.panel, e) for v, e in zip(run.voids, edges)]
+
+
 def _shape_json(run: OptimizeRun) -> dict | None:
     """The made layout before and after the shape optimisation (its own analyses: voided elements at a trace of
     stiffness, loads of the solid panel), or None when it did not run."""
@@ -261,7 +283,8 @@ def optimize_summary(run: OptimizeRun, drawing: Drawing | None) -> dict:
         "moving_loads": travel_summary(panel, {"solid": run.solid, "freeform": run.freeform_analysis,
                                                "rationalized": run.final}),
         "freeform_voids": len(run.freeform),
-        "voids": [_void_json(panel, v) for v in run.voids],
+        "voids": _voids_json(run),
+        "edge_stress_basis": EDGE_STRESS_BASIS,
         "rules": {
             "profile": rules.profile,
             "min_web": f.length_to_drawing(rules.min_web_mm),
@@ -269,6 +292,7 @@ def optimize_summary(run: OptimizeRun, drawing: Drawing | None) -> dict:
             "min_void": f.length_to_drawing(rules.min_void_mm),
             "bearing_clearance": f.length_to_drawing(rules.bearing_clearance_mm),
             "bore_diameters": [f.length_to_drawing(d) for d in rules.bore_diameters_mm],
+            "max_edge_stress_MPa": run.edge_limit_MPa,
             "sources": dict(rules.sources),
             "violations": [v.to_json(f) for v in run.rationalised.violations],
         },
@@ -296,15 +320,26 @@ def schedule_csv(run: OptimizeRun) -> str:
     w = csv.writer(buf, lineterminator="\n")
     unit = run.panel.frame.unit
     w.writerow(["id", "family", f"centre_x_{unit}", f"centre_y_{unit}", "sides", f"size_{unit}",
-                f"length_{unit}", "angle_deg", f"area_{unit}2", "tool", "regular", f"points_{unit}"])
-    for v in (_void_json(run.panel, v) for v in run.voids):
+                f"length_{unit}", "angle_deg", f"area_{unit}2", "tool", "regular", f"points_{unit}",
+                "peak_stress_MPa", "nominal_stress_MPa", "kt", f"least_web_{unit}", "web_stress_MPa", "edge_note"])
+    for v in _voids_json(run):
         # The points a shop sets out from: an n-gon's corners, a slot's two arc centres; a bore needs its centre.
         points = v.get("corners") or v.get("ends") or []
         w.writerow([v["id"], v["family"], f"{v['centre'][0]:.3f}", f"{v['centre'][1]:.3f}", v["sides"],
                     f"{v['size']:.3f}", f"{v['length']:.3f}", f"{v['angle_deg']:.2f}", f"{v['area']:.2f}",
                     v["tool"], {True: "yes", False: "no"}.get(v.get("regular"), ""),
-                    "; ".join(f"{x:.3f} {y:.3f}" for x, y in points)])
+                    "; ".join(f"{x:.3f} {y:.3f}" for x, y in points), *_edge_cells(v)])
     return buf.getvalue()
+
+
+def _edge_cells(v: dict) -> list[str]:
+    """The schedule's edge-stress columns: peak, nominal, Kt, the narrowest web and its average stress, the note
+    (empty cells where the local model gave no figure; the note says why)."""
+    fmt = lambda x, d="{:.3g}": "" if x is None else d.format(x)  # noqa: E731
+    web = min(v.get("webs") or [], key=lambda w: w["width"], default=None)
+    return [fmt(v.get("peak_stress_MPa")), fmt(v.get("nominal_stress_MPa")), fmt(v.get("kt")),
+            fmt(web and web["width"], "{:.1f}"), fmt(web and web["mean_stress_MPa"]),
+            " ".join(filter(None, [v.get("edge_note", ""), web["note"] if web else ""]))]
 
 
 def optimize_file(dxf_path, job_path=None, *, out_dir=None, force: bool = False, frames: int = 0,

@@ -26,6 +26,7 @@ from .errors import LacunaError
 from .inputs import check_panel
 from .jobfile import Job, default_job, read_job
 from .model import Frame, Panel, Rules, Void
+from .edge_stress import edge_json, edge_violations
 from .pipeline import job_rules
 from .rules.check import Violation, check_layout
 from .rules.profiles import load_profile
@@ -119,7 +120,17 @@ def check_drawing(dxf_path, job_path=None, *, profile: str | None = None,
 
     voids = tuple(read_voids(doc, drawing.frame, void_layers, path, warnings=warnings))
     violations = tuple(check_layout(panel, voids, rules)) if voids else ()
+    limit = job.rules.max_edge_stress_MPa
+    edge = _edge_stresses(panel, voids, job, thickness_known) if voids and limit is not None else ()
+    if edge:
+        broken, unchecked = edge_violations(edge, voids, limit)
+        violations += broken
+        warnings += list(unchecked)
     summary = _summary(path, panel, rules, voids, violations, void_layers, warnings, thickness_known)
+    if limit is not None:
+        summary["rules"]["max_edge_stress_MPa"] = limit
+        for entry, e in zip(summary["voids"], edge):   # both in the order the voids were read
+            entry.update(edge_json(panel, e))
     return CheckResult(panel=panel, rules=rules, voids=voids, violations=violations, summary=summary,
                        layers=tuple(void_layers))
 
@@ -138,6 +149,35 @@ def check_outputs(result: CheckResult, dxf_path, *, replace: bool = False) -> di
         f"{stem}-check.dxf": data,
         f"{stem}-check.json": json.dumps(result.summary, indent=2, allow_nan=False) + "\n",
     }
+
+
+def _edge_stresses(panel: Panel, voids: tuple[Void, ...], job: Job, thickness_known: bool):
+    """The local models of the drawn voids, for [rules] max_edge_stress_MPa: the panel is analysed solid and
+    with the voids cut, so the job must give what an analysis needs."""
+    key = f"{job.source} [rules] max_edge_stress_MPa" if job.source else "[rules] max_edge_stress_MPa"
+    missing = []
+    if panel.material is None:
+        missing.append("a [material] table (E_MPa, nu)")
+    if not thickness_known:
+        missing.append("[panel] thickness")
+    if missing:
+        raise LacunaError(f"the largest edge stress is checked by analysing the panel, and the job gives no "
+                          f"{' and no '.join(missing)}.", where=key,
+                          hint="Add them to the job file, or leave max_edge_stress_MPa out to check the geometry "
+                               "alone.")
+    if not panel.loads and not panel.self_weight:
+        raise LacunaError("the largest edge stress is to be checked, but the panel carries no load: no [[load]] "
+                          "in the job and no LOAD marker in the drawing, so every stress would be zero and the check "
+                          "would prove nothing.", where=key,
+                          hint="Give the loads (and supports) in the job file or as drawing markers, or leave "
+                               "max_edge_stress_MPa out to check the geometry alone.")
+    from .analysis import analyze
+    from .edge_stress import edge_stresses
+    from .pipeline import with_voids
+
+    solid = analyze(panel)
+    final = analyze(with_voids(panel, voids), grid=solid.grid)
+    return edge_stresses(panel, voids, final, solid)
 
 
 # --- inputs -----------------------------------------------------------------------------------------------------

@@ -170,7 +170,9 @@ def edge_stresses(panel: Panel, voids, final, solid, *, refine: float = 1.0) -> 
     """The local model's figures for each of ``voids`` (model.Void): ``final`` is the grid analysis of the
     panel with the voids cut, ``solid`` the one without them (for the nominal stress)."""
     voids = tuple(voids)
-    return tuple(void_edge_stress(panel, v, voids, final, solid, refine=refine) for v in voids)
+    # neighbours by position, not by id: a layout's ids are not trusted to be unique here
+    return tuple(void_edge_stress(panel, v, voids[:i] + voids[i + 1:], final, solid, refine=refine)
+                 for i, v in enumerate(voids))
 
 
 def edge_snapper(void: Void, reach: float):
@@ -270,10 +272,9 @@ def _outline_sources(shape, n_edge: float, arc_step: float, refine: float):
     return np.vstack(pts), np.concatenate(hs), h_edge, bool(np.any(~arc))
 
 
-def void_edge_stress(panel: Panel, void: Void, voids, final, solid, *, refine: float = 1.0) -> EdgeStress:
-    """The local model of one void (see the module's text)."""
+def void_edge_stress(panel: Panel, void: Void, others, final, solid, *, refine: float = 1.0) -> EdgeStress:
+    """The local model of one void among the ``others`` (see the module's text)."""
     shape = void.shape
-    others = [v for v in voids if v.id != void.id]
     circle = shapely.minimum_bounding_circle(shape)
     centre = np.asarray(circle.centroid.coords[0])
     radius = float(shapely.minimum_bounding_radius(shape))
@@ -307,6 +308,10 @@ def void_edge_stress(panel: Panel, void: Void, voids, final, solid, *, refine: f
     if region.geom_type != "Polygon":
         parts = [p for p in getattr(region, "geoms", []) if p.geom_type == "Polygon"]
         region = max(parts, key=lambda p: shapely.distance(p, shape) == 0 and p.area) if parts else region
+    if region.is_empty or region.geom_type != "Polygon" or not shapely.within(shape, panel.solid):
+        return EdgeStress(void_id=void.id, peak_MPa=None, sense="", peak_at=None, case="", nominal_MPa=None,
+                          kt=None, element_mm=h_edge, note="the void is not wholly inside the panel's material, so "
+                                                           "no local model was made; no edge stress is given.")
     # sources: this void, its neighbours (coarser), the webs to them
     sources_xy, sources_h = [src_xy], [src_h]
     for name, other in neighbours:
@@ -365,7 +370,12 @@ def void_edge_stress(panel: Panel, void: Void, voids, final, solid, *, refine: f
         values[2 * cut_nodes + 1] = u[:, 1]
     F = _local_loads(panel, mesh, region, cases, size)
     _hold_supports(panel, mesh, held, values, tol)
-    U = solve(mesh, mat.E_MPa, mat.nu, t, held, values, F)
+    try:
+        U = solve(mesh, mat.E_MPa, mat.nu, t, held, values, F)
+    except RuntimeError as error:   # SuperLU: a part of the window that nothing holds
+        return EdgeStress(void_id=void.id, peak_MPa=None, sense="", peak_at=None, case="", nominal_MPa=None,
+                          kt=None, element_mm=h_edge, elements=len(mesh.tri),
+                          note=f"the local model could not be solved ({error}); no edge stress is given.")
     stress = nodal_average(mesh, U, mat.E_MPa, mat.nu)
 
     nodes, along = edge_peak(mesh, stress, np.flatnonzero(mesh.edge_tag == TAG_VOID))
@@ -481,3 +491,48 @@ def _hold_supports(panel: Panel, mesh: TriMesh, held: np.ndarray, values: np.nda
             if letter in s.fix and len(nodes):
                 held[2 * nodes + axis] = True
                 values[2 * nodes + axis] = 0.0
+
+
+def edge_violations(results, voids, limit_MPa: float):
+    """The voids whose edge stress is above ``limit_MPa`` (``rules.check.Violation``, rule "max_edge_stress",
+    measured and required in MPa), and a warning for each void the local model gave no figure for."""
+    from .rules.check import Violation
+
+    handles = {v.id: v.handle for v in voids}
+    broken, unchecked = [], []
+    for r in results:
+        if r.peak_MPa is None:
+            unchecked.append(f"{r.void_id}: no edge stress ({r.note.split(':')[0]}), so [rules] max_edge_stress_MPa "
+                             "is not checked there.")
+        elif r.peak_MPa > limit_MPa:
+            kt = f", Kt {r.kt:.2f}" if r.kt is not None else ""
+            broken.append(Violation(
+                rule="max_edge_stress", where=r.peak_at, measured=r.peak_MPa, required=limit_MPa,
+                handles=tuple(h for h in [handles.get(r.void_id)] if h), void_ids=(r.void_id,),
+                message=f"{r.void_id}: {r.peak_MPa:.3g} MPa ({r.sense}, load case {r.case}{kt}) at its edge, above "
+                        f"the {limit_MPa:g} MPa allowed (local model of the void).",
+            ))
+    return tuple(broken), tuple(unchecked)
+
+
+def edge_json(panel: Panel, e) -> dict:
+    """A void's edge-stress figures (CONTRACT.md: peak_stress_MPa, nominal_stress_MPa, kt), positions and
+    lengths in the drawing's frame and unit; None where the local model gave no figure (``edge_note`` says why)."""
+    f = panel.frame
+    xy = lambda p: [float(c) for c in f.to_drawing(np.asarray(p, dtype=float))]  # noqa: E731
+    if e is None:
+        return {"peak_stress_MPa": None, "nominal_stress_MPa": None, "kt": None,
+                "edge_note": "no local model was run for this void."}
+    return {
+        "peak_stress_MPa": e.peak_MPa,
+        "nominal_stress_MPa": e.nominal_MPa,
+        "kt": e.kt,
+        "peak_stress_sense": e.sense,
+        "peak_stress_at": xy(e.peak_at) if e.peak_at is not None else None,
+        "peak_stress_case": e.case,
+        "edge_element": f.length_to_drawing(e.element_mm),
+        "webs": [{"to": w.to, "width": f.length_to_drawing(w.width_mm), "where": xy(w.where),
+                  "mean_stress_MPa": w.mean_stress_MPa, "max_stress_MPa": w.max_stress_MPa, "note": w.note}
+                 for w in sorted(e.webs, key=lambda w: w.width_mm)],
+        "edge_note": e.note,
+    }

@@ -74,6 +74,8 @@ class RuleOptions:
     edge_cover_mm: float | None = None
     min_void_mm: float | None = None
     bearing_clearance_mm: float | None = None
+    # the largest stress allowed at a void's edge, from the local models (None: not checked)
+    max_edge_stress_MPa: float | None = None
 
 
 @dataclass(frozen=True)
@@ -130,7 +132,8 @@ TABLE_KEYS: dict[str, tuple[str, ...]] = {
     ),
     "voids": ("family", "sides", "bore_diameters", "max_types", "snap", "corner", "corner_size", "slot_widths",
               "symmetric", "regular"),
-    "rules": ("profile", "min_web", "edge_cover", "min_void", "bearing_clearance", "web_ratio"),
+    "rules": ("profile", "min_web", "edge_cover", "min_void", "bearing_clearance", "web_ratio",
+              "max_edge_stress_MPa"),
 }
 TOP_KEYS: tuple[str, ...] = ("units", "panel", "material", "layers", "support", "load", "cases", "optimize",
                              "voids", "rules", "moving_load")
@@ -654,4 +657,7 @@ class _Reader:
         ratio = self.number(t["web_ratio"], w("web_ratio"), low=0.0,
                             hint="A ratio of 0 or more, e.g. 0.5 for a web half the larger void's size."
                             ) if "web_ratio" in t else None
-        return RuleOptions(profile=profile, web_ratio=ratio, **lengths)
+        edge = self.number(t["max_edge_stress_MPa"], w("max_edge_stress_MPa"), low=0.0, low_open=True, unit="MPa",
+                           hint="The largest stress allowed at a void's edge in MPa, e.g. 12; leave it out to not check "
+                           "it.") if "max_edge_stress_MPa" in t else None
+        return RuleOptions(profile=profile, web_ratio=ratio, max_edge_stress_MPa=edge, **lengths)

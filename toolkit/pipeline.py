@@ -16,6 +16,7 @@ import shapely
 from shapely.geometry import Polygon
 
 from .analysis import Analysis, analyze
+from .edge_stress import edge_stresses, edge_violations
 from .fe.grid import grid_shape
 from .jobfile import Job
 from .limits import check_memory
@@ -45,6 +46,8 @@ class OptimizeRun:
     warnings: tuple[str, ...] = ()
     timings_s: dict = field(default_factory=dict)  # wall seconds of each stage, for benchmarks and reports
     limit: str = ""  # the rule that stopped the made layout short, and what relaxing it would give
+    edge: tuple = ()  # edge_stress.EdgeStress of each void to make, in ``voids`` order (local models)
+    edge_limit_MPa: float | None = None  # [rules] max_edge_stress_MPa, when the job gives it
 
     @property
     def capture_percent(self) -> float | None:
@@ -195,7 +198,16 @@ def optimize_panel(
     final = analyze(with_voids(panel, rationalised.voids), grid=solid.grid)
     freeform_analysis = analyze(with_freeform(panel, freeform, solid.grid), grid=solid.grid)
     lap("re-analysis")
+    # The grid cuts the voids by area fraction; the stress at their edges comes from a local model of each.
+    edge = edge_stresses(panel, rationalised.voids, final, solid)
+    edge_limit = job.rules.max_edge_stress_MPa
     warnings = []
+    if edge_limit is not None:
+        broken, unchecked = edge_violations(edge, rationalised.voids, edge_limit)
+        warnings += unchecked
+        if broken:
+            rationalised = dataclasses.replace(rationalised, violations=tuple(rationalised.violations) + broken)
+    lap("edge stresses")
     if not beso.converged:
         warnings.append(
             f"the optimiser stopped at max_iterations = {settings.max_iterations} before converging; "
@@ -206,7 +218,7 @@ def optimize_panel(
     return OptimizeRun(
         panel=panel, rules=rules, settings=settings, solid=solid, beso=beso, freeform=freeform,
         rationalised=rationalised, final=final, freeform_analysis=freeform_analysis, warnings=tuple(warnings),
-        timings_s=timings, limit=limit,
+        timings_s=timings, limit=limit, edge=edge, edge_limit_MPa=edge_limit,
     )
 
 

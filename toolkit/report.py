@@ -59,6 +59,53 @@ def _travel_lines(s: dict) -> list[str]:
     return out
 
 
+def _largest_edge_stress(s: dict):
+    figures = [v["peak_stress_MPa"] for v in s.get("voids", []) if v.get("peak_stress_MPa") is not None]
+    return max(figures) if figures else None
+
+
+def _edge_section(s: dict) -> list[str]:
+    """Peak stress at each void's edge from its local model, the nominal stress, Kt and the narrowest web."""
+    voids = s.get("voids", [])
+    if not voids or not any("peak_stress_MPa" in v for v in voids):
+        return []
+    unit = s["units"]
+    limit = s.get("rules", {}).get("max_edge_stress_MPa")
+    out = [
+        "",
+        "## Stress at the void edges",
+        "",
+        "The grid cuts each void by area fraction, so its stresses next to a void are not edge stresses. Each void "
+        "was analysed again on its own: a window round it meshed with six-node triangles that follow every edge in "
+        "it, graded to small elements at the void's edge, its sides moved as the panel's grid moved them. The "
+        "**peak** is the largest stress along the edge (the stress along a free edge is a principal stress); the "
+        "**nominal** stress is the solid panel's stress at the void (its stress averaged over the void's area, the "
+        "larger principal stress); **Kt** = peak / nominal, both in the load case of the peak. The web is the "
+        "narrowest section to a neighbouring void or opening, with the average stress across it."
+        + (f" Allowed at an edge: {limit:g} MPa ([rules] max_edge_stress_MPa)." if limit is not None else ""),
+        "",
+        f"| id | peak, MPa | at ({unit}) | case | nominal, MPa | Kt | narrowest web, {unit} | web stress, MPa | note |",
+        "|---|---:|---|---|---:|---:|---:|---:|---|",
+    ]
+    for v in voids:
+        web = min(v.get("webs") or [], key=lambda w: w["width"], default=None)
+        peak = v.get("peak_stress_MPa")
+        at = v.get("peak_stress_at")
+        sense = {"tension": " (t)", "compression": " (c)"}.get(v.get("peak_stress_sense", ""), "")
+        note = " ".join(filter(None, [v.get("edge_note", ""), web["note"] if web else ""]))
+        web_text = f"{web['width']:.1f} to {web['to']}" if web else "–"
+        out.append(
+            f"| {v['id']} | {_num(peak)}{sense if peak is not None else ''} | "
+            f"{f'{at[0]:.1f}, {at[1]:.1f}' if at else '–'} | {v.get('peak_stress_case') or '–'} | "
+            f"{_num(v.get('nominal_stress_MPa'))} | {_num(v.get('kt'), 3)} | "
+            f"{web_text} | "
+            f"{_num(web['mean_stress_MPa'] if web else None)} | {note} |"
+        )
+    out += ["", "(t) tension, (c) compression. A large Kt over a small nominal stress marks a void where the solid "
+            "panel was hardly stressed: judge the peak itself. Sharp corners have no finite elastic peak."]
+    return out
+
+
 def report_markdown(summary: dict, *, result_svg: str, convergence_svg: str, schedule_csv: str,
                     date: str) -> str:
     """The report for ``lacuna optimize``'s JSON ``summary``; figure and schedule names are relative links."""
@@ -81,8 +128,10 @@ def report_markdown(summary: dict, *, result_svg: str, convergence_svg: str, sch
         f"| {_num(s['compliance_rationalized_Nmm'], 6)} |",
         f"| largest deflection, mm | {_num(sol['max_deflection_mm'])} | {_num(s['max_deflection_freeform_mm'])} | "
         f"{_num(s['max_deflection_rationalized_mm'])} |",
-        f"| largest von Mises stress, MPa | {_num(sol['max_von_mises_MPa'])} | | "
+        f"| largest von Mises stress on the grid, MPa | {_num(sol['max_von_mises_MPa'])} | | "
         f"{_num(s['max_von_mises_rationalized_MPa'])} |",
+        *([f"| largest stress at a void's edge (local models), MPa | | | {_num(top)} |"]
+          if (top := _largest_edge_stress(s)) is not None else []),
         f"| material kept in the design region | 100 % | {100 * s['volume_fraction_final']:.1f} % | |",
         f"| material removed from the panel | 0 % | {s['mass_removed_freeform_percent']:.1f} % | "
         f"{s['mass_removed_percent']:.1f} %"
@@ -117,6 +166,7 @@ def report_markdown(summary: dict, *, result_svg: str, convergence_svg: str, sch
                      f"{v['sides'] or ''} | {v['size']:.4g} | {v['area']:.6g} | {v['tool']} |")
     if not s["voids"]:
         lines.append("| – | no void could be made under the rules | | | | | | |")
+    lines += _edge_section(s)
     lines += [
         "",
         f"## Fabrication rules: profile {rules['profile']}",

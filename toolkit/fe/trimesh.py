@@ -192,6 +192,9 @@ def graded_mesh(region, size: Callable[[np.ndarray], np.ndarray], *, tag: Callab
     seeds = np.asarray(seeds, dtype=float).reshape(-1, 2)
     if len(seeds):
         seeds = seeds[shapely.contains_xy(region, seeds[:, 0], seeds[:, 1])]
+        # a seed on (or next to) an edge is left to the edge's nodes, and each seed counts once
+        seeds = seeds[cKDTree(bpts).query(seeds)[0] > EDGE_GAP * size(seeds)] if len(seeds) else seeds
+        seeds = np.unique(np.round(seeds, 9), axis=0)
     if len(seeds):
         if len(inside):
             near = cKDTree(seeds).query(inside)[0] < EDGE_GAP * size(inside)
@@ -256,6 +259,8 @@ def graded_mesh(region, size: Callable[[np.ndarray], np.ndarray], *, tag: Callab
     seg_mid = np.empty(len(segs), dtype=np.int64)
     seg_mid[side_of_seg[on_edge]] = n0 + np.flatnonzero(on_edge)
     edges = np.column_stack([segs, seg_mid])
+    if len(np.unique(tri6.ravel())) != len(points):
+        raise MeshError("a point of the mesh belongs to no triangle.")
     corner = np.zeros(len(points), dtype=bool)
     if len(corner_pts):
         d, i = cKDTree(pts[: len(bpts)]).query(corner_pts)

@@ -35,7 +35,9 @@ TOLERANCE_MM = 0.01
 _QUAD_SEGS = 32
 
 RULE_ORDER = ("outside", "edge_cover", "depth_band", "opening", "overlap", "min_web", "bearing_clearance", "keep",
-              "min_void", "stock_size")
+              "min_void", "stock_size", "max_edge_stress")
+# Rules whose measured and required figures are stresses (MPa), not lengths: no unit change to the drawing's.
+STRESS_RULES = ("max_edge_stress",)
 
 _SIDES = ("left", "right", "bottom", "top")
 _SIDE_DIRS = np.array([[-1.0, 0.0], [1.0, 0.0], [0.0, -1.0], [0.0, 1.0]])
@@ -64,7 +66,8 @@ class Violation:
         measured, required = self.measured, self.required
         if frame is not None:
             where = frame.to_drawing(where)
-            measured, required = frame.length_to_drawing(measured), frame.length_to_drawing(required)
+            if self.rule not in STRESS_RULES:
+                measured, required = frame.length_to_drawing(measured), frame.length_to_drawing(required)
         return {
             "rule": self.rule,
             "where": [round(float(where[0]), 6), round(float(where[1]), 6)],
