@@ -308,6 +308,8 @@ def _label(v: dict) -> str:
         return f"{v['rule']} {m:.4g} deep" if v["rule"] != "outside" else f"outside by {m:.4g}"
     if v["rule"] == "stock_size":
         return f"stock_size {m:.4g} (stock {req:.4g})"
+    if v["rule"] == "max_edge_stress":
+        return f"edge stress {m:.3g} MPa > {req:.3g}"
     return f"{v['rule']} {m:.4g} < {req:.4g}"
 
 

@@ -490,7 +490,9 @@ def _marker(m, k: int) -> Marker:
     elif isinstance(m, Mapping) and "where" in m:
         label = str(m.get("rule", "check"))
         if "measured" in m and "required" in m:
-            label += f" {_fmt(float(m['measured']))} < {_fmt(float(m['required']))}"
+            # a stress rule is broken from above (MPa), a length rule from below
+            sign = ">" if m.get("rule") == "max_edge_stress" else "<"
+            label += f" {_fmt(float(m['measured']))} {sign} {_fmt(float(m['required']))}"
         marker = Marker(tuple(m["where"]), label, m.get("radius_mm"))
     else:
         raise LacunaError(

@@ -67,7 +67,7 @@ def stiffness(points: np.ndarray, tri: np.ndarray, E: float, nu: float, thicknes
         B, det = _B(xe, nat)
         if np.any(det <= 0.0):
             raise ValueError("an element is turned inside out")
-        ke += np.einsum("eki,kl,elj->eij", B, D, B) * (w * thickness * det)[:, None, None]
+        ke += np.matmul(B.transpose(0, 2, 1), D @ B) * (w * thickness * det)[:, None, None]
     dofs = element_dofs(tri)
     rows = np.repeat(dofs, 12, axis=1).ravel()
     cols = np.tile(dofs, (1, 12)).ravel()

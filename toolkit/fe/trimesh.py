@@ -81,15 +81,19 @@ class TriMesh:
     def locate(self, xy) -> tuple[np.ndarray, np.ndarray]:
         """(element, (xi, eta)) of each point, element -1 where the point is outside the mesh."""
         xy = np.atleast_2d(np.asarray(xy, dtype=float))
-        simplex = self.delaunay.find_simplex(xy)
-        element = np.where(simplex >= 0, self.kept[np.maximum(simplex, 0)], -1)
-        corners = self.points[self.tri[np.maximum(element, 0), :3]]
-        d1, d2 = corners[:, 1] - corners[:, 0], corners[:, 2] - corners[:, 0]
-        rhs = xy - corners[:, 0]
-        det = d1[:, 0] * d2[:, 1] - d1[:, 1] * d2[:, 0]
-        xi = (rhs[:, 0] * d2[:, 1] - rhs[:, 1] * d2[:, 0]) / det
-        eta = (d1[:, 0] * rhs[:, 1] - d1[:, 1] * rhs[:, 0]) / det
-        return element, np.column_stack([xi, eta])
+        corners = self.points[self.tri[:, :3]]
+        near = cKDTree(corners.mean(axis=1)).query(xy, k=min(12, len(corners)))[1].reshape(len(xy), -1)
+        c = corners[near]                                              # (k, m, 3, 2)
+        d1, d2 = c[..., 1, :] - c[..., 0, :], c[..., 2, :] - c[..., 0, :]
+        rhs = xy[:, None, :] - c[..., 0, :]
+        det = d1[..., 0] * d2[..., 1] - d1[..., 1] * d2[..., 0]
+        xi = (rhs[..., 0] * d2[..., 1] - rhs[..., 1] * d2[..., 0]) / det
+        eta = (d1[..., 0] * rhs[..., 1] - d1[..., 1] * rhs[..., 0]) / det
+        inside = (xi >= -1e-9) & (eta >= -1e-9) & (xi + eta <= 1.0 + 1e-9)
+        first = np.argmax(inside, axis=1)
+        rows = np.arange(len(xy))
+        element = np.where(inside[rows, first], near[rows, first], -1)
+        return element, np.column_stack([xi[rows, first], eta[rows, first]])
 
 
 def _loops(region) -> list[np.ndarray]:
