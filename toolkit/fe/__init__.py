@@ -20,6 +20,9 @@ The pieces, each a small function or value over numpy arrays (local frame: mm, N
 - ``solve.LinearSolver(K, free, grid=None)``: factorises K restricted to the free dofs (with ``grid``, in the
   grid's nested-dissection order); ``.refactor(K)`` for a new matrix of the same pattern reuses the ordering
   and the restriction map; ``.solve(F)`` -> full U, one column per column of F.
+- ``trimesh.graded_mesh(region, size, tag=...)`` -> ``TriMesh`` of six-node triangles following a region's
+  edges (graded points, Delaunay, checked boundary recovery) and ``tri6`` (stiffness, loads, stresses of the
+  quadratic triangle): the local models at voids (``toolkit.edge_stress``, docs/edge-stress.md).
 - ``stress.element_stresses(grid, U, E, nu)`` -> (ne, 3) sx, sy, txy at element centres ((ncases, ne, 3) for
   a U with one column per case); ``stress.von_mises`` and ``stress.principal_stresses``.
 

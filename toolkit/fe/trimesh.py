@@ -9,8 +9,8 @@ The mesh is built in four steps:
    nodes spaced by the size field ``h(x)``, evenly in the measure ds / h;
 2. the inside is filled with the centres of a quadtree whose cells are split until they are no larger than
    ``h`` at their centre; centres nearer an edge than ``EDGE_GAP`` h are dropped;
-3. ``scipy.spatial.Delaunay`` triangulates all points; triangles outside the region (in holes, or across a
-   concave part of the outline) are removed by their centroids;
+3. ``scipy.spatial.Delaunay`` triangulates all points; the triangulation is cut into pieces along the region's
+   edges, and a piece is kept when most of its triangles' centroids lie in the region (holes go whole);
 4. boundary recovery: every edge segment between two consecutive edge nodes must be a side of a triangle, and
    every triangle side used once must be such a segment. A missing segment is split at its middle (the point
    on the polyline, so it stays on the true edge) and the points crowding it are dropped; then 2-4 again.
@@ -50,9 +50,7 @@ class TriMesh:
 
     ``points`` (n, 2); ``tri`` (ne, 6): corners counter-clockwise, then the middles of sides 0-1, 1-2, 2-0;
     ``edges`` (nb, 3): the boundary sides as (corner a, corner b, middle) node numbers; ``edge_tag`` (nb,) the
-    caller's tag of each boundary side; ``corner`` (n,) True for nodes at corners of the region;
-    ``delaunay`` the triangulation of the corner nodes and ``kept`` (its simplices,) the element of each
-    simplex or -1, for finding the element under a point.
+    caller's tag of each boundary side; ``corner`` (n,) True for nodes at corners of the region.
     """
 
     points: np.ndarray
@@ -60,8 +58,6 @@ class TriMesh:
     edges: np.ndarray
     edge_tag: np.ndarray
     corner: np.ndarray
-    delaunay: Delaunay
-    kept: np.ndarray
 
     @property
     def n_nodes(self) -> int:
@@ -241,8 +237,6 @@ def graded_mesh(region, size: Callable[[np.ndarray], np.ndarray], *, tag: Callab
     if np.any(np.abs(area) < 1e-12 * np.max(np.abs(area))):
         raise MeshError("the triangulation holds a flat triangle.")
     tri = np.where((area < 0)[:, None], tri[:, [0, 2, 1]], tri)
-    kept = np.full(len(simp), -1)
-    kept[np.flatnonzero(keep)] = np.arange(len(tri))
 
     # middle nodes: one per side; a boundary side takes its polyline middle
     sides = np.vstack([tri[:, [0, 1]], tri[:, [1, 2]], tri[:, [2, 0]]])
@@ -269,8 +263,7 @@ def graded_mesh(region, size: Callable[[np.ndarray], np.ndarray], *, tag: Callab
     if len(corner_pts):
         d, i = cKDTree(pts[: len(bpts)]).query(corner_pts)
         corner[i[d <= max(tol, 1e-9)]] = True
-    return TriMesh(points=points, tri=tri6, edges=edges, edge_tag=np.asarray(tag(mids)), corner=corner,
-                   delaunay=dl, kept=kept)
+    return TriMesh(points=points, tri=tri6, edges=edges, edge_tag=np.asarray(tag(mids)), corner=corner)
 
 
 def _boundary(runs):
