@@ -329,3 +329,29 @@ def test_symmetry_option_converges_when_the_orbits_cannot_meet_the_target_exactl
     r = run_beso(prob, OptimizeSettings(volume_fraction=odd / n, filter_radius_mm=60.0, symmetry="x"))
     assert r.converged and r.iterations < 200
     assert abs(np.count_nonzero(r.densities[prob.design] >= 1.0) - odd) <= 1
+
+
+def test_analyze_lists_every_stop_of_the_solid_panel(tmp_path):
+    import ezdxf
+    from click.testing import CliRunner
+
+    from toolkit.cli import main
+
+    doc = ezdxf.new("R2013")
+    doc.header["$INSUNITS"] = 4
+    doc.modelspace().add_lwpolyline([(0, 0), (1200, 0), (1200, 400), (0, 400)], close=True,
+                                    dxfattribs={"layer": "PANEL"})
+    doc.saveas(tmp_path / "beam.dxf")
+    (tmp_path / "job.toml").write_text(travel_job(3, extra='[[load]]\nat = [600, 400]\nfy_kN = -4\ncase = "dead"\n'))
+    result = CliRunner().invoke(main, ["analyze", str(tmp_path / "beam.dxf"), "--job", str(tmp_path / "job.toml"),
+                                       "--out", str(tmp_path / "out"), "--json"], catch_exceptions=False)
+    assert result.exit_code == 0, result.output
+    s = json.loads(result.stdout)
+    (travel,) = s["moving_loads"]
+    assert [p["case"] for p in travel["positions"]] == ["moving 1 @1", "moving 1 @2", "moving 1 @3"]
+    # The static case keeps weight 1, each stop 1/3: the panel's compliance is dead + the mean over the stops.
+    stops = [p["compliance_solid_Nmm"] for p in travel["positions"]]
+    assert s["compliance_Nmm"] == pytest.approx(s["cases"]["dead"]["compliance_Nmm"] + sum(stops) / 3, rel=1e-12)
+    # A stop at mid-span under 10 kN against the static 4 kN at the same point: F.U scales with the load squared
+    # (linear elasticity), 6.25 times.
+    assert stops[1] == pytest.approx(6.25 * s["cases"]["dead"]["compliance_Nmm"], rel=1e-9)
