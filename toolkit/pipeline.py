@@ -193,7 +193,8 @@ def optimize_panel(
     free = float(sum(g.area for g in freeform))
     limit = ""
     if free > 0 and made < LIMIT_SHARE * free:
-        limit = limiting_rule(panel, list(freeform), void_options, rules, rationalised.voids, made, free)
+        limit = limiting_rule(panel, list(freeform), void_options, rules, rationalised.voids, made, free,
+                              energy=energy, first_fit_mm2=rationalised.first_fit_mm2)
     lap("limit")
     final = analyze(with_voids(panel, rationalised.voids), grid=solid.grid)
     freeform_analysis = analyze(with_freeform(panel, freeform, solid.grid), grid=solid.grid)
@@ -227,11 +228,11 @@ LIMIT_SHARE = 0.8
 
 
 def limiting_rule(panel: Panel, freeform, void_options, rules: Rules, made_voids, made_mm2: float,
-                  free_mm2: float) -> str:
+                  free_mm2: float, *, energy=None, first_fit_mm2: float | None = None) -> str:
     """Which spacing rule held the made layout short of the freeform one, in words with the figure relaxing it
-    would give: the layout's first fit (by area, no analysis) is made again as it is, with the web ratio halved
-    and, where it sets the web, with the minimum web halved; the larger gain, applied to the made layout, is
-    named."""
+    would give: the layout's first fit (voids fitted and placed, no analysis; ``first_fit_mm2`` when the caller's
+    run has it, made with the same ``energy``) is made again with the web ratio halved and, where it sets the
+    web, with the minimum web halved; the larger gain, applied to the made layout, is named."""
     trials = []
     if rules.web_ratio:
         trials.append(("web_ratio", dataclasses.replace(rules, web_ratio=rules.web_ratio / 2.0),
@@ -246,10 +247,10 @@ def limiting_rule(panel: Panel, freeform, void_options, rules: Rules, made_voids
                        f"a minimum web of {rules.min_web_mm / 2.0:g} mm"))
 
     def first_fit(r: Rules) -> float:
-        return float(sum(v.area_mm2 for v in rationalise(panel, freeform, void_options, r, shape_steps=0).voids))
+        return rationalise(panel, freeform, void_options, r, energy=energy, first_fit_only=True).first_fit_mm2
 
     best = None
-    base = first_fit(rules) if trials else 0.0
+    base = (first_fit_mm2 if first_fit_mm2 else first_fit(rules)) if trials else 0.0
     for key, relaxed, name, change in trials:
         area = first_fit(relaxed)
         if best is None or area > best[0]:

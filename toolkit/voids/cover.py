@@ -29,6 +29,7 @@ import math
 import numpy as np
 import shapely
 from shapely.geometry import Polygon
+from shapely.geometry.polygon import orient
 
 from .measure import principal_axes
 
@@ -71,12 +72,14 @@ def _ccw(pts: np.ndarray) -> np.ndarray:
 def corner_measures(pts: np.ndarray):
     """Per corner of a counter-clockwise polygon: interior angle (deg), turn (deg), length of the side to the next
     corner, and the area of the triangle the corner would cut off if deleted."""
-    prev, nxt = np.roll(pts, 1, axis=0), np.roll(pts, -1, axis=0)
+    prev = np.concatenate((pts[-1:], pts[:-1]))
+    nxt = np.concatenate((pts[1:], pts[:1]))
     a, b = prev - pts, nxt - pts
-    la, lb = np.linalg.norm(a, axis=1), np.linalg.norm(b, axis=1)
+    la, lb = np.sqrt(np.einsum("ij,ij->i", a, a)), np.sqrt(np.einsum("ij,ij->i", b, b))
     with np.errstate(invalid="ignore", divide="ignore"):
-        cosang = np.sum(a * b, axis=1) / (la * lb)
-    interior = np.degrees(np.arccos(np.clip(np.nan_to_num(cosang, nan=-1.0), -1.0, 1.0)))
+        cosang = np.einsum("ij,ij->i", a, b) / (la * lb)
+    cosang = np.where(np.isfinite(cosang), cosang, -1.0)
+    interior = np.degrees(np.arccos(np.clip(cosang, -1.0, 1.0)))
     tri = 0.5 * np.abs(a[:, 0] * b[:, 1] - a[:, 1] * b[:, 0])
     return interior, 180.0 - interior, lb, tri
 
@@ -143,16 +146,51 @@ def tidy_ngon(pts: np.ndarray, sides: int, feature: float) -> np.ndarray | None:
     return None
 
 
-def _halfplanes(points: np.ndarray, directions: np.ndarray, keep: np.ndarray, reach: float):
-    """Big polygons standing for the half-planes bounded by the line through each point along each direction, on
-    the side of ``keep``: (len(points) * len(directions),) array."""
+def _halfplanes(points: np.ndarray, directions: np.ndarray, keep: np.ndarray):
+    """The half-planes bounded by the line through each point along each direction, on the side of ``keep``: a
+    point on each line and the unit normal into the half-plane, ((k, 2), (k, 2)) for k = len(points) *
+    len(directions)."""
     P = np.repeat(points, len(directions), axis=0)
     U = np.tile(directions, (len(points), 1))
     N = np.column_stack([-U[:, 1], U[:, 0]])
     side = np.sign(np.sum((keep - P) * N, axis=1))
     N *= np.where(side == 0, 1.0, side)[:, None]
-    corners = np.stack([P - reach * U, P + reach * U, P + reach * U + reach * N, P - reach * U + reach * N], axis=1)
-    return shapely.polygons(corners)
+    return P, N
+
+
+def clipped_areas(geom, P: np.ndarray, N: np.ndarray) -> np.ndarray:
+    """Area of ``geom`` (polygons, holes allowed) on the side ``N`` of the line through ``P``, for each of k
+    half-planes at once: (k,).
+
+    With the origin moved onto the line, the shoelace sum of the clipped polygon needs only the parts of its
+    edges on the kept side (the pieces of the outline along the line pass through the origin and add nothing),
+    so each edge adds cross(a, b) when both ends are kept, cross(a, x) or cross(x, b) when it crosses at x."""
+    out = np.zeros(len(P))
+    for part in shapely.get_parts(geom):
+        if part.is_empty or part.area <= 0.0:
+            continue
+        part = orient(part, 1.0)  # exterior counter-clockwise, holes clockwise
+        for ring in shapely.get_rings(part):
+            V = shapely.get_coordinates(ring)[:-1]
+            A = V[None, :, :] - P[:, None, :]
+            B = np.roll(A, -1, axis=1)
+            da = np.einsum("kmi,ki->km", A, N)
+            db = np.roll(da, -1, axis=1)
+            ina, inb = da >= 0.0, db >= 0.0
+            with np.errstate(invalid="ignore", divide="ignore"):
+                t = np.where(ina != inb, da / (da - db), 0.0)
+            X = A + t[:, :, None] * (B - A)
+            cross = lambda p, q: p[..., 0] * q[..., 1] - p[..., 1] * q[..., 0]  # noqa: E731
+            c = np.where(ina & inb, cross(A, B), 0.0)
+            c += np.where(ina & ~inb, cross(A, X), 0.0)
+            c += np.where(~ina & inb, cross(X, B), 0.0)
+            out += 0.5 * c.sum(axis=1)
+    return np.maximum(out, 0.0)
+
+
+def _halfplane_polygon(P: np.ndarray, N: np.ndarray, reach: float) -> Polygon:
+    U = np.array([N[1], -N[0]])
+    return Polygon([P - reach * U, P + reach * U, P + reach * U + reach * N, P - reach * U + reach * N])
 
 
 def carve(region, pts: np.ndarray, rounds: int = 8) -> np.ndarray | None:
@@ -161,7 +199,7 @@ def carve(region, pts: np.ndarray, rounds: int = 8) -> np.ndarray | None:
     Each piece of the polygon outside the region is cut off by the line, through one of that piece's corners and
     along one of a fan of directions, that keeps most of the polygon and leaves none of the piece: a convex
     polygon stays convex under such cuts, and a re-entrant bay of the region costs a sliver, not a scaling of
-    the whole shape."""
+    the whole shape. The areas of every candidate cut are taken at once (``clipped_areas``)."""
     Q = Polygon(pts)
     shapely.prepare(region)
     reach = 4.0 * (Q.length + 1.0)
@@ -181,12 +219,12 @@ def carve(region, pts: np.ndarray, rounds: int = 8) -> np.ndarray | None:
         if len(corners) > 8:
             corners = corners[np.linspace(0, len(corners) - 1, 8).astype(int)]
         centre = np.asarray(Q.centroid.coords[0])
-        planes = _halfplanes(corners, directions, centre, reach)
-        left = shapely.area(shapely.intersection(piece, planes))
-        kept = shapely.area(shapely.intersection(Q, planes))
+        P, N = _halfplanes(corners, directions, centre)
+        left = clipped_areas(piece, P, N)
+        kept = clipped_areas(Q, P, N)
         clear = left <= 1e-6 * max(piece.area, 1e-12)
         k = int(np.argmax(np.where(clear, kept, -np.inf))) if clear.any() else int(np.argmin(left - 1e-9 * kept))
-        cut = largest_part(shapely.intersection(Q, planes[k]))
+        cut = largest_part(shapely.intersection(Q, _halfplane_polygon(P[k], N[k], reach)))
         if cut is None or cut.area <= 0:
             return None
         Q = shapely.convex_hull(cut)

@@ -29,7 +29,6 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, replace
-from functools import lru_cache
 from typing import Callable
 
 import numpy as np
@@ -96,6 +95,7 @@ class Rationalised:
     violations: tuple
     notes: tuple[str, ...] = ()
     shape: object = None  # shape.ShapeResult of the shape optimisation, when it ran
+    first_fit_mm2: float = 0.0  # area the first fit removed (voids fitted and placed, before any analysis)
 
 
 @dataclass(frozen=True)
@@ -231,9 +231,8 @@ def _check_lengths(values, where: str, what: str, example: str) -> None:
 # --- the rule context -------------------------------------------------------------------------------------
 
 
-@lru_cache(maxsize=4096)
 def _shape(draft: Draft) -> Polygon:
-    return draft.shape()
+    return draft.shape()  # built once per draft (Draft.shape keeps it)
 
 
 class Site:
@@ -758,10 +757,12 @@ def threshold_density(grid, energy: np.ndarray, voids, band: float = 2.0) -> flo
     return float(np.median(energy[near])) / (2.0 * grid.element_area)
 
 
-def _within_cap(drafts: list[Draft], evaluate, cap: float, rounds: int = 5, keep: int = 0
+def _within_cap(drafts: list[Draft], evaluate, cap: float, rounds: int = 5, keep: int = 0, floor_mm2: float = 0.0
                 ) -> tuple[float, list[Draft]]:
     """``drafts`` less the voids that cost most stiffness for their area, a fifth at a time, until the compliance is
-    at most ``cap``: (compliance, drafts left). The first ``keep`` drafts are not dropped."""
+    at most ``cap``: (compliance, drafts left). The first ``keep`` drafts are not dropped. The caller needs no
+    layout removing less than ``floor_mm2``: the dropping stops there (no analysis is spent on it) and the
+    compliance returned is then the last one analysed, above the cap."""
     state = list(drafts)
     c, energy = evaluate(state)
     for _ in range(rounds):
@@ -774,7 +775,10 @@ def _within_cap(drafts: list[Draft], evaluate, cap: float, rounds: int = 5, keep
         hot = energy[iy * grid.nx + ix]
         hot[:keep] = -np.inf
         worst = set(np.argsort(-hot)[: max(1, (len(state) - keep) // 5)].tolist())
-        state = [d for k, d in enumerate(state) if k < keep or k not in worst]
+        fewer = [d for k, d in enumerate(state) if k < keep or k not in worst]
+        if sum(_shape(d).area for d in fewer) < floor_mm2:
+            break
+        state = fewer
         c, energy = evaluate(state)
     return c, state
 
@@ -830,7 +834,7 @@ def _region_for(allowed, mirror: Mirror, fixed, r: Resolved, cache: dict):
 
 
 def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, energy=None,
-                allowed=None, shape_steps: int = 4) -> Rationalised:
+                allowed=None, shape_steps: int = 4, first_fit_only: bool = False) -> Rationalised:
     """Freeform voids (shapely polygons, local mm) -> voids a shop can make, keeping ``rules``.
 
     ``energy``: the solid panel's strain-energy density for the ``mixed`` family, as a function of points or
@@ -838,7 +842,9 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
     ``rules.check.impossible_rules`` returns (``allowed_region``). With ``settings.symmetric`` (or, by default,
     ``settings.optimize_symmetry``) the layout is kept mirror-symmetric about the mid-lines the problem is
     symmetric about (``symmetry``; a note says which and why not). Raises LacunaError when the rules leave no
-    room for any void or a setting is out of range.
+    room for any void or a setting is out of range. ``first_fit_only``: stop after the first fit (voids fitted
+    and placed, no analysis, no standard sizes, no proof) and return it, with ``first_fit_mm2`` set (what
+    ``pipeline.limiting_rule`` compares).
     """
     r = resolve_settings(settings, rules, panel.thickness_mm)
     region = rule_check.impossible_rules(panel, rules)  # raises, in words, when no void fits at all
@@ -917,6 +923,10 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
     site = Site(allowed, r.min_web_mm, r.snap_mm, r.web_ratio, r.min_void_mm,
                 openings=[o.shape for o in panel.openings], mirror=mirror, feature_mm=r.least_feature_mm)
     placed, change_recs, drop_recs = place(drafts, site, r)
+    first_fit_mm2 = float(sum(g.area for d in placed for g in site.shapes(d)))
+    if first_fit_only:
+        return Rationalised(voids=(), changes=(), dropped=tuple(dropped), fit_errors=(), violations=(),
+                            notes=tuple(notes), first_fit_mm2=first_fit_mm2)
     grid = energy[0] if isinstance(energy, tuple) else None
     evaluate = cap = None
     if grid is not None and not mirror.axes and kept and rho is not None:
@@ -927,14 +937,17 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
         # where the optimiser stopped: the strain-energy density of the material left round its voids.
         cap, e_free = evaluate.shapes([v.shape for v in kept])
         rho = threshold_density(grid, e_free, [v.shape for v in kept]) or rho
-        c_fit, _ = evaluate(placed)
+        c_fit, e_fit = evaluate(placed)
+        first = (c_fit, e_fit)
         grid_drafts = lattice_layout(allowed, r.family, r, score, openings=opening_shapes) \
             if r.family != "mixed" else []
         other = place(grid_drafts, site, r) if grid_drafts else None
         area_fit = sum(_shape(d).area for d in placed)
-        # The honeycomb is analysed only when it could be taken: it removes more, or the fit is too soft.
-        if other is not None and other[0] and (c_fit > cap or sum(_shape(d).area for d in other[0]) > area_fit):
-            c_grid, lattice = _within_cap(other[0], evaluate, cap)
+        # The honeycomb is analysed only when it could be taken: it removes clearly more, or the fit is too soft.
+        if other is not None and other[0] and (
+                c_fit > cap or sum(_shape(d).area for d in other[0]) > LATTICE_GAIN * area_fit):
+            c_grid, lattice = _within_cap(other[0], evaluate, cap,
+                                          floor_mm2=LATTICE_GAIN * area_fit if c_fit <= cap else 0.0)
             area_grid = sum(_shape(d).area for d in lattice)
             # The optimiser's own topology is kept unless the honeycomb removes clearly more (LATTICE_GAIN).
             if c_grid <= cap and (c_fit > cap or area_grid > LATTICE_GAIN * area_fit):
@@ -944,6 +957,7 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
                              "no softer than the freeform layout).")
                 keep_ids = {id(d) for d in lattice}
                 placed, change_recs, drop_recs = lattice, [c for c in other[1] if id(c[0]) in keep_ids], other[2]
+                first = None
     for source, reason in drop_recs:
         dropped.append(f"{where(source)}: {reason}; dropped.")
 
@@ -956,7 +970,7 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
 
         shaped = optimise(placed, evaluate, keeps, rho=rho, target_area_mm2=sum(v.area_mm2 for v in kept),
                           feature_mm=r.least_feature_mm, step_mm=max(grid.dx, grid.dy), steps=shape_steps,
-                          cap_Nmm=cap)
+                          cap_Nmm=cap, first=first)
         notes += list(shaped.notes)
         placed = list(shaped.drafts)
         if r.family != "mixed":
@@ -1011,4 +1025,4 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
                       else (v.id, 1.0))
     violations = tuple(rule_check.check_layout(panel, list(voids), rules))
     return Rationalised(voids=voids, changes=changes, dropped=tuple(dropped), fit_errors=tuple(errors),
-                        violations=violations, notes=tuple(notes), shape=shaped)
+                        violations=violations, notes=tuple(notes), shape=shaped, first_fit_mm2=first_fit_mm2)

@@ -119,7 +119,13 @@ class Draft:
         return circle_outline(self.centre, self.size)
 
     def shape(self) -> Polygon:
-        return outline_polygon(self.outline())
+        """The flattened outline as a shapely polygon, built once per draft (drafts are immutable; the fitting
+        and shape optimisation ask for the same draft's shape many times)."""
+        got = self.__dict__.get("_shape")
+        if got is None:
+            got = outline_polygon(self.outline())
+            object.__setattr__(self, "_shape", got)
+        return got
 
     def void(self, id: str) -> Void:
         """The finished :class:`~toolkit.model.Void`."""

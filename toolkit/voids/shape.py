@@ -39,7 +39,7 @@ import shapely
 from ..fe.assembly import Assembler
 from ..fe.boundary import fixed_dofs
 from ..fe.element import q4_stiffness
-from ..fe.fractions import solid_fractions
+from ..fe.fractions import covered_fractions, solid_fractions
 from ..fe.loads import load_matrix
 from ..fe.solve import LinearSolver
 from ..model import Panel
@@ -66,8 +66,6 @@ class Evaluator:
         solid = panel.solid
         base = solid_fractions(grid, solid)
         self.base = base
-        lower = grid.element_centres - [0.5 * grid.dx, 0.5 * grid.dy]
-        self.boxes = shapely.box(lower[:, 0], lower[:, 1], lower[:, 0] + grid.dx, lower[:, 1] + grid.dy)
         m = panel.material
         self.ke = q4_stiffness(grid.dx, grid.dy, m.E_MPa, m.nu, panel.thickness_mm)
         self.fixed = fixed_dofs(grid, panel.supports, solid=solid, active_nodes=grid.active_nodes(base > 0),
@@ -97,19 +95,15 @@ class Evaluator:
 
     def fractions(self, shapes) -> np.ndarray:
         """Solid fraction of each element with ``shapes`` cut out. The voids keep clear of each other and of the
-        openings (the rules see to it), so each one's area in the elements under it is taken off the drawn
-        panel's fractions, under its bounding box only; a fraction never goes below zero."""
+        openings (the rules see to it), so their area in each element, taken at once as one multipolygon (only
+        the elements their outlines cross are intersected), comes off the drawn panel's fractions; a fraction
+        never goes below zero."""
+        parts = [p for s in shapes for p in shapely.get_parts(s) if not p.is_empty]
+        if not parts:
+            return self.base.copy()
         f = self.base.copy()
-        g = self.grid
-        for shape in shapes:
-            x0, y0, x1, y1 = shape.bounds
-            ix = np.arange(max(int(x0 // g.dx), 0), min(int(x1 // g.dx) + 1, g.nx))
-            iy = np.arange(max(int(y0 // g.dy), 0), min(int(y1 // g.dy) + 1, g.ny))
-            if ix.size == 0 or iy.size == 0:
-                continue
-            cells = (iy[:, None] * g.nx + ix[None, :]).ravel()
-            boxes = self.boxes[cells]
-            f[cells] -= shapely.area(shapely.intersection(shape, boxes)) / g.element_area
+        cells, cut = covered_fractions(self.grid, shapely.multipolygons(parts))
+        f[cells] -= cut
         return np.clip(f, 0.0, self.base)
 
 
@@ -329,12 +323,14 @@ def _backed_off(state, trial_state, moves, share: float, fits, feature: float):
 
 
 def optimise(drafts, evaluate: Evaluator, fits: Callable, *, rho: float, target_area_mm2: float,
-             feature_mm: float, step_mm: float, steps: int = 6, cap_Nmm: float = math.inf) -> ShapeResult:
+             feature_mm: float, step_mm: float, steps: int = 6, cap_Nmm: float = math.inf,
+             first: tuple[float, np.ndarray] | None = None) -> ShapeResult:
     """Stage 1 then stage 2 (module text) on ``drafts``. ``fits(trial, i, state)`` returns the trial when draft i
     may become it beside the others (the rules), else None; ``step_mm``: the first step, as the largest move of
-    any outline vertex; ``cap_Nmm``: growth stops short of this compliance (the freeform layout's)."""
+    any outline vertex; ``cap_Nmm``: growth stops short of this compliance (the freeform layout's); ``first``: the
+    analysis of ``drafts`` (compliance, element energies) when the caller has it already."""
     state = list(drafts)
-    c0, energy = evaluate(state)
+    c0, energy = first if first is not None else evaluate(state)
     a0 = _area(state)
     record = [(c0, a0)]
     notes = []
