@@ -355,3 +355,24 @@ def test_analyze_lists_every_stop_of_the_solid_panel(tmp_path):
     # A stop at mid-span under 10 kN against the static 4 kN at the same point: F.U scales with the load squared
     # (linear elasticity), 6.25 times.
     assert stops[1] == pytest.approx(6.25 * s["cases"]["dead"]["compliance_Nmm"], rel=1e-9)
+
+
+def test_analyze_draws_the_worst_stop_only(tmp_path):
+    import ezdxf
+    from click.testing import CliRunner
+
+    from toolkit.cli import main
+
+    doc = ezdxf.new("R2013")
+    doc.header["$INSUNITS"] = 4
+    doc.modelspace().add_lwpolyline([(0, 0), (1200, 0), (1200, 400), (0, 400)], close=True,
+                                    dxfattribs={"layer": "PANEL"})
+    doc.saveas(tmp_path / "beam.dxf")
+    (tmp_path / "job.toml").write_text(travel_job(5, extra='[[load]]\nat = [300, 400]\nfy_kN = -4\ncase = "dead"\n'))
+    result = CliRunner().invoke(main, ["analyze", str(tmp_path / "beam.dxf"), "--job", str(tmp_path / "job.toml"),
+                                       "--out", str(tmp_path / "out")], catch_exceptions=False)
+    assert result.exit_code == 0, result.output
+    figures = sorted(p.name for p in (tmp_path / "out").glob("*.svg"))
+    # Stops at 100, 350, 600, 850, 1100 mm on a beam pinned at both ends: mid-span (stop 3) is the softest (the
+    # deflection under a point load on a beam is largest at mid-span, beam tables, e.g. Roark table 8.1).
+    assert figures == ["beam-analysis-dead.svg", "beam-analysis-moving-1--3.svg"]

@@ -78,6 +78,10 @@ def _optimize_lines(s: dict) -> list[str]:
         kt = f", Kt {top['kt']:.2f}" if top.get("kt") is not None else ""
         lines.append(f"  largest edge stress   {top['peak_stress_MPa']:.4g} MPa at {top['id']} "
                      f"({top['peak_stress_sense']}{kt}; local models of the voids)")
+    for t in s.get("moving_loads", []):
+        lines.append(f"  travelling load {t['case']}: {t['stops']} stops; largest compliance over them "
+                     f"{t['compliance_solid_max_Nmm']:.6g} / {t['compliance_freeform_max_Nmm']:.6g} / "
+                     f"{t['compliance_rationalized_max_Nmm']:.6g} N mm (solid / freeform / to make)")
     if s.get("limit"):
         lines.append(f"  limit: {s['limit']}")
     return lines
@@ -135,9 +139,16 @@ def analysis_summary(panel: Panel, drawing: Drawing | None, result: Analysis) ->
 
 
 def analysis_figures(panel: Panel, result: Analysis, *, date: str | None = None) -> dict[str, str]:
-    """One SVG per load case: file-name suffix -> SVG text."""
+    """One SVG per load case: file-name suffix -> SVG text. Of a travelling load's stops only the one of largest
+    compliance is drawn (a figure per stop would write as many files as there are stops; the JSON lists them all)."""
+    skip = set()
+    for travel in panel.travels:
+        worst = max(travel.cases, key=lambda c: result.compliance_per_case_Nmm[result.cases.index(c)])
+        skip |= set(travel.cases) - {worst}
     figures = {}
     for i, case in enumerate(result.cases):
+        if case in skip:
+            continue
         suffix = "analysis.svg" if len(result.cases) == 1 else f"analysis-{_slug(case)}.svg"
         figures[suffix] = analysis_svg(
             panel, result.grid, result.fractions * result.active, result.U[:, i], result.stresses[i],
