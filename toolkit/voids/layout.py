@@ -734,7 +734,7 @@ def _fill(placed: list[Draft], allowed, site: Site, r: Resolved, score, evaluate
             added.append(got)
     if not added:
         return placed, 0
-    c, kept = _within_cap(state, evaluate, cap, keep=len(placed))
+    c, kept, _ = _within_cap(state, evaluate, cap, keep=len(placed))
     if c > cap or len(kept) <= len(placed):
         return placed, 0
     return kept, len(kept) - len(placed)
@@ -758,9 +758,9 @@ def threshold_density(grid, energy: np.ndarray, voids, band: float = 2.0) -> flo
 
 
 def _within_cap(drafts: list[Draft], evaluate, cap: float, rounds: int = 5, keep: int = 0, floor_mm2: float = 0.0
-                ) -> tuple[float, list[Draft]]:
+                ) -> tuple[float, list[Draft], np.ndarray]:
     """``drafts`` less the voids that cost most stiffness for their area, a fifth at a time, until the compliance is
-    at most ``cap``: (compliance, drafts left). The first ``keep`` drafts are not dropped. The caller needs no
+    at most ``cap``: (compliance, drafts left, their element energies). The first ``keep`` drafts are not dropped. The caller needs no
     layout removing less than ``floor_mm2``: the dropping stops there (no analysis is spent on it) and the
     compliance returned is then the last one analysed, above the cap."""
     state = list(drafts)
@@ -780,7 +780,7 @@ def _within_cap(drafts: list[Draft], evaluate, cap: float, rounds: int = 5, keep
             break
         state = fewer
         c, energy = evaluate(state)
-    return c, state
+    return c, state, energy
 
 
 def _removed(drafts: list[Draft]):
@@ -946,7 +946,7 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
         # The honeycomb is analysed only when it could be taken: it removes clearly more, or the fit is too soft.
         if other is not None and other[0] and (
                 c_fit > cap or sum(_shape(d).area for d in other[0]) > LATTICE_GAIN * area_fit):
-            c_grid, lattice = _within_cap(other[0], evaluate, cap,
+            c_grid, lattice, e_grid = _within_cap(other[0], evaluate, cap,
                                           floor_mm2=LATTICE_GAIN * area_fit if c_fit <= cap else 0.0)
             area_grid = sum(_shape(d).area for d in lattice)
             # The optimiser's own topology is kept unless the honeycomb removes clearly more (LATTICE_GAIN).
@@ -957,7 +957,7 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
                              "no softer than the freeform layout).")
                 keep_ids = {id(d) for d in lattice}
                 placed, change_recs, drop_recs = lattice, [c for c in other[1] if id(c[0]) in keep_ids], other[2]
-                first = None
+                first = (c_grid, e_grid)
     for source, reason in drop_recs:
         dropped.append(f"{where(source)}: {reason}; dropped.")
 

@@ -54,6 +54,8 @@ EMPTY_SHARE = 1e-6
 GROW_REACH = 6.0
 # Stage 1 moves the voids at the same material: a step may change the removed area by this share at most.
 SAME_AREA = 2e-3
+# Stage 1 stops after a kept step that makes the panel stiffer by less than this share.
+STAGE1_GAIN = 1e-3
 # Step of the geometry-only central differences for the outline's Jacobian (mm, radians).
 _H = 1e-4
 
@@ -334,7 +336,8 @@ def optimise(drafts, evaluate: Evaluator, fits: Callable, *, rho: float, target_
     a0 = _area(state)
     record = [(c0, a0)]
     notes = []
-    # Stage 1: same material, stiffer: small steps, each kept only when the analysis shows a stiffer panel.
+    # Stage 1: same material, stiffer: small steps, each kept only when the analysis shows a stiffer panel; it
+    # stops when a kept step gains less than STAGE1_GAIN.
     c_now, a_now = record[-1]
     step = step_mm
     improved = False
@@ -360,8 +363,11 @@ def optimise(drafts, evaluate: Evaluator, fits: Callable, *, rho: float, target_
         a_new = _area(trial_state)
         # The material stays (to first order; a step losing more than SAME_AREA of it is no like-for-like gain).
         if c_new < c_now and a_new >= a0 * (1.0 - SAME_AREA):
+            gain = (c_now - c_new) / c_now
             state, energy, c_now, a_now = trial_state, e_new, c_new, a_new
             improved = True
+            if gain < STAGE1_GAIN:
+                break
         else:
             step *= 0.5
     record.append((c_now, a_now))
@@ -370,11 +376,15 @@ def optimise(drafts, evaluate: Evaluator, fits: Callable, *, rho: float, target_
                      "it kept the first fit.")
 
     # Stage 2: grow. Each void goes as far along its ascent direction as the rules let it (bisection on the
-    # rules alone, no analysis); then one analysis, and the moves are halved while the panel is softer than
-    # the cap.
+    # rules alone, no analysis). While the first-order rise of compliance keeps the panel well inside the cap
+    # (within half the room left), the step is taken on that prediction and the next gradient comes from the
+    # last analysis; otherwise, and at the end, one analysis, and the moves are halved while the panel is softer
+    # than the cap. A predicted run the closing analysis finds too soft goes back to the last analysed layout.
     improved = False
     reach_mm = GROW_REACH * step_mm
     price = rho
+    analysed = (state, energy, c_now, a_now)
+    pending = False
     for _ in range(steps):
         if a_now >= target_area_mm2:
             break
@@ -385,17 +395,33 @@ def optimise(drafts, evaluate: Evaluator, fits: Callable, *, rho: float, target_
             # cap there is stiffness to spend: price it lower (the cap still bounds the result).
             price *= 4.0
             continue
+        a_new = _area(trial_state)
+        predicted = c_now + sum(float(grads[i][0] @ move) for i, (_, move) in moves.items())
+        if predicted <= c_now + 0.5 * (cap_Nmm - c_now) and a_new < target_area_mm2:
+            state, c_now, a_now, pending = trial_state, predicted, a_new, True
+            improved = True
+            continue
         for halving in range(4):
             c_new, e_new = evaluate(trial_state)
             a_new = _area(trial_state)
             if c_new <= cap_Nmm or halving == 3:
                 break
             trial_state = _backed_off(state, trial_state, moves, 0.5 ** (halving + 1), fits, feature_mm)
+        pending = False
         if a_new > a_now and c_new <= cap_Nmm:
             state, energy, c_now, a_now = trial_state, e_new, c_new, a_new
+            analysed = (state, energy, c_now, a_now)
             improved = True
         else:
+            state, energy, c_now, a_now = analysed
             reach_mm *= 0.5
+    if pending:
+        c_new, e_new = evaluate(state)
+        if c_new <= cap_Nmm:
+            c_now, energy = c_new, e_new
+        else:
+            state, energy, c_now, a_now = analysed
+            improved = a_now > record[-1][1]
     record.append((c_now, a_now))
     if not improved:
         notes.append("the shape optimisation found no room to grow the voids under the rules and the stiffness of "
