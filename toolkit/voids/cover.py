@@ -31,7 +31,7 @@ import shapely
 from shapely.geometry import Polygon
 from shapely.geometry.polygon import orient
 
-from .measure import principal_axes
+from .measure import following, principal_axes
 
 # Corners sharper than this are chamfered: a former's sharp arris spalls, a sharp corner in timber splits, a
 # torch rounds it anyway (common practice, no source).
@@ -65,7 +65,7 @@ def _inscribed(region, tol: float | None = None) -> tuple[np.ndarray, float]:
 
 def _ccw(pts: np.ndarray) -> np.ndarray:
     x, y = pts[:, 0], pts[:, 1]
-    area2 = np.sum(x * np.roll(y, -1) - np.roll(x, -1) * y)
+    area2 = np.sum(x * following(y) - following(x) * y)
     return pts if area2 >= 0 else pts[::-1]
 
 

@@ -18,6 +18,7 @@ from shapely.geometry import Polygon
 
 from ..dxf_in.pieces import flatten
 from ..model import Point, Void
+from .measure import following, preceding
 
 # Arcs are flattened to chords no further than this off the true arc when a void becomes a shapely polygon,
 # so the checks on the flattened shape are out by at most this much (mm).
@@ -86,11 +87,11 @@ class Draft:
         if len(np.unique(np.round(snapped, 9), axis=0)) < len(snapped):
             return None
         x, y = snapped[:, 0], snapped[:, 1]
-        a2 = x * np.roll(y, -1) - np.roll(x, -1) * y
+        a2 = x * following(y) - following(x) * y
         area = a2.sum() / 2.0
         if area <= 0:
             return None
-        c = (float(np.sum((x + np.roll(x, -1)) * a2) / (6 * area)), float(np.sum((y + np.roll(y, -1)) * a2) / (6 * area)))
+        c = (float(np.sum((x + following(x)) * a2) / (6 * area)), float(np.sum((y + following(y)) * a2) / (6 * area)))
         rel = snapped - c
         return replace(self, centre=c, size=2.0 * float(np.max(np.linalg.norm(rel, axis=1))),
                        corners=tuple((float(px), float(py)) for px, py in rel))
@@ -205,7 +206,7 @@ def eased_outline(points: np.ndarray, corner: str, size: float):
     if corner == "none" or size <= 0.0:
         return tuple((float(x), float(y), 0.0) for x, y in pts)
     n = len(pts)
-    prev, nxt = np.roll(pts, 1, axis=0), np.roll(pts, -1, axis=0)
+    prev, nxt = preceding(pts), following(pts)
     to_prev, to_next = prev - pts, nxt - pts
     len_prev = np.linalg.norm(to_prev, axis=1)
     len_next = np.linalg.norm(to_next, axis=1)

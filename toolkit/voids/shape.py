@@ -44,6 +44,7 @@ from ..fe.loads import load_matrix
 from ..fe.solve import LinearSolver
 from ..model import Panel
 from .cover import MIN_INTERIOR_DEG, MIN_TURN_DEG, corner_measures
+from .measure import following, preceding
 from .outline import Draft
 from .sensitivity import compliance_gradient, element_energy
 
@@ -135,12 +136,12 @@ def with_params(d: Draft, p: np.ndarray) -> Draft:
             return replace(d, centre=(float(p[0]), float(p[1])), size=2.0 * float(p[2]),
                            corners=tuple(map(tuple, rel.tolist())))
         pts = p.reshape(n, 2)
-        area2 = pts[:, 0] * np.roll(pts[:, 1], -1) - np.roll(pts[:, 0], -1) * pts[:, 1]
+        area2 = pts[:, 0] * following(pts[:, 1]) - following(pts[:, 0]) * pts[:, 1]
         a = area2.sum() / 2.0
         if abs(a) < 1e-12:
             return d
-        cx = float(np.sum((pts[:, 0] + np.roll(pts[:, 0], -1)) * area2) / (6.0 * a))
-        cy = float(np.sum((pts[:, 1] + np.roll(pts[:, 1], -1)) * area2) / (6.0 * a))
+        cx = float(np.sum((pts[:, 0] + following(pts[:, 0])) * area2) / (6.0 * a))
+        cy = float(np.sum((pts[:, 1] + following(pts[:, 1])) * area2) / (6.0 * a))
         rel = pts - (cx, cy)
         return replace(d, centre=(cx, cy), size=2.0 * float(np.max(np.linalg.norm(rel, axis=1))),
                        corners=tuple(map(tuple, rel.tolist())))
@@ -188,7 +189,7 @@ def jacobian(d: Draft) -> tuple[np.ndarray, np.ndarray] | None:
 
 def area_gradient(v: np.ndarray) -> np.ndarray:
     """d area / d vertex (m, 2) of a counter-clockwise polygon (the shoelace formula's derivative)."""
-    nxt, prev = np.roll(v, -1, axis=0), np.roll(v, 1, axis=0)
+    nxt, prev = following(v), preceding(v)
     return 0.5 * np.column_stack([nxt[:, 1] - prev[:, 1], prev[:, 0] - nxt[:, 0]])
 
 
@@ -214,10 +215,10 @@ def shape_ok(d: Draft, feature: float) -> bool:
     if d.family == "polygon":
         pts = d.sharp
         x, y = pts[:, 0], pts[:, 1]
-        if np.sum(x * np.roll(y, -1) - np.roll(x, -1) * y) <= 0:
+        if np.sum(x * following(y) - following(x) * y) <= 0:
             return False
         interior, turn, side, _ = corner_measures(pts)
-        a, b = pts - np.roll(pts, 1, axis=0), np.roll(pts, -1, axis=0) - pts
+        a, b = pts - preceding(pts), following(pts) - pts
         convex = np.all(a[:, 0] * b[:, 1] - a[:, 1] * b[:, 0] > 0)
         return bool(convex and side.min() >= feature - 1e-9 and interior.min() >= MIN_INTERIOR_DEG - 1e-9
                     and turn.min() >= MIN_TURN_DEG - 1e-9)
@@ -297,7 +298,7 @@ def _grow_step(state, grads, rho: float, fits, feature: float, reach_mm: float):
         if ok(top):
             best = (hi, top)
         else:
-            for _ in range(6):
+            for _ in range(4):
                 mid = 0.5 * (lo + hi)
                 t = with_params(d, p + mid * unit)
                 if ok(t):
