@@ -29,8 +29,8 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-import scipy.sparse as sp
 import shapely
+import shapely.errors
 from scipy.sparse.linalg import splu
 from scipy.spatial import cKDTree
 from shapely.geometry import LineString, Point, box
@@ -274,7 +274,19 @@ def _outline_sources(shape, n_edge: float, arc_step: float, refine: float):
 
 
 def void_edge_stress(panel: Panel, void: Void, others, final, solid, *, refine: float = 1.0) -> EdgeStress:
-    """The local model of one void among the ``others`` (see the module's text)."""
+    """The local model of one void among the ``others`` (see the module's text). A model that cannot be made
+    or solved gives no figure and says why in ``note``; it never stops the job."""
+    failed = dict(void_id=void.id, peak_MPa=None, sense="", peak_at=None, case="", nominal_MPa=None, kt=None)
+    if void.shape.geom_type != "Polygon" or void.shape.is_empty:
+        return EdgeStress(**failed, note="the void's outline is not one closed shape, so no local model was made; "
+                                         "no edge stress is given.")
+    try:
+        return _local_model(panel, void, others, final, solid, refine)
+    except (MeshError, ValueError, RuntimeError, np.linalg.LinAlgError, shapely.errors.GEOSException) as error:
+        return EdgeStress(**failed, note=f"the local model failed ({error}); no edge stress is given.")
+
+
+def _local_model(panel: Panel, void: Void, others, final, solid, refine: float) -> EdgeStress:
     shape = void.shape
     circle = shapely.minimum_bounding_circle(shape)
     centre = np.asarray(circle.centroid.coords[0])
@@ -340,6 +352,7 @@ def void_edge_stress(panel: Panel, void: Void, others, final, solid, *, refine: 
         return np.where(on_void, TAG_VOID, np.where(on_window & ~on_material_edge, TAG_CUT, TAG_FREE))
 
     breaks, seeds = [], []
+    reach = shapely.buffer(window, 1.0)
     for load in panel.loads:
         if isinstance(load, PointLoad):
             seeds.append(load.at)
@@ -350,8 +363,9 @@ def void_edge_stress(panel: Panel, void: Void, others, final, solid, *, refine: 
         breaks += list(s.points)
         if s.is_point:
             seeds.append(s.points[0])
+    near = lambda pts: [p for p in pts if shapely.contains_xy(reach, *p)]  # noqa: E731
     try:
-        mesh = graded_mesh(region, size, tag=tag, breaks=breaks, seeds=seeds, tol=1e-6 * radius,
+        mesh = graded_mesh(region, size, tag=tag, breaks=near(breaks), seeds=near(seeds), tol=1e-6 * radius,
                            snap=edge_snapper(void, SNAP_REACH_MM))
     except MeshError as error:
         return EdgeStress(void_id=void.id, peak_MPa=None, sense="", peak_at=None, case="", nominal_MPa=None,

@@ -658,6 +658,6 @@ class _Reader:
                             hint="A ratio of 0 or more, e.g. 0.5 for a web half the larger void's size."
                             ) if "web_ratio" in t else None
         edge = self.number(t["max_edge_stress_MPa"], w("max_edge_stress_MPa"), low=0.0, low_open=True, unit="MPa",
-                           hint="The largest stress allowed at a void's edge in MPa, e.g. 12; leave it out to not check "
-                           "it.") if "max_edge_stress_MPa" in t else None
+                           hint="The largest stress allowed at a void's edge in MPa, e.g. 12; leave it out to "
+                           "not check it.") if "max_edge_stress_MPa" in t else None
         return RuleOptions(profile=profile, web_ratio=ratio, max_edge_stress_MPa=edge, **lengths)
