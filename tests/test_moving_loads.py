@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import json
-import math
 
 import numpy as np
 import pytest
@@ -14,7 +13,7 @@ from toolkit.fe.solve import LinearSolver
 from toolkit.inputs import build_panel
 from toolkit.jobfile import parse_job
 from toolkit.limits import peak_memory_bytes
-from toolkit.model import Drawing, Frame, LineLoad, PointLoad
+from toolkit.model import Drawing, Frame, LineLoad
 from toolkit.moving import check_memory, stop_counts
 from toolkit.optimize import OptimizeSettings, ZoneSettings, build_problem, run_beso
 from toolkit.optimize.symmetry import mirror_map

@@ -20,10 +20,6 @@ from dataclasses import dataclass
 from .errors import LacunaError
 from .model import LineLoad, Load, MovingLoad, Point, PointLoad, Travel
 
-# A stop is at most this close to its neighbour's position before the spacing is called degenerate (mm).
-_SAME_POINT_MM = 1e-9
-
-
 def travel_length(m: MovingLoad) -> float:
     """How far the load's centre travels, mm: the path less a patch's length."""
     return math.dist(m.start, m.end) - m.length_mm
