@@ -54,8 +54,10 @@ WINDOW_RADII = 1.5
 WINDOW_CELLS = 4.0
 
 TAG_FREE, TAG_CUT, TAG_VOID = 0, 1, 2
-# Edge nodes this close to a void's flattened outline (flattened to 0.01 mm) are moved onto its true curve.
-SNAP_REACH_MM = 0.05
+# Edge nodes this close to a void's true outline are moved onto it: the flattened shapes are within 0.01 mm of
+# the arcs for the voids lacuna makes and 0.1 mm for polygons read from a drawing; a web this thin is far below
+# one element of the local model, so no other edge comes this near.
+SNAP_REACH_MM = 0.25
 
 
 @dataclass(frozen=True)
@@ -179,7 +181,9 @@ def edge_stresses(panel: Panel, voids, final, solid, *, refine: float = 1.0) -> 
 def edge_snapper(void: Void, reach: float):
     """``snap(points)``: points within ``reach`` of the void's true edge moved onto it (straight sides and arcs
     from its (x, y, bulge) outline; a bore's circle); other points unchanged."""
-    if void.family == "bore" or not void.outline:
+    if not void.outline and void.family != "bore":
+        return lambda points: np.asarray(points, dtype=float)   # only the flattened shape is known
+    if void.family == "bore" and not void.outline:
         c = np.asarray(void.centre, dtype=float)
         r = 0.5 * void.size_mm
         lines, arcs = np.zeros((0, 2, 2)), np.array([[c[0], c[1], r, 0.0, 2.0 * math.pi]])
