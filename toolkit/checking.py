@@ -28,7 +28,7 @@ from .jobfile import Job, default_job, read_job
 from .model import Frame, Panel, Rules, Void
 from .edge_stress import edge_json, edge_violations
 from .pipeline import job_rules
-from .rules.check import Violation, check_layout
+from .rules.check import STRESS_RULES, Violation, check_layout
 from .rules.profiles import load_profile
 
 # Only min_void_per_thickness reads the thickness. Without one in the job that rule is set aside (with a
@@ -73,7 +73,7 @@ class CheckResult:
         for v in s["violations"]:
             x, y = v["where"]
             lines.append(f"  {v['rule']} at ({num(x)}, {num(y)}) {unit}: measured {num(v['measured'])}, required "
-                         f"{num(v['required'])} {unit}; handles {', '.join(v['handles']) or '-'}")
+                         f"{num(v['required'])} {'MPa' if v['rule'] in STRESS_RULES else unit}; handles {', '.join(v['handles']) or '-'}")
             lines.append(f"    {v['message']}")
         lines += [f"  warning: {w}" for w in s["warnings"]]
         lines += [f"  wrote {p}" for p in s.get("outputs", [])]
