@@ -324,48 +324,72 @@ def regular_ngon(region, sides: int, feature: float = 0.0, turns: int = 12
 
 
 def _rotate(xy: np.ndarray, angle: float) -> np.ndarray:
+    """Points turned by ``-angle`` (radians) about the origin: a direction at ``angle`` comes to lie along x, so a
+    search along x in the turned frame runs along ``angle``; ``_rotate(xy, -angle)`` turns the results back."""
     c, s = math.cos(angle), math.sin(angle)
-    return xy @ np.array([[c, s], [-s, c]])
+    return xy @ np.array([[c, -s], [s, c]])
 
 
-def longest_chords(region, angle_deg: float, lines: int = 24):
-    """Longest segments inside ``region`` along ``angle_deg``, one per chord line across it: (length, a, b)."""
-    a = math.radians(angle_deg)
-    turned = shapely.transform(region, lambda xy: _rotate(xy, a))
-    x0, y0, x1, y1 = turned.bounds
-    ys = y0 + (np.arange(lines) + 0.5) * (y1 - y0) / lines
-    chords = shapely.linestrings(np.stack([np.column_stack([np.full(lines, x0 - 1.0), ys]),
-                                           np.column_stack([np.full(lines, x1 + 1.0), ys])], axis=1))
-    cut = shapely.intersection(turned, chords)
+def longest_chords(region, angles_deg, lines: int = 24):
+    """Longest segment inside ``region`` along each direction of ``angles_deg``, found on ``lines`` parallel chord
+    lines across it (all directions in one intersection): per direction (length, a, b), or None where no chord
+    meets the region."""
+    angles = np.radians(np.atleast_1d(np.asarray(angles_deg, dtype=float)))
+    x0, y0, x1, y1 = region.bounds
+    centre = np.array([(x0 + x1) / 2.0, (y0 + y1) / 2.0])
+    half = 0.5 * math.hypot(x1 - x0, y1 - y0) + 1.0
+    U = np.column_stack([np.cos(angles), np.sin(angles)])
+    V = np.column_stack([-U[:, 1], U[:, 0]])
+    # The region's extent across each direction, from its vertices: the chord lines split it evenly.
+    xy = shapely.get_coordinates(region)
+    across = (xy - centre) @ V.T  # (vertices, directions)
+    lo, hi = across.min(axis=0), across.max(axis=0)
+    t = (np.arange(lines) + 0.5) / lines
+    offsets = lo[:, None] + t[None, :] * (hi - lo)[:, None]  # (directions, lines)
+    mid = centre + offsets[..., None] * V[:, None, :]
+    ends = np.stack([mid - half * U[:, None, :], mid + half * U[:, None, :]], axis=2)  # (dirs, lines, 2, 2)
+    chords = shapely.linestrings(ends.reshape(-1, 2, 2))
+    shapely.prepare(region)
+    cut = shapely.intersection(region, chords)
     parts, index = shapely.get_parts(cut, return_index=True)
+    out: list = [None] * len(angles)
     if len(parts) == 0:
-        return None
+        return out
     lengths = shapely.length(parts)
-    k = int(np.argmax(lengths))
-    xy = shapely.get_coordinates(parts[k])
-    if len(xy) < 2:
-        return None
-    ends = _rotate(xy[[0, -1]], -a)
-    return float(lengths[k]), ends[0], ends[1]
+    direction = index // lines
+    for k in range(len(angles)):
+        mine = np.flatnonzero(direction == k)
+        if mine.size == 0:
+            continue
+        j = mine[np.argmax(lengths[mine])]
+        pts = shapely.get_coordinates(parts[j])
+        if len(pts) < 2:
+            continue
+        out[k] = (float(lengths[j]), pts[0], pts[-1])
+    return out
 
 
 def inscribed_slot(region, widths, angle_deg: float | None = None, fan_deg=(0.0, -8.0, 8.0, -16.0, 16.0)):
     """The slot of a stock width removing most area inside ``region``: (centre, angle_deg, width, length) or None.
 
     The slot's axis lies in the region shrunk by half the width; along each direction of the fan about the major
-    axis the longest such axis is found on parallel chords.
+    axis the longest such axis is found on parallel chords. Narrower widths are tried while a slot of that width
+    as long as the region could still remove more than the best found.
     """
     angle = major_axis_deg(region) if angle_deg is None else angle_deg
     _, r0 = _inscribed(region)
+    reach = 2.0 * float(shapely.minimum_bounding_radius(region))
     best = None
+    fan = np.asarray(fan_deg, dtype=float)
     for w in sorted({float(x) for x in widths}, reverse=True):
         if w > 2.0 * r0 * (1.0 + 1e-6):
             continue
+        if best is not None and w * max(reach - w, 0.0) + math.pi * w * w / 4.0 <= best[0]:
+            break  # no slot this narrow, however long, removes more (nor any narrower one)
         core = shapely.buffer(region, -w / 2.0, quad_segs=8)
         if core.is_empty:
             continue
-        for df in fan_deg:
-            got = longest_chords(core, angle + df)
+        for df, got in zip(fan, longest_chords(core, angle + fan)):
             if got is None:
                 # the core is a point or a sliver: a slot as long as it is wide, at the inscribed circle
                 continue
@@ -374,7 +398,8 @@ def inscribed_slot(region, widths, angle_deg: float | None = None, fan_deg=(0.0,
             if best is None or area > best[0]:
                 centre = (p + q) / 2.0
                 d = q - p
-                ang = math.degrees(math.atan2(d[1], d[0])) % 180.0 if length > 0 else (angle + df) % 180.0
+                ang = math.degrees(math.atan2(d[1], d[0])) if length > 0 else angle + df
+                ang = round(ang, 9) % 180.0  # a direction within round-off of 180 degrees is 0
                 best = (area, (float(centre[0]), float(centre[1])), ang, w, length + w)
         if best is not None and best[3] == w and w * w >= 0.5 * best[0]:
             break  # a wider cutter fills the region's width already: narrower ones only add length

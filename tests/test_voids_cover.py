@@ -1,0 +1,103 @@
+"""The searches of voids.cover run along the direction they are given, and their vectorised sums agree with shapely.
+
+A slanted bar is the test case: the freeform voids of a truss-like layout lie along its diagonals, and a search
+that ran along the mirror image of the bar's axis (as one once did) finds a chord across the bar instead of one
+along it. Every expected figure below is plain geometry of the bar.
+"""
+
+import math
+
+import numpy as np
+import pytest
+import shapely
+import shapely.affinity as affinity
+
+from toolkit.voids.cover import (clipped_areas, hex_cells, inscribed_slot, longest_chords, major_axis_deg, split,
+                                 slot_rows)
+
+ANGLE = 30.0  # the bar's axis, degrees
+LENGTH, DEPTH = 400.0, 40.0
+
+
+def _bar(angle: float = ANGLE):
+    return affinity.rotate(shapely.box(-LENGTH / 2, -DEPTH / 2, LENGTH / 2, DEPTH / 2), angle, origin=(0, 0))
+
+
+def _axis_angle(p, q) -> float:
+    d = np.asarray(q) - np.asarray(p)
+    return math.degrees(math.atan2(d[1], d[0])) % 180.0
+
+
+@pytest.mark.parametrize("angle", [ANGLE, -ANGLE, 75.0, 0.0, 90.0])
+def test_longest_chord_runs_along_the_direction_asked(angle):
+    bar = _bar(angle)
+    along, across = longest_chords(bar, [angle, angle + 90.0])
+    # Along the bar: its full length (a chord line at the middle of the bar runs end to end).
+    assert along[0] == pytest.approx(LENGTH, rel=1e-6)
+    assert _axis_angle(along[1], along[2]) == pytest.approx(angle % 180.0, abs=1e-6)
+    # Across it: its depth.
+    assert across[0] == pytest.approx(DEPTH, rel=1e-6)
+
+
+def test_slot_in_a_slanted_bar_lies_along_it():
+    centre, angle, width, length = inscribed_slot(_bar(), [20.0, 30.0])
+    assert angle == pytest.approx(ANGLE, abs=1e-6)
+    assert width == 30.0  # the wider stock width: the bar is 40 deep
+    assert length == pytest.approx(LENGTH, rel=1e-6)  # the axis runs the bar's length less a width, plus the ends
+    assert shapely.covers(_bar().buffer(1e-6), shapely.Point(centre))
+
+
+def test_slot_rows_lie_along_a_slanted_bar_and_inside_it():
+    rows = slot_rows(_bar(), [20.0, 30.0], lambda a, b: 10.0)
+    assert rows
+    for centre, angle, width, length in rows:
+        assert angle == pytest.approx(ANGLE, abs=1e-6)
+        u = np.array([math.cos(math.radians(angle)), math.sin(math.radians(angle))])
+        half = (length - width) / 2.0
+        slot = shapely.LineString([np.asarray(centre) - half * u, np.asarray(centre) + half * u]).buffer(width / 2)
+        assert _bar().buffer(1e-6).covers(slot)
+
+
+def test_split_cuts_across_the_major_axis():
+    bar = _bar()
+    assert major_axis_deg(bar) == pytest.approx(ANGLE, abs=1e-6)
+    pieces = split(bar, 2, 10.0)
+    assert len(pieces) == 2
+    # Two halves along the axis, a 10 mm web between: each (400 - 10) / 2 long and the full depth.
+    for p in pieces:
+        assert p.area == pytest.approx((LENGTH - 10.0) / 2 * DEPTH, rel=1e-6)
+    c0, c1 = (np.asarray(p.centroid.coords[0]) for p in pieces)
+    assert _axis_angle(c0, c1) == pytest.approx(ANGLE, abs=1e-6)
+    assert np.linalg.norm(c1 - c0) == pytest.approx((LENGTH + 10.0) / 2, rel=1e-6)
+
+
+@pytest.mark.parametrize("angle", [20.0, -20.0])
+def test_honeycomb_rows_run_along_the_direction_asked(angle):
+    # (Not 30 degrees: a honeycomb has rows every 60 degrees, so rows at +30 and at -30 are the same lattice.)
+    # A big square turned by the same angle: the whole cells' centres lie on rows along ``angle``, one row height
+    # (pitch * sqrt(3) / 2) apart, so their offsets across that direction differ by whole row heights.
+    pitch, web = 60.0, 10.0
+    square = affinity.rotate(shapely.box(-300, -300, 300, 300), angle, origin=(0, 0))
+    full = 3.0 * math.sqrt(3.0) / 2.0 * ((pitch - web) / math.sqrt(3.0)) ** 2  # one whole cell
+    whole = [p for p in hex_cells(square, pitch, web, angle) if p.area >= full * (1 - 1e-9)]
+    assert len(whole) >= 50
+    t = math.radians(angle)
+    normal = np.array([-math.sin(t), math.cos(t)])
+    offsets = np.array([np.asarray(p.centroid.coords[0]) @ normal for p in whole])
+    rows = (offsets - offsets.min()) / (pitch * math.sqrt(3.0) / 2.0)
+    assert np.allclose(rows, np.round(rows), atol=1e-6)
+
+
+def test_clipped_areas_agree_with_shapely():
+    rng = np.random.default_rng(7)
+    shape = shapely.Point(0, 0).buffer(50).difference(shapely.box(-10, -60, 10, 0))
+    shape = shape.difference(shapely.Point(20, 20).buffer(8))  # a hole: the clipping handles its ring too
+    P = rng.uniform(-60, 60, (100, 2))
+    a = rng.uniform(0, 2 * np.pi, 100)
+    N = np.column_stack([np.cos(a), np.sin(a)])
+    got = clipped_areas(shape, P, N)
+    for k in range(100):
+        U = np.array([N[k, 1], -N[k, 0]])
+        half = shapely.Polygon([P[k] - 500 * U, P[k] + 500 * U, P[k] + 500 * U + 500 * N[k],
+                                P[k] - 500 * U + 500 * N[k]])
+        assert got[k] == pytest.approx(shape.intersection(half).area, abs=1e-6)
