@@ -21,7 +21,7 @@ from pathlib import Path
 
 from .errors import LacunaError
 from .optimize.settings import OptimizeSettings
-from .model import Layers, LineLoad, Load, Material, Point, PointLoad, Support
+from .model import Layers, LineLoad, Load, Material, MovingLoad, Point, PointLoad, Support
 from .units import MM_PER_UNIT
 
 TEMPLATE_RESOURCE = "data/job_template.toml"  # package data beside this module
@@ -502,8 +502,6 @@ class _Reader:
 
     def read_moving_loads(self, data: dict) -> tuple[MovingLoad, ...]:
         """[[moving_load]]: a point load or a patch travelling along a straight path (docs/moving-loads.md)."""
-        from .model import MovingLoad
-
         moving = []
         for i, t in enumerate(self.array(data, "moving_load"), 1):
             w = lambda key=None: self.where("moving_load", key, i)  # noqa: E731
