@@ -51,6 +51,9 @@ GROWTH = 0.25               # the element size grows by this much per unit dista
 # The window reaches this many void radii (smallest enclosing circle) beyond the void, and at least
 # ``WINDOW_CELLS`` grid elements (the grid's field near the smeared void is rough within a few elements).
 WINDOW_RADII = 1.5
+# The local elements along the window's sides, in grid elements: a quadratic side's three nodes sample the grid's
+# field about one grid element apart.
+GRID_CELLS = 2.0
 WINDOW_CELLS = 4.0
 
 TAG_FREE, TAG_CUT, TAG_VOID = 0, 1, 2
@@ -340,7 +343,18 @@ def _local_model(panel: Panel, void: Void, others, final, solid, refine: float) 
         width = float(shapely.distance(shape, other))
         sources_xy.append(np.asarray(_middle(shape, other)).reshape(1, 2))
         sources_h.append(np.array([width / WEB_ELEMENTS]))
-    h_max = max(h_edge, min(max(g.dx, g.dy), margin / 3.0) / refine)
+    # The window's sides sample the grid's field: their elements at most GRID_CELLS grid elements (a side's three
+    # nodes then fall about a grid element apart); inside, the size grows from the edges up to a third of the reach.
+    h_side = max(h_edge, GRID_CELLS * max(g.dx, g.dy) / refine)
+    sides = shapely.intersection(shapely.boundary(window), shapely.buffer(panel.solid, 1e-9))
+    step = 0.5 * h_side
+    for line in getattr(sides, "geoms", [sides]):
+        if line.is_empty or line.length <= 0:
+            continue
+        t = np.arange(0.0, line.length + step, step)
+        sources_xy.append(shapely.get_coordinates(shapely.line_interpolate_point(line, t)))
+        sources_h.append(np.full(len(t), h_side))
+    h_max = max(h_side, margin / 3.0 / refine)
     size = size_field(np.vstack(sources_xy), np.concatenate(sources_h), h_max)
 
     tol = 1e-6 * max(panel.width_mm, panel.height_mm)

@@ -319,9 +319,15 @@ def _inside(dl: Delaunay, pts: np.ndarray, segs: np.ndarray, region) -> np.ndarr
     graph = sp.coo_matrix((np.ones(int(link.sum())), (i[link], j[link])), shape=(len(simp), len(simp)))
     _, label = connected_components(graph, directed=False)
     cen = pts[simp].mean(axis=1)
-    vote = np.where(shapely.contains_xy(region, cen[:, 0], cen[:, 1]), 1.0, -1.0)
-    score = np.bincount(label, weights=vote)
-    return score[label] > 0
+    p = pts[simp]
+    area = 0.5 * np.abs((p[:, 1, 0] - p[:, 0, 0]) * (p[:, 2, 1] - p[:, 0, 1])
+                        - (p[:, 2, 0] - p[:, 0, 0]) * (p[:, 1, 1] - p[:, 0, 1]))
+    # votes weighted by area: the flat slivers Qhull leaves along a straight stretch of the hull have centroids
+    # on the edge, in or out by round-off, and must not carry their piece
+    inside = np.bincount(label, weights=area * shapely.contains_xy(region, cen[:, 0], cen[:, 1]))
+    total = np.bincount(label, weights=area)
+    keep = (inside > 0.5 * total) & (total > 1e-9 * float(region.area))
+    return keep[label]
 
 
 def _stray_sides(tri: np.ndarray, segs: np.ndarray) -> int:
