@@ -481,3 +481,71 @@ def test_check_reads_a_rounded_polygon_as_the_optimiser_makes_it(tmp_path):
     x, y = drawn["peak_stress_at"]
     assert abs(x - 600.0) > 30.0   # on a corner arc (the corners' arcs start 30 mm from the middle of a side)
     assert "sharp" not in drawn["edge_note"]
+
+
+# --- random layouts: a figure or a reason, never a crash --------------------------------------------------------
+
+from hypothesis import HealthCheck, given, settings  # noqa: E402
+from hypothesis import strategies as st  # noqa: E402
+
+
+@st.composite
+def void_layouts(draw):
+    """One to four voids in the strip: bores, slots, n-gons with rounded or sharp corners, anywhere inside
+    (some close together or overlapping, some near the outline)."""
+    voids = []
+    for k in range(draw(st.integers(1, 4))):
+        family = draw(st.sampled_from(["bore", "slot", "rounded", "sharp"]))
+        size = draw(st.floats(20.0, 120.0))
+        x = draw(st.floats(100.0, 1100.0))
+        y = draw(st.floats(size / 2 + 2.0, 400.0 - size / 2 - 2.0))
+        if family == "bore":
+            voids.append(bore((x, y), size, f"V{k + 1}"))
+            continue
+        if family == "slot":
+            outline = stadium_outline((x, y), draw(st.floats(0.0, 180.0)), size, size * draw(st.floats(1.2, 3.0)))
+            if max(abs(p[1] - 200.0) for p in outline) > 200.0 - size / 2:
+                outline = stadium_outline((x, y), 0.0, size, size * 1.5)
+        else:
+            a = math.radians(draw(st.floats(0.0, 90.0)))
+            n = draw(st.integers(3, 8))
+            r = size / 2
+            corners = np.array([[x + r * math.cos(a + 2 * math.pi * i / n), y + r * math.sin(a + 2 * math.pi * i / n)]
+                                for i in range(n)])
+            outline = eased_outline(corners, "radius" if family == "rounded" else "none", 0.2 * r)
+        shape = outline_polygon(outline)
+        voids.append(Void(id=f"V{k + 1}", family="slot" if family == "slot" else "polygon", centre=(x, y),
+                          size_mm=size, shape=shape, outline=outline))
+    return voids
+
+
+def _check_layout(voids):
+    panel = strip_panel(20.0)
+    inside = [v for v in voids if shapely.within(v.shape, panel.envelope)]
+    if not inside:
+        return
+    results = whole_path(panel, inside)
+    assert len(results) == len(inside)
+    for v, r in zip(inside, results):
+        if r.peak_MPa is None:
+            assert r.note and r.kt is None and r.nominal_MPa is None
+        else:
+            assert math.isfinite(r.peak_MPa) and r.peak_MPa > 0
+            assert shapely.distance(shapely.boundary(v.shape), shapely.Point(r.peak_at)) < 0.3
+            assert r.kt is None or math.isfinite(r.kt)
+        for w in r.webs:
+            if w.width_mm < r.element_mm:
+                assert w.note == WEB_TOO_THIN and r.peak_MPa is None
+
+
+@settings(max_examples=5, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(void_layouts())
+def test_random_layouts_give_a_figure_or_a_reason(voids):
+    _check_layout(voids)
+
+
+@pytest.mark.slow
+@settings(max_examples=150, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(void_layouts())
+def test_random_layouts_give_a_figure_or_a_reason_long(voids):
+    _check_layout(voids)
