@@ -538,7 +538,7 @@ def _check_layout(voids):
                 assert w.note == WEB_TOO_THIN and r.peak_MPa is None
 
 
-@settings(max_examples=5, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@settings(max_examples=3, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 @given(void_layouts())
 def test_random_layouts_give_a_figure_or_a_reason(voids):
     _check_layout(voids)
