@@ -549,3 +549,9 @@ def test_random_layouts_give_a_figure_or_a_reason(voids):
 @given(void_layouts())
 def test_random_layouts_give_a_figure_or_a_reason_long(voids):
     _check_layout(voids)
+
+
+def test_web_to_the_panel_edge_below_one_element_is_said():
+    """A bore 0.5 mm from the strip's edge: no figure, the panel's edge named as the thin web."""
+    (r,) = whole_path(strip_panel(20.0), [bore((600.0, 40.5), 80.0)])
+    assert r.peak_MPa is None and WEB_TOO_THIN in r.note and "the panel's edge" in r.note

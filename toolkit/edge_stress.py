@@ -57,6 +57,8 @@ GRID_CELLS = 2.0
 WINDOW_CELLS = 4.0
 
 TAG_FREE, TAG_CUT, TAG_VOID = 0, 1, 2
+# Below this share of the peak the nominal stress gives no Kt (a Kt over 100 says only that nothing was there).
+KT_FLOOR = 0.01
 # Edge nodes this close to a void's true outline are moved onto it: the flattened shapes are within 0.01 mm of
 # the arcs for the voids lacuna makes and 0.1 mm for polygons read from a drawing; a web this thin is far below
 # one element of the local model, so no other edge comes this near.
@@ -309,7 +311,8 @@ def _local_model(panel: Panel, void: Void, others, final, solid, refine: float) 
     neighbours += [(f"opening {o.handle or o.layer}", o.shape) for o in panel.openings
                    if shapely.intersects(o.shape, window)]
     webs_thin = []
-    for name, other in neighbours:
+    outline = shapely.boundary(panel.envelope)
+    for name, other in neighbours + [("the panel's edge", outline)]:
         width = float(shapely.distance(shape, other))
         if width < h_edge:
             webs_thin.append((name, width, other))
@@ -332,8 +335,12 @@ def _local_model(panel: Panel, void: Void, others, final, solid, refine: float) 
         return EdgeStress(void_id=void.id, peak_MPa=None, sense="", peak_at=None, case="", nominal_MPa=None,
                           kt=None, element_mm=h_edge, note="the void is not wholly inside the panel's material, so "
                                                            "no local model was made; no edge stress is given.")
-    # sources: this void, its neighbours (coarser), the webs to them
+    # sources: this void, its neighbours (coarser), the webs to them and to the panel's edge
     sources_xy, sources_h = [src_xy], [src_h]
+    cover = float(shapely.distance(shape, outline))
+    if cover < radius:
+        sources_xy.append(np.asarray(_middle(shape, outline)).reshape(1, 2))
+        sources_h.append(np.array([cover / WEB_ELEMENTS]))
     for name, other in neighbours:
         if other.geom_type != "Polygon":
             continue
@@ -417,7 +424,7 @@ def _local_model(panel: Panel, void: Void, others, final, solid, refine: float) 
     nominal = _nominal(solid, shape)[:, c] if solid is not None else None
     nominal_c = float(nominal[0]) if nominal is not None else None
     scale = float(np.max(np.abs(along))) if along.size else 0.0
-    kt = abs(peak) / nominal_c if nominal_c is not None and nominal_c > 1e-9 * max(scale, 1e-30) else None
+    kt = abs(peak) / nominal_c if nominal_c is not None and nominal_c >= KT_FLOOR * scale else None
     webs = tuple(_web(mesh, U, mat, name, shape, other, c) for name, other in neighbours)
     note = ""
     if sharp:
@@ -425,7 +432,8 @@ def _local_model(panel: Panel, void: Void, others, final, solid, refine: float) 
                 f"local model's with elements of {h_edge / CORNER_SHRINK:.2g} mm at the corner and grows as they "
                 "shrink (ease the corners: [voids] corner).")
     if nominal_c is not None and kt is None:
-        note = (note + " " if note else "") + "the solid panel is unstressed at this void: no Kt."
+        note = (note + " " if note else "") + (f"the solid panel is hardly stressed at this void (nominal stress "
+                                               f"under {KT_FLOOR:.0%} of the peak): no Kt.")
     return EdgeStress(void_id=void.id, peak_MPa=abs(peak), sense="tension" if peak >= 0 else "compression",
                       peak_at=tuple(float(v) for v in mesh.points[nodes[k]]), case=cases[c],
                       nominal_MPa=nominal_c, kt=kt, webs=webs, element_mm=h_edge, elements=len(mesh.tri),
