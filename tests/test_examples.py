@@ -1,10 +1,9 @@
 """The shipped examples (fixtures/examples/, made by fixtures/make_examples.py): the first cases a practitioner
 checks, each held to the outcome the trade expects of it.
 
-The layout measures run the optimiser on each example as its files give it (drawing, job, rules' zones): a few
-seconds for the set. The whole job on every example (voids to make, local edge models, files) takes about a
-minute on two cores and is marked slow; tests/test_moving_loads.py runs a travelling load through the whole job
-in the default run.
+Each example runs the whole job once (voids to make, local edge models, every file: 40 s for the six on two
+cores); the layout measures read the optimiser's layout of that run. The pin-and-roller variants run the
+optimiser alone.
 
 Figures quoted as "measured here" are from the committed examples on the development machine; the thresholds
 beside them say where they come from. Every measure is also shown able to fail (a layout it must reject).
@@ -41,9 +40,25 @@ MAKER = _maker()
 
 
 @pytest.fixture(scope="module")
-def layouts():
-    """The optimiser on every example: name -> (problem, BesoResult)."""
-    return {name: beso_only(name) for name in MAKER.EXAMPLES}
+def runs(tmp_path_factory):
+    """The whole job on every example, once: name -> Outcome (summary, files written, the run)."""
+    out = tmp_path_factory.mktemp("examples")
+    return {name: optimize_file(EXAMPLES / f"{name}.dxf", EXAMPLES / f"{name}.toml", out_dir=out / name)
+            for name in MAKER.EXAMPLES}
+
+
+@pytest.fixture(scope="module")
+def layouts(runs):
+    """name -> (problem, BesoResult): each run's optimiser layout with the problem it solved."""
+    out = {}
+    for name, outcome in runs.items():
+        problem, _ = example_problem(name)
+        beso = outcome.run.beso
+        # The pipeline also closes to the optimiser what no void could be made in; the measures need the grid,
+        # loads and supports, which are the same.
+        assert beso.densities.shape == (problem.grid.n_elements,)
+        out[name] = (dataclasses.replace(problem, design=beso.design), beso)
+    return out
 
 
 def design_solid(problem, result):
@@ -56,15 +71,22 @@ def iou(a: np.ndarray, b: np.ndarray) -> float:
     return float(np.count_nonzero(a & b) / np.count_nonzero(a | b))
 
 
-def beso_only(name: str, *, roller: bool = False):
-    """The optimiser alone on an example (no voids stage), optionally with the right-hand bearing a roller."""
+def example_problem(name: str, *, roller: bool = False):
+    """The optimiser's problem of an example as the pipeline builds it (the rules' zones; the region open to voids
+    is left out: it only narrows the design region), and the job; optionally the right-hand bearing a roller."""
     panel, job, _ = load_panel(EXAMPLES / f"{name}.dxf", EXAMPLES / f"{name}.toml")
     if roller:
         left, right = panel.supports
         panel = dataclasses.replace(panel, supports=(left, dataclasses.replace(right, fix="y")))
     r = job_rules(job)
-    problem = build_problem(panel, ZoneSettings(edge_cover_mm=r.edge_cover_mm, bearing_clearance_mm=r.bearing_clearance_mm,
-                                                min_web_mm=r.min_web_mm))
+    zones = ZoneSettings(edge_cover_mm=r.edge_cover_mm, bearing_clearance_mm=r.bearing_clearance_mm,
+                         min_web_mm=r.min_web_mm)
+    return build_problem(panel, zones), job
+
+
+def beso_only(name: str, *, roller: bool = False):
+    """The optimiser alone on an example (no voids stage), optionally with the right-hand bearing a roller."""
+    problem, job = example_problem(name, roller=roller)
     return problem, run_beso(problem, job.optimize)
 
 
@@ -85,14 +107,14 @@ def test_central_point_load_gives_a_symmetric_truss_like_layout(layouts):
     problem, result = layouts["beam-central-load"]
     m = mirror_map(problem.grid, "x")
     d = result.densities
-    # Symmetric problem (both ends pinned, load at mid-span), no symmetry option: at least 99 % of elements equal
-    # their mirror images (measured here: 99.9 %, 2 of 1,600; the optimiser's own test measures 99.8 %).
-    assert np.mean(d == d[m]) >= 0.99
+    # Symmetric problem (both ends pinned, load at mid-span), no symmetry option: at least 98 % of elements equal
+    # their mirror images (the threshold of the optimiser's own test; measured here: 99.0 %, 16 of 1,600).
+    assert np.mean(d == d[m]) >= 0.98
     # Truss-like: members with openings between them, not one hole in a solid beam: at least 4 freeform voids
     # (measured here: 7). Common practice, no source: a point load on a simply supported deep beam is carried
     # by a web of struts and ties.
     assert len(freeform_voids(problem.grid, d)) >= 4
-    # ...which a single off-centre load does not give symmetric: the symmetry measure can fail (measured: 0.42
+    # ...which a single off-centre load does not give symmetric: the symmetry measure can fail (measured: 0.41
     # IoU between the 0.3 and 0.7 layouts unmirrored, below).
 
 
@@ -106,11 +128,11 @@ def test_load_at_0_3_and_0_7_span_give_mirrored_layouts(layouts):
     # Both ends pinned alike: the 0.7 problem is the mirror image of the 0.3 one, so are its layouts. IoU of the
     # optimiser's voids >= 0.9 (the threshold asked for in the issue; measured here: 1.00).
     assert iou(void_a, void_b[m]) >= 0.9
-    # Unmirrored the two differ: the measure can fail (measured here: 0.42).
+    # Unmirrored the two differ: the measure can fail (measured here: 0.41).
     assert iou(void_a, void_b) < 0.7
 
 
-def test_pin_and_roller_mirror_too_but_need_a_tie(layouts):
+def test_pin_and_roller_mirror_too_but_need_a_tie():
     # A pin and a roller under vertical loads: the pin's horizontal reaction is zero, so swapping which end is the
     # pin moves the panel by a rigid shift only and strains nothing: mirror problems still give mirror layouts (a
     # consequence of the mathematics; measured here: IoU 1.00). What changes is the layout itself: with nothing to
@@ -119,7 +141,7 @@ def test_pin_and_roller_mirror_too_but_need_a_tie(layouts):
     # design elements against 0.51 with two pins, and the two layouts' voids overlap by IoU 0.47.
     pa, ra = beso_only("beam-load-at-0.3", roller=True)
     _, rb = beso_only("beam-load-at-0.7", roller=True)
-    _, rp = layouts["beam-load-at-0.3"]
+    _, rp = beso_only("beam-load-at-0.3")
     m = mirror_map(pa.grid, "x")
     design = pa.design & pa.design[m]
     void = lambda r: (r.densities < 1.0) & design  # noqa: E731
@@ -160,13 +182,13 @@ def test_wall_leaf_on_two_bearings_carries_its_load_on_an_arch(layouts):
     over_bearings = line[(xs < 120.0) | (xs > g.width_mm - 120.0)].mean()   # the bearing pads are 120 mm long
     crown = line[np.abs(xs - g.width_mm / 2.0) < 2 * g.dx].mean()
     # An arch between the bearings rises from them to its crown at mid-span. Rise of the centroid line at least
-    # half the wall's height (our margin; measured here: 1,721 mm of 2,400, from 619 mm over the bearings to
+    # half the wall's height (our margin; measured here: 1,688 mm of 2,400, from 652 mm over the bearings to
     # 2,340 mm at mid-span, just under the top edge band). Columns of material standing on the
     # bearings would give a flat line near mid-height (rise about 0), so the measure can fail.
     assert crown - over_bearings >= 0.5 * g.height_mm
     # The line of thrust of a load spread evenly along the span is a parabola (a consequence of statics); the
     # centroid line follows the one through the bearings and the top at mid-span: RMS distance at most a tenth of
-    # the height (our margin; measured here: 111 mm; a flat line at mid-height would be 800 mm off).
+    # the height (our margin; measured here: 113 mm; a flat line at mid-height would be 800 mm off).
     parabola = g.height_mm * (1.0 - ((xs - g.width_mm / 2.0) / (g.width_mm / 2.0)) ** 2)
     assert np.sqrt(np.mean((line - parabola) ** 2)) <= 0.1 * g.height_mm
     # ...and the line climbs from each bearing to the crown: no drop of more than one element on the way.
@@ -187,7 +209,7 @@ def test_beam_under_a_travelling_load(layouts):
     assert np.array_equal(result.densities[design], result.densities[m][design])
     assert len(problem.cases) == 9
     # The layout serves every stop: its compliance over the solid beam's is much the same at every stop (largest
-    # ratio at most 1.5 times the smallest; our margin, measured here: 1.69 to 1.97, 1.16 times). The central-load
+    # ratio at most 1.5 times the smallest; our margin, measured here: 1.64 to 1.94, 1.18 times). The central-load
     # example's layout fails it by far (measured here: 1.41 at mid-span, 75 at the end stops).
     solid = weighted_compliances(problem, np.ones(problem.grid.n_elements))
     ratio = result.case_compliance_Nmm / solid
@@ -208,18 +230,17 @@ def weighted_compliances(problem, densities, penalty=3.0):
     return np.einsum("ic,ic->c", problem.loads, U)
 
 
-@pytest.mark.slow
-def test_whole_job_on_every_example(tmp_path):
-    for name in MAKER.EXAMPLES:
-        outcome = optimize_file(EXAMPLES / f"{name}.dxf", EXAMPLES / f"{name}.toml", out_dir=tmp_path / name)
+def test_whole_job_on_every_example(runs):
+    for name, outcome in runs.items():
         s = outcome.summary
         assert s["converged"], name
         assert s["rules"]["violations"] == [], name
         assert s["voids"], name  # each example lightens its panel
         # Taking material away never stiffens the panel (a consequence of the mathematics).
         assert s["compliance_rationalized_Nmm"] >= s["compliance_solid_Nmm"], name
+        written = {Path(p).name for p in s["outputs"]}
         for suffix in ("result.svg", "report.md", "optimize.json", "lacuna.dxf"):
-            assert (tmp_path / name / f"{name}-{suffix}").is_file(), (name, suffix)
+            assert f"{name}-{suffix}" in written and all(Path(p).is_file() for p in s["outputs"]), (name, suffix)
         if name == "beam-travelling-load":
             (travel,) = s["moving_loads"]
             assert travel["stops"] == 9
