@@ -59,6 +59,8 @@ MOVE_RINGS = 4
 # A made void may stand this far out of its freeform void (the contour is no more exact than the grid); the
 # snapping step may move an irregular n-gon's corners by up to half the snap on top.
 ROOM_TOLERANCE_MM = 0.5
+# Rounds of refitting a void with the margin its own size asks for, where a web ratio ties the two.
+SETTLE_ROUNDS = 4
 # Relative tolerance of the largest-inscribed-circle searches that only choose among candidates (the proof and
 # the placing step measure finely).
 FIT_RTOL = 5e-3
@@ -522,11 +524,14 @@ def _settled(room: Room, part, fit) -> tuple | None:
     """``fit(space)`` -> (extent, area, result) in the room ``part`` leaves for a void of the size it finds.
 
     The margin from the neighbours depends on the void's own size when the rules tie the web to it, and the size
-    on the margin: start from the part's extent, refit with the size found, and keep the largest fit whose size
-    is no more than the one its margin was made for (a few rounds reach it)."""
+    on the margin: a fit made for extent e has size s(e), smaller the larger e is, and is sound when s(e) <= e. The
+    best sound fit is near the e where s(e) = e: start from the part's extent, refit with the size found, and once
+    a sound and an unsound extent bracket that point, refit at the secant's root between them (a tenth of the way back to the sound one) (the plain refit
+    would zigzag towards it); keep the largest sound fit."""
     extent = _extent(part)
     best = None
-    for _ in range(3 if room.r.web_ratio else 1):
+    sound = unsound = None  # (extent, s(e) - e)
+    for _ in range(SETTLE_ROUNDS if room.r.web_ratio else 1):
         space = room.within(part, extent)
         got = fit(space) if space is not None else None
         if got is None:
@@ -534,11 +539,21 @@ def _settled(room: Room, part, fit) -> tuple | None:
                 break
             extent *= 0.7
             continue
-        if got[0] <= extent + 1e-6 and (best is None or got[1] > best[1]):
-            best = got
-        if abs(got[0] - extent) <= 1e-3 * extent:
+        gap = got[0] - extent
+        if gap <= 1e-6:
+            if best is None or got[1] > best[1]:
+                best = got
+            sound = (extent, gap)
+        else:
+            unsound = (extent, gap)
+        if abs(gap) <= 1e-3 * extent:
             break
-        extent = got[0]
+        if sound is not None and unsound is not None and sound[1] < unsound[1]:
+            (e0, g0), (e1, g1) = sound, unsound
+            root = e0 - g0 * (e1 - e0) / (g1 - g0)
+            extent = root + 0.1 * (e0 - root)  # a little to the sound side: a fit there is one to keep
+        else:
+            extent = got[0]
     return best[2] if best is not None else None
 
 
