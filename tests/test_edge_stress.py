@@ -555,3 +555,58 @@ def test_web_to_the_panel_edge_below_one_element_is_said():
     """A bore 0.5 mm from the strip's edge: no figure, the panel's edge named as the thin web."""
     (r,) = whole_path(strip_panel(20.0), [bore((600.0, 40.5), 80.0)])
     assert r.peak_MPa is None and WEB_TOO_THIN in r.note and "the panel's edge" in r.note
+
+
+# --- the six-node triangle on its own ----------------------------------------------------------------------------
+
+
+def _plate_with_hole_mesh():
+    v = bore((0.0, 0.0), 20.0)
+    region = box(-40, -30, 40, 30).difference(v.shape)
+    xy, h, _, _ = _outline_sources(v.shape, 64, math.pi / 16, 1.0)
+    return graded_mesh(region, size_field(xy, h, 8.0), tag=lambda m: np.where(np.abs(m).max(axis=1) > 29.999, 1, 0),
+                       snap=edge_snapper(v, 0.05)), region
+
+
+def test_patch_test_on_curved_elements():
+    """A linear displacement field held on every edge (the hole's curved one included) is reproduced inside with
+    no load, and its constant stress everywhere (the patch test; closed form sigma = D eps)."""
+    mesh, _ = _plate_with_hole_mesh()
+    n = mesh.n_nodes
+    edge = np.unique(mesh.edges.ravel())
+    eps = np.array([1e-3, -4e-4, 6e-4])   # ex, ey, gxy
+    exact = np.zeros(2 * n)
+    exact[0::2] = eps[0] * mesh.points[:, 0] + 0.5 * eps[2] * mesh.points[:, 1]
+    exact[1::2] = eps[1] * mesh.points[:, 1] + 0.5 * eps[2] * mesh.points[:, 0]
+    held = np.zeros(2 * n, dtype=bool)
+    held[2 * edge] = held[2 * edge + 1] = True
+    U = solve(mesh, E, NU, 1.0, held, exact[:, None].copy(), np.zeros((2 * n, 1)))
+    assert np.abs(U[:, 0] - exact).max() < 1e-12
+    D = np.array([[1, NU, 0], [NU, 1, 0], [0, 0, (1 - NU) / 2]]) * E / (1 - NU ** 2)
+    assert np.allclose(nodal_average(mesh, U, E, NU)[:, :, 0], D @ eps, atol=1e-10)
+
+
+def test_stiffness_has_exactly_the_rigid_motions_free():
+    """Unheld, the stiffness has three zero modes (slide x, slide y, turn) and no others."""
+    v = bore((0.0, 0.0), 10.0)
+    region = box(-15, -15, 15, 15).difference(v.shape)
+    xy, h, _, _ = _outline_sources(v.shape, 16, math.pi / 4, 1.0)
+    mesh = graded_mesh(region, size_field(xy, h, 8.0), tag=lambda m: np.zeros(len(m), int), snap=edge_snapper(v, 0.05))
+    K = tri6.stiffness(mesh.points, mesh.tri, E, NU, 1.0).toarray()
+    w = np.linalg.eigvalsh(K)
+    assert np.sum(np.abs(w) < 1e-9 * w.max()) == 3
+    p = mesh.points
+    turn = np.column_stack([-p[:, 1], p[:, 0]]).ravel()
+    assert np.abs(K @ turn).max() < 1e-9 * w.max()
+
+
+def test_loads_keep_their_resultants():
+    """Self-weight sums to rho g t A of the region (statics); a uniform edge traction to traction x length x t."""
+    mesh, _ = _plate_with_hole_mesh()
+    f = tri6.body_load(mesh.points, mesh.tri, np.array([0.0, -2.0]), 3.0)
+    # the curved elements follow the hole: the weight is that of the box less the true circle
+    assert f[1::2].sum() == pytest.approx(-2.0 * 3.0 * (80.0 * 60.0 - math.pi * 10.0 ** 2), rel=1e-6)
+    assert f[0::2].sum() == pytest.approx(0.0, abs=1e-9)
+    outer = mesh.edges[mesh.edge_tag == 1]
+    g = tri6.edge_load(mesh.points, outer, np.tile([0.5, 0.0], (len(outer), 1)), 3.0)
+    assert g[0::2].sum() == pytest.approx(0.5 * 3.0 * 280.0, rel=1e-12)   # perimeter of the 80 x 60 box
