@@ -944,18 +944,21 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
                             notes=tuple(notes), first_fit_mm2=first_fit_mm2)
     grid = energy[0] if isinstance(energy, tuple) else None
     evaluate = cap = None
-    if grid is not None and not mirror.axes and kept and rho is not None:
+    if grid is not None and kept and rho is not None:
         from .shape import Evaluator
 
-        evaluate = Evaluator(panel, grid)
+        # A symmetric layout is analysed whole: each seed with its mirror images.
+        evaluate = Evaluator(panel, grid, orbit=mirror.orbit if mirror.axes else None)
         # The made layout must be no softer than the freeform one it stands for, and the price of stiffness is
         # where the optimiser stopped: the strain-energy density of the material left round its voids.
-        cap, e_free = evaluate.shapes([v.shape for v in kept])
-        rho = threshold_density(grid, e_free, [v.shape for v in kept]) or rho
+        free_shapes = [v.shape for v in clean(freeform, 0.0)[0]] if mirror.axes else [v.shape for v in kept]
+        cap, e_free = evaluate.shapes(free_shapes)
+        rho = threshold_density(grid, e_free, free_shapes) or rho
         c_fit, e_fit = evaluate(placed)
         first = (c_fit, e_fit)
+        # The honeycomb over the whole region is not laid symmetric: a symmetric layout keeps its own voids.
         grid_drafts = lattice_layout(allowed, r.family, r, score, openings=opening_shapes) \
-            if r.family != "mixed" else []
+            if r.family != "mixed" and not mirror.axes else []
         other = place(grid_drafts, site, r) if grid_drafts else None
         area_fit = sum(_shape(d).area for d in placed)
         # The honeycomb is analysed only when it could be taken: it removes clearly more, or the fit is too soft.
@@ -983,19 +986,16 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
         def keeps(t, i, s):
             return site.fits(t, i, s, move=False)
 
-        shaped = optimise(placed, evaluate, keeps, rho=rho, target_area_mm2=sum(v.area_mm2 for v in kept),
+        shaped = optimise(placed, evaluate, keeps, rho=rho, target_area_mm2=sum(g.area for g in free_shapes),
                           feature_mm=r.least_feature_mm, step_mm=max(grid.dx, grid.dy), steps=shape_steps,
                           cap_Nmm=cap, first=first)
         notes += list(shaped.notes)
         placed = list(shaped.drafts)
-        if r.family != "mixed":
+        if r.family != "mixed" and not mirror.axes:
             placed, filled = _fill(placed, allowed, site, r, score, evaluate, cap, opening_shapes)
             if filled:
                 notes.append(f"{filled} more void(s) placed in the room the layout left, where the material works "
                              "least, the panel staying no softer than the freeform layout.")
-    elif shape_steps and mirror.axes:
-        notes.append("symmetric layout: the shape optimisation of the made voids is not run on it yet; the first "
-                     "fit is kept.")
 
     stock = {"bore": r.bore_diameters_mm, "slot": r.slot_widths_mm}
     before = list(placed)

@@ -64,8 +64,10 @@ _H = 1e-4
 class Evaluator:
     """Compliance and element energies of the panel with a layout of drafts cut out, on one grid."""
 
-    def __init__(self, panel: Panel, grid):
+    def __init__(self, panel: Panel, grid, orbit: Callable | None = None):
         self.panel, self.grid = panel, grid
+        # A symmetric layout is given by its seeds: ``orbit(draft)`` lists a seed and its mirror images.
+        self.orbit = orbit if orbit is not None else (lambda d: [d])
         solid = panel.solid
         base = solid_fractions(grid, solid)
         self.base = base
@@ -81,7 +83,7 @@ class Evaluator:
         self.analyses = 0
 
     def __call__(self, drafts) -> tuple[float, np.ndarray]:
-        return self.shapes([d.shape() for d in drafts])
+        return self.shapes([m.shape() for d in drafts for m in self.orbit(d)])
 
     def shapes(self, shapes) -> tuple[float, np.ndarray]:
         """Compliance and element energies with ``shapes`` (shapely polygons) cut out."""
@@ -193,19 +195,57 @@ def area_gradient(v: np.ndarray) -> np.ndarray:
     return 0.5 * np.column_stack([nxt[:, 1] - prev[:, 1], prev[:, 0] - nxt[:, 0]])
 
 
-def gradients(grid, energy: np.ndarray, drafts) -> list[tuple[np.ndarray, np.ndarray, np.ndarray] | None]:
-    """Per draft: (dC/dp, dA/dp, J) or None (see ``jacobian``)."""
-    jac = [jacobian(d) for d in drafts]
-    ok = [j for j in jac if j is not None]
-    gv = compliance_gradient(grid, energy, [v for v, _ in ok]) if ok else []
+def _orbit_jacobians(d: Draft, orbit: Callable) -> list[tuple[np.ndarray, np.ndarray]] | None:
+    """For each member of the seed ``d``'s orbit (the seed and its mirror images): its outline points and their
+    Jacobian with respect to the seed's parameters, by central differences of the geometry (exact for the
+    mirrored corners of an n-gon, which are linear in the seed's). None where a step changes a point count."""
+    p = params(d)
+
+    def points(x):
+        return [m.sharp if m.family == "polygon" else vertices(m) for m in orbit(with_params(d, x))]
+
+    base = points(p)
+    cols: list[list[np.ndarray]] = [[] for _ in base]
+    for j in range(p.size):
+        e = np.zeros(p.size)
+        e[j] = _H
+        a, b = points(p + e), points(p - e)
+        for k, (pa, pb, p0) in enumerate(zip(a, b, base)):
+            if pa.shape != p0.shape or pb.shape != p0.shape:
+                return None
+            cols[k].append(((pa - pb) / (2.0 * _H)).ravel())
+    return [(v, np.column_stack(c)) for v, c in zip(base, cols)]
+
+
+def gradients(grid, energy: np.ndarray, drafts, orbit: Callable | None = None
+              ) -> list[tuple[np.ndarray, np.ndarray, np.ndarray] | None]:
+    """Per draft: (dC/dp, dA/dp, J) or None (see ``jacobian``). With ``orbit`` (a symmetric layout given by its
+    seeds), each seed's gradients sum those of its mirror images through the chain rule, ``J`` is the seed's own,
+    and a seed standing on a mid-line (``fixed``) gets None: it keeps its place and shape."""
+    if orbit is None:
+        members = [[jacobian(d)] for d in drafts]
+    else:
+        members = []
+        for d in drafts:
+            if d.fixed:
+                members.append([None])
+            elif len(orbit(d)) == 1:
+                members.append([jacobian(d)])
+            else:
+                members.append(_orbit_jacobians(d, orbit) or [None])
+    flat = [j for group in members for j in group if j is not None]
+    gv = compliance_gradient(grid, energy, [v for v, _ in flat]) if flat else []
     out, k = [], 0
-    for j in jac:
-        if j is None:
+    for group in members:
+        if any(j is None for j in group):
             out.append(None)
             continue
-        v, J = j
-        out.append((J.T @ gv[k].ravel(), J.T @ area_gradient(v).ravel(), J))
-        k += 1
+        gc = ga = 0.0
+        for v, J in group:
+            gc = gc + J.T @ gv[k].ravel()
+            ga = ga + J.T @ area_gradient(v).ravel()
+            k += 1
+        out.append((gc, ga, group[0][1]))
     return out
 
 
@@ -242,8 +282,10 @@ class ShapeResult:
     notes: tuple[str, ...]
 
 
-def _area(drafts) -> float:
-    return float(sum(d.shape().area for d in drafts))
+def _area_of(drafts, orbit: Callable | None = None) -> float:
+    if orbit is None:
+        return float(sum(d.shape().area for d in drafts))
+    return float(sum(m.shape().area for d in drafts for m in orbit(d)))
 
 
 def _direction(stage: int, g, rho: float) -> np.ndarray | None:
@@ -331,7 +373,13 @@ def optimise(drafts, evaluate: Evaluator, fits: Callable, *, rho: float, target_
     """Stage 1 then stage 2 (module text) on ``drafts``. ``fits(trial, i, state)`` returns the trial when draft i
     may become it beside the others (the rules), else None; ``step_mm``: the first step, as the largest move of
     any outline vertex; ``cap_Nmm``: growth stops short of this compliance (the freeform layout's); ``first``: the
-    analysis of ``drafts`` (compliance, element energies) when the caller has it already."""
+    analysis of ``drafts`` (compliance, element energies) when the caller has it already. A symmetric layout is
+    given by its seeds (the evaluator's ``orbit``): areas count the mirror images, gradients sum over them."""
+    orbit = getattr(evaluate, "orbit", None)
+
+    def _area(ds) -> float:
+        return _area_of(ds, orbit)
+
     state = list(drafts)
     c0, energy = first if first is not None else evaluate(state)
     a0 = _area(state)
@@ -343,7 +391,7 @@ def optimise(drafts, evaluate: Evaluator, fits: Callable, *, rho: float, target_
     step = step_mm
     improved = False
     for _ in range(steps):
-        grads = gradients(evaluate.grid, energy, state)
+        grads = gradients(evaluate.grid, energy, state, orbit)
         trial_state = list(state)
         moved = False
         for i, (d, g) in enumerate(zip(state, grads)):
@@ -389,7 +437,7 @@ def optimise(drafts, evaluate: Evaluator, fits: Callable, *, rho: float, target_
     for _ in range(steps):
         if a_now >= target_area_mm2:
             break
-        grads = gradients(evaluate.grid, energy, state)
+        grads = gradients(evaluate.grid, energy, state, orbit)
         trial_state, moves = _grow_step(state, grads, price, fits, feature_mm, reach_mm)
         if not moves or _area(trial_state) <= a_now:
             # Growing here costs more stiffness than the optimiser's own rate; while the panel is stiffer than the
