@@ -610,3 +610,16 @@ def test_loads_keep_their_resultants():
     outer = mesh.edges[mesh.edge_tag == 1]
     g = tri6.edge_load(mesh.points, outer, np.tile([0.5, 0.0], (len(outer), 1)), 3.0)
     assert g[0::2].sum() == pytest.approx(0.5 * 3.0 * 280.0, rel=1e-12)   # perimeter of the 80 x 60 box
+
+
+def test_check_edge_stress_without_material_is_refused(tmp_path):
+    """The edge stress needs an analysis: without [material] the check names what is missing (exit 2)."""
+    from toolkit.checking import check_drawing
+    from toolkit.errors import LacunaError
+
+    dxf = strip_drawing(tmp_path)
+    job = tmp_path / "job.toml"
+    job.write_text(STRIP_JOB.replace("[material]\nE_MPa = 200000\nnu = 0.3\n", "") + "max_edge_stress_MPa = 25\n")
+    with pytest.raises(LacunaError, match=r"gives no \[material\] table") as error:
+        check_drawing(dxf, job)
+    assert "max_edge_stress_MPa" in str(error.value)

@@ -157,12 +157,12 @@ def _edge_stresses(panel: Panel, voids: tuple[Void, ...], job: Job, thickness_kn
     key = f"{job.source} [rules] max_edge_stress_MPa" if job.source else "[rules] max_edge_stress_MPa"
     missing = []
     if panel.material is None:
-        missing.append("a [material] table (E_MPa, nu)")
+        missing.append("no [material] table (E_MPa, nu)")
     if not thickness_known:
-        missing.append("[panel] thickness")
+        missing.append("no [panel] thickness")
     if missing:
-        raise LacunaError(f"the largest edge stress is checked by analysing the panel, and the job gives no "
-                          f"{' and no '.join(missing)}.", where=key,
+        raise LacunaError(f"the largest edge stress is checked by analysing the panel, and the job gives "
+                          f"{' and '.join(missing)}.", where=key,
                           hint="Add them to the job file, or leave max_edge_stress_MPa out to check the geometry "
                                "alone.")
     if not panel.loads and not panel.self_weight:
