@@ -623,3 +623,31 @@ def test_check_edge_stress_without_material_is_refused(tmp_path):
     with pytest.raises(LacunaError, match=r"gives no \[material\] table") as error:
         check_drawing(dxf, job)
     assert "max_edge_stress_MPa" in str(error.value)
+
+
+def test_hole_in_pure_shear():
+    """A small circular hole under equal tension and compression at right angles (pure shear at 45 degrees):
+    peak edge stress 4 times the shear stress, compression and tension alike (Kirsch 1898 superposed; as in
+    Timoshenko & Goodier, Theory of Elasticity, from memory)."""
+    v = bore((0.0, 0.0), 20.0)
+    half = 400.0
+    region = box(-half, -half, half, half).difference(v.shape)
+    xy, h, _, _ = _outline_sources(v.shape, 64, math.pi / 16, 1.0)
+
+    def tag(m):
+        on = shapely.distance(v.shape.boundary, shapely.points(m)) < 0.05
+        return np.select([on, np.abs(m[:, 0] + half) < 1e-6, np.abs(m[:, 0] - half) < 1e-6,
+                          np.abs(m[:, 1] + half) < 1e-6, np.abs(m[:, 1] - half) < 1e-6], [HOLE, 1, 2, 4, 5], 0)
+
+    mesh = graded_mesh(region, size_field(xy, h, half / 4.0), tag=tag, snap=edge_snapper(v, 0.05))
+    n = mesh.n_nodes
+    held = np.zeros(2 * n, dtype=bool)
+    held[2 * np.unique(mesh.edges[mesh.edge_tag == 1].ravel())] = True        # left end: x held
+    held[2 * np.unique(mesh.edges[mesh.edge_tag == 4].ravel()) + 1] = True    # bottom: y held
+    right, top = mesh.edges[mesh.edge_tag == 2], mesh.edges[mesh.edge_tag == 5]
+    F = (tri6.edge_load(mesh.points, right, np.tile([1.0, 0.0], (len(right), 1)), 1.0)
+         + tri6.edge_load(mesh.points, top, np.tile([0.0, 1.0], (len(top), 1)), 1.0) * -1.0)[:, None]
+    U = solve(mesh, E, NU, 1.0, held, np.zeros((2 * n, 1)), F)
+    _, along = edge_peak(mesh, nodal_average(mesh, U, E, NU), np.flatnonzero(mesh.edge_tag == HOLE))
+    assert along.max() == pytest.approx(4.0, rel=0.03)    # Kirsch superposed: +4 tau
+    assert along.min() == pytest.approx(-4.0, rel=0.03)   # and -4 tau
