@@ -651,3 +651,23 @@ def test_hole_in_pure_shear():
     _, along = edge_peak(mesh, nodal_average(mesh, U, E, NU), np.flatnonzero(mesh.edge_tag == HOLE))
     assert along.max() == pytest.approx(4.0, rel=0.03)    # Kirsch superposed: +4 tau
     assert along.min() == pytest.approx(-4.0, rel=0.03)   # and -4 tau
+
+
+def test_nominal_stress_is_the_solid_stress_at_the_void():
+    """The nominal stress averages the solid panel's stress over the void: for a stress varying linearly (bending)
+    it is the stress at the void's centroid; in pure shear it is the shear stress (the larger principal stress
+    as a magnitude; Mohr's circle)."""
+    from types import SimpleNamespace
+
+    from toolkit.edge_stress import _nominal
+    from toolkit.fe.grid import Grid
+
+    g = Grid(nx=100, ny=60, dx=1.0, dy=1.0)
+    c = g.element_centres
+    bending = np.stack([2.0 + 0.1 * c[:, 1], np.zeros(len(c)), np.zeros(len(c))], axis=1)
+    shear = np.stack([np.zeros(len(c)), np.zeros(len(c)), np.full(len(c), 1.5)], axis=1)
+    solid = SimpleNamespace(grid=g, active=np.ones(g.n_elements, bool), stresses=np.stack([bending, shear]))
+    v = bore((50.0, 30.0), 20.0)
+    nominal = _nominal(solid, v.shape)[0]
+    assert nominal[0] == pytest.approx(2.0 + 0.1 * 30.0, rel=1e-3)
+    assert nominal[1] == pytest.approx(1.5, rel=1e-12)
