@@ -434,6 +434,13 @@ def test_optimize_gives_edge_figures_per_void(beam_run):
     report = (out / "beam-report.md").read_text()
     assert "## Stress at the void edges" in report
     assert f"{s['voids'][0]['peak_stress_MPa']:.4g}" in report
+    import ezdxf
+
+    doc = ezdxf.readfile(out / "beam-lacuna.dxf")
+    notes = " ".join(e.plain_text() if e.dxftype() == "MTEXT" else e.dxf.text
+                     for e in doc.modelspace().query('TEXT MTEXT[layer=="LACUNA-NOTE"]'))
+    top = max(v["peak_stress_MPa"] for v in s["voids"])
+    assert f"Largest stress at a void's edge: {top:.3g} MPa" in notes
 
 
 def test_optimize_lists_edge_stress_violations(beam_run):

@@ -413,8 +413,20 @@ def _notes(run: OptimizeRun) -> list[str]:
         f"Rules: profile {r.profile}, min web {f.length_to_drawing(r.min_web_mm):g}, edge cover "
         f"{f.length_to_drawing(r.edge_cover_mm):g}, bearing clearance "
         f"{f.length_to_drawing(r.bearing_clearance_mm):g} ({f.unit}).",
+        *_edge_note(run),
         "For design exploration only: to be checked by a qualified engineer to the local code.",
     ]
+
+
+def _edge_note(run: OptimizeRun) -> list[str]:
+    """The drawing's note on the largest edge stress (local models), when any void has one."""
+    edged = [e for e in getattr(run, "edge", ()) if e.peak_MPa is not None]
+    if not edged:
+        return []
+    top = max(edged, key=lambda e: e.peak_MPa)
+    kt = f", Kt {top.kt:.2f}" if top.kt is not None else ""
+    return [f"Largest stress at a void's edge: {top.peak_MPa:.3g} MPa ({top.sense}{kt}) at {top.void_id}, from "
+            "its local model."]
 
 
 def check_file(dxf_path, job_path=None, *, profile=None, layers=None, out_dir=None, force: bool = False,
