@@ -262,3 +262,25 @@ def test_mixed_picks_the_family_that_removes_idle_material():
     right = shapely.box(750, 0, 2000, 1000)
     hot = lambda voids: sum(v.shape.intersection(right).area for v in voids)  # noqa: E731
     assert res.voids and hot(res.voids) < hot(plain.voids)
+
+
+def test_every_void_gets_its_own_id_when_a_honeycomb_layout_is_filled_further():
+    # A glulam beam of our own under a uniform load, bores, timber-bored: the honeycomb over the region wins and
+    # the fill then adds voids of the same (honeycomb) source. Each void must keep its own id (the schedule, the
+    # drawing's labels and the change records all follow it).
+    from toolkit.jobfile import parse_job
+    from toolkit.model import LineLoad
+    from toolkit.pipeline import optimize_panel
+
+    panel = Panel(width_mm=3000, height_mm=600, thickness_mm=100, element_size_mm=50,
+                  material=Material(E_MPa=11000, nu=0.3),
+                  supports=(Support(((0, 0), (150, 0)), "xy"), Support(((2850, 0), (3000, 0)), "y")),
+                  loads=(LineLoad((0, 600), (3000, 600), (0.0, -6.0)),))
+    job = parse_job('units = "mm"\n[optimize]\nvolume_fraction = 0.5\nfilter_radius = 150\n[voids]\nfamily = "bore"\n'
+                    '[rules]\nprofile = "timber-bored"\nmin_web = 60\nedge_cover = 60\nbearing_clearance = 150\n')
+    run = optimize_panel(panel, job)
+    notes = " ".join(run.rationalised.notes)
+    assert "honeycomb" in notes and "more void(s) placed" in notes  # the path this test is about was taken
+    ids = [v.id for v in run.voids]
+    assert len(ids) == len(set(ids)), ids
+    assert set(ids) == {f"V{k}" for k in range(1, len(ids) + 1)}

@@ -252,52 +252,47 @@ class Site:
         self.feature = feature_mm
         self.step = move_step_mm
         # The allowed region already keeps min_web from the openings; a web ratio also ties that web to the
-        # larger of the void and the opening, which only a per-void test can say.
-        self.openings = list(openings) if web_ratio > 0.0 else []
+        # larger of the void and the opening, which only a per-void test can say. Each other void or opening is
+        # a member: (shape, extent, centre x, centre y, radius of a circle about the centre holding it).
+        self.openings = [_member_of(o) for o in openings] if web_ratio > 0.0 else []
         # In a symmetric layout every draft stands for itself and its mirror images: each is checked.
         self.mirror = mirror if mirror is not None else Mirror()
-        self._extents: dict[int, tuple] = {}
 
     def shapes(self, draft: Draft) -> list:
         """The shapes of ``draft`` and of its mirror images."""
         return [_shape(d) for d in self.mirror.orbit(draft)]
 
+    def members(self, draft: Draft) -> list[tuple]:
+        """``draft`` and its mirror images as members (see ``__init__``)."""
+        return [(d.shape(), d.extent(), d.centre[0], d.centre[1], d.reach()) for d in self.mirror.orbit(draft)]
+
     def inside(self, shape) -> bool:
         return bool(self.inner.covers(shape))
 
-    def clear(self, shape, others) -> bool:
+    def clear(self, member, others) -> bool:
         """At least the web from every other void and opening; with a web ratio, that times the larger one's
-        extent (the diameter of its smallest enclosing circle, as rules.check measures it)."""
+        extent (the diameter of its smallest enclosing circle, as rules.check measures it). ``member``: the void
+        to check; ``others``: members. The circles round the voids rule out most pairs; only those whose circles
+        come closer than the web are measured."""
         others = list(others) + self.openings
         if not others:
             return True
-        others = np.asarray(others, dtype=object)
-        reach = self.web + SAFETY_MM
-        own = 0.0
-        if self.ratio > 0.0:
-            own = self._extent(shape)
-            reach = max(reach, self.ratio * max(own, max(self._extent(g) for g in others)) + SAFETY_MM)
-        # Only the others within the largest web can break one: the rest are left out before measuring.
-        x0, y0, x1, y1 = shape.bounds
-        near = shapely.intersects(shapely.box(x0 - reach, y0 - reach, x1 + reach, y1 + reach), others)
-        others = others[near]
-        if not len(others):
-            return True
+        shape, own, cx, cy, radius = member
+        ext = np.array([o[1] for o in others])
         need = np.full(len(others), self.web)
         if self.ratio > 0.0:
-            extent = np.array([self._extent(g) for g in others])
-            need = np.maximum(need, self.ratio * np.maximum(extent, own))
-        return bool(np.all(shapely.distance(shape, others) >= need + SAFETY_MM))
-
-    def _extent(self, shape) -> float:
-        """Diameter of the smallest circle round ``shape``, kept per shape (the same shapes are asked about again
-        and again while voids are placed and moved)."""
-        key = id(shape)
-        hit = self._extents.get(key)
-        if hit is None or hit[0] is not shape:
-            hit = (shape, 2.0 * float(shapely.minimum_bounding_radius(shape)))
-            self._extents[key] = hit
-        return hit[1]
+            need = np.maximum(need, self.ratio * np.maximum(ext, own))
+        need = need + SAFETY_MM
+        ox = np.array([o[2] for o in others])
+        oy = np.array([o[3] for o in others])
+        orad = np.array([o[4] for o in others])
+        # The shapes lie within their circles: they are at least this far apart.
+        apart = np.hypot(ox - cx, oy - cy) - orad - radius
+        close = np.flatnonzero(apart < need)
+        if not close.size:
+            return True
+        shapes = np.asarray([others[k][0] for k in close], dtype=object)
+        return bool(np.all(shapely.distance(shape, shapes) >= need[close]))
 
     def offsets(self, size: float) -> list[tuple[float, float]]:
         """(0, 0), then rings of 8 directions further and further out, nearest first."""
@@ -323,13 +318,14 @@ class Site:
         mid-line only moves along it."""
         if not self.big_enough(trial) or not self.mirror.keeps(trial):
             return None
-        others = [g for j, d in enumerate(state) if j != i and d is not None for g in self.shapes(d)]
+        others = [m for j, d in enumerate(state) if j != i and d is not None for m in self.members(d)]
         offsets = self.offsets(trial.size) if move else [(0.0, 0.0)]
+        trial.extent(), trial.reach()  # worked out once, carried by every moved copy
         for dx, dy in self.mirror.along(trial, offsets):
             cand = trial.moved(dx, dy) if (dx or dy) else trial
-            shapes = self.shapes(cand)
-            if all(self.inside(g) for g in shapes) and all(self.clear(g, others + shapes[:k])
-                                                           for k, g in enumerate(shapes)):
+            members = self.members(cand)
+            if all(self.inside(m[0]) for m in members) and all(self.clear(m, others + members[:k])
+                                                               for k, m in enumerate(members)):
                 return cand
         return None
 
@@ -469,6 +465,14 @@ def _dressed(d: Draft, r: Resolved) -> Draft:
 
 def _extent(shape) -> float:
     return 2.0 * float(shapely.minimum_bounding_radius(shape))
+
+
+def _member_of(shape) -> tuple:
+    """A fixed shape (an opening) as a member for ``Site.clear``: its smallest enclosing circle gives both."""
+    circle = shapely.minimum_bounding_circle(shape)
+    centre = circle.centroid
+    radius = float(shapely.minimum_bounding_radius(shape))
+    return (shape, 2.0 * radius, centre.x, centre.y, radius * (1.0 + 1e-9) + 1e-9)
 
 
 class Room:
@@ -740,6 +744,10 @@ def _fill(placed: list[Draft], allowed, site: Site, r: Resolved, score, evaluate
     grown = [shapely.buffer(_shape(d), r.web(_extent(_shape(d)))) for d in placed]
     room = overlay(shapely.difference, allowed, shapely.union_all(grown))
     extra = lattice_layout(room, r.family, r, score, source=-1, openings=openings) if not room.is_empty else []
+    # Numbered after the voids of the same source already there (a honeycomb layout is source -1 too): every
+    # void keeps its own (source, part), which its id follows.
+    first = 1 + max((d.part for d in placed if d.source == -1), default=-1)
+    extra = [replace(d, part=first + k) for k, d in enumerate(extra)]
     state = list(placed)
     added = []
     for d in extra:
@@ -1014,6 +1022,9 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
     placed = [d for d in placed if d is not None]
 
     # Every seed and its mirror images; a key (source, part, map) tells them apart.
+    keys = [(d.source, d.part) for d in placed]
+    if len(set(keys)) != len(keys):  # a void's id, its change records and its fit error all follow this key
+        raise AssertionError(f"two voids to make share a (source, part): {sorted(keys)}")
     entries = []
     for d in placed:
         entries.append((d, (d.source, d.part, ())))

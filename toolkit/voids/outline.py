@@ -68,7 +68,10 @@ class Draft:
         return replace(self, length=max(self.size, length))
 
     def moved(self, dx: float, dy: float) -> Draft:
-        return replace(self, centre=(self.centre[0] + dx, self.centre[1] + dy))
+        out = replace(self, centre=(self.centre[0] + dx, self.centre[1] + dy))
+        # A move changes neither size nor the circle round the void: carry them, and the shape, moved.
+        _carry(self, out, lambda xy: xy + (dx, dy))
+        return out
 
     def at(self, centre: Point) -> Draft:
         return replace(self, centre=(float(centre[0]), float(centre[1])))
@@ -105,7 +108,11 @@ class Draft:
             centre, flip = (cx, 2.0 * about - cy), (1.0, -1.0)
         # A mirror turns a counter-clockwise run clockwise: reverse it to keep every outline counter-clockwise.
         corners = tuple((x * flip[0], y * flip[1]) for x, y in reversed(self.corners))
-        return replace(self, centre=centre, corners=corners, angle_deg=(-self.angle_deg) % 180.0)
+        out = replace(self, centre=centre, corners=corners, angle_deg=(-self.angle_deg) % 180.0)
+        k = 0 if axis == "x" else 1
+        _carry(self, out, lambda xy: np.column_stack([2.0 * about - xy[:, 0], xy[:, 1]]) if k == 0
+               else np.column_stack([xy[:, 0], 2.0 * about - xy[:, 1]]), turn=True)
+        return out
 
     @property
     def sharp(self) -> np.ndarray:
@@ -118,6 +125,33 @@ class Draft:
         if self.family == "slot":
             return stadium_outline(self.centre, self.angle_deg, self.size, self.length)
         return circle_outline(self.centre, self.size)
+
+    def extent(self) -> float:
+        """Diameter of the smallest circle round the void (the size a web ratio is taken of): a slot's length, a
+        bore's diameter (the true outline's, a hair over the flattened one's), an n-gon's measured on its
+        flattened outline. Kept per draft."""
+        got = self.__dict__.get("_extent")
+        if got is None:
+            if self.family == "slot":
+                got = float(max(self.length, self.size))
+            elif self.family == "bore":
+                got = float(self.size)
+            else:
+                got = 2.0 * float(shapely.minimum_bounding_radius(self.shape()))
+            object.__setattr__(self, "_extent", got)
+        return got
+
+    def reach(self) -> float:
+        """Radius of a circle about ``centre`` holding the whole void (a bound for quick distance checks)."""
+        got = self.__dict__.get("_reach")
+        if got is None:
+            if self.family in ("slot", "bore"):
+                got = 0.5 * float(max(self.length, self.size))
+            else:
+                xy = shapely.get_coordinates(self.shape())
+                got = float(np.max(np.hypot(xy[:, 0] - self.centre[0], xy[:, 1] - self.centre[1]))) if len(xy) else 0.0
+            object.__setattr__(self, "_reach", got)
+        return got
 
     def shape(self) -> Polygon:
         """The flattened outline as a shapely polygon, built once per draft (drafts are immutable; the fitting
@@ -159,6 +193,19 @@ class Draft:
                         tool=f"{slot_tool} {self.size:g} mm, {self.length:.0f} mm long")
         return Void(id=id, family="bore", centre=self.centre, size_mm=self.size, shape=shape, outline=(),
                     tool=f"{bore_tool} {self.size:g} mm")
+
+
+def _carry(source: Draft, target: Draft, move, turn: bool = False) -> None:
+    """Hand ``source``'s kept extent and reach to ``target`` (a moved or mirrored copy: both unchanged), and its
+    shape with its coordinates mapped by ``move`` (no re-flattening of the arcs); ``turn``: the map is a mirror,
+    so the outline is turned back counter-clockwise."""
+    for key in ("_extent", "_reach"):
+        if key in source.__dict__:
+            object.__setattr__(target, key, source.__dict__[key])
+    shape = source.__dict__.get("_shape")
+    if shape is not None:
+        moved = shapely.transform(shape, move)
+        object.__setattr__(target, "_shape", shapely.orient_polygons(moved) if turn else moved)
 
 
 def principal_direction(pts: np.ndarray) -> float:

@@ -177,7 +177,7 @@ def jacobian(d: Draft) -> tuple[np.ndarray, np.ndarray] | None:
         J[:, 3] = np.column_stack([-rel[:, 1], rel[:, 0]]).ravel()
         return v, J
     p = params(d)
-    v0 = vertices(d)
+    v0 = vertices(with_params(d, p))  # rebuilt like the steps below (a kept shape may run from another vertex)
     cols = []
     for j in range(p.size):
         e = np.zeros(p.size)
