@@ -354,13 +354,15 @@ def _edge_cells(v: dict) -> list[str]:
 
 
 def optimize_file(dxf_path, job_path=None, *, out_dir=None, force: bool = False, frames: int = 0,
-                  on_iteration=None, dxf_version: str | None = None, replace: bool = False) -> Outcome:
-    """``lacuna optimize``: the whole job; writes the drawing copy with our layers, figures, schedule, JSON."""
+                  on_iteration=None, dxf_version: str | None = None, replace: bool = False, job=None) -> Outcome:
+    """``lacuna optimize``: the whole job; writes the drawing copy with our layers, figures, schedule, JSON.
+
+    ``job``: a :class:`toolkit.jobfile.Job` already read (a sweep's point), used instead of reading ``job_path``."""
     from .dxf_out import refuse_earlier_results, result_copy_bytes
     from .svg_out import convergence_svg, layout_frame_svg, result_svg
 
     dxf_path = Path(dxf_path)
-    panel, job, drawing = load_panel(dxf_path, job_path)
+    panel, job, drawing = load_panel(dxf_path, job_path, job=job)
     refuse_earlier_results(dxf_path, replace=replace)
     run = optimize_panel(panel, job, on_iteration=on_iteration, keep_every=frames)
     summary = optimize_summary(run, drawing)

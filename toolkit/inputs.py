@@ -40,16 +40,18 @@ def build_panel_with_notes(drawing: Drawing, job: Job) -> tuple[Panel, list[str]
     return _assemble(drawing, job)
 
 
-def load_panel(dxf_path, job_path=None) -> tuple[Panel, Job, Drawing]:
+def load_panel(dxf_path, job_path=None, *, job: Job | None = None) -> tuple[Panel, Job, Drawing]:
     """Read the job file (or take the defaults), read the drawing with the job's layers, build the panel.
 
-    The returned drawing's ``warnings`` carry the drawing reader's notes followed by this stage's
-    (overridden markers, unused case weights); the job's own warnings stay in ``job.warnings``.
+    ``job``, when given, is a job already read (a sweep changes its volume fraction or profile) and is used
+    instead of reading ``job_path``. The returned drawing's ``warnings`` carry the drawing reader's notes followed
+    by this stage's (overridden markers, unused case weights); the job's own warnings stay in ``job.warnings``.
     """
     # Imported here so the job side of this module works before and without the DXF reader's import cost.
     from .dxf_in import read_drawing
 
-    job = read_job(job_path) if job_path is not None else default_job()
+    if job is None:
+        job = read_job(job_path) if job_path is not None else default_job()
     drawing = read_drawing(dxf_path, job.layers)
     panel, notes = _assemble(drawing, job)
     if notes:
