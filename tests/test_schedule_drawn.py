@@ -28,6 +28,7 @@ from click.testing import CliRunner
 from drawings import Placement, add_rectangle, new_doc, write
 from toolkit.api import optimize_file
 from toolkit.cli import main
+from toolkit.rules.profiles import TOOL_FAMILIES, rules_for
 
 PLATE = """units = "mm"
 [panel]
@@ -179,7 +180,10 @@ def _entity_for(msp, layer: str, centre, kind: str):
 def _check_schedule(schedule: dict, drawn: Path, profile: str) -> int:
     msp = ezdxf.readfile(drawn).modelspace()
     assert schedule["voids"], "the scenario gives voids to check"
+    words = dict(zip(TOOL_FAMILIES, rules_for(profile).tool_words))
     for v in schedule["voids"]:
+        # The tool in the profile's own words (tests/test_tool_words.py); timber and steel are never cast.
+        assert words[v["family"]] in v["tool"] and "former" not in v["tool"], (v["id"], v["tool"])
         if v["family"] == "bore":
             e = _entity_for(msp, "LACUNA-VOID-BORE", v["centre"], "CIRCLE")
             assert 2 * e.dxf.radius == pytest.approx(v["diameter"], abs=1e-6)

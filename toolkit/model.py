@@ -301,6 +301,9 @@ class Rules:
     depth_band: float | None = None
     # Shortest side of a made n-gon (0: the fitting's own default from the corner easing, see voids.layout).
     least_feature_mm: float = 0.0
+    # The schedule's words for what makes an n-gon, a slot and a bore, in the profile's trade ([tool_words] in
+    # toolkit/rules/profiles/*.toml); these are the words of a job without a profile.
+    tool_words: tuple[str, str, str] = ("cut", "slot", "bore")
     sources: tuple[tuple[str, str], ...] = ()
 
     def source(self, rule: str) -> str:

@@ -42,6 +42,8 @@ RATIO_RULES = {
     "depth_band": ("fraction", "void material within this middle fraction of the panel's depth"),
 }
 REQUIRED_RULES = (*(k for k in LENGTH_RULES if k not in OPTIONAL_RULES), *LIST_RULES, "corner")
+# [tool_words]: the schedule's word for what makes each family, in the profile's trade (not a rule: no check reads it).
+TOOL_FAMILIES = ("polygon", "slot", "bore")
 CORNER_KINDS = ("none", "chamfer", "radius")
 MATERIAL_KEYS = ("name", "E_MPa", "nu", "density_kg_m3", "source")
 
@@ -76,6 +78,7 @@ class Profile:
     material: MaterialHint
     values: tuple[RuleValue, ...]
     path: str = ""
+    tool_words: tuple[str, str, str] = Rules.tool_words  # polygon, slot, bore; without a [tool_words] table: these
 
     def rule(self, rule: str) -> RuleValue | None:
         return next((v for v in self.values if v.rule == rule), None)
@@ -142,7 +145,7 @@ def read_profile_file(path: Path | str) -> Profile:
         raise LacunaError("the profile has no description.", where=f"{where}, description",
                           hint='Add description = "..." saying what the profile is for.')
 
-    known = {*REQUIRED_RULES, *OPTIONAL_RULES, *RATIO_RULES, "material", "name", "description"}
+    known = {*REQUIRED_RULES, *OPTIONAL_RULES, *RATIO_RULES, "material", "tool_words", "name", "description"}
     for key in data:
         if key not in known:
             near = difflib.get_close_matches(key, sorted(known), n=1, cutoff=0.6)
@@ -159,11 +162,11 @@ def read_profile_file(path: Path | str) -> Profile:
 
     values: list[RuleValue] = []
     for key, table in data.items():
-        if key in ("name", "description", "material"):
+        if key in ("name", "description", "material", "tool_words"):
             continue
         values.extend(_read_rule(key, table, f"{where}, [{key}]"))
     return Profile(name=name, description=description.strip(), material=_read_material(data.get("material"), where),
-                   values=tuple(values), path=where)
+                   values=tuple(values), path=where, tool_words=_read_tool_words(data.get("tool_words"), where))
 
 
 def _table(table, where: str, keys: tuple[str, ...]) -> dict:
@@ -236,6 +239,19 @@ def _read_rule(key: str, table, where: str) -> list[RuleValue]:
     note = t.get("note", "").strip()
     return [RuleValue("corner", kind, "", t["source"].strip(), note),
             RuleValue("corner_size", size if kind != "none" else 0.0, "mm", t["source"].strip(), note)]
+
+
+def _read_tool_words(table, where: str) -> tuple[str, str, str]:
+    if table is None:
+        return Rules.tool_words
+    w = f"{where}, [tool_words]"
+    t = _table(table, w, (*TOOL_FAMILIES, "source", "note"))
+    words = tuple(t.get(family) for family in TOOL_FAMILIES)
+    for family, word in zip(TOOL_FAMILIES, words):
+        if not isinstance(word, str) or not word.strip():
+            raise LacunaError(f"no word for the tool that makes a {family}.", where=f"{w} {family}",
+                              hint='Write polygon, slot and bore words, e.g. bore = "hole saw".')
+    return tuple(word.strip() for word in words)
 
 
 def _read_material(table, where: str) -> MaterialHint:
@@ -325,12 +341,14 @@ def rules_for(profile_name: str | None, overrides: Mapping[str, object] | None =
             values[rule] = getattr(defaults, name)
             sources[rule] = DEFAULT_SOURCE
         name_out = "custom"
+        words = Rules.tool_words
     else:
         profile = load_profile(profile_name, directory)
         for rv in profile.values:
             values[rv.rule] = rv.value
             sources[rv.rule] = rv.source
         name_out = profile.name
+        words = profile.tool_words
 
     for key, value in (overrides or {}).items():
         if value is None:
@@ -348,7 +366,7 @@ def rules_for(profile_name: str | None, overrides: Mapping[str, object] | None =
     valid = {f.name for f in fields(Rules)}
     kwargs = {k: v for k, v in kwargs.items() if k in valid}
     ordered = tuple((rule, sources[rule]) for rule in _RULES_FIELD if rule in sources and rule in values)
-    return Rules(profile=name_out, sources=ordered, **kwargs)
+    return Rules(profile=name_out, sources=ordered, tool_words=words, **kwargs)
 
 
 # --- `lacuna profiles` --------------------------------------------------------------------------------------

@@ -69,14 +69,6 @@ FIT_RTOL = 5e-3
 LATTICE_GAIN = 1.1
 # The most voids one freeform void is split into along its length.
 MAX_PIECES = 4
-# The words a schedule uses for the tool that makes each family, by the trade of the profile: a timber panel's
-# voids are routed and bored, a steel plate's cut, a precast panel's cast round formers.
-TOOL_WORDS = {
-    "timber-bored": ("routed", "routed slot", "hole saw"),
-    "steel-cut": ("cut", "cut slot", "cut hole"),
-    "precast-formed": ("former", "slot former", "pipe former"),
-    "custom": ("cut", "slot", "bore"),
-}
 
 
 @dataclass(frozen=True)
@@ -182,7 +174,7 @@ def resolve_settings(settings: VoidOptions, rules: Rules, thickness_mm: float = 
                     corner=corner, corner_mm=corner_mm, min_void_mm=least,
                     min_web_mm=rules.min_web_mm, web_ratio=float(rules.web_ratio or 0.0),
                     least_feature_mm=feature, regular=bool(getattr(settings, "regular", False)),
-                    tools=TOOL_WORDS.get(rules.profile, TOOL_WORDS["custom"]))
+                    tools=rules.tool_words)  # the profile's trade words (toolkit/rules/profiles.py)
 
 
 def refuse_impossible(panel: Panel, settings: VoidOptions, rules: Rules, region=None) -> None:
