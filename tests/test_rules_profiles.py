@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import re
 import shutil
 
 import pytest
@@ -23,6 +24,17 @@ from toolkit.rules.profiles import (
 # The three profiles issue 4 asks for.
 REQUIRED_PROFILES = ("timber-bored", "precast-formed", "steel-cut")
 SOURCE_WORDS = ("common practice, no source", "from memory")
+# A source that is neither mark must name its document: a standard by its designation and number ("EN 1993-1-1
+# 3.2.6", "ISO 3", "DIN 1052:2008 8.2.2.2", "NHBC Standards 2020 6.4.18") or a publication by author and year
+# ("Lawson and Hicks 2011").
+STANDARD = re.compile(r"\b(?:EN|ISO|DIN|BS|ASTM|AS|NZS|CSA|ACI|AISC|SCI|NHBC)\b[\w /.:-]*?\d")
+AUTHOR_YEAR = re.compile(r"\b[A-Z][a-z]+(?:(?: and | & )[A-Z][a-z]+| et al\.?)?,? \(?(?:19|20)\d\d\b")
+
+
+def unmarked(source: str) -> bool:
+    """True when a source neither names a document nor says it is common practice or from memory."""
+    return not (any(word in source for word in SOURCE_WORDS) or STANDARD.search(source)
+                or AUTHOR_YEAR.search(source))
 
 
 def test_required_profiles_are_installed():
@@ -35,10 +47,29 @@ def test_every_value_has_a_source(name):
     assert p.name == name and p.description
     rules = {v.rule for v in p.values}
     assert set(REQUIRED_RULES) <= rules
-    for v in p.values:
-        assert v.source.strip(), f"{name}: {v.rule} has no source"
     # a standard or guide is named, or the value is marked as practice or memory
-    assert p.material.source.strip()
+    for v in p.values:
+        assert not unmarked(v.source), f"{name}: {v.rule} has an unmarked source {v.source!r}"
+    assert not unmarked(p.material.source), f"{name}: the material has an unmarked source"
+
+
+@pytest.mark.parametrize("source, bad", [
+    ("common practice, no source", False),
+    ("from memory: DIN 1052:2008 8.2.2.2", False),
+    ("EN 1993-1-1 3.2.6: E 210 000 MPa", False),
+    ("ISO 3 preferred numbers, series R10", False),
+    ("NHBC Standards 2020, 6.4.18", False),
+    ("Lawson and Hicks 2011", False),
+    ("Andreassen et al. 2011", False),
+    ("", True),
+    ("x", True),
+    ("see the design guide", True),
+    ("common practice", True),                 # the mark is "common practice, no source"
+    ("usual shop value of 2020 mm", True),      # a number is not a document
+    ("ENGINEERING judgement", True),
+])
+def test_the_source_check_tells_marked_from_unmarked(source, bad):
+    assert unmarked(source) is bad
 
 
 @pytest.mark.parametrize("name", list_profiles())
