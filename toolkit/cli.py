@@ -194,6 +194,58 @@ def check(ctx, drawing: Path, job_path: Path | None, profile: str | None, layers
     ctx.exit(result.exit_code)
 
 
+_scheduler_option = click.option(
+    "--scheduler", default=None, metavar="ADDRESS",
+    help="Address of a running Dask scheduler (e.g. tcp://10.0.0.5:8786) whose workers see the same files; "
+         "default: a local cluster, one worker per core.",
+)
+_workers_option = click.option("--workers", type=click.IntRange(min=1), default=None,
+                               help="Workers of the local cluster (default: one per core).")
+
+
+def _panel_done(row: dict, done: int, total: int) -> None:
+    """One line on stderr per finished panel or sweep point."""
+    name = row.get("panel") or Path(row.get("folder") or row.get("drawing", "")).name
+    figures = row.get("summary") or {}
+    if figures:
+        text = (f"{figures['mass_removed_percent']:.1f} % removed, compliance "
+                f"{figures['stiffness_loss_percent']:+.1f} % against solid, rules "
+                f"{'kept' if not figures['violations'] else str(figures['violations']) + ' violated'}")
+    else:
+        text = row.get("message", "")
+    click.echo(one_paragraph(f"[{done}/{total}] {name}: {row['status']}: {text}"), err=True)
+
+
+@main.command(help=f"""Run the whole optimize job on many drawings at once, in parallel on Dask.
+
+Each drawing gets its own result folder in --out (the files `lacuna optimize` writes) and one summary table
+(batch-summary.csv, .md, .json) lists material removed, stiffness lost (compliance rise against the solid
+panel), kept of the saving and rule status per panel. The job file (--job) applies to every drawing; without
+it each drawing takes <stem>.toml beside it when there is one. A refused panel is reported with its message
+and the others go on. Exit codes: 0 all done within the rules; 1 a panel refused, failed or violated a rule;
+2 nothing could start.
+
+\b
+{CAUTION}""")
+@click.argument("drawings", nargs=-1, required=True, type=click.Path(path_type=Path))
+@_job_option
+@click.option("--out", "out_dir", type=click.Path(file_okay=False, path_type=Path), default=Path("lacuna-batch"),
+              show_default=True, help="Output folder: one folder per drawing and the summary tables.")
+@_scheduler_option
+@_workers_option
+@_json_option
+@_force_option
+@click.pass_context
+def batch(ctx, drawings: tuple[Path, ...], job_path: Path | None, out_dir: Path, scheduler: str | None,
+          workers: int | None, as_json: bool, force: bool) -> None:
+    from .batch import batch_files
+
+    result = batch_files(list(drawings), job_path, out_dir=out_dir, scheduler=scheduler, workers=workers,
+                         force=force, on_done=_panel_done)
+    _emit(result.summary, as_json, result.text_lines())
+    ctx.exit(result.exit_code)
+
+
 @main.command(help="List the fabrication profiles and their rules, each value with its source.")
 @_json_option
 def profiles(as_json: bool) -> None:
