@@ -246,6 +246,39 @@ def batch(ctx, drawings: tuple[Path, ...], job_path: Path | None, out_dir: Path,
     ctx.exit(result.exit_code)
 
 
+@main.command(help=f"""The trade-off curve of one panel: made mass against compliance and largest deflection over
+volume fractions (and fabrication profiles), each point a whole optimize job, in parallel on Dask.
+
+--volume START:STOP:COUNT gives COUNT volume fractions (the share of the design region kept solid) from START to
+STOP, e.g. 0.9:0.4:6. --profile A,B draws one line per profile (default: the job's rules). Writes each point's
+files in its own folder and <stem>-sweep.csv, <stem>-sweep.svg (the plot, knee marked) and <stem>-sweep.json
+in --out (default: <stem>-sweep beside the drawing). Exit codes: 0 every point done within the rules; 1 a point
+refused, failed or violated a rule; 2 bad input (nothing written).
+
+\b
+{CAUTION}""")
+@click.argument("drawing", type=click.Path(dir_okay=False, path_type=Path))
+@_job_option
+@click.option("--volume", "volumes", required=True, metavar="START:STOP:COUNT",
+              help="Volume fractions to sweep, e.g. 0.9:0.4:6.")
+@click.option("--profile", "profiles", default=None, metavar="A,B",
+              help="Fabrication profiles, comma-separated: one curve each (default: the job's).")
+@_out_option
+@_scheduler_option
+@_workers_option
+@_json_option
+@_force_option
+@click.pass_context
+def sweep(ctx, drawing: Path, job_path: Path | None, volumes: str, profiles: str | None, out_dir: Path | None,
+          scheduler: str | None, workers: int | None, as_json: bool, force: bool) -> None:
+    from .sweep import sweep_file
+
+    result = sweep_file(drawing, job_path, volumes=volumes, profiles=profiles, out_dir=out_dir, scheduler=scheduler,
+                        workers=workers, force=force, on_done=_panel_done)
+    _emit(result.summary, as_json, result.text_lines())
+    ctx.exit(result.exit_code)
+
+
 @main.command(help="List the fabrication profiles and their rules, each value with its source.")
 @_json_option
 def profiles(as_json: bool) -> None:
