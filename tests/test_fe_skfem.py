@@ -1,15 +1,14 @@
 """The same plane-stress panel solved by scikit-fem, an independent finite-element library (test-only)."""
 
 import numpy as np
-import pytest
+import skfem
 from shapely.geometry import box
+from skfem.models.elasticity import linear_elasticity
 
 from toolkit.analysis import analyze
 from toolkit.fe.grid import Grid
 from toolkit.model import Material, Panel, PointLoad, Region, Support
 
-skfem = pytest.importorskip("skfem")
-from skfem.models.elasticity import linear_elasticity
 
 E, NU, T = 11500.0, 0.3, 90.0
 

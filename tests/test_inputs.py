@@ -13,6 +13,7 @@ import sys
 import types
 import warnings
 
+import ezdxf
 import pytest
 from shapely.geometry import Point as ShapelyPoint
 
@@ -219,10 +220,6 @@ def test_load_panel_without_a_job_needs_a_material(tmp_path, monkeypatch):
 
 
 def test_load_panel_on_a_real_dxf(tmp_path):
-    reader = pytest.importorskip("toolkit.dxf_in")
-    if not hasattr(reader, "read_drawing"):
-        pytest.skip("the DXF reader is not there yet")
-    ezdxf = pytest.importorskip("ezdxf")
     doc = ezdxf.new()
     doc.header["$INSUNITS"] = 6  # metres (DXF reference, header section)
     doc.modelspace().add_lwpolyline([(10, 20), (13, 20), (13, 20.6), (10, 20.6)], close=True,

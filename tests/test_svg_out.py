@@ -15,6 +15,7 @@ import re
 import xml.etree.ElementTree as ET
 from dataclasses import dataclass
 
+import cairosvg
 import numpy as np
 import pytest
 import shapely
@@ -24,6 +25,7 @@ from shapely.geometry import Point, box
 
 from toolkit import model, palette, svg_out
 from toolkit.errors import LacunaError
+from toolkit.fe.grid import Grid
 
 SVG = "{http://www.w3.org/2000/svg}"
 
@@ -107,7 +109,6 @@ def drawing_matrix(text: str) -> tuple[float, ...]:
 
 
 def render(text: str, px_per_mm: float = 8.0):
-    cairosvg = pytest.importorskip("cairosvg")
     from PIL import Image
 
     png = cairosvg.svg2png(bytestring=text.encode(), output_width=int(round(svg_out.SHEET_WIDTH_MM * px_per_mm)))
@@ -290,9 +291,8 @@ def test_cells_carry_the_class_of_their_dominant_principal_stress(nx, ny, seed):
 
 
 def test_same_figure_with_the_project_grid(beam):
-    grid_module = pytest.importorskip("toolkit.fe.grid")
     panel, grid, fractions, displacement, stress, text = beam
-    real = grid_module.Grid(nx=grid.nx, ny=grid.ny, dx=grid.dx, dy=grid.dy)
+    real = Grid(nx=grid.nx, ny=grid.ny, dx=grid.dx, dy=grid.dy)
     again = svg_out.analysis_svg(panel, real, fractions, displacement, stress, date="2025-03-14")
     assert again == text
 

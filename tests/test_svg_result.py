@@ -12,6 +12,9 @@ import math
 import re
 import xml.etree.ElementTree as ET
 
+import cairosvg
+import ezdxf
+import ezdxf.math
 import numpy as np
 import pytest
 from shapely.geometry import Point, box
@@ -101,7 +104,6 @@ def sheet():
 
 def render_sheet(text: str, px_per_mm: float = 8.0):
     """PNG pixels of an SVG at ``px_per_mm`` paper mm, as (rows, cols, 3) floats in [0, 1]."""
-    cairosvg = pytest.importorskip("cairosvg")
     from PIL import Image
 
     width_mm = float(ET.fromstring(text).get("width")[:-2])
@@ -192,7 +194,6 @@ def test_legend_names_each_layer_and_title_block_the_job(sheet):
 
 
 def test_bore_radius_is_half_the_diameter_exactly_and_matches_the_dxf(sheet):
-    ezdxf = pytest.importorskip("ezdxf")
     from toolkit import dxf_out
 
     _, voids, text = sheet
@@ -222,14 +223,13 @@ def arcs_of(d: str):
 
 
 def test_slot_caps_are_true_arcs_of_half_the_width(sheet):
-    ezdxf_math = pytest.importorskip("ezdxf.math")
     *_, text = sheet
     (path,) = groups(text)["lacuna-void-slot"].iter(f"{SVG}path")
     arcs = arcs_of(path.get("d"))
     assert len(arcs) == 2
     for (rx, ry, _, large, sweep, x, y), (sx, sy, b) in zip(arcs, [slot_void().outline[1], slot_void().outline[3]]):
         # Reference: ezdxf's own bulge -> arc conversion gives the radius of the cap.
-        _, _, _, radius = ezdxf_math.bulge_to_arc((sx, sy), (x, y), b)
+        _, _, _, radius = ezdxf.math.bulge_to_arc((sx, sy), (x, y), b)
         assert rx == ry == pytest.approx(radius, abs=1e-4) and radius == pytest.approx(SLOT["width"] / 2)
         assert (large, sweep) == (0, 1)  # half circles, counter-clockwise in the local frame (y up)
 
