@@ -19,7 +19,11 @@ from toolkit import CAUTION
 HEAVY = ("numpy", "scipy", "ezdxf", "shapely", "svgwrite")
 
 # The commands whose help carries the engineering caution, as the group's own help does.
-CAUTIONED = ("analyze", "optimize", "check", "demo")
+CAUTIONED = ("analyze", "optimize", "check", "demo", "batch", "sweep")
+
+# The cluster libraries of `lacuna batch` and `lacuna sweep` (about a second to import) come in with those
+# commands only, not with the API.
+CLUSTER = ("dask", "distributed")
 
 # Runs in a fresh interpreter: every help the command line offers, through click's standalone mode (the path the
 # `lacuna` script takes, exit code included), then reports the outputs and every module imported by then.
@@ -71,6 +75,8 @@ def test_help_and_version_import_no_heavy_module(probe):
         + "; import these inside the command that uses them (docs/architecture.md, 'Heavy imports where used')"
     )
     assert "toolkit.api" not in probe["modules"]
+    cluster = sorted({m.split(".")[0] for m in probe["modules"]} & set(CLUSTER))
+    assert not cluster, f"printing the command line's help imported {', '.join(cluster)}"
 
 
 def test_the_probe_sees_a_heavy_import():
@@ -82,7 +88,7 @@ def test_the_probe_sees_a_heavy_import():
 def test_every_help_exits_0_and_the_commands_of_the_contract_are_there(probe):
     runs = {" ".join(r["args"]): r for r in probe["runs"]}
     # The command names the interface contract promises; more may come, none may go.
-    for name in ("demo", "analyze", "optimize", "check", "convert", "profiles", "init"):
+    for name in ("demo", "analyze", "optimize", "check", "convert", "profiles", "init", "batch", "sweep"):
         assert f"{name} --help" in runs
     for args, run in runs.items():
         assert run["exit"] == 0, (args, run["output"])
