@@ -24,7 +24,7 @@ def beam(**kw):
 
 def test_solid_beam_figures_and_equilibrium():
     # Timoshenko beam, central point load, span 2850 mm between a pin and a roller (Roark table 8.1 plus the
-    # shear term, shared/REFERENCES.md): PL^3/(48EI) + PL/(4kGA), read at mid-span on the neutral axis. 5 %: a
+    # shear term, docs/references.md): PL^3/(48EI) + PL/(4kGA), read at mid-span on the neutral axis. 5 %: a
     # deep beam (L/h = 4.75) on point supports deforms locally at them (seen here: 2.4 % over). The largest
     # deflection is under the load, which also indents the top edge locally.
     result = analyze(beam(supports=(Support(((75.0, 0.0),), "xy"), Support(((2925.0, 0.0),), "y"))))

@@ -10,7 +10,7 @@ from toolkit.model import LineLoad, Material, Panel
 
 E, NU, T = 11500.0, 0.3, 90.0
 G = E / (2 * (1 + NU))
-K_SHEAR = 5 / 6  # Timoshenko's shear coefficient for a rectangle (shared/REFERENCES.md)
+K_SHEAR = 5 / 6  # Timoshenko's shear coefficient for a rectangle (docs/references.md)
 
 
 def check_equilibrium(K, U, F, fixed):
@@ -23,7 +23,7 @@ def check_equilibrium(K, U, F, fixed):
 
 @pytest.mark.parametrize("ratio", [5, 10])
 def test_cantilever_tip_deflection(ratio):
-    # Timoshenko beam: tip deflection P L^3 / (3 E I) + P L / (k G A), k = 5/6 (shared/REFERENCES.md; Timoshenko &
+    # Timoshenko beam: tip deflection P L^3 / (3 E I) + P L / (k G A), k = 5/6 (docs/references.md; Timoshenko &
     # Goodier art. 21 for the plane-stress solution). End condition reproduced here: the whole root section is
     # held in x and y (fully built in); the end load is a parabolic shear over the tip section, as in art. 21.
     # Tolerance 1.5 %: the fully built-in root is a little stiffer than the beam-theory clamp (seen here: 0.4 %
@@ -46,7 +46,7 @@ def test_cantilever_tip_deflection(ratio):
 
 def test_simply_supported_deep_beam_under_uniform_load():
     # Timoshenko beam, uniform load w on span L: mid-span deflection 5 w L^4 / (384 E I) + w L^2 / (8 k G A)
-    # (Roark's Formulas for Stress and Strain, table 8.1, plus the Timoshenko shear term; shared/REFERENCES.md).
+    # (Roark's Formulas for Stress and Strain, table 8.1, plus the Timoshenko shear term; docs/references.md).
     # Deep beam, L/h = 4. Supports as beam theory has them: each end section held in y over its depth (the
     # shear reaction spread over the section), x held at mid-span on the neutral axis (symmetry). Deflection
     # read on the neutral axis, away from the load's local squeeze of the top edge. Seen here: 1.5 % under.

@@ -63,7 +63,8 @@ def test_cases_are_separate_columns_in_panel_order():
 
 
 def test_self_weight_equals_density_times_solid_volume():
-    # W = rho g V, g = 9.81 m/s2 (standard gravity); the opening's area is left out exactly.
+    # W = rho g V, g = 9.81 m/s2 (standard gravity 9.80665 rounded as usual in design; docs/references.md);
+    # the opening's area is left out exactly.
     hole = Point(300.0, 100.0).buffer(60.0)
     p = panel([PointLoad((10.0, 10.0), (0.0, 0.0))], openings=(Region(hole, "OPENING"),), self_weight=True)
     F = load_matrix(G, p)

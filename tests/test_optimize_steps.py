@@ -104,7 +104,7 @@ def test_next_volume_and_convergence():
 # --- settings -----------------------------------------------------------------------------------------------
 
 def test_settings_defaults_are_the_published_ones():
-    # Huang & Xie 2009/2010 (from memory, see REFERENCES.md): p = 3, x_min = 0.001, ER = AR = 2 %,
+    # Huang & Xie 2009/2010 (from memory, see docs/references.md): p = 3, x_min = 0.001, ER = AR = 2 %,
     # convergence 0.1 % over windows of 5.
     s = OptimizeSettings()
     assert (s.penalty, s.void_density, s.evolution_rate, s.admission_ratio) == (3.0, 1e-3, 0.02, 0.02)
