@@ -1,4 +1,5 @@
-"""The BESO loop on small problems, against published results and properties the trade states."""
+"""The BESO loop on small problems, against published results, a bound of the mathematics and properties the
+trade states."""
 
 import numpy as np
 import pytest
