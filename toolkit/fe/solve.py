@@ -2,7 +2,9 @@
 
 from __future__ import annotations
 
+import os
 from contextlib import nullcontext
+from functools import lru_cache
 
 import numpy as np
 import scipy.sparse as sp
@@ -302,6 +304,25 @@ def pardiso_available() -> bool:
     return True
 
 
+@lru_cache(maxsize=1)
+def _mkl_library() -> str | None:
+    """Path of MKL's runtime library as the installed mkl package lists it (None: let pypardiso search)."""
+    try:
+        from importlib.metadata import PackageNotFoundError, files
+    except ImportError:
+        return None
+    try:
+        listed = files("mkl") or []
+    except PackageNotFoundError:
+        return None
+    found = sorted((f for f in listed if "mkl_rt" in f.name), key=lambda f: len(str(f)))
+    for f in found:
+        path = str(f.locate())
+        if os.path.isfile(path):
+            return path
+    return None
+
+
 class _Pardiso:
     """MKL PARDISO (package pypardiso) in its symmetric positive definite mode, driven phase by phase: the
     symbolic analysis (fill-reducing order) once, every refactor numeric only (phase 22), solves by
@@ -315,8 +336,18 @@ class _Pardiso:
         from pypardiso.pardiso_wrapper import PyPardisoError
 
         self._error = PyPardisoError
-        # Matrix type 2: real symmetric positive definite (Cholesky, no pivoting).
-        self._solver = pypardiso.PyPardisoSolver(mtype=2)
+        # Matrix type 2: real symmetric positive definite (Cholesky, no pivoting). pypardiso looks for MKL's
+        # library by a recursive search of the environment every time (0.3-0.4 s) unless PYPARDISO_MKL_RT names
+        # it: it is named, for the construction only, from where the mkl package put it.
+        path = _mkl_library()
+        added = path is not None and "PYPARDISO_MKL_RT" not in os.environ
+        if added:
+            os.environ["PYPARDISO_MKL_RT"] = path
+        try:
+            self._solver = pypardiso.PyPardisoSolver(mtype=2)
+        finally:
+            if added:
+                os.environ.pop("PYPARDISO_MKL_RT", None)
         self._controller = ThreadpoolController() if ThreadpoolController is not None else None
         self._analysed = False
         self._A: sp.csr_matrix | None = None
@@ -392,7 +423,7 @@ class LinearSolver:
         if backend in ("auto", "multifrontal"):
             backend = "pardiso" if pardiso_available() else "superlu"
         self.backend = backend
-        if grid is not None:
+        if grid is not None and backend == "superlu":  # PARDISO finds its own fill-reducing order
             nodes = nested_dissection(grid)
             order = np.stack([2 * nodes, 2 * nodes + 1], axis=1).ravel()
             is_free = np.zeros(n, dtype=bool)
