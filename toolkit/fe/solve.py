@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import ctypes
 import os
 from contextlib import nullcontext
 from functools import lru_cache
@@ -348,6 +349,21 @@ class _Pardiso:
         finally:
             if added:
                 os.environ.pop("PYPARDISO_MKL_RT", None)
+        # Our own settings rather than MKL's defaults (iparm[0] = 1; unset entries 0): METIS order, one-based
+        # indices as pypardiso passes them, and the factor's diagonal kept for ``pardiso_getdiag``: in its
+        # positive definite mode PARDISO stops only on a pivot that is not positive, and a free rigid motion
+        # shows as pivots at round-off level of either sign, so the pivots are checked here as SuperLU's and the
+        # multifrontal code's are (below SINGULAR_PIVOT of the largest: a mechanism).
+        iparm = self._solver.iparm
+        iparm[:] = 0
+        iparm[0] = 1     # settings given here
+        iparm[1] = 2     # fill-reducing order: METIS nested dissection (the serial one: the same on any machine)
+        iparm[7] = 2     # up to two steps of iterative refinement, as MKL's defaults
+        iparm[17] = -1   # report the factor's nonzeros
+        iparm[34] = 0    # one-based indices
+        iparm[55] = 1    # keep the diagonal for pardiso_getdiag
+        self._getdiag = self._solver.libmkl.pardiso_getdiag
+        self._getdiag.restype = None
         self._controller = ThreadpoolController() if ThreadpoolController is not None else None
         self._analysed = False
         self._A: sp.csr_matrix | None = None
@@ -366,6 +382,14 @@ class _Pardiso:
             raise _singular() from exc
         self._analysed = True
         self._A = A
+        n = A.shape[0]
+        pivots, original, error = np.zeros(n), np.zeros(n), ctypes.c_int32(0)
+        self._getdiag(self._solver.pt.ctypes.data_as(ctypes.POINTER(ctypes.c_int64)),
+                      pivots.ctypes.data_as(ctypes.c_void_p), original.ctypes.data_as(ctypes.c_void_p),
+                      ctypes.byref(ctypes.c_int32(1)), ctypes.byref(error))
+        pivots = np.abs(pivots)
+        if error.value == 0 and n and not pivots.min() > SINGULAR_PIVOT * pivots.max():
+            raise _singular()
 
     def solve(self, rhs: np.ndarray) -> np.ndarray:
         self._solver.set_phase(33)
