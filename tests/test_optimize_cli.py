@@ -162,3 +162,25 @@ def test_office_drawing_through_optimize_keeps_everything(tmp_path):
     auditor = after.audit()
     assert not auditor.has_errors
     assert len(after.modelspace().query('CIRCLE[layer=="LACUNA-VOID-BORE"]')) == len(s["voids"])
+
+
+@pytest.mark.parametrize("blocker", ["existing output", "folder is a file"])
+def test_outputs_that_cannot_be_written_are_refused_before_the_optimiser_runs(tmp_path, blocker):
+    # An output already there (without --force) or an --out that cannot be a folder is refused before the long
+    # run, not after it: no optimiser iteration is reported.
+    from toolkit.api import demo_files, optimize_file
+    from toolkit.errors import LacunaError
+
+    dxf, toml = demo_files()
+    out = tmp_path / "out"
+    if blocker == "existing output":
+        out.mkdir()
+        (out / f"{Path(dxf).stem}-report.md").write_text("an earlier report\n")
+    else:
+        out.write_text("not a folder\n")
+    iterations = []
+    with pytest.raises(LacunaError, match="already exists" if blocker == "existing output" else "is a file"):
+        optimize_file(dxf, toml, out_dir=out, on_iteration=lambda *a: iterations.append(a))
+    assert iterations == []
+    if blocker == "existing output":
+        assert (out / f"{Path(dxf).stem}-report.md").read_text() == "an earlier report\n"

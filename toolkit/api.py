@@ -353,6 +353,11 @@ def _edge_cells(v: dict) -> list[str]:
             " ".join(filter(None, [v.get("edge_note", ""), web["note"] if web else ""]))]
 
 
+# What ``optimize_file`` writes for a drawing <stem>, besides the frames: <stem>-<suffix> each.
+OPTIMIZE_OUTPUTS = ("lacuna.dxf", "result.svg", "convergence.svg", "schedule.csv", "schedule.json", "report.md",
+                    "optimize.json")
+
+
 def optimize_file(dxf_path, job_path=None, *, out_dir=None, force: bool = False, frames: int = 0,
                   on_iteration=None, dxf_version: str | None = None, replace: bool = False, job=None) -> Outcome:
     """``lacuna optimize``: the whole job; writes the drawing copy with our layers, figures, schedule, JSON.
@@ -364,9 +369,17 @@ def optimize_file(dxf_path, job_path=None, *, out_dir=None, force: bool = False,
     dxf_path = Path(dxf_path)
     panel, job, drawing = load_panel(dxf_path, job_path, job=job)
     refuse_earlier_results(dxf_path, replace=replace)
+    stem = dxf_path.stem
+    out = Path(out_dir) if out_dir is not None else default_out_dir(dxf_path)
+    inputs = [dxf_path] + ([Path(job_path)] if job_path else [])
+    # Before the long run, not after it: an output already there (without force) or a folder that cannot be
+    # written is refused now. The same names are written below.
+    plan_outputs(out, [f"{stem}-{suffix}" for suffix in OPTIMIZE_OUTPUTS], inputs=inputs, force=force)
+    if frames and not force and out.is_dir() and any(out.glob(f"{stem}-frame-*.svg")):
+        raise LacunaError(f"{out} already holds frames of an earlier run ({stem}-frame-*.svg).",
+                          hint="Choose another --out folder, or pass --force to replace them.")
     run = optimize_panel(panel, job, on_iteration=on_iteration, keep_every=frames)
     summary = optimize_summary(run, drawing)
-    stem = dxf_path.stem
     date = _dt.date.today().isoformat()
     grid = run.solid.grid
     files: dict[str, bytes | str] = {}
@@ -398,8 +411,8 @@ def optimize_file(dxf_path, job_path=None, *, out_dir=None, force: bool = False,
             compliance_Nmm=float(run.beso.compliance_Nmm[k]),
             volume_fraction=float(run.beso.volume_fraction[k]),
         )
-    out = Path(out_dir) if out_dir is not None else default_out_dir(dxf_path)
-    inputs = [dxf_path] + ([Path(job_path)] if job_path else [])
+    assert {f"{stem}-{suffix}" for suffix in OPTIMIZE_OUTPUTS} == set(files) - {
+        n for n in files if n.startswith(f"{stem}-frame-")} | {f"{stem}-optimize.json"}, "outputs checked early"
     outcome = _finish(summary, files, f"{stem}-optimize.json", out, inputs, force)
     outcome.run = run
     return outcome

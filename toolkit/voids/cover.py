@@ -40,6 +40,8 @@ MIN_INTERIOR_DEG = 30.0
 MIN_TURN_DEG = 5.0
 # Scales tried when a shape is shrunk into its region: the largest that fits wins (2 % steps).
 _SCALES = np.linspace(1.0, 0.2, 41)
+# Douglas-Peucker tolerance on the hull before it is cut down to n corners, as a share of the least feature.
+HULL_SIMPLIFY = 0.05
 
 
 def largest_part(geom) -> Polygon | None:
@@ -263,7 +265,7 @@ def hull_ngon(region, sides: int, feature: float) -> np.ndarray | None:
         return None
     # Douglas-Peucker only deletes corners, so the simplified hull is convex and inside the hull; it leaves the
     # few corners that matter for the cut-down below (a contoured hull has dozens).
-    hull = shapely.simplify(hull, max(0.05 * feature, 2e-3 * math.sqrt(hull.area)))
+    hull = shapely.simplify(hull, max(HULL_SIMPLIFY * feature, 2e-3 * math.sqrt(hull.area)))
     pts = shapely.get_coordinates(hull.exterior)[:-1]
     tidy = tidy_ngon(pts, sides, feature)
     if tidy is None:
