@@ -42,10 +42,10 @@ def main() -> None:
             shutil.copy(job, d.with_suffix(".toml"))   # the per-drawing job beside it
             drawings.append(d)
 
-        t0 = time.perf_counter()
+        t0, c0 = time.perf_counter(), time.process_time()
         for d in drawings:
             api.optimize_file(d, d.with_suffix(".toml"), out_dir=tmp / "serial" / d.stem)
-        serial = time.perf_counter() - t0
+        serial, serial_cpu = time.perf_counter() - t0, time.process_time() - c0
 
         t0 = time.perf_counter()
         result = batch_files(drawings, out_dir=tmp / "batch", workers=workers)
@@ -54,10 +54,18 @@ def main() -> None:
     done = sum(r["status"] == "done" for r in result.rows)
     speedup = serial / parallel
     print(f"{args.copies} copies of the demo ({dxf.name}), {cores} cores, {workers} workers of one thread")
-    print(f"  serial loop (one process)      {serial:8.1f} s   {serial / args.copies:6.2f} s per panel")
+    print(f"  serial loop (one process)      {serial:8.1f} s   {serial / args.copies:6.2f} s per panel"
+          f"   (CPU {serial_cpu:.1f} s: {serial_cpu / serial:.2f} cores busy)")
     print(f"  lacuna batch (LocalCluster)    {parallel:8.1f} s   {parallel / args.copies:6.2f} s per panel"
           f"   ({done}/{len(result.rows)} done)")
+    timed = [r for r in result.rows if r.get("seconds") is not None]
+    if timed:
+        print(f"  inside the workers: {sum(r['seconds'] for r in timed) / len(timed):.2f} s per panel's job "
+              f"(CPU {sum(r['cpu_seconds'] for r in timed) / len(timed):.2f} s; the serial loop's CPU per panel "
+              f"{serial_cpu / args.copies:.2f} s)")
     print(f"  speed-up {speedup:.2f} x   (target >= 0.6 x cores = {0.6 * cores:.1f} x)")
+    if hasattr(os, "getloadavg"):
+        print(f"  load average now {os.getloadavg()[0]:.2f} (other work on the machine slows both runs alike)")
 
 
 if __name__ == "__main__":

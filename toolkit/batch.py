@@ -109,7 +109,9 @@ def optimize_task(drawing: str, job: str | None, out_dir: str, force: bool = Fal
 
     ``volume_fraction`` and ``profile``, when given, replace the job's (a sweep's point)."""
     import dataclasses
+    import time
 
+    started = time.perf_counter()
     from . import api
     from .jobfile import default_job, read_job
 
@@ -123,8 +125,12 @@ def optimize_task(drawing: str, job: str | None, out_dir: str, force: bool = Fal
                     adjusted, optimize=dataclasses.replace(adjusted.optimize, volume_fraction=float(volume_fraction)))
             if profile is not None:
                 adjusted = dataclasses.replace(adjusted, rules=dataclasses.replace(adjusted.rules, profile=profile))
+        begun, cpu = time.perf_counter(), time.process_time()
         outcome = api.optimize_file(Path(drawing), Path(job) if job else None, out_dir=Path(out_dir), force=force,
                                     job=adjusted)
+        row["seconds"] = time.perf_counter() - begun
+        row["cpu_seconds"] = time.process_time() - cpu   # the worker process's CPU time over the job
+        row["import_seconds"] = begun - started   # the worker's first task pays for importing lacuna
     except LacunaError as error:
         return {**row, "status": REFUSED, "message": _paragraph(str(error))}
     except Exception as error:  # a defect of lacuna on this panel: say so in its row, keep the batch going
@@ -308,6 +314,9 @@ def _flat(row: dict) -> dict:
         "rules": "" if violations is None else ("kept" if violations == 0 else f"{violations} violated"),
         "message": row.get("message", ""),
         "folder": row["folder"],
+        "seconds": row.get("seconds"),                # wall time of the panel's job in its worker
+        "import_seconds": row.get("import_seconds"),  # a worker's first task imports lacuna first
+        "cpu_seconds": row.get("cpu_seconds"),
     }
 
 
@@ -328,7 +337,7 @@ def batch_summary(rows: list[dict]) -> dict:
 
 CSV_COLUMNS = ("panel", "name", "drawing", "job", "status", "exit_code", "mass_removed_percent", "mass_removed_kg",
                "stiffness_loss_percent", "capture_percent", "compliance_solid_Nmm", "compliance_rationalized_Nmm",
-               "max_deflection_rationalized_mm", "voids", "profile", "violations", "rules", "message", "folder")
+               "max_deflection_rationalized_mm", "voids", "profile", "violations", "rules", "message", "folder", "seconds")
 
 
 def _cell(value, digits: int = 4) -> str:
