@@ -184,3 +184,25 @@ def test_outputs_that_cannot_be_written_are_refused_before_the_optimiser_runs(tm
     assert iterations == []
     if blocker == "existing output":
         assert (out / f"{Path(dxf).stem}-report.md").read_text() == "an earlier report\n"
+
+
+def test_checking_a_result_drawing_writes_beside_it_not_into_a_doubled_folder(tmp_path):
+    # CONTRACT.md: outputs go by default to <stem>-lacuna beside the input; a drawing lacuna wrote is already
+    # named <stem>-lacuna, so its own results go into the folder it is in.
+    from toolkit.outputs import default_out_dir
+
+    assert default_out_dir(tmp_path / "beam.dxf") == tmp_path / "beam-lacuna"
+    assert default_out_dir(tmp_path / "beam-lacuna" / "beam-lacuna.dxf") == tmp_path / "beam-lacuna"
+    from toolkit.api import demo_files, optimize_file
+
+    dxf, toml = demo_files()
+    src = tmp_path / Path(dxf).name
+    src.write_bytes(Path(dxf).read_bytes())
+    optimize_file(src, toml)  # the default folder: <stem>-lacuna beside the copy
+    result = tmp_path / f"{src.stem}-lacuna" / f"{src.stem}-lacuna.dxf"
+    assert result.exists()
+    runner = CliRunner()
+    done = runner.invoke(main, ["check", str(result), "--job", str(toml)])
+    assert done.exit_code in (0, 1), done.output
+    assert not (result.parent / f"{src.stem}-lacuna-lacuna").exists()
+    assert (result.parent / f"{src.stem}-lacuna-check.json").exists()

@@ -14,8 +14,12 @@ from .errors import LacunaError
 
 
 def default_out_dir(input_path: str | os.PathLike) -> Path:
-    """The folder beside the input named ``<stem>-lacuna`` (CONTRACT.md)."""
+    """The folder beside the input named ``<stem>-lacuna`` (CONTRACT.md); for a drawing lacuna wrote (its name
+    ends in ``-lacuna``, e.g. a result copy checked again) the folder it is in, rather than a doubled
+    ``-lacuna-lacuna`` folder inside a results folder."""
     p = Path(input_path)
+    if p.stem.endswith("-lacuna"):
+        return p.parent
     return p.with_name(f"{p.stem}-lacuna")
 
 
