@@ -85,7 +85,8 @@ where material does no work (BESO) and turns that into voids a shop can make.
 
 \b
 CAUTION: {CAUTION}
-""", epilog="Exit codes: 0 done; 1 check found violations; 2 bad input or impossible request.")
+""", epilog="Exit codes: 0 done; 1 check found violations (batch, sweep: a panel or point refused, failed or violated "
+          "a rule); 2 bad input or impossible request.")
 @click.version_option(__version__, prog_name="lacuna")
 @click.option("--debug", is_flag=True, help="Show a traceback with any error.")
 def main(debug: bool) -> None:
@@ -263,7 +264,8 @@ refused, failed or violated a rule; 2 bad input (nothing written).
               help="Volume fractions to sweep, e.g. 0.9:0.4:6.")
 @click.option("--profile", "profiles", default=None, metavar="A,B",
               help="Fabrication profiles, comma-separated: one curve each (default: the job's).")
-@_out_option
+@click.option("--out", "out_dir", type=click.Path(file_okay=False, path_type=Path), default=None,
+              help="Output folder (default: a folder beside the drawing named <stem>-sweep).")
 @_scheduler_option
 @_workers_option
 @_json_option
