@@ -53,7 +53,8 @@ class Draft:
     corner_mm: float = 0.0
     fixed: tuple[str, ...] = ()
     regular: bool = False
-    tools: tuple[str, str, str] = ("former", "slot cutter", "bore")
+    # The schedule's words for what makes it: the plain ones here; a job gives its profile's (Rules.tool_words).
+    tools: tuple[str, str, str] = ("cut", "slot", "bore")
 
     def scaled(self, size: float) -> Draft:
         """The same void at another size, about the same centre (a slot keeps its straight part's ratio)."""
