@@ -16,7 +16,7 @@ from .element import q4_shape
 from .fractions import solid_fractions
 from .grid import Grid
 
-G_MM_S2 = 9810.0  # standard gravity, 9.81 m/s2, in mm/s2
+G_MM_S2 = 9810.0  # gravity 9.81 m/s2 in mm/s2: standard gravity (9.80665) rounded, as loading codes take it
 GAUSS_2 = np.array([-1.0, 1.0]) / math.sqrt(3.0)
 
 
