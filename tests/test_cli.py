@@ -134,3 +134,24 @@ def test_convert_round_trip_through_svg(tmp_path):
     # The demo's duct: 180 mm bore at (3150, 430) (fixtures/make_demo.py).
     assert len(circles) == 1 and circles[0].dxf.radius == pytest.approx(90.0, abs=1e-6)
     assert tuple(circles[0].dxf.center)[:2] == pytest.approx((3150.0, 430.0), abs=1e-6)
+
+
+def test_a_message_about_a_job_key_names_the_job_file(tmp_path):
+    # An unknown profile is found late (when the rules are built), under a bare key: the message still names the
+    # file it is about, like every message about the job file.
+    from click.testing import CliRunner
+
+    from toolkit.api import demo_files
+    from toolkit.cli import main
+
+    dxf, toml = demo_files()
+    job = tmp_path / "job.toml"
+    text = Path(toml).read_text()
+    assert 'profile = "' in text
+    import re
+
+    job.write_text(re.sub(r'profile = "[^"]*"', 'profile = "timber-screwed"', text))
+    done = CliRunner().invoke(main, ["optimize", str(dxf), "--job", str(job), "--out", str(tmp_path / "out")])
+    assert done.exit_code == 2
+    assert f"{job} [rules] profile: unknown fabrication profile" in done.output
+    assert not (tmp_path / "out").exists()

@@ -14,7 +14,7 @@ import click
 # Only click and the light top of the package load here, so `lacuna --help` answers at once; each command imports
 # the API (numpy, scipy, ezdxf, shapely behind it) when it runs. tests/test_startup.py holds this.
 from . import CAUTION, __version__
-from .errors import LacunaError
+from .errors import LacunaError, naming
 
 EXIT_BAD_INPUT = 2
 EXIT_INTERNAL = 3
@@ -109,7 +109,8 @@ def main(debug: bool) -> None:
 def analyze(panel: Path, job_path: Path | None, out_dir: Path | None, as_json: bool, force: bool) -> None:
     from . import api
 
-    outcome = api.analyze_file(panel, job_path, out_dir=out_dir, force=force)
+    with naming(panel, job_path):
+        outcome = api.analyze_file(panel, job_path, out_dir=out_dir, force=force)
     _emit(outcome.summary, as_json, outcome.text_lines())
 
 
@@ -160,8 +161,9 @@ def optimize(panel: Path, job_path: Path | None, out_dir: Path | None, as_json: 
 
     progress = _Progress(api.iteration_limit(job_path))
     try:
-        outcome = api.optimize_file(panel, job_path, out_dir=out_dir, force=force, frames=frames,
-                                    on_iteration=progress, dxf_version=dxf_version, replace=replace)
+        with naming(panel, job_path):
+            outcome = api.optimize_file(panel, job_path, out_dir=out_dir, force=force, frames=frames,
+                                        on_iteration=progress, dxf_version=dxf_version, replace=replace)
     finally:
         progress.close()
     _emit(outcome.summary, as_json, outcome.text_lines())
@@ -189,8 +191,9 @@ def check(ctx, drawing: Path, job_path: Path | None, profile: str | None, layers
           as_json: bool, force: bool, replace: bool) -> None:
     from . import api
 
-    result = api.check_file(drawing, job_path, profile=profile, layers=layers, out_dir=out_dir, force=force,
-                            replace=replace)
+    with naming(drawing, job_path):
+        result = api.check_file(drawing, job_path, profile=profile, layers=layers, out_dir=out_dir, force=force,
+                                replace=replace)
     _emit(result.summary, as_json, result.text_lines())
     ctx.exit(result.exit_code)
 

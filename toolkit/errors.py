@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from contextlib import contextmanager
+
 
 class LacunaError(Exception):
     """Bad input or an impossible request, in words a drafter understands.
@@ -21,3 +23,17 @@ class LacunaError(Exception):
         if self.hint:
             text += f" {self.hint}"
         return text
+
+
+@contextmanager
+def naming(drawing, job_path=None):
+    """Inside ``with``, a LacunaError whose ``where`` is a bare job key ("[rules] profile", "[[support]]") gets the
+    file it is about in front: the job file when there is one, else the drawing (whose markers stand for the
+    job's tables). Messages that already name a file are left as they are."""
+    try:
+        yield
+    except LacunaError as error:
+        if error.where and error.where.startswith("[") and (job_path or drawing):
+            error.where = f"{job_path or drawing} {error.where}"
+            error.args = (str(error),)
+        raise
