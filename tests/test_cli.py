@@ -155,3 +155,17 @@ def test_a_message_about_a_job_key_names_the_job_file(tmp_path):
     assert done.exit_code == 2
     assert f"{job} [rules] profile: unknown fabrication profile" in done.output
     assert not (tmp_path / "out").exists()
+
+
+def test_balanced_force_sums_print_as_zero_not_round_off(tmp_path):
+    # The demo lintel carries vertical loads only: the horizontal sum of its reactions is zero to round-off
+    # (about 1e-13 of the load) and is given as 0, in the JSON and the printed line.
+    from toolkit.api import analyze_file, demo_files
+
+    dxf, toml = demo_files()
+    outcome = analyze_file(dxf, toml, out_dir=tmp_path / "out")
+    s = outcome.summary
+    assert s["load_sum_kN"][0] == 0.0 and s["reaction_sum_kN"][0] == 0.0
+    assert s["reaction_sum_kN"][1] == pytest.approx(-s["load_sum_kN"][1], rel=1e-9)
+    line = next(t for t in outcome.text_lines() if "reactions" in t)
+    assert "e-" not in line and "e+" not in line, line

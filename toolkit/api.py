@@ -92,7 +92,12 @@ def _drawing_xy(panel: Panel, local_xy) -> list[float]:
 
 
 def _drawing_kN(panel: Panel, vector_N) -> list[float]:
-    return [float(v) / 1000.0 for v in panel.frame.vector_to_drawing(np.asarray(vector_N, dtype=float))]
+    """A force sum in kN in the drawing's axes, a component at round-off level of the other (a sum of reactions
+    that balance to 1e-13 of the load) given as 0: the figure means "none", not 2.9e-10 kN."""
+    v = np.asarray(panel.frame.vector_to_drawing(np.asarray(vector_N, dtype=float)), dtype=float) / 1000.0
+    scale = float(np.max(np.abs(v))) if v.size else 0.0
+    v = np.where(np.abs(v) <= 1e-9 * scale, 0.0, v)
+    return [float(x) + 0.0 for x in v]
 
 
 def analysis_summary(panel: Panel, drawing: Drawing | None, result: Analysis) -> dict:
