@@ -445,3 +445,13 @@ def test_bad_requests_are_refused_in_words():
     with pytest.raises(LacunaError, match="volume fraction between 0 and 1"):
         svg_out.layout_frame_svg(panel, GRID, np.ones(GRID.nx * GRID.ny), iteration=3, compliance_Nmm=1.0,
                                  volume_fraction=1.2)
+
+
+def test_masses_on_the_sheet_are_written_without_an_exponent():
+    # A precast panel's saving runs to tonnes: "1.21e+03 kg" is not how a drawing states a mass.
+    from toolkit.svg_out import _kilograms
+
+    assert _kilograms(1210.4) == "1210 kg"
+    assert _kilograms(20.63) == "20.6 kg"
+    assert _kilograms(0.534) == "0.534 kg"
+    assert all("e" not in _kilograms(m).split()[0] for m in (1e-3, 0.5, 7.0, 99.96, 1234.5, 2.5e5))

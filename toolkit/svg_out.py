@@ -1104,7 +1104,7 @@ def result_svg(
     if volume_removed_percent is not None:
         removed = f"volume removed {volume_removed_percent:.1f} %"
         if mass_removed_kg is not None:
-            removed += f" ({mass_removed_kg:.3g} kg)"
+            removed += f" ({_kilograms(mass_removed_kg)})"
     _draw_title_block(fig, [
         (0.3, "PANEL", [panel.name, f"profile: {profile}" if profile else "profile: not stated"]),
         (0.3, "VOIDS", [_void_count_text(voids), removed]),
@@ -1432,3 +1432,12 @@ def tradeoff_svg(rows, *, title: str, mass_unit: str = "kg") -> str:
     note, size = _fit(CAUTION, width - 2 * _MARGIN, 2.4)
     text(foot, note, (_MARGIN, height - _MARGIN + 2.0), size, style="italic", fill="#555555")
     return dwg.tostring()
+
+
+def _kilograms(kg: float) -> str:
+    """A mass as a drafter writes it, never with an exponent: three significant figures below 100 kg (20.6 kg,
+    0.534 kg), whole kilograms above (1210 kg)."""
+    if kg == 0:
+        return "0 kg"
+    digits = max(0, 2 - int(math.floor(math.log10(abs(kg)))))
+    return f"{round(kg, digits):.{digits}f} kg"
