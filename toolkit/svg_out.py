@@ -1440,4 +1440,5 @@ def _kilograms(kg: float) -> str:
     if kg == 0:
         return "0 kg"
     digits = max(0, 2 - int(math.floor(math.log10(abs(kg)))))
-    return f"{round(kg, digits):.{digits}f} kg"
+    text = f"{round(kg, digits):.{digits}f}"
+    return (text.rstrip("0").rstrip(".") if "." in text else text) + " kg"
