@@ -65,6 +65,15 @@ def test_demo_runs_the_whole_job(tmp_path):
     assert all(abs(l + r) <= 1e-9 * scale for l, r in zip(load, reaction))
     # The demo's loads: 9.5 kN/m over 4.2 m plus 16 kN (fixtures/demo/loft-lintel.toml) = 55.9 kN down.
     assert load[1] == pytest.approx(-55.9, rel=1e-9)
+    # The report names every rule in force (the profile's depth band, web ratio, least side and corner easing as
+    # well as the plain ones), each with where the layout comes closest to it; the JSON carries the same.
+    report = (out / "loft-lintel-report.md").read_text()
+    table = report[report.index("## Fabrication rules"):report.index("### Proof")]
+    for rule in ("edge_cover", "depth_band", "web_ratio", "min_web", "bearing_clearance", "min_void",
+                 "least_feature", "corner", "keep"):
+        assert f"| {rule} |" in table, rule
+    margins = {m["rule"]: m for m in top["rules"]["margins"]}
+    assert all(m["margin"] >= -1e-6 for m in margins.values() if m["margin"] is not None)  # the proof found none
 
 
 def test_existing_output_needs_force(tmp_path):

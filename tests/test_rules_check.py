@@ -319,3 +319,28 @@ def test_allowed_region_pieces():
     region = allowed_region(p, RULES)
     assert not region.contains(Point(1500 - 100 - 60 + 1, 250))
     assert region.contains(Point(1500 - 100 - 60 - 1, 250))
+
+
+def test_margins_name_the_tightest_place_of_every_rule_in_force():
+    # Hand figures: bores of 50 at x = 500 and 610 (web 110 - 50 = 60 mm, the minimum web exactly), a slot 50 x 200
+    # centred at x = 900 (its left end at 800: web to V2 800 - 635 = 165); all at mid-depth y = 250 of 500, so
+    # the nearest edge is 250 - 25 = 225 mm away (top and bottom alike); a support point at (0, 0): the nearest
+    # void edge is V1's, hypot(500, 250) - 25 from it.
+    from toolkit.rules.check import rule_margins
+
+    voids = [bore("V1", 500, 250, 50), bore("V2", 610, 250, 50), slot("V3", 900, 250, 50, 200)]
+    p = panel(supports=(Support(((0.0, 0.0),), "xy"),))
+    m = {x.rule: x for x in rule_margins(p, voids, RULES)}
+    assert m["edge_cover"].measured == pytest.approx(225.0, abs=1e-6) and m["edge_cover"].required == 50
+    assert m["min_web"].measured == pytest.approx(60.0, abs=1e-6) and m["min_web"].margin == pytest.approx(0, abs=1e-6)
+    assert set(m["min_web"].void_ids) == {"V1", "V2"}
+    assert m["bearing_clearance"].measured == pytest.approx(math.hypot(500, 250) - 25, abs=1e-6)
+    assert m["bearing_clearance"].void_ids == ("V1",)
+    assert m["min_void"].measured == pytest.approx(50.0, abs=1e-6)
+    assert "2 of 2 bores" in m["bore_diameters"].text and "1 of 1 slots" in m["slot_widths"].text
+    # A web ratio of 2 asks 2 x 50 = 100 mm between the bores (40 mm short) but 2 x 200 = 400 mm between V2 and
+    # the 200 mm slot (235 mm short): that pair is the tightest, under the web ratio.
+    ratio = Rules(**{**RULES.__dict__, "web_ratio": 2.0})
+    w = {x.rule: x for x in rule_margins(p, voids, ratio)}["web_ratio"]
+    assert set(w.void_ids) == {"V2", "V3"}
+    assert w.required == pytest.approx(400.0) and w.margin == pytest.approx(-235.0, abs=1e-6)

@@ -308,9 +308,15 @@ def optimize_summary(run: OptimizeRun, drawing: Drawing | None) -> dict:
             "min_void": f.length_to_drawing(rules.min_void_mm),
             "bearing_clearance": f.length_to_drawing(rules.bearing_clearance_mm),
             "bore_diameters": [f.length_to_drawing(d) for d in rules.bore_diameters_mm],
+            "slot_widths": [f.length_to_drawing(d) for d in rules.slot_widths_mm],
+            "web_ratio": rules.web_ratio,
+            "depth_band": rules.depth_band,
+            "least_feature": f.length_to_drawing(rules.least_feature_mm),
+            "corner": {"kind": rules.corner, "size": f.length_to_drawing(rules.corner_size_mm)},
             "max_edge_stress_MPa": run.edge_limit_MPa,
             "sources": dict(rules.sources),
             "violations": [v.to_json(f) for v in run.rationalised.violations],
+            "margins": _margins_json(run),
         },
         "changes": list(run.rationalised.changes),
         "dropped": list(run.rationalised.dropped),
@@ -421,6 +427,21 @@ def optimize_file(dxf_path, job_path=None, *, out_dir=None, force: bool = False,
     outcome = _finish(summary, files, f"{stem}-optimize.json", out, inputs, force)
     outcome.run = run
     return outcome
+
+
+def _margins_json(run: OptimizeRun) -> list[dict]:
+    """Every rule in force with where the made layout comes closest to it (rules.check.rule_margins); lengths in
+    the drawing's unit."""
+    from .rules.check import rule_margins
+
+    f = run.panel.frame
+
+    def length(x):
+        return None if x is None else f.length_to_drawing(x)
+
+    return [{"rule": m.rule, "required": length(m.required), "measured": length(m.measured),
+             "margin": length(m.margin), "voids": list(m.void_ids), "where": m.text}
+            for m in rule_margins(run.panel, run.voids, run.rules)]
 
 
 def _notes(run: OptimizeRun) -> list[str]:

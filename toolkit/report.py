@@ -171,14 +171,42 @@ def report_markdown(summary: dict, *, result_svg: str, convergence_svg: str, sch
         "",
         f"## Fabrication rules: profile {rules['profile']}",
         "",
-        "| rule | value | source |",
-        "|---|---:|---|",
+        "Every rule in force, its source, and where the voids to make come closest to it (measured on the final "
+        "geometry as the proof below measures it; margin = measured less required).",
+        "",
+        "| rule | required | source | tightest place in the layout | margin |",
+        "|---|---:|---|---|---:|",
     ]
+    margins = rules.get("margins") or []
+    shown = set()
+    for m in margins:
+        key = m["rule"]
+        shown.add(key)
+        source = rules["sources"].get(key, "") or _derived_source(key, rules)
+        if key in ("bore_diameters", "slot_widths"):
+            required = ", ".join(f"{d:g}" for d in rules.get(key) or []) + f" {unit}" if rules.get(key) else "stock"
+        elif m["required"] is None:
+            required = "–"
+        elif key == "web_ratio":
+            required = f"{rules.get('web_ratio', 0):g} x the larger void's size: {m['required']:.4g} {unit} there"
+        else:
+            required = f"{m['required']:.4g} {unit}"
+        margin = "–" if m["margin"] is None else f"{m['margin']:+.1f} {unit}"
+        lines.append(f"| {key} | {required} | {source} | {m['where']} | {margin} |")
+    if "web_ratio" in shown and "min_web" not in shown:
+        lines.append(f"| min_web | {rules['min_web']:g} {unit} | {rules['sources'].get('min_web', '')} | the web "
+                     "ratio asks more at the tightest web (row web_ratio) | – |")
+    if rules.get("web_ratio") and "min_web" in shown and "web_ratio" not in shown:
+        lines.append(f"| web_ratio | {rules['web_ratio']:g} x the larger void's size | "
+                     f"{rules['sources'].get('web_ratio', '')} | the minimum web asks more at the tightest web "
+                     "(row min_web) | – |")
     for key in ("min_web", "edge_cover", "min_void", "bearing_clearance"):
-        lines.append(f"| {key} | {rules[key]:g} {unit} | {rules['sources'].get(key, '')} |")
-    if rules.get("bore_diameters"):
+        if key not in shown and not (key == "min_web" and "web_ratio" in shown):
+            lines.append(f"| {key} | {rules[key]:g} {unit} | {rules['sources'].get(key, '')} | no void to measure "
+                         "| – |")
+    if rules.get("bore_diameters") and "bore_diameters" not in shown:
         sizes = ", ".join(f"{d:g}" for d in rules["bore_diameters"])
-        lines.append(f"| bore_diameters | {sizes} {unit} | {rules['sources'].get('bore_diameters', '')} |")
+        lines.append(f"| bore_diameters | {sizes} {unit} | {rules['sources'].get('bore_diameters', '')} | no bore | – |")
     lines += ["", "### Proof of the rules on the final geometry", ""]
     if rules["violations"]:
         lines.append(f"**{len(rules['violations'])} rule violations remain** — the layout is not ready to make:")
@@ -197,3 +225,12 @@ def report_markdown(summary: dict, *, result_svg: str, convergence_svg: str, sch
         lines += ["", "## Notes on the fitting", ""] + [f"- {n}" for n in s["notes"]]
     lines += ["", "---", "", CAUTION, ""]
     return "\n".join(lines)
+
+
+def _derived_source(key: str, rules: dict) -> str:
+    """Where a rule without a source line of its own comes from."""
+    if key == "web_ratio":
+        return rules["sources"].get("web_ratio") or "the profile's web ratio (with the minimum web)"
+    if key == "keep":
+        return "the drawing's KEEP zones"
+    return ""

@@ -440,6 +440,114 @@ def check_layout(panel: Panel, voids: Sequence[Void], rules: Rules) -> list[Viol
     return out
 
 
+@dataclass(frozen=True)
+class Margin:
+    """How closely a layout keeps one rule: the tightest place (``measured`` against ``required``, mm; for
+    ``corner`` and the stock sizes a count of voids kept), the voids there, and ``margin`` = measured - required
+    (None where the rule is kept by construction or counted)."""
+
+    rule: str
+    required: float | None
+    measured: float | None
+    void_ids: tuple[str, ...]
+    text: str
+
+    @property
+    def margin(self) -> float | None:
+        if self.required is None or self.measured is None:
+            return None
+        return self.measured - self.required
+
+
+def rule_margins(panel: Panel, voids: Sequence[Void], rules: Rules) -> list[Margin]:
+    """Every rule in force, with the place where the layout comes closest to breaking it, measured as
+    ``check_layout`` measures (the same bodies, gaps and webs): edge cover, depth band, webs (the minimum web or
+    the web ratio, between voids and to openings), bearing clearance, keep zones, least void size, least side of
+    an n-gon, corner easing, stock sizes. A rule with nothing to measure (no second void, no opening) says so."""
+    _validate_rules(rules)
+    voids = tuple(voids)
+    out: list[Margin] = []
+    if not voids:
+        return out
+    ratio, _, band = _extras(rules)
+    b = _bodies(voids)
+    W, H = panel.width_mm, panel.height_mm
+    bounds = shapely.bounds(b.cores)
+    lo, hi = bounds[:, :2] - b.radii[:, None], bounds[:, 2:] + b.radii[:, None]
+    gaps = np.column_stack([lo[:, 0], W - hi[:, 0], lo[:, 1], H - hi[:, 1]])
+    i = int(np.argmin(gaps.min(axis=1)))
+    out.append(Margin("edge_cover", rules.edge_cover_mm, float(gaps[i].min()), (voids[i].id,),
+                      f"{voids[i].id} is {gaps[i].min():.1f} mm from the {_SIDES[int(np.argmin(gaps[i]))]} edge"))
+    if band is not None:
+        axis = _depth_axis(panel)
+        depth = (W, H)[axis]
+        across = [2, 3] if axis == 1 else [0, 1]
+        left = gaps[:, across].min(axis=1)
+        i = int(np.argmin(left))
+        out.append(Margin("depth_band", (1.0 - band) / 2.0 * depth, float(left[i]), (voids[i].id,),
+                          f"{voids[i].id} leaves {left[i]:.1f} mm of the {depth:g} mm depth (middle {band:.0%})"))
+    # webs: between voids, and to openings; the required web of each pair follows the web ratio where it is in force
+    webs: list[tuple[float, float, tuple[str, ...], str]] = []
+    if len(voids) > 1:
+        ii, jj = np.triu_indices(len(voids), k=1)
+        signed = shapely.distance(b.cores[ii], b.cores[jj]) - b.radii[ii] - b.radii[jj]
+        required = np.maximum(rules.min_web_mm, ratio * np.maximum(b.extent[ii], b.extent[jj]))
+        k = int(np.argmin(signed - required))
+        webs.append((float(signed[k]), float(required[k]), (voids[ii[k]].id, voids[jj[k]].id),
+                     f"between {voids[ii[k]].id} and {voids[jj[k]].id}"))
+    if panel.openings:
+        shapes = _objects([o.shape for o in panel.openings])
+        o_extent = 2.0 * shapely.minimum_bounding_radius(shapes)
+        signed = shapely.distance(b.cores[:, None], shapes[None, :]) - b.radii[:, None]
+        required = np.maximum(rules.min_web_mm, ratio * np.maximum(b.extent[:, None], o_extent[None, :]))
+        i, k = np.unravel_index(int(np.argmin(signed - required)), signed.shape)
+        webs.append((float(signed[i, k]), float(required[i, k]), (voids[i].id,),
+                     f"between {voids[i].id} and the {_region_name(panel.openings[k], 'opening')}"))
+    name = "web_ratio" if ratio > 0 else "min_web"
+    if webs:
+        measured, required, ids, where = min(webs, key=lambda w: w[0] - w[1])
+        rule = "min_web" if required <= rules.min_web_mm + 1e-9 else name
+        out.append(Margin(rule, required, measured, ids, f"the web {where} is {measured:.1f} mm"))
+    else:
+        out.append(Margin(name, None, None, (), "one void and no opening: no web to measure"))
+    zones = bearing_anchors(panel)
+    if zones and rules.bearing_clearance_mm > 0:
+        geoms = _objects([g for g, _ in zones])
+        signed = shapely.distance(b.cores[:, None], geoms[None, :]) - b.radii[:, None]
+        i, k = np.unravel_index(int(np.argmin(signed)), signed.shape)
+        out.append(Margin("bearing_clearance", rules.bearing_clearance_mm, float(signed[i, k]), (voids[i].id,),
+                          f"{voids[i].id} is {signed[i, k]:.1f} mm from the {zones[k][1]}"))
+    if panel.keep:
+        shapes = _objects([z.shape for z in panel.keep])
+        signed = shapely.distance(b.cores[:, None], shapes[None, :]) - b.radii[:, None]
+        i, k = np.unravel_index(int(np.argmin(signed)), signed.shape)
+        out.append(Margin("keep", 0.0, float(signed[i, k]), (voids[i].id,),
+                          f"{voids[i].id} is {signed[i, k]:.1f} mm from the {_region_name(panel.keep[k], 'keep zone')}"))
+    least = least_void_size(rules, panel.thickness_mm)
+    i = int(np.argmin(b.size))
+    out.append(Margin("min_void", least, float(b.size[i]), (voids[i].id,),
+                      f"{voids[i].id} is {b.size[i]:.1f} mm across at its narrowest"))
+    polygons = [(v, np.asarray(v.corners, dtype=float)) for v in voids if v.family == "polygon" and v.corners]
+    if polygons and rules.least_feature_mm > 0:
+        sides = [(float(np.min(np.linalg.norm(np.roll(c, -1, axis=0) - c, axis=1))), v) for v, c in polygons]
+        side, v = min(sides, key=lambda t: t[0])
+        out.append(Margin("least_feature", rules.least_feature_mm, side, (v.id,),
+                          f"the shortest side, of {v.id}, is {side:.1f} mm between sharp corners"))
+    if polygons and rules.corner != "none" and rules.corner_size_mm > 0:
+        out.append(Margin("corner", None, None, tuple(v.id for v, _ in polygons),
+                          f"every corner of the {len(polygons)} n-gon(s) drawn with a {rules.corner} of "
+                          f"{rules.corner_size_mm:g} mm (kept by construction: the outline carries it)"))
+    for family, stock, key in (("bore", rules.bore_diameters_mm, "bore_diameters"),
+                               ("slot", rules.slot_widths_mm, "slot_widths")):
+        mine = [k for k, v in enumerate(voids) if v.family == family]
+        if mine and stock:
+            sizes = np.asarray(stock, dtype=float)
+            ok = sum(1 for k in mine if np.min(np.abs(sizes - b.size[k])) <= TOLERANCE_MM)
+            out.append(Margin(key, None, None, tuple(voids[k].id for k in mine),
+                              f"{ok} of {len(mine)} {family}s at a stock size"))
+    return out
+
+
 def bearing_anchors(panel: Panel) -> list[tuple[object, str]]:
     """Each support (point or segment) and point load as a geometry with a name for messages."""
     out: list[tuple[object, str]] = []
