@@ -206,3 +206,32 @@ def test_checking_a_result_drawing_writes_beside_it_not_into_a_doubled_folder(tm
     assert done.exit_code in (0, 1), done.output
     assert not (result.parent / f"{src.stem}-lacuna-lacuna").exists()
     assert (result.parent / f"{src.stem}-lacuna-check.json").exists()
+
+
+def test_a_schedule_in_metres_keeps_its_unit_and_its_digits(tmp_path):
+    # A beam of our own drawn and described in metres: every length of the schedule in metres to a thousandth of
+    # a millimetre (six decimals), areas without an exponent, and the tool words' lengths in metres too.
+    import csv
+    import io
+    import re
+
+    doc = ezdxf.new("R2013")
+    doc.header["$INSUNITS"] = 6
+    doc.modelspace().add_lwpolyline([(0, 0), (4.8, 0), (4.8, 0.6), (0, 0.6)], close=True,
+                                    dxfattribs={"layer": "PANEL"})
+    doc.saveas(tmp_path / "beam.dxf")
+    (tmp_path / "beam.toml").write_text(
+        'units = "m"\n[panel]\nthickness = 0.09\nelement_size = 0.04\n[material]\nE_MPa = 11500\nnu = 0.3\n'
+        'density_kg_m3 = 450\n[[support]]\nfrom = [0, 0]\nto = [0.1, 0]\n[[support]]\nfrom = [4.7, 0]\n'
+        'to = [4.8, 0]\nfix = "y"\n[[load]]\nfrom = [0, 0.6]\nto = [4.8, 0.6]\nwy_kN_m = -8\n[optimize]\n'
+        'volume_fraction = 0.6\n[voids]\nfamily = "polygon"\nsides = 6\n[rules]\nprofile = "timber-bored"\n')
+    result = CliRunner().invoke(main, ["optimize", str(tmp_path / "beam.dxf"), "--job", str(tmp_path / "beam.toml"),
+                                       "--out", str(tmp_path / "out")])
+    assert result.exit_code == 0, result.output
+    rows = list(csv.DictReader(io.StringIO((tmp_path / "out" / "beam-schedule.csv").read_text())))
+    assert rows
+    for row in rows:
+        for key in ("centre_x_m", "centre_y_m", "size_m"):
+            assert re.fullmatch(r"\d+\.\d{6}", row[key]), (key, row[key])
+        assert "e" not in row["area_m2"] and float(row["area_m2"]) > 0.001   # a void of some 0.01-0.1 m2
+        assert " mm" not in row["tool"] and re.search(r"\d m\b", row["tool"]), row["tool"]

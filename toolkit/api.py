@@ -193,6 +193,25 @@ def analyze_file(dxf_path, job_path=None, *, out_dir=None, force: bool = False) 
     return _finish(summary, files, f"{stem}-analysis.json", out, inputs, force)
 
 
+def _tool_in_unit(tool: str, frame) -> str:
+    """The schedule's tool words with their lengths (written in mm by the voids stage) in the drawing's unit, so a
+    schedule in metres says "0.282 m overall", like its columns."""
+    if frame.unit == "mm":
+        return tool
+    import re
+
+    def convert(match) -> str:
+        value = frame.length_to_drawing(float(match.group(1)))
+        return f"{value:.4g} {frame.unit}"
+
+    return re.sub(r"(\d+(?:\.\d+)?) mm\b", convert, tool)
+
+
+# Decimals of a length in the schedule, by unit: a thousandth of a millimetre whatever the unit (the corner
+# coordinates are set out from these figures).
+_DECIMALS = {"mm": 3, "cm": 4, "m": 6, "in": 5, "ft": 6}
+
+
 def _void_json(panel: Panel, void) -> dict:
     """One schedule line: what a shop needs to make the void, in the drawing's frame and unit. An n-gon carries
     its corners (the sharp ones, before easing) and whether it is regular; a slot the centres of its two end
@@ -207,7 +226,7 @@ def _void_json(panel: Panel, void) -> dict:
         "length": f.length_to_drawing(void.length_mm),
         "angle_deg": (void.angle_deg + f.angle_deg) % (360.0 / void.sides if void.regular else 360.0),
         "area": void.area_mm2 / f.mm_per_unit**2,
-        "tool": void.tool,
+        "tool": _tool_in_unit(void.tool, f),
     }
     if void.family == "polygon":
         out["regular"] = bool(void.regular)
@@ -344,23 +363,34 @@ def schedule_csv(run: OptimizeRun) -> str:
     w.writerow(["id", "family", f"centre_x_{unit}", f"centre_y_{unit}", "sides", f"size_{unit}",
                 f"length_{unit}", "angle_deg", f"area_{unit}2", "tool", "regular", f"points_{unit}",
                 "peak_stress_MPa", "nominal_stress_MPa", "kt", f"least_web_{unit}", "web_stress_MPa", "edge_note"])
+    d = _DECIMALS.get(unit, 6)
     for v in _voids_json(run):
         # The points a shop sets out from: an n-gon's corners, a slot's two arc centres; a bore needs its centre.
         points = v.get("corners") or v.get("ends") or []
-        w.writerow([v["id"], v["family"], f"{v['centre'][0]:.3f}", f"{v['centre'][1]:.3f}", v["sides"],
-                    f"{v['size']:.3f}", f"{v['length']:.3f}", f"{v['angle_deg']:.2f}", f"{v['area']:.2f}",
+        w.writerow([v["id"], v["family"], f"{v['centre'][0]:.{d}f}", f"{v['centre'][1]:.{d}f}", v["sides"],
+                    f"{v['size']:.{d}f}", f"{v['length']:.{d}f}", f"{v['angle_deg']:.2f}", _area_text(v["area"]),
                     v["tool"], {True: "yes", False: "no"}.get(v.get("regular"), ""),
-                    "; ".join(f"{x:.3f} {y:.3f}" for x, y in points), *_edge_cells(v)])
+                    "; ".join(f"{x:.{d}f} {y:.{d}f}" for x, y in points), *_edge_cells(v, d)])
     return buf.getvalue()
 
 
-def _edge_cells(v: dict) -> list[str]:
-    """The schedule's edge-stress columns: peak, nominal, Kt, the narrowest web and its average stress, the note
-    (empty cells where the local model gave no figure; the note says why)."""
+def _area_text(area: float) -> str:
+    """An area to six significant figures, never with an exponent (0.0497123 m2, 49712.3 mm2)."""
+    if area == 0:
+        return "0"
+    digits = max(0, 5 - int(np.floor(np.log10(abs(area)))))
+    text = f"{area:.{digits}f}"
+    return text.rstrip("0").rstrip(".") if "." in text else text
+
+
+def _edge_cells(v: dict, decimals: int = 3) -> list[str]:
+    """The schedule's edge-stress columns: peak, nominal, Kt, the narrowest web (a length in the drawing's unit,
+    to ``decimals``) and its average stress, the note (empty cells where the local model gave no figure; the note
+    says why)."""
     fmt = lambda x, d="{:.3g}": "" if x is None else d.format(x)  # noqa: E731
     web = min(v.get("webs") or [], key=lambda w: w["width"], default=None)
     return [fmt(v.get("peak_stress_MPa")), fmt(v.get("nominal_stress_MPa")), fmt(v.get("kt")),
-            fmt(web and web["width"], "{:.1f}"), fmt(web and web["mean_stress_MPa"]),
+            fmt(web and web["width"], "{:.%df}" % decimals), fmt(web and web["mean_stress_MPa"]),
             " ".join(filter(None, [v.get("edge_note", ""), web["note"] if web else ""]))]
 
 
