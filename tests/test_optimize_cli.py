@@ -235,3 +235,14 @@ def test_a_schedule_in_metres_keeps_its_unit_and_its_digits(tmp_path):
             assert re.fullmatch(r"\d+\.\d{6}", row[key]), (key, row[key])
         assert "e" not in row["area_m2"] and float(row["area_m2"]) > 0.001   # a void of some 0.01-0.1 m2
         assert " mm" not in row["tool"] and re.search(r"\d m\b", row["tool"]), row["tool"]
+
+
+def test_a_sheet_in_metres_states_its_lengths_in_metres(tmp_path):
+    # The same beam in metres: the sheet's subtitle, scale bar and title block all in metres.
+    import re
+
+    test_a_schedule_in_metres_keeps_its_unit_and_its_digits(tmp_path)
+    svg = (tmp_path / "out" / "beam-result.svg").read_text()
+    assert "lengths in m;" in svg
+    assert re.search(r'data-length="[\d.]+ m"', svg)
+    assert "thickness 0.09 m" in svg and "4.8 \u00d7 0.6 m" in svg

@@ -719,7 +719,15 @@ def _material_lines(panel: Panel) -> list[str]:
 
 
 def _section_lines(panel: Panel) -> list[str]:
-    return [f"thickness {panel.thickness_mm:g} mm", f"{panel.width_mm:g} \u00d7 {panel.height_mm:g} mm"]
+    """Thickness and size in the drawing's unit, like the sheet's other lengths (round-off dropped: 4.8, not
+    4.800000000000001)."""
+    f = panel.frame
+    u = f.unit
+
+    def n(mm: float) -> str:
+        return f"{round(f.length_to_drawing(mm), 9):g}"
+
+    return [f"thickness {n(panel.thickness_mm)} {u}", f"{n(panel.width_mm)} \u00d7 {n(panel.height_mm)} {u}"]
 
 
 def _date_text(date) -> str:
@@ -776,7 +784,7 @@ def analysis_svg(
     fig = Figure(panel)
     solid = panel.solid
     _draw_heading(fig, title or f"{panel.name}: stress and deflection, load case {case}",
-                  f"Scale 1:{fig.scale} on a {SHEET_WIDTH_MM:g} mm wide sheet; lengths in mm.")
+                  f"Scale 1:{fig.scale} on a {SHEET_WIDTH_MM:g} mm wide sheet; lengths in {panel.frame.unit}.")
     _draw_stress(fig, grid, drawn, dominant, vmax, solid)
     _draw_directions(fig, grid, fractions, stress, vmax)
     _draw_outlines(fig, panel)
@@ -1088,7 +1096,7 @@ def result_svg(
     what = {"density": "under them the optimised layout", "stress": "under them the stress with the voids cut",
             "none": "over the panel as drawn"}[underlay]
     _draw_heading(fig, title or f"{panel.name}: voids to make",
-                  f"Scale 1:{fig.scale}; lengths in mm; voids to make {what}.")
+                  f"Scale 1:{fig.scale}; lengths in {panel.frame.unit}; voids to make {what}.")
     if underlay == "density":
         _draw_cells(fig, "density", grid, density_classes(state), state >= SHOWN, density_colours(), solid)
     elif underlay == "stress":
