@@ -97,8 +97,9 @@ def run_tasks(client, function, tasks: list[dict], on_done=None) -> list[dict]:
         try:
             row = future.result()
         except Exception as error:  # the worker died or the cluster went away: that panel failed, not the batch
-            row = {**_task_keys(tasks[i]), "status": FAILED,
-                   "message": _paragraph(f"the Dask worker running it was lost ({type(error).__name__}: {error}).")}
+            lost = (f"the job did not come back from its Dask worker ({type(error).__name__}: {error}); the worker "
+                    "may have run out of memory or been stopped.")
+            row = {**_task_keys(tasks[i]), "status": FAILED, "message": _paragraph(lost)}
         rows[i] = row
         if on_done is not None:
             on_done(i, row, done, len(tasks))
@@ -346,7 +347,8 @@ def batch_summary(rows: list[dict]) -> dict:
 
 CSV_COLUMNS = ("panel", "name", "drawing", "job", "status", "exit_code", "mass_removed_percent", "mass_removed_kg",
                "stiffness_loss_percent", "capture_percent", "compliance_solid_Nmm", "compliance_rationalized_Nmm",
-               "max_deflection_rationalized_mm", "voids", "profile", "violations", "rules", "message", "folder", "seconds")
+               "max_deflection_rationalized_mm", "voids", "profile", "violations", "rules", "message", "folder",
+               "seconds")
 
 
 def _cell(value, digits: int = 4) -> str:
