@@ -154,20 +154,40 @@ def test_batch_that_cannot_start_exits_2_and_writes_nothing(tmp_path):
 
 
 @pytest.fixture(scope="module")
-def sweep_run(tmp_path_factory):
+def cluster():
+    """An existing cluster, as `--scheduler ADDRESS` names one: two workers of one thread."""
     from distributed import LocalCluster
 
+    with LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None) as running:
+        yield running
+
+
+@pytest.fixture(scope="module")
+def sweep_run(tmp_path_factory, cluster):
     from toolkit.sweep import sweep_file
 
     tmp = tmp_path_factory.mktemp("sweep")
     shutil.copy(demo_files()[0], tmp / "lintel.dxf")
     (tmp / "lintel.toml").write_text(_coarse_job(0.55))
     seen = []
-    # An existing cluster, as `--scheduler ADDRESS` names one: two workers of one thread.
-    with LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None) as cluster:
-        result = sweep_file(tmp / "lintel.dxf", tmp / "lintel.toml", volumes="0.45:0.75:3", out_dir=tmp / "out",
-                            scheduler=cluster.scheduler_address, on_done=lambda row, d, t: seen.append((d, t)))
+    result = sweep_file(tmp / "lintel.dxf", tmp / "lintel.toml", volumes="0.45:0.75:3", out_dir=tmp / "out",
+                        scheduler=cluster.scheduler_address, on_done=lambda row, d, t: seen.append((d, t)))
     return tmp, result, seen
+
+
+def test_a_job_that_does_not_come_back_is_a_failed_row_and_the_others_finish(cluster, tmp_path):
+    from distributed import Client
+
+    from toolkit.batch import FAILED, REFUSED, optimize_task, run_tasks
+
+    tasks = [{"drawing": str(tmp_path / "none.dxf"), "job": None, "out_dir": str(tmp_path / "a")},
+             # a keyword the task does not take: it raises in the worker before its own error handling
+             {"drawing": str(tmp_path / "none.dxf"), "job": None, "out_dir": str(tmp_path / "b"), "bogus": 1}]
+    with Client(cluster.scheduler_address) as client:
+        rows = run_tasks(client, optimize_task, tasks)
+    assert rows[0]["status"] == REFUSED and "none.dxf" in rows[0]["message"]
+    assert rows[1]["status"] == FAILED and "bogus" in rows[1]["message"]
+    assert rows[1]["folder"] == str(tmp_path / "b")
 
 
 def _below_chord(points, k) -> float:
