@@ -455,3 +455,40 @@ def test_masses_on_the_sheet_are_written_without_an_exponent():
     assert _kilograms(20.63) == "20.6 kg"
     assert _kilograms(0.534) == "0.534 kg"
     assert all("e" not in _kilograms(m).split()[0] for m in (1e-3, 0.5, 7.0, 99.96, 1234.5, 2.5e5))
+
+
+def test_void_ids_never_overlap_each_other_other_voids_or_a_point_load():
+    # A crowded cantilever of our own: 56 bores three rows deep, 95 mm apart, a 50 kN load at the free end. Every
+    # id's lettering box (estimated from the font's proportions) is clear of every other id, of every void but its
+    # own, of the 12 mm square round the load's point, and inside the panel.
+    from shapely.geometry import Point as P
+
+    from toolkit.model import Material, Panel, PointLoad, Support, Void
+    from toolkit.svg_out import LABEL_SIZE, Figure, _label_spots, label_box
+
+    panel = Panel(width_mm=3000, height_mm=800, thickness_mm=20, element_size_mm=25,
+                  material=Material(E_MPa=210000, nu=0.3), supports=(Support(((0, 0), (0, 800)), "xy"),),
+                  loads=(PointLoad((3000, 400), (0, -50000)),), name="crowded cantilever")
+    rng = np.random.default_rng(2)
+    voids = []
+    for x in np.arange(150, 2900, 95):
+        for y in (200, 400, 600):
+            if rng.random() < 0.35:
+                continue
+            d = float(rng.choice([25, 32, 51, 64]))
+            c = (float(x + rng.uniform(-10, 10)), float(y + rng.uniform(-40, 40)))
+            voids.append(Void(id=f"V{len(voids) + 1}", family="bore", centre=c, size_mm=d,
+                              shape=P(c).buffer(d / 2, quad_segs=16)))
+    fig = Figure(panel)
+    spots = _label_spots(fig, voids, LABEL_SIZE)
+    boxes = [label_box(fig, v.id, at, LABEL_SIZE) for v, (at, _) in zip(voids, spots)]
+    load_zone = P(3000, 400).buffer(fig.paper(12.0), cap_style="square")
+    for i, box in enumerate(boxes):
+        assert not any(box.intersects(boxes[j]) for j in range(len(boxes)) if j != i), voids[i].id
+        assert not any(box.intersects(v.shape) for j, v in enumerate(voids) if j != i), voids[i].id
+        assert not box.intersects(load_zone), voids[i].id
+        assert box.within(panel.solid), voids[i].id
+    # Ids that stand away from their void point at it: the leader starts on the void's outline.
+    for v, (_, leader) in zip(voids, spots):
+        if leader is not None:
+            assert v.shape.boundary.distance(P(leader[0])) < 1e-6

@@ -901,6 +901,91 @@ def _as_marker(item, k: int):
     return dxf_out._marker(item, k)
 
 
+# Void ids on the sheet: lettering of this size (paper mm).
+LABEL_SIZE = 2.3
+_EM = 0.72
+
+
+def label_box(fig: Figure, text: str, at, size: float):
+    """The box (local mm) a line of lettering of ``size`` paper mm started at ``at`` (its baseline) covers: a
+    bold capital or digit of DejaVu Sans is about 0.7 em wide (``_EM``), capitals stand 0.73 em, descenders
+    0.24 em."""
+    s = fig.scale
+    return shapely.box(at[0], at[1] - 0.24 * size * s, at[0] + _EM * size * s * len(text), at[1] + 0.75 * size * s)
+
+
+def _label_spots(fig: Figure, voids: Sequence[Void], size: float):
+    """Where each void's id goes so that no two ids, no id and another void, and no id and the loads or
+    supports overlap: inside the void when it fits with room to spare, else just outside it in the first of
+    eight directions (up-right first) that is clear, further out with a leader line when none is. Returns
+    [(baseline start (local mm), leader segment or None)] in ``voids`` order."""
+    p = fig.paper
+    panel = fig.panel
+    gap = p(0.6)
+    shapes = [v.shape for v in voids]
+    taken: list = []
+    # The loads and supports are drawn on the panel's edges and outside it: ids stay inside the panel, clear of
+    # the edge band where arrows and bearing marks stand.
+    inner = shapely.box(0.0, 0.0, panel.width_mm, panel.height_mm).buffer(-p(1.0), join_style="mitre")
+    # A point load's arrow and its figure stand at its point: ids keep a square of 12 paper mm clear round it.
+    for load in panel.loads:
+        if isinstance(load, PointLoad):
+            inner = inner.difference(shapely.Point(load.at).buffer(p(12.0), cap_style="square"))
+    tree = shapely.STRtree(shapes) if shapes else None
+    dirs = [(math.cos(a), math.sin(a)) for a in np.radians([45, 135, 0, 180, 90, 270, 315, 225])]
+    out = []
+    for k, void in enumerate(voids):
+        w = _EM * size * fig.scale * len(void.id)
+        h = 0.99 * size * fig.scale
+        c = np.asarray(void.centre, dtype=float)
+
+        def clear(box, inside_own: bool) -> bool:
+            spaced = box.buffer(p(0.5))  # a little air between two ids
+            if not inner.covers(box) or any(spaced.intersects(t) for t in taken):
+                return False
+            near = tree.query(box.buffer(gap), predicate="intersects") if tree is not None else []
+            for j in near:
+                if j == k and inside_own:
+                    continue
+                return False
+            return True
+
+        # Inside, above the centre cross, when the void holds the box with a margin.
+        at = c + (-w / 2.0, min(p(1.5), 0.35 * void.size_mm) + p(0.5) + 0.24 * size * fig.scale)
+        box = label_box(fig, void.id, at, size)
+        if void.shape.buffer(-gap).covers(box) and clear(box, inside_own=True):
+            taken.append(box)
+            out.append((at, None))
+            continue
+        placed = None
+        reach = 0.5 * float(max(void.length_mm, void.size_mm)) + gap
+        for ring in (1.0, 2.0, 3.5, 5.0):
+            for dx, dy in dirs:
+                # the box's nearest corner (or edge middle) in the direction faces the void
+                ox = 0.0 if dx > 0.3 else (-w if dx < -0.3 else -w / 2.0)
+                oy = 0.24 * size * fig.scale if dy > 0.3 else (-0.75 * size * fig.scale if dy < -0.3 else -0.3 * h)
+                point = c + reach * ring * np.array([dx, dy])
+                at = point + (ox, oy)
+                box = label_box(fig, void.id, at, size)
+                if clear(box, inside_own=False):
+                    placed = (at, None if ring == 1.0 else (_towards(void.shape, point), point))
+                    break
+            if placed is not None:
+                break
+        if placed is None:  # nowhere clear: the first spot outside, as before
+            at = _void_label_anchor(void) + p(0.6)
+            placed = (at, None)
+        taken.append(label_box(fig, void.id, placed[0], size))
+        out.append(placed)
+    return out
+
+
+def _towards(shape, point) -> np.ndarray:
+    """The point of ``shape``'s outline nearest ``point`` (a leader's foot)."""
+    line = shapely.shortest_line(shape.boundary, shapely.Point(point))
+    return shapely.get_coordinates(line)[0]
+
+
 def _draw_result_layers(fig: Figure, voids: Sequence[Void], freeform, markers) -> None:
     """The CONTRACT.md output layers, each a group (present even when empty, so a viewer can toggle it)."""
     p = fig.paper
@@ -939,8 +1024,14 @@ def _draw_result_layers(fig: Figure, voids: Sequence[Void], freeform, markers) -
         cx, cy = void.centre
         g["lacuna-centre"].add(fig.dwg.path(
             d=f"M{_fmt(cx - half)} {_fmt(cy)}h{_fmt(2 * half)}M{_fmt(cx)} {_fmt(cy - half)}v{_fmt(2 * half)}", **tag))
-        at = _void_label_anchor(void) + p(0.6)
-        label = _cased_text(fig, g["lacuna-note"], void.id, (at[0], at[1]), 2.3, weight="bold",
+    spots = _label_spots(fig, voids, LABEL_SIZE)
+    for void, (at, leader) in zip(voids, spots):
+        if leader is not None:
+            g["lacuna-note"].add(fig.dwg.line(start=(_fmt(leader[0][0]), _fmt(leader[0][1])),
+                                              end=(_fmt(leader[1][0]), _fmt(leader[1][1])),
+                                              stroke=looks["lacuna-note"], stroke_width=_fmt(p(0.15), 4),
+                                              **{"data-void-id": void.id, "data-leader": "1"}))
+        label = _cased_text(fig, g["lacuna-note"], void.id, (at[0], at[1]), LABEL_SIZE, weight="bold",
                             fill=looks["lacuna-note"], local=True)
         label.attribs["data-void-id"] = void.id
     for m in markers:
