@@ -278,6 +278,14 @@ def test_sweep_unknown_profile_exit_2_nothing_written(tmp_path):
     assert not (tmp_path / "out").exists()
 
 
+def test_sweep_on_a_job_naming_an_unknown_profile_exit_2_nothing_written(tmp_path):
+    result = CliRunner().invoke(main, ["sweep", str(BAD / "optimize-unknown-profile.dxf"), "--job",
+                                       str(BAD / "optimize-unknown-profile.toml"), "--volume", "0.8:0.5:3",
+                                       "--out", str(tmp_path / "out")])
+    assert result.exit_code == 2 and "timber-bored" in result.output   # fixtures/bad/expected.toml
+    assert not (tmp_path / "out").exists()
+
+
 # --- the knee on curves whose knee is known ------------------------------------------------------------------
 
 

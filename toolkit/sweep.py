@@ -149,8 +149,11 @@ def sweep_file(drawing, job_path=None, *, volumes, profiles=None, out_dir=None, 
     ``volumes``: ``"START:STOP:COUNT"`` or a list of fractions in (0, 1); ``profiles``: ``"A,B"``, a list of
     names, or None for the job's own rules. A profile replaces the job's ``[rules] profile``; the job's own rule
     values stay over it. Bad input raises LacunaError before anything is written or started."""
+    import dataclasses
+
     from .inputs import load_panel
     from .outputs import plan_outputs, write_outputs
+    from .pipeline import job_rules
     from .svg_out import tradeoff_svg
 
     volume_list = parse_volumes(volumes) if isinstance(volumes, str) else _checked_volumes(volumes)
@@ -161,6 +164,8 @@ def sweep_file(drawing, job_path=None, *, volumes, profiles=None, out_dir=None, 
                           "points, each a whole job.", where="--volume", hint="Sweep fewer points.")
     drawing = Path(drawing)
     panel, job, _drawing = load_panel(drawing, job_path)  # a bad drawing or job stops here, with its paragraph
+    for p in profile_list:  # so do the job's rules under each profile (an unknown profile in the job, say)
+        job_rules(job if p is None else dataclasses.replace(job, rules=dataclasses.replace(job.rules, profile=p)))
     out = Path(out_dir) if out_dir is not None else drawing.with_name(f"{drawing.stem}-sweep")
     inputs = [drawing] + ([Path(job_path)] if job_path else [])
     stem = drawing.stem
