@@ -147,6 +147,9 @@ def test_batch_that_cannot_start_exits_2_and_writes_nothing(tmp_path):
     result = runner.invoke(main, ["batch", str(tmp_path / "p.dxf"), "--job", str(BAD / "unknown-key.toml"),
                                   "--out", str(tmp_path / "out")])
     assert result.exit_code == 2 and 'did you mean "thickness"' in result.output  # fixtures/bad/expected.toml
+    result = runner.invoke(main, ["batch", str(tmp_path / "p.dxf"), "--job", str(BAD / "optimize-unknown-profile.toml"),
+                                  "--out", str(tmp_path / "out")])
+    assert result.exit_code == 2 and "timber-bored" in result.output            # fixtures/bad/expected.toml
     assert not (tmp_path / "out").exists()
 
 

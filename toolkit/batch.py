@@ -240,7 +240,11 @@ def batch_files(drawings, job_path=None, *, out_dir=None, scheduler: str | None 
                           hint="Name one or more DXF files, e.g. lacuna batch lintels/*.dxf --job lintel.toml.")
     out = Path(out_dir) if out_dir is not None else Path("lacuna-batch")
     if job_path is not None:
-        read_job(job_path)  # a bad job for all of them stops the batch before it starts, with its own paragraph
+        # A bad job for all of them (its keys, or its rules: an unknown profile) stops the batch before it starts,
+        # with its own paragraph.
+        from .pipeline import job_rules
+
+        job_rules(read_job(job_path))
     jobs = [Path(job_path) if job_path is not None else job_beside(d) for d in drawings]
     inputs = drawings + [j for j in jobs if j is not None]
     names = [f"{SUMMARY_STEM}.csv", f"{SUMMARY_STEM}.md", f"{SUMMARY_STEM}.json"]
