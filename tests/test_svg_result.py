@@ -492,3 +492,38 @@ def test_void_ids_never_overlap_each_other_other_voids_or_a_point_load():
     for v, (_, leader) in zip(voids, spots):
         if leader is not None:
             assert v.shape.boundary.distance(P(leader[0])) < 1e-6
+
+
+def test_the_result_sheet_is_the_panel_as_made_with_ordinates_and_the_layout_a_figure_of_its_own(tmp_path):
+    # The demo through optimize: the result sheet shows the panel as it will be made (no density cells, no
+    # freeform outlines) with an ordinate from the datum to every void's centre, x and y, in the drawing's unit;
+    # the optimiser's densities and freeform voids go to the layout figure.
+    import json
+    import re
+    from pathlib import Path
+
+    from toolkit.api import demo_files, optimize_file
+
+    dxf, toml = demo_files()
+    outcome = optimize_file(dxf, toml, out_dir=tmp_path / "out")
+    stem = Path(dxf).stem
+    sheet = (tmp_path / "out" / f"{stem}-result.svg").read_text()
+    layout = (tmp_path / "out" / f"{stem}-layout.svg").read_text()
+    assert 'data-underlay="made"' in sheet and 'data-underlay="density"' in layout
+    assert 'id="density"' not in sheet and 'id="made"' in sheet
+    def freeform_paths(svg: str) -> int:
+        root = ET.fromstring(svg)
+        (group,) = [g for g in root.iter("{http://www.w3.org/2000/svg}g") if g.get("id") == "lacuna-freeform"]
+        return len(list(group))
+
+    assert freeform_paths(sheet) == 0 and freeform_paths(layout) > 0
+    ordinates = set(re.findall(r'data-ordinate="([xy]) ([-\d.]+)"', sheet))
+    voids = json.loads((tmp_path / "out" / f"{stem}-optimize.json").read_text())["voids"]
+    assert voids
+    for v in voids:
+        # The drawing's frame may differ from the panel's local frame only by a shift and turn; the demo's is
+        # the local one, so its centres are the ordinates (to the nearest mm, as written).
+        assert ("x", f"{v['centre'][0]:.0f}") in ordinates, v["id"]
+        assert ("y", f"{v['centre'][1]:.0f}") in ordinates, v["id"]
+    assert 'data-datum="1"' in sheet
+    assert f"{stem}-layout.svg" in {Path(p).name for p in outcome.summary["outputs"]}

@@ -395,8 +395,8 @@ def _edge_cells(v: dict, decimals: int = 3) -> list[str]:
 
 
 # What ``optimize_file`` writes for a drawing <stem>, besides the frames: <stem>-<suffix> each.
-OPTIMIZE_OUTPUTS = ("lacuna.dxf", "result.svg", "convergence.svg", "schedule.csv", "schedule.json", "report.md",
-                    "optimize.json")
+OPTIMIZE_OUTPUTS = ("lacuna.dxf", "result.svg", "layout.svg", "convergence.svg", "schedule.csv", "schedule.json",
+                    "report.md", "optimize.json")
 
 
 def optimize_file(dxf_path, job_path=None, *, out_dir=None, force: bool = False, frames: int = 0,
@@ -429,10 +429,18 @@ def optimize_file(dxf_path, job_path=None, *, out_dir=None, force: bool = False,
         notes=_notes(run), panel_size_mm=(panel.width_mm, panel.height_mm), dxf_version=dxf_version,
         replace=replace,
     )
+    # The sheet a shop makes from: the panel as it will be made, the voids cut, ordinates from the datum; the
+    # optimiser's layout (its densities and freeform voids under the voids to make) is a figure of its own.
     files[f"{stem}-result.svg"] = result_svg(
-        panel, grid, densities=run.beso.densities, freeform=run.freeform, voids=run.voids,
+        panel, grid, voids=run.voids, underlay="made",
         profile=run.rules.profile, volume_removed_percent=run.mass_removed_percent,
         mass_removed_kg=run.mass_removed_kg, date=date, violations=run.rationalised.violations,
+    )
+    files[f"{stem}-layout.svg"] = result_svg(
+        panel, grid, densities=run.beso.densities, freeform=run.freeform, voids=run.voids,
+        title=f"{panel.name}: the optimiser's layout", profile=run.rules.profile,
+        volume_removed_percent=run.mass_removed_percent, mass_removed_kg=run.mass_removed_kg, date=date,
+        violations=run.rationalised.violations,
     )
     files[f"{stem}-convergence.svg"] = convergence_svg(
         run.beso.compliance_Nmm, run.beso.volume_fraction, target=run.settings.volume_fraction, title=panel.name,
@@ -442,6 +450,7 @@ def optimize_file(dxf_path, job_path=None, *, out_dir=None, force: bool = False,
                                                 indent=2) + "\n"
     files[f"{stem}-report.md"] = report_markdown(
         summary, result_svg=f"{stem}-result.svg", convergence_svg=f"{stem}-convergence.svg",
+        layout_svg=f"{stem}-layout.svg",
         schedule_csv=f"{stem}-schedule.csv", date=date,
     )
     for iteration, densities in run.beso.snapshots if frames else ():

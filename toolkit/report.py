@@ -106,8 +106,8 @@ def _edge_section(s: dict) -> list[str]:
     return out
 
 
-def report_markdown(summary: dict, *, result_svg: str, convergence_svg: str, schedule_csv: str,
-                    date: str) -> str:
+def report_markdown(summary: dict, *, result_svg: str, convergence_svg: str, schedule_csv: str, date: str,
+                    layout_svg: str | None = None) -> str:
     """The report for ``lacuna optimize``'s JSON ``summary``; figure and schedule names are relative links."""
     s = summary
     sol = s["solid"]
@@ -150,8 +150,9 @@ def report_markdown(summary: dict, *, result_svg: str, convergence_svg: str, sch
         "",
         *_limit_and_shape(s),
         *_travel_lines(s),
-        f"![Voids to make]({result_svg})",
+        f"![Voids to make: the panel as it will be made, ordinates from the datum]({result_svg})",
         "",
+        *([f"![The optimiser's layout under the voids to make]({layout_svg})", ""] if layout_svg else []),
         f"![Convergence]({convergence_svg})",
         "",
         "## Voids",

@@ -1104,6 +1104,67 @@ def _draw_density_bar(fig: Figure, g, x0: float, top: float) -> None:
 _RESULT_LEGEND = 44.0
 
 
+# Paper room (mm) under the panel for the x ordinates, below the support symbols.
+_ORDINATE_BAND = 16.0
+_ORDINATE_SIZE = 2.0
+
+
+def _spread(values: np.ndarray, pitch: float) -> np.ndarray:
+    """Positions for labels at ``values`` (sorted) at least ``pitch`` apart: each at its value unless the one
+    before it pushes it on (a leader then joins it to its value)."""
+    out = values.astype(float).copy()
+    for k in range(1, len(out)):
+        out[k] = max(out[k], out[k - 1] + pitch)
+    return out
+
+
+def _draw_ordinates(fig: Figure, voids: Sequence[Void]) -> None:
+    """Ordinate dimensions of every void's centre from the datum (the panel's lower-left corner, local 0, 0):
+    x values along a line under the panel, y values up a line left of it, each with a tick at the true position
+    and a jogged leader to its lettering where neighbours crowd it. Values in the drawing's unit; a centre shared
+    by several voids is written once."""
+    if not voids:
+        return
+    p = fig.paper
+    f = fig.panel.frame
+    g = fig.layer("ordinates", stroke=INK, stroke_width=_fmt(p(0.15), 4), fill="none")
+    decimals = {"mm": 0, "cm": 1, "m": 3, "in": 2, "ft": 3}.get(f.unit, 3)
+
+    def text(v: float) -> str:
+        return f"{f.length_to_drawing(v):.{decimals}f}"
+
+    pitch = p(_ORDINATE_SIZE * 1.25)
+    # x ordinates: a datum line below the support symbols, values written upright-turned (reading up).
+    base = -p(_ROOM_BELOW - 2.0)
+    xs = np.unique(np.round([v.centre[0] for v in voids], 6))
+    xs = np.concatenate([[0.0], xs])
+    where = _spread(xs, pitch)
+    g.add(fig.dwg.line(start=(_fmt(0), _fmt(base)), end=(_fmt(fig.panel.width_mm), _fmt(base))))
+    for x, at in zip(xs, where):
+        g.add(fig.dwg.path(d=f"M{_fmt(x)} {_fmt(base)}v{_fmt(-p(1.2))}L{_fmt(at)} {_fmt(base - p(3.0))}"
+                           f"v{_fmt(-p(0.6))}", **{"data-ordinate": f"x {text(x)}"}))
+        label = "0" if x == 0.0 else text(x)
+        s = fig.scale
+        g.add(_lettering(fig.dwg, label, (0, 0), _ORDINATE_SIZE, anchor="end", fill=INK,
+                         transform=f"matrix(0 {_fmt(s, 6)} {_fmt(s, 6)} 0 {_fmt(at + 0.35 * p(_ORDINATE_SIZE))} "
+                                   f"{_fmt(base - p(4.0))})"))
+    # y ordinates: a datum line left of the panel, beyond the support symbols, values written level.
+    side = -p(_ROOM - 6.0)
+    ys = np.unique(np.round([v.centre[1] for v in voids], 6))
+    ys = np.concatenate([[0.0], ys])
+    where = _spread(ys, pitch)
+    g.add(fig.dwg.line(start=(_fmt(side), _fmt(0)), end=(_fmt(side), _fmt(fig.panel.height_mm))))
+    for y, at in zip(ys, where):
+        g.add(fig.dwg.path(d=f"M{_fmt(side)} {_fmt(y)}h{_fmt(-p(1.2))}L{_fmt(side - p(3.0))} {_fmt(at)}"
+                           f"h{_fmt(-p(0.6))}", **{"data-ordinate": f"y {text(y)}"}))
+        fig.text(g, "0" if y == 0.0 else text(y), (side - p(4.2), at - 0.35 * p(_ORDINATE_SIZE)), _ORDINATE_SIZE,
+                 anchor="end", local=True)
+    # The datum: a circle with a cross at the corner.
+    r = p(1.2)
+    g.add(fig.dwg.circle(center=(0, 0), r=_fmt(r), **{"data-datum": "1"}))
+    g.add(fig.dwg.path(d=f"M{_fmt(-r)} 0h{_fmt(2 * r)}M0 {_fmt(-r)}v{_fmt(2 * r)}"))
+
+
 def _draw_result_legend(fig: Figure, underlay: str, stress_range) -> None:
     g = fig.sheet_group("legend")
     x0, top = _MARGIN, fig.legend_top
@@ -1111,13 +1172,25 @@ def _draw_result_legend(fig: Figure, underlay: str, stress_range) -> None:
         _draw_density_bar(fig, g, x0, top)
     elif underlay == "stress":
         _draw_stress_bar(fig, g, x0, top, *stress_range)
+    elif underlay == "made":
+        fig.text(g, "The panel as it will be made: material grey, voids cut through.", (x0, top + 2.5), 2.8,
+                 weight="bold")
+        for k, line in enumerate((
+                f"Ordinates: each void's centre from the datum at the panel's lower-left corner, in "
+                f"{fig.panel.frame.unit}; x along the",
+                "bottom, y up the left side. Sizes and corner coordinates: the void schedule (CSV).",
+                "The optimiser's layout and its freeform voids: the layout figure.")):
+            fig.text(g, line, (x0, top + 8.0 + 4.2 * k), 2.4)
     else:
         fig.text(g, "No underlay: the voids over the panel as drawn.", (x0, top + 2.5), 2.8, weight="bold")
     _draw_scale_bar(fig, x0, top + 29.0)
     _draw_key(fig, g, x0 + 132.0, top, _layer_key_rows(), pitch=4.3)
 
 
-_UNDERLAYS = ("density", "stress", "none")
+_UNDERLAYS = ("made", "density", "stress", "none")
+# The panel's material on the sheet a shop makes from: a light grey, so the cut voids (paper white) and every line
+# over it read clearly.
+MADE_FILL = "#d6d6d0"
 _FAMILY_WORDS = {"polygon": ("n-gon", "n-gons"), "slot": ("slot", "slots"), "bore": ("bore", "bores")}
 
 
@@ -1183,12 +1256,19 @@ def result_svg(
         vmax = stress_limit(shown)
         stress_range = (vmax, float(shown.max()) if shown.size else 0.0, float(shown.min()) if shown.size else 0.0)
 
-    fig = Figure(panel, legend_height=_RESULT_LEGEND)
+    fig = Figure(panel, legend_height=_RESULT_LEGEND,
+                 room_below=_ROOM_BELOW + (_ORDINATE_BAND if underlay == "made" else 0.0))
     what = {"density": "under them the optimised layout", "stress": "under them the stress with the voids cut",
-            "none": "over the panel as drawn"}[underlay]
+            "none": "over the panel as drawn",
+            "made": "cut from the panel as it will be made"}[underlay]
     _draw_heading(fig, title or f"{panel.name}: voids to make",
                   f"Scale 1:{fig.scale}; lengths in {panel.frame.unit}; voids to make {what}.")
-    if underlay == "density":
+    if underlay == "made":
+        made = shapely.difference(solid, shapely.union_all([v.shape for v in voids])) if voids else solid
+        g = fig.layer("made", fill=MADE_FILL, stroke="none")
+        for poly in _polygons(made):
+            g.add(fig.dwg.path(d=_area_path(poly), fill_rule="evenodd"))
+    elif underlay == "density":
         _draw_cells(fig, "density", grid, density_classes(state), state >= SHOWN, density_colours(), solid)
     elif underlay == "stress":
         _draw_stress(fig, grid, drawn, dominant, stress_range[0], solid)
@@ -1198,6 +1278,8 @@ def result_svg(
     _draw_supports(fig, panel)
     for case in panel.cases:
         _draw_loads(fig, panel, case)
+    if underlay == "made":
+        _draw_ordinates(fig, voids)
     _draw_result_legend(fig, underlay, stress_range)
     removed = "volume removed: not stated"
     if volume_removed_percent is not None:
