@@ -380,3 +380,23 @@ def test_no_deflection_draws_no_deflected_shape(beam):
     text = svg_out.analysis_svg(panel, grid, fractions, np.zeros_like(displacement), stress, date="d")
     assert len(list(groups(text)["deflected"])) == 0
     assert "no deflection to draw" in all_text(groups(text)["legend"])
+
+
+def test_no_convergence_line_runs_along_the_frame():
+    # A volume fraction starting at 1.0 and a compliance at its largest at the end: both lines stay clear of the
+    # plot's frame (they hid under its top edge when the axes ended at their end ticks).
+    import xml.etree.ElementTree as ET
+
+    from toolkit.svg_out import convergence_svg
+
+    c = np.linspace(100.0, 140.0, 30)
+    v = np.linspace(1.0, 0.5, 30)
+    root = ET.fromstring(convergence_svg(c, v, target=0.5))
+    ns = "{http://www.w3.org/2000/svg}"
+    frame = [r for g in root.iter(f"{ns}g") if g.get("id") == "axes" for r in g.iter(f"{ns}rect")][0]
+    top, bottom = float(frame.get("y")), float(frame.get("y")) + float(frame.get("height"))
+    lines = [e for e in root.iter(f"{ns}polyline") if e.get("id") in ("volume-line", "compliance-line")]
+    assert {e.get("id") for e in lines} == {"volume-line", "compliance-line"}
+    for e in lines:
+        pts = np.array([[float(a) for a in p.split(",")] for p in e.get("points").split()])
+        assert pts[:, 1].min() > top + 1.0 and pts[:, 1].max() < bottom - 1.0, e.get("id")

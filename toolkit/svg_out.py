@@ -1336,6 +1336,10 @@ TARGET_TOLERANCE = 0.005  # volume fraction within half a percentage point of th
 _SUPERSCRIPT = str.maketrans("-0123456789", "\u207b\u2070\u00b9\u00b2\u00b3\u2074\u2075\u2076\u2077\u2078\u2079")
 
 
+# Share of a value axis's tick span left clear beyond each end tick of the convergence plot.
+_AXIS_PAD = 0.05
+
+
 def nice_ticks(lo: float, hi: float, count: int = 5) -> np.ndarray:
     """Round tick values covering [lo, hi]: a step of the 1-2-5 series giving about ``count`` intervals."""
     if not (math.isfinite(lo) and math.isfinite(hi)):
@@ -1412,14 +1416,23 @@ def convergence_svg(compliance_Nmm, volume_fraction, *, target: float | None = N
     def px(i):
         return x0 + (np.asarray(i, dtype=float) - xt[0]) / (xt[-1] - xt[0]) * (x1 - x0)
 
+    # The value axes reach a little past their end ticks, so that no line runs along the frame (a volume fraction
+    # starting at 1.0 on the top edge hid under it).
+    def padded(t):
+        span = t[-1] - t[0]
+        return t[0] - _AXIS_PAD * span, t[-1] + _AXIS_PAD * span
+
+    c_lo, c_hi = padded(ct)
+    v_lo, v_hi = padded(vt)
+
     def pc(y):
-        return y1 - (np.asarray(y, dtype=float) - ct[0]) / (ct[-1] - ct[0]) * (y1 - y0)
+        return y1 - (np.asarray(y, dtype=float) - c_lo) / (c_hi - c_lo) * (y1 - y0)
 
     def pv(y):
-        return y1 - (np.asarray(y, dtype=float) - vt[0]) / (vt[-1] - vt[0]) * (y1 - y0)
+        return y1 - (np.asarray(y, dtype=float) - v_lo) / (v_hi - v_lo) * (y1 - y0)
 
     axes = group("axes", stroke=INK, stroke_width="0.25", fill="none")
-    grid_lines = "".join(f"M{_fmt(x0)} {_fmt(float(pc(t)), 3)}H{_fmt(x1)}" for t in ct[1:-1])
+    grid_lines = "".join(f"M{_fmt(x0)} {_fmt(float(pc(t)), 3)}H{_fmt(x1)}" for t in ct)
     grid_lines += "".join(f"M{_fmt(float(px(t)), 3)} {_fmt(y0)}V{_fmt(y1)}" for t in xt[1:-1])
     axes.add(dwg.path(d=grid_lines, stroke="#d9d9d9", stroke_width="0.15"))
     axes.add(dwg.rect((_fmt(x0), _fmt(y0)), (_fmt(x1 - x0), _fmt(y1 - y0))))
