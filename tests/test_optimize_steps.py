@@ -44,6 +44,12 @@ def test_filter_fft_path_equals_sparse_path(monkeypatch):
     fft = SensitivityFilter(g, 3.3)
     assert sparse.matrix is not None and fft.matrix is None
     assert np.allclose(sparse(a), fft(a), rtol=0, atol=1e-13)
+    # Large grids keep the filter's two factors apart instead of their product: the same operator again.
+    monkeypatch.setattr(filters, "_SPARSE_LIMIT", 200)
+    monkeypatch.setattr(filters, "_PRODUCT_LIMIT", 0)
+    apart = SensitivityFilter(g, 3.3)
+    assert apart.matrix is None and apart._W is not None
+    assert np.allclose(sparse(a), apart(a), rtol=0, atol=1e-13)
 
 
 # --- mirror orbits ------------------------------------------------------------------------------------------
