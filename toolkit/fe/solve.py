@@ -4,24 +4,19 @@ from __future__ import annotations
 
 import ctypes
 import os
-from contextlib import nullcontext
 from functools import lru_cache
 
 import numpy as np
 import scipy.sparse as sp
 import scipy.sparse.linalg as spla
+from threadpoolctl import ThreadpoolController  # holds BLAS to one thread where that pays (_BlasOneThread)
 
 from ..errors import LacunaError
 from .grid import Grid
 
-try:  # optional: holds BLAS to one thread where that pays (see _BlasOneThread)
-    from threadpoolctl import ThreadpoolController
-except ImportError:
-    ThreadpoolController = None
-
 
 class _BlasOneThread:
-    """Runs BLAS/LAPACK on one thread inside ``with``, where the package threadpoolctl is installed.
+    """Runs BLAS/LAPACK on one thread inside ``with`` (threadpoolctl).
 
     The fronts are many small dense matrices and a few of a few hundred rows: OpenBLAS's threads gain little
     on them even on an idle machine, and on a machine whose cores are busy with other work a threaded
@@ -30,10 +25,10 @@ class _BlasOneThread:
     """
 
     def __init__(self):
-        self._controller = ThreadpoolController() if ThreadpoolController is not None else None
+        self._controller = ThreadpoolController()
 
     def __call__(self):
-        return self._controller.limit(limits=1, user_api="blas") if self._controller else nullcontext()
+        return self._controller.limit(limits=1, user_api="blas")
 
 
 def _dissection_tree(nxp: int, nyp: int, leaf: int) -> tuple[list[tuple[int, int, int, int]], list[list[int]]]:
@@ -364,12 +359,12 @@ class _Pardiso:
         iparm[55] = 1    # keep the diagonal for pardiso_getdiag
         self._getdiag = self._solver.libmkl.pardiso_getdiag
         self._getdiag.restype = None
-        self._controller = ThreadpoolController() if ThreadpoolController is not None else None
+        self._controller = ThreadpoolController()
         self._analysed = False
         self._A: sp.csr_matrix | None = None
 
     def _one_thread(self):
-        return self._controller.limit(limits=1, user_api="blas") if self._controller else nullcontext()
+        return self._controller.limit(limits=1, user_api="blas")
 
     def factor(self, A: sp.csr_matrix) -> None:
         """Factorise ``A`` (the upper triangle, CSR); after the first call, of the same pattern."""
