@@ -178,3 +178,23 @@ def test_balanced_force_sums_print_as_zero_not_round_off(tmp_path):
     assert s["reaction_sum_kN"][1] == pytest.approx(-s["load_sum_kN"][1], rel=1e-9)
     line = next(t for t in outcome.text_lines() if "reactions" in t)
     assert "e-" not in line and "e+" not in line, line
+
+
+def test_progress_line_estimates_the_time_left():
+    # 10 iterations of 0.5 s each at 80 % kept, target 50 %, rate 2 %: ceil(log(0.5/0.8)/log(0.98)) = 24 more to
+    # the target, plus twice the convergence window of 5 = 34 iterations, about 17 s; capped by the iteration limit.
+    from toolkit.cli import _Progress
+
+    p = _Progress(limit=200, target=0.5, rate=0.02, window=5)
+    p.started = 100.0
+    import time as clock
+
+    real = clock.perf_counter
+    try:
+        clock.perf_counter = lambda: 100.0 + 0.5 * 9  # ten iterations: nine gaps since the first
+        assert p.left(10, 0.8) == "  about 17 s left"
+        capped = _Progress(limit=12, target=0.5, rate=0.02, window=5)
+        capped.started = 100.0
+        assert capped.left(10, 0.8) == "  about 1 s left"  # two iterations to the limit
+    finally:
+        clock.perf_counter = real

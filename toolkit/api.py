@@ -529,15 +529,16 @@ def check_file(dxf_path, job_path=None, *, profile=None, layers=None, out_dir=No
     return result
 
 
-def iteration_limit(job_path) -> int:
-    """The job's iteration cap, for a progress bar (the default where the job cannot be read yet)."""
+def optimize_plan(job_path):
+    """The job's optimiser settings (iteration cap, volume target, evolution rate, convergence window) for a
+    progress line's estimate of the time left; the defaults where the job cannot be read yet."""
     from .jobfile import read_job
     from .optimize import OptimizeSettings
 
     try:
-        return read_job(job_path).optimize.max_iterations if job_path else OptimizeSettings().max_iterations
+        return read_job(job_path).optimize if job_path else OptimizeSettings()
     except LacunaError:
-        return OptimizeSettings().max_iterations  # the real reading reports the fault
+        return OptimizeSettings()  # the real reading reports the fault
 
 
 def convert_file(source, target, *, layers: str | None = None, units: str | None = None,

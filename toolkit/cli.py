@@ -115,20 +115,41 @@ def analyze(panel: Path, job_path: Path | None, out_dir: Path | None, as_json: b
 
 
 class _Progress:
-    """One line on stderr, rewritten each iteration where stderr is a terminal, every tenth otherwise."""
+    """One line on stderr, rewritten each iteration where stderr is a terminal, every tenth otherwise, with an
+    estimate of the time left: the iterations still to go to the volume target at the evolution rate, plus the
+    convergence window, times the mean time of the iterations so far (an estimate: the optimiser may converge
+    sooner or need more)."""
 
-    def __init__(self, limit: int):
+    def __init__(self, limit: int, target: float | None = None, rate: float = 0.02, window: int = 5):
         self.limit = limit
+        self.target, self.rate, self.window = target, rate, window
         self.tty = sys.stderr.isatty()
+        self.started: float | None = None
+
+    def left(self, iteration: int, volume: float) -> str:
+        import math
+        import time
+
+        now = time.perf_counter()
+        if self.started is None:
+            self.started = now
+            return ""
+        per = (now - self.started) / max(iteration - 1, 1)
+        to_target = 0
+        if self.target is not None and volume > self.target * (1 + 1e-3) and 0 < self.rate < 1:
+            to_target = math.ceil(math.log(self.target / volume) / math.log(1.0 - self.rate))
+        remaining = min(self.limit - iteration, to_target + 2 * self.window)
+        seconds = max(remaining, 0) * per
+        return f"  about {seconds / 60:.0f} min left" if seconds >= 120 else f"  about {seconds:.0f} s left"
 
     def __call__(self, index: int, compliance: float, volume: float) -> None:
         iteration = index + 1  # the optimiser counts from 0; people and the figures from 1
         width = 24
         done = min(width, int(width * iteration / max(self.limit, 1)))
         line = (f"BESO [{'#' * done}{'.' * (width - done)}] iteration {iteration:4d}  "
-                f"compliance {compliance:10.4g} N mm  kept {100 * volume:5.1f} %")
+                f"compliance {compliance:10.4g} N mm  kept {100 * volume:5.1f} %{self.left(iteration, volume)}")
         if self.tty:
-            click.echo("\r" + line, nl=False, err=True)
+            click.echo("\r" + line + "   ", nl=False, err=True)
         elif iteration % 10 == 0 or iteration == 1:
             click.echo(line, err=True)
 
@@ -159,7 +180,8 @@ def optimize(panel: Path, job_path: Path | None, out_dir: Path | None, as_json: 
              dxf_version: str | None, replace: bool) -> None:
     from . import api
 
-    progress = _Progress(api.iteration_limit(job_path))
+    plan = api.optimize_plan(job_path)
+    progress = _Progress(plan.max_iterations, plan.volume_fraction, plan.evolution_rate, plan.convergence_window)
     try:
         with naming(panel, job_path):
             outcome = api.optimize_file(panel, job_path, out_dir=out_dir, force=force, frames=frames,
@@ -328,7 +350,8 @@ solid panel's stress figure, the optimisation, the voids to make, the drawing co
 def demo(out_dir: Path, as_json: bool, force: bool) -> None:
     from . import api
 
-    progress = _Progress(api.iteration_limit(api.demo_files()[1]))
+    plan = api.optimize_plan(api.demo_files()[1])
+    progress = _Progress(plan.max_iterations, plan.volume_fraction, plan.evolution_rate, plan.convergence_window)
     try:
         outcome = api.run_demo(out_dir, force=force, on_iteration=progress)
     finally:
