@@ -161,7 +161,7 @@ def cluster():
     """An existing cluster, as `--scheduler ADDRESS` names one: two workers of one thread."""
     from distributed import LocalCluster
 
-    with LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None) as running:
+    with LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=":0") as running:
         yield running
 
 

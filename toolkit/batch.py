@@ -68,12 +68,35 @@ def dask_client(scheduler: str | None = None, workers: int | None = None):
     import dask
 
     n = workers or os.cpu_count() or 1
-    # No dashboard (it needs an open port and bokeh); the cluster's own log stays below warnings, so stderr
-    # carries the progress lines and nothing else. LOCAL_WORKER_CONFIG: see there.
-    with dask.config.set(LOCAL_WORKER_CONFIG), \
-            LocalCluster(n_workers=n, threads_per_worker=1, processes=True, dashboard_address=None,
-                         silence_logs=logging.ERROR) as cluster, Client(cluster) as client:
-        yield client
+    # The scheduler's small web server (the dashboard too, where bokeh is installed) on any free port: a fixed one
+    # may be taken by another cluster, and Dask then warns on stderr. The cluster's own log is kept to critical
+    # faults, so stderr carries the progress lines and nothing else: a job's own faults come back in its row, and a
+    # Ctrl-C reaching the workers would otherwise print each one's broken connections. LOCAL_WORKER_CONFIG: see
+    # there.
+    with dask.config.set(LOCAL_WORKER_CONFIG):
+        with _workers_ignore_ctrl_c():
+            cluster = LocalCluster(n_workers=n, threads_per_worker=1, processes=True, dashboard_address=":0",
+                                   silence_logs=logging.CRITICAL)
+        with cluster, Client(cluster) as client:
+            yield client
+
+
+@contextmanager
+def _workers_ignore_ctrl_c():
+    """Ctrl-C ignored while the local workers start, so the worker processes keep ignoring it (an ignored signal
+    stays ignored in a new process): a Ctrl-C at the terminal reaches the whole process group, and this process
+    alone should answer it, by closing the cluster, rather than every worker printing its own traceback."""
+    import signal
+    import threading
+
+    if threading.current_thread() is not threading.main_thread():
+        yield
+        return
+    previous = signal.signal(signal.SIGINT, signal.SIG_IGN)
+    try:
+        yield
+    finally:
+        signal.signal(signal.SIGINT, previous)
 
 
 # The local workers' settings: no statistical profiler (a stack sample of the running task every 10 ms, taken under
