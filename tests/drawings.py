@@ -21,6 +21,40 @@ from toolkit.units import MM_PER_UNIT, UNIT_TO_INSUNITS
 
 LAYERS = ("PANEL", "OPENING", "KEEP", "SUPPORT", "LOAD")
 
+# A glulam beam job of our own (3000 x 600 panel drawn on PANEL, 100 mm thick, pin + roller, 6 kN/m on top,
+# bores, timber-bored): the whole job on a coarse grid, shared by the tests of optimize and of edge stresses.
+GLULAM_BEAM_JOB = """units = "mm"
+[panel]
+name = "test beam"
+thickness = 100
+element_size = 50
+[material]
+E_MPa = 11000
+nu = 0.3
+density_kg_m3 = 450
+[[support]]
+from = [0, 0]
+to = [150, 0]
+[[support]]
+from = [2850, 0]
+to = [3000, 0]
+fix = "y"
+[[load]]
+from = [0, 600]
+to = [3000, 600]
+wy_kN_m = -6
+[optimize]
+volume_fraction = 0.5
+filter_radius = 150
+[voids]
+family = "bore"
+[rules]
+profile = "timber-bored"
+min_web = 60
+edge_cover = 60
+bearing_clearance = 150
+"""
+
 
 @dataclass(frozen=True)
 class Placement:

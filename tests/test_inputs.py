@@ -94,7 +94,7 @@ def test_job_in_feet_on_a_drawing_in_inches_turned_a_quarter():
     # (609.6, 254) mm. A force +1 kN along drawing x is -1 kN along local y (local y = drawing -x).
     frame = Frame(origin=(100.0, 50.0), angle_deg=90.0, mm_per_unit=25.4, unit="in")
     j = job(
-        f'units = "ft"\n[panel]\nthickness = 0.25\n' + MATERIAL + f"""
+        'units = "ft"\n[panel]\nthickness = 0.25\n' + MATERIAL + f"""
 [[support]]
 at = [{100 / 12!r}, {62 / 12!r}]
 [[load]]

@@ -13,37 +13,9 @@ import toolkit
 from toolkit.cli import main
 from toolkit.rules.profiles import load_profile
 
-JOB = """units = "mm"
-[panel]
-name = "test beam"
-thickness = 100
-element_size = 50
-[material]
-E_MPa = 11000
-nu = 0.3
-density_kg_m3 = 450
-[[support]]
-from = [0, 0]
-to = [150, 0]
-[[support]]
-from = [2850, 0]
-to = [3000, 0]
-fix = "y"
-[[load]]
-from = [0, 600]
-to = [3000, 600]
-wy_kN_m = -6
-[optimize]
-volume_fraction = 0.5
-filter_radius = 150
-[voids]
-family = "bore"
-[rules]
-profile = "timber-bored"
-min_web = 60
-edge_cover = 60
-bearing_clearance = 150
-"""
+from drawings import GLULAM_BEAM_JOB
+
+JOB = GLULAM_BEAM_JOB
 
 
 def _drawing(path: Path) -> Path:

@@ -483,11 +483,11 @@ def test_void_ids_never_overlap_each_other_other_voids_or_a_point_load():
     spots = _label_spots(fig, voids, LABEL_SIZE)
     boxes = [label_box(fig, v.id, at, LABEL_SIZE) for v, (at, _) in zip(voids, spots)]
     load_zone = P(3000, 400).buffer(fig.paper(12.0), cap_style="square")
-    for i, box in enumerate(boxes):
-        assert not any(box.intersects(boxes[j]) for j in range(len(boxes)) if j != i), voids[i].id
-        assert not any(box.intersects(v.shape) for j, v in enumerate(voids) if j != i), voids[i].id
-        assert not box.intersects(load_zone), voids[i].id
-        assert box.within(panel.solid), voids[i].id
+    for i, lettering in enumerate(boxes):
+        assert not any(lettering.intersects(boxes[j]) for j in range(len(boxes)) if j != i), voids[i].id
+        assert not any(lettering.intersects(v.shape) for j, v in enumerate(voids) if j != i), voids[i].id
+        assert not lettering.intersects(load_zone), voids[i].id
+        assert lettering.within(panel.solid), voids[i].id
     # Ids that stand away from their void point at it: the leader starts on the void's outline.
     for v, (_, leader) in zip(voids, spots):
         if leader is not None:

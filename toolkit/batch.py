@@ -193,8 +193,8 @@ def _figures(s: dict) -> dict:
 
 
 @dataclass
-class BatchResult:
-    """What :func:`batch_files` did: one row per drawing (in the order given), the summary, files written."""
+class JobsResult:
+    """What a run of many jobs did: one row per job, the summary, the files written."""
 
     rows: list[dict]
     summary: dict
@@ -202,8 +202,13 @@ class BatchResult:
 
     @property
     def exit_code(self) -> int:
-        """0 when every panel is done within its rules, else 1 (a panel refused, failed or violating a rule)."""
+        """0 when every job is done within its rules, else 1 (a job refused, failed or violating a rule)."""
         return 0 if all(r["status"] == DONE for r in self.rows) else 1
+
+
+@dataclass
+class BatchResult(JobsResult):
+    """What :func:`batch_files` did: one row per drawing (in the order given), the summary, files written."""
 
     def text_lines(self) -> list[str]:
         lines = [f"{len(self.rows)} panels: " + ", ".join(

@@ -1391,15 +1391,7 @@ def convergence_svg(compliance_Nmm, volume_fraction, *, target: float | None = N
     n = c.size
     width, height = 200.0, 125.0
     x0, x1, y0, y1 = 30.0, width - 30.0, 32.0, height - 26.0  # plot area, paper mm (y down)
-    dwg = svgwrite.Drawing(size=(f"{_fmt(width)}mm", f"{_fmt(height)}mm"), profile="full", debug=False)
-    dwg.viewbox(0, 0, width, height)
-    dwg.add(dwg.rect((0, 0), (width, height), fill="#ffffff", id="sheet"))
-
-    def group(name, **attrs):
-        return dwg.add(dwg.g(id=name, **attrs))
-
-    def text(g, content, at, size, **kw):
-        return g.add(_lettering(dwg, content, at, size, **kw))
+    dwg, group, text = _plot_sheet(width, height)
 
     heading = group("heading")
     line, size = _fit(title or "Convergence", width - 2 * _MARGIN, 4.5)
@@ -1523,6 +1515,22 @@ def _marker(dwg, shape: str, x: float, y: float, r: float, **style):
     return dwg.polygon(points=[(round(a, 3), round(b, 3)) for a, b in pts], **style)
 
 
+def _plot_sheet(width: float, height: float):
+    """A blank plot sheet of ``width`` x ``height`` paper mm and two pens for it: ``group(name, **attrs)`` adds a
+    group with that id, ``text(group, content, at, size, **kw)`` letters into a group."""
+    dwg = svgwrite.Drawing(size=(f"{_fmt(width)}mm", f"{_fmt(height)}mm"), profile="full", debug=False)
+    dwg.viewbox(0, 0, width, height)
+    dwg.add(dwg.rect((0, 0), (width, height), fill="#ffffff", id="sheet"))
+
+    def group(name, **attrs):
+        return dwg.add(dwg.g(id=name, **attrs))
+
+    def text(g, content, at, size, **kw):
+        return g.add(_lettering(dwg, content, at, size, **kw))
+
+    return dwg, group, text
+
+
 def tradeoff_svg(rows, *, title: str, mass_unit: str = "kg") -> str:
     """The trade-off plot of a sweep as SVG text: compliance (upper plot) and largest deflection (lower plot)
     against the made mass, one line per profile through its points in order of mass, each point labelled with its
@@ -1535,15 +1543,7 @@ def tradeoff_svg(rows, *, title: str, mass_unit: str = "kg") -> str:
     x0, x1 = 32.0, width - 12.0
     plots = (("compliance", "compliance_Nmm", "compliance", "N mm", 34.0, 96.0),
              ("deflection", "max_deflection_mm", "largest deflection", "mm", 112.0, 166.0))
-    dwg = svgwrite.Drawing(size=(f"{_fmt(width)}mm", f"{_fmt(height)}mm"), profile="full", debug=False)
-    dwg.viewbox(0, 0, width, height)
-    dwg.add(dwg.rect((0, 0), (width, height), fill="#ffffff", id="sheet"))
-
-    def group(name, **attrs):
-        return dwg.add(dwg.g(id=name, **attrs))
-
-    def text(g, content, at, size, **kw):
-        return g.add(_lettering(dwg, content, at, size, **kw))
+    dwg, group, text = _plot_sheet(width, height)
 
     heading = group("heading")
     line, size = _fit(title, width - 2 * _MARGIN, 4.5)

@@ -14,13 +14,13 @@ import csv
 import io
 import json
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
 
 from . import CAUTION, __version__
-from .batch import DONE, STATUS_EXIT, VIOLATED, dask_client, optimize_task, run_tasks
+from .batch import DONE, STATUS_EXIT, VIOLATED, JobsResult, dask_client, optimize_task, run_tasks
 from .errors import LacunaError
 
 MAX_POINTS = 200  # volume fractions times profiles: each point is a whole job
@@ -104,17 +104,8 @@ def knee_index(x, y) -> int | None:
 
 
 @dataclass
-class SweepResult:
+class SweepResult(JobsResult):
     """What :func:`sweep_file` did: one row per point (profile by profile, volumes in the order given)."""
-
-    rows: list[dict]
-    summary: dict
-    paths: list[Path] = field(default_factory=list)
-
-    @property
-    def exit_code(self) -> int:
-        """0 when every point is done within its rules, else 1."""
-        return 0 if all(r["status"] == DONE for r in self.rows) else 1
 
     def text_lines(self) -> list[str]:
         s = self.summary
