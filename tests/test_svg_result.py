@@ -517,6 +517,8 @@ def test_the_result_sheet_is_the_panel_as_made_with_ordinates_and_the_layout_a_f
         return len(list(group))
 
     assert freeform_paths(sheet) == 0 and freeform_paths(layout) > 0
+    # ... and the sheet's key does not list what it does not show.
+    assert "layer LACUNA-FREEFORM" not in sheet and "layer LACUNA-FREEFORM" in layout
     ordinates = set(re.findall(r'data-ordinate="([xy]) ([-\d.]+)"', sheet))
     voids = json.loads((tmp_path / "out" / f"{stem}-optimize.json").read_text())["voids"]
     assert voids

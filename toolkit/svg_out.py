@@ -1053,13 +1053,17 @@ def _cased_text(fig: Figure, group, content: str, at, size: float, casing: float
     return fig.text(group, content, at, size, **kw)
 
 
-def _layer_key_rows() -> list:
+def _layer_key_rows(leave_out: tuple[str, ...] = ()) -> list:
+    """The line key of the result sheets: the panel's lines and each output layer (less ``leave_out``: layers
+    with nothing on the sheet)."""
     looks = {name: palette.rgb_to_hex(np.asarray(look.rgb) / 255.0) for name, look in _LOOK.items()}
     rows = [
         ("line", dict(stroke=INK, stroke_width="0.4"), "panel and openings as drawn"),
         ("line", dict(stroke=INK, stroke_width="0.3", stroke_dasharray="2 1"), "zone kept solid"),
     ]
     for name in RESULT_LAYERS:
+        if name in leave_out:
+            continue
         look = _LOOK[name]
         colour = looks[name]
         if name in _VOID_GROUP.values():
@@ -1184,7 +1188,9 @@ def _draw_result_legend(fig: Figure, underlay: str, stress_range) -> None:
     else:
         fig.text(g, "No underlay: the voids over the panel as drawn.", (x0, top + 2.5), 2.8, weight="bold")
     _draw_scale_bar(fig, x0, top + 29.0)
-    _draw_key(fig, g, x0 + 132.0, top, _layer_key_rows(), pitch=4.3)
+    # The sheet a shop makes from shows no freeform outlines: its key does not list them.
+    leave_out = ("lacuna-freeform",) if underlay == "made" else ()
+    _draw_key(fig, g, x0 + 132.0, top, _layer_key_rows(leave_out), pitch=4.3)
 
 
 _UNDERLAYS = ("made", "density", "stress", "none")
