@@ -32,6 +32,10 @@ from toolkit.model import Frame, Void
 # Header variables a writer must change: when and by what the file was saved, and the next free handle.
 # ($TDUPDATE/$TDUUPDATE: "local/universal date and time of the last update", DXF reference, header section.)
 CHANGES_ON_SAVE = {"$TDUPDATE", "$TDUUPDATE", "$HANDSEED", "$VERSIONGUID", "$TDINDWG"}
+# ezdxf stamps the creation date with the time of *loading* a document (ezdxf/document.py,
+# Drawing._setup_metadata, ezdxf 1.4; tests/test_determinism.py): two loads a second apart differ, so the dates are
+# compared in the files' own bytes instead (test_the_copy_keeps_the_drawings_creation_date).
+STAMPED_ON_LOAD = {"$TDCREATE", "$TDUCREATE"}
 
 FAR = Placement("mm", 30.0, (6_000_000.0, 2_000_000.0))
 # bulge of a quarter circle = tan(90 deg / 4) = tan(22.5 deg); of a half circle tan(45 deg) = 1 (DXF reference).
@@ -162,7 +166,7 @@ def test_tables_blocks_header_and_layouts_kept(round_trip):
     assert [b.name for b in before.blocks] == [b.name for b in after.blocks]
     assert before.layout_names() == after.layout_names()
     for var in before.header.varnames():
-        if var not in CHANGES_ON_SAVE:
+        if var not in CHANGES_ON_SAVE | STAMPED_ON_LOAD:
             assert before.header.get(var) == after.header.get(var), var
     assert after.dxfversion == before.dxfversion == "AC1032"
     assert after.header["$INSUNITS"] == 4
@@ -351,3 +355,22 @@ def test_bad_results_are_named():
     with pytest.raises(LacunaError):
         add_results(doc, Frame(mm_per_unit=0.0), notes=["x"])
     assert not any(name in doc.layers for name in OUR_LAYERS)  # nothing added before the checks passed
+
+
+def test_the_copy_keeps_the_drawings_creation_date(tmp_path):
+    # The drafter's $TDCREATE (here set to 2000-01-01, Julian day 2451545.0), read from the bytes of the input and
+    # of the copy (not through a loader, which stamps its own time), is the same.
+    from toolkit.dxf_out import _creation_dates
+
+    path = office_drawing(tmp_path)
+    text = path.read_text(encoding="utf-8")
+    old = _creation_dates(str(path))["$TDCREATE"]
+    lines = text.splitlines(keepends=True)
+    k = next(i for i, line in enumerate(lines) if line.strip() == "$TDCREATE")
+    lines[k + 2] = lines[k + 2].replace(lines[k + 2].strip(), "2451545.0")
+    path.write_text("".join(lines), encoding="utf-8")
+    assert _creation_dates(str(path))["$TDCREATE"] == 2451545.0 != old
+    data = result_copy_bytes(path, read_drawing(path).frame, **results())
+    copy = tmp_path / "copy.dxf"
+    copy.write_bytes(data)
+    assert _creation_dates(str(copy))["$TDCREATE"] == 2451545.0

@@ -560,4 +560,31 @@ def result_copy_bytes(input_path, frame: Frame, *, dxf_version: str | None = Non
         doc.dxfversion = target
     mm_per(frame.unit, where=f"{path}, frame unit")
     (add or add_results)(doc, frame, **results)
+    # The reader stamps the drawing's creation date with the time it loaded it: the copy keeps the drafter's.
+    for var, value in _creation_dates(path).items():
+        doc.header[var] = value
     return serialise(doc, binary=validator.is_binary_dxf_file(path))
+
+
+def _creation_dates(path: str) -> dict[str, float]:
+    """$TDCREATE and $TDUCREATE as the file at ``path`` holds them (an ASCII DXF's header: the variable's name
+    on one line, its group code 40 and value on the next two); none for a binary file or where they are absent."""
+    out: dict[str, float] = {}
+    try:
+        with open(path, "rb") as f:
+            head = f.read(1 << 20)
+    except OSError:
+        return out
+    if head.startswith(b"AutoCAD Binary DXF"):
+        return out
+    lines = head.decode("latin-1").splitlines()
+    for k, line in enumerate(lines[:-2]):
+        name = line.strip()
+        if name in ("$TDCREATE", "$TDUCREATE") and lines[k + 1].strip() == "40":
+            try:
+                out[name] = float(lines[k + 2].strip())
+            except ValueError:
+                pass
+        if name == "ENDSEC" and out:
+            break
+    return out
