@@ -287,6 +287,14 @@ def _region_name(region, kind: str) -> str:
     return f"{kind} ({region.source})" if region.layer or region.handle else kind
 
 
+def _edge_gaps(b: _Bodies, W: float, H: float) -> np.ndarray:
+    """(n, 4) each void's gap to the left, right, bottom and top edge: the envelope is the rectangle [0, W] x
+    [0, H], so a body's bounds grown by its radius give the gaps exactly."""
+    bounds = shapely.bounds(b.cores)
+    lo, hi = bounds[:, :2] - b.radii[:, None], bounds[:, 2:] + b.radii[:, None]
+    return np.column_stack([lo[:, 0], W - hi[:, 0], lo[:, 1], H - hi[:, 1]])
+
+
 def check_layout(panel: Panel, voids: Sequence[Void], rules: Rules) -> list[Violation]:
     """Every fabrication rule proved on the final geometry; the list is empty only when all hold.
 
@@ -304,10 +312,7 @@ def check_layout(panel: Panel, voids: Sequence[Void], rules: Rules) -> list[Viol
     out: list[Violation] = []
     W, H = panel.width_mm, panel.height_mm
 
-    # outline: the envelope is the rectangle [0, W] x [0, H], so a body's bounds give its exact gaps
-    bounds = shapely.bounds(b.cores)
-    lo, hi = bounds[:, :2] - b.radii[:, None], bounds[:, 2:] + b.radii[:, None]
-    gaps = np.column_stack([lo[:, 0], W - hi[:, 0], lo[:, 1], H - hi[:, 1]])
+    gaps = _edge_gaps(b, W, H)
     axis = _depth_axis(panel)
     depth = (W, H)[axis]
     need_band = None if band is None else (1.0 - band) / 2.0 * depth
@@ -472,9 +477,7 @@ def rule_margins(panel: Panel, voids: Sequence[Void], rules: Rules) -> list[Marg
     ratio, _, band = _extras(rules)
     b = _bodies(voids)
     W, H = panel.width_mm, panel.height_mm
-    bounds = shapely.bounds(b.cores)
-    lo, hi = bounds[:, :2] - b.radii[:, None], bounds[:, 2:] + b.radii[:, None]
-    gaps = np.column_stack([lo[:, 0], W - hi[:, 0], lo[:, 1], H - hi[:, 1]])
+    gaps = _edge_gaps(b, W, H)
     i = int(np.argmin(gaps.min(axis=1)))
     out.append(Margin("edge_cover", rules.edge_cover_mm, float(gaps[i].min()), (voids[i].id,),
                       f"{voids[i].id} is {gaps[i].min():.1f} mm from the {_SIDES[int(np.argmin(gaps[i]))]} edge"))

@@ -225,10 +225,6 @@ def _check_lengths(values, where: str, what: str, example: str) -> None:
 # --- the rule context -------------------------------------------------------------------------------------
 
 
-def _shape(draft: Draft) -> Polygon:
-    return draft.shape()  # built once per draft (Draft.shape keeps it)
-
-
 class Site:
     """Where void material may go and how far apart voids stay: answers "may this void stand here?"."""
 
@@ -252,7 +248,7 @@ class Site:
 
     def shapes(self, draft: Draft) -> list:
         """The shapes of ``draft`` and of its mirror images."""
-        return [_shape(d) for d in self.mirror.orbit(draft)]
+        return [d.shape() for d in self.mirror.orbit(draft)]
 
     def members(self, draft: Draft) -> list[tuple]:
         """``draft`` and its mirror images as members (see ``__init__``)."""
@@ -300,7 +296,7 @@ class Site:
         """At least the least void size: a polygon's inscribed circle, a slot's width, a bore's diameter; and a
         polygon still one the shop can make (sides of the least feature, corners neither flat nor sharp)."""
         if draft.family == "polygon":
-            return inscribed_width(_shape(draft), FIT_RTOL) >= self.least + SAFETY_MM and shape_ok(draft, self.feature)
+            return inscribed_width(draft.shape(), FIT_RTOL) >= self.least + SAFETY_MM and shape_ok(draft, self.feature)
         return draft.size >= self.least - 1e-9
 
     def fits(self, trial: Draft, i: int, state: list[Draft], move: bool = True) -> Draft | None:
@@ -350,7 +346,7 @@ def _smaller(d: Draft, r: Resolved) -> list[Draft]:
 def place(drafts: list[Draft], site: Site, r: Resolved):
     """Place drafts largest first, moving or shrinking those that break a rule; returns
     (placed drafts, change records (draft, what, why), dropped records (source, reason))."""
-    order = sorted(drafts, key=lambda d: (-_shape(d).area, d.source, d.part))
+    order = sorted(drafts, key=lambda d: (-d.shape().area, d.source, d.part))
     placed: list[Draft] = []
     changes, dropped = [], []
     for d in order:
@@ -718,8 +714,8 @@ def lattice_layout(allowed, family: str, r: Resolved, score, *, source: int = -1
                 d = (_polygon_in if family == "polygon" else _slot_in)(room, p, r, source, i)
                 if d is not None:
                     drafts.append(d)
-            worth = [d for d in drafts if score(_shape(d)) > 0.0]
-            total = sum(score(_shape(d)) for d in worth)
+            worth = [d for d in drafts if score(d.shape()) > 0.0]
+            total = sum(score(d.shape()) for d in worth)
             if total > best[0]:
                 best = (total, worth)
     return best[1]
@@ -733,7 +729,7 @@ def _fill(placed: list[Draft], allowed, site: Site, r: Resolved, score, evaluate
     were added."""
     if not placed:
         return placed, 0
-    grown = [shapely.buffer(_shape(d), r.web(_extent(_shape(d)))) for d in placed]
+    grown = [shapely.buffer(d.shape(), r.web(d.extent())) for d in placed]
     room = overlay(shapely.difference, allowed, shapely.union_all(grown))
     extra = lattice_layout(room, r.family, r, score, source=-1, openings=openings) if not room.is_empty else []
     # Numbered after the voids of the same source already there (a honeycomb layout is source -1 too): every
@@ -791,7 +787,7 @@ def _within_cap(drafts: list[Draft], evaluate, cap: float, rounds: int = 5, keep
         hot[:keep] = -np.inf
         worst = set(np.argsort(-hot)[: max(1, (len(state) - keep) // 5)].tolist())
         fewer = [d for k, d in enumerate(state) if k < keep or k not in worst]
-        if sum(_shape(d).area for d in fewer) < floor_mm2:
+        if sum(d.shape().area for d in fewer) < floor_mm2:
             break
         state = fewer
         c, energy = evaluate(state)
@@ -799,7 +795,7 @@ def _within_cap(drafts: list[Draft], evaluate, cap: float, rounds: int = 5, keep
 
 
 def _removed(drafts: list[Draft]):
-    return shapely.union_all([_shape(d) for d in drafts])
+    return shapely.union_all([d.shape() for d in drafts])
 
 
 def _choose_layout(options: list[list[Draft]], score) -> list[Draft]:
@@ -960,13 +956,13 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
         grid_drafts = lattice_layout(allowed, r.family, r, score, openings=opening_shapes) \
             if r.family != "mixed" and not mirror.axes else []
         other = place(grid_drafts, site, r) if grid_drafts else None
-        area_fit = sum(_shape(d).area for d in placed)
+        area_fit = sum(d.shape().area for d in placed)
         # The honeycomb is analysed only when it could be taken: it removes clearly more, or the fit is too soft.
         if other is not None and other[0] and (
-                c_fit > cap or sum(_shape(d).area for d in other[0]) > LATTICE_GAIN * area_fit):
+                c_fit > cap or sum(d.shape().area for d in other[0]) > LATTICE_GAIN * area_fit):
             c_grid, lattice, e_grid = _within_cap(other[0], evaluate, cap,
                                           floor_mm2=LATTICE_GAIN * area_fit if c_fit <= cap else 0.0)
-            area_grid = sum(_shape(d).area for d in lattice)
+            area_grid = sum(d.shape().area for d in lattice)
             # The optimiser's own topology is kept unless the honeycomb removes clearly more (LATTICE_GAIN).
             if c_grid <= cap and (c_fit > cap or area_grid > LATTICE_GAIN * area_fit):
                 notes.append(f"the voids are laid as a honeycomb over the region open to voids: under the web the "
