@@ -19,7 +19,7 @@ from click.testing import CliRunner
 from toolkit import limits
 from toolkit.cli import main
 from toolkit.errors import LacunaError
-from toolkit.fe.grid import grid_shape, make_grid
+from toolkit.fe.grid import grid_shape
 
 MESSAGE = re.compile(r"needs about (?P<need>[\d.]+) (?P<unit>MB|GB) of memory to (?P<verb>analyse|optimise)")
 HINT = re.compile(r"Raise element_size to at least (?P<size>[\d.]+) mm \((?P<nx>\d+) x (?P<ny>\d+) elements\)")
@@ -84,11 +84,11 @@ def test_a_larger_filter_costs_more_until_it_runs_by_fft():
     assert wide > base and fft == base
 
 
-def test_make_grid_refuses_a_grid_over_the_budget_and_names_a_size_that_fits(monkeypatch):
+def test_a_stage_grid_refuses_a_grid_over_the_budget_and_names_a_size_that_fits(monkeypatch):
     # 4200 x 800 mm at 5 mm: 840 x 160 elements, against a 150 MB budget.
     _budget(monkeypatch, 150e6)
     with pytest.raises(LacunaError) as caught:
-        make_grid(4200.0, 800.0, 5.0)
+        limits.grid_within_memory(4200.0, 800.0, 5.0)
     error = caught.value
     assert error.where == "[panel] element_size"
     assert "840 x 160 elements" in error.message and MESSAGE.search(error.message).group("verb") == "analyse"
@@ -97,12 +97,12 @@ def test_make_grid_refuses_a_grid_over_the_budget_and_names_a_size_that_fits(mon
     m = HINT.search(error.hint)
     size = float(m.group("size"))
     # The size named fits the same budget, and gives the grid the hint says.
-    grid = make_grid(4200.0, 800.0, size)
+    grid = limits.grid_within_memory(4200.0, 800.0, size)
     assert (grid.nx, grid.ny) == (int(m.group("nx")), int(m.group("ny")))
     # ... and it is the smallest that does at two significant figures (the next one down does not).
     step = 10.0 ** (len(str(int(size))) - 2) if size >= 10 else 0.1 if size >= 1 else 0.01
     with pytest.raises(LacunaError):
-        make_grid(4200.0, 800.0, size - step)
+        limits.grid_within_memory(4200.0, 800.0, size - step)
 
 
 def test_the_hint_reads_like_the_issue_example():

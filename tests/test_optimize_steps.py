@@ -5,6 +5,7 @@ import pytest
 
 from toolkit.errors import LacunaError
 from toolkit.fe.grid import Grid
+from toolkit import limits
 from toolkit.optimize import filters
 from toolkit.optimize.filters import SensitivityFilter
 from toolkit.optimize.settings import OptimizeSettings, ZoneSettings
@@ -40,12 +41,12 @@ def test_filter_fft_path_equals_sparse_path(monkeypatch):
     g = Grid(17, 9, 1.0, 1.2)
     a = np.random.default_rng(4).random(g.n_elements)
     sparse = SensitivityFilter(g, 3.3)
-    monkeypatch.setattr(filters, "_SPARSE_LIMIT", -1)
+    monkeypatch.setattr(limits, "FILTER_SPARSE_LIMIT", -1)
     fft = SensitivityFilter(g, 3.3)
     assert sparse.matrix is not None and fft.matrix is None
     assert np.allclose(sparse(a), fft(a), rtol=0, atol=1e-13)
     # Large grids keep the filter's two factors apart instead of their product: the same operator again.
-    monkeypatch.setattr(filters, "_SPARSE_LIMIT", 200)
+    monkeypatch.setattr(limits, "FILTER_SPARSE_LIMIT", 200)
     monkeypatch.setattr(filters, "_PRODUCT_LIMIT", 0)
     apart = SensitivityFilter(g, 3.3)
     assert apart.matrix is None and apart._W is not None

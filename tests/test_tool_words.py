@@ -16,7 +16,7 @@ import pytest
 from shapely.geometry import LineString, Point, Polygon
 
 from toolkit.errors import LacunaError
-from toolkit.jobfile import VoidOptions
+from toolkit.voids.settings import VoidOptions
 from toolkit.model import Material, Panel, Rules
 from toolkit.rules.profiles import PROFILE_DIR, TOOL_FAMILIES, list_profiles, load_profile, read_profile_file, rules_for
 from toolkit.voids.layout import rationalise

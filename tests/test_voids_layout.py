@@ -12,7 +12,7 @@ from shapely import affinity
 from shapely.geometry import LineString, Point, Polygon, box
 
 from toolkit.errors import LacunaError
-from toolkit.jobfile import DEFAULT_BORE_DIAMETERS_MM, VoidOptions
+from toolkit.voids.settings import DEFAULT_BORE_DIAMETERS_MM, VoidOptions
 from toolkit.model import Material, Panel, Region, Rules, Support
 from toolkit.rules.check import check_layout
 from toolkit.voids.layout import energy_sampler, mean_over, rationalise

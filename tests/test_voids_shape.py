@@ -21,7 +21,7 @@ import pytest
 from shapely.geometry import box
 
 from toolkit.fe.grid import make_grid
-from toolkit.jobfile import VoidOptions
+from toolkit.voids.settings import VoidOptions
 from toolkit.model import Material, Panel, PointLoad, Rules, Support
 from toolkit.voids.layout import rationalise
 from toolkit.voids.outline import Draft

@@ -16,7 +16,8 @@ from shapely.geometry import LineString, Point, Polygon, box
 
 from test_voids_layout import brute_force_problems
 from toolkit.errors import LacunaError
-from toolkit.jobfile import DEFAULT_BORE_DIAMETERS_MM, VoidOptions, parse_job
+from toolkit.jobfile import parse_job
+from toolkit.voids.settings import DEFAULT_BORE_DIAMETERS_MM, VoidOptions
 from toolkit.model import LineLoad, Material, Panel, PointLoad, Region, Rules, Support
 from toolkit.rules.check import check_layout
 from toolkit.voids.layout import rationalise

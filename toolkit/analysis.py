@@ -10,7 +10,8 @@ from .fe.assembly import Assembler
 from .fe.boundary import check_mechanism, fixed_dofs, where_text
 from .fe.element import q4_stiffness
 from .fe.fractions import solid_fractions
-from .fe.grid import Grid, make_grid
+from .fe.grid import Grid
+from .limits import grid_within_memory
 from .fe.loads import load_matrix
 from .fe.solve import LinearSolver
 from .fe.stress import element_stresses, von_mises
@@ -56,7 +57,7 @@ class Analysis:
 
 def analyze(panel: Panel, grid: Grid | None = None) -> Analysis:
     """Solve the panel as drawn (openings cut exactly from the grid) for every load case."""
-    grid = grid or make_grid(panel.width_mm, panel.height_mm, panel.element_size_mm)
+    grid = grid or grid_within_memory(panel.width_mm, panel.height_mm, panel.element_size_mm)
     solid = panel.solid
     fractions = solid_fractions(grid, solid)
     active = fractions > MIN_FRACTION

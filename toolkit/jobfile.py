@@ -20,9 +20,10 @@ from importlib import resources
 from pathlib import Path
 
 from .errors import LacunaError
-from .optimize.settings import OptimizeSettings
+from .optimize.settings import SYMMETRIES, OptimizeSettings
 from .model import Layers, LineLoad, Load, Material, MovingLoad, Point, PointLoad, Support
 from .units import MM_PER_UNIT
+from .voids.settings import CORNERS, FAMILIES, VoidOptions
 
 TEMPLATE_RESOURCE = "data/job_template.toml"  # package data beside this module
 
@@ -38,30 +39,6 @@ class PanelOptions:
     element_size_mm: float | None = None
     name: str = ""
     self_weight: bool = False
-
-
-DEFAULT_BORE_DIAMETERS_MM = (20.0, 25.0, 32.0, 40.0, 50.0, 65.0, 80.0, 100.0, 125.0, 150.0)
-
-
-@dataclass(frozen=True)
-class VoidOptions:
-    """[voids]: how the optimiser's freeform holes become voids a shop can make (lengths in mm)."""
-
-    family: str = "polygon"
-    sides: int = 6
-    bore_diameters_mm: tuple[float, ...] = DEFAULT_BORE_DIAMETERS_MM
-    max_types: int = 3
-    snap_mm: float = 5.0
-    corner: str = "none"
-    corner_size_mm: float | None = None
-    slot_widths_mm: tuple[float, ...] | None = None  # None: the bore diameters (a slot is cut with a bit)
-    # Mirror-symmetric layout: True, False, or None to follow [optimize] symmetry. The reader copies that
-    # setting into ``optimize_symmetry`` so the voids stage needs nothing but these options (docs/voids.md).
-    symmetric: bool | None = None
-    optimize_symmetry: str = "none"
-    # n-gons: True makes every one regular (equal sides and angles, a stock former or template); False lets each
-    # take the irregular convex shape that fills its freeform void best, scheduled by its corners.
-    regular: bool = False
 
 
 @dataclass(frozen=True)
@@ -139,9 +116,6 @@ TOP_KEYS: tuple[str, ...] = ("units", "panel", "material", "layers", "support", 
                              "voids", "rules", "moving_load")
 ARRAY_TABLES = ("support", "load", "moving_load")
 
-SYMMETRIES = ("none", "x", "y", "xy")
-FAMILIES = ("polygon", "slot", "bore", "mixed")
-CORNERS = ("none", "chamfer", "radius")
 FIXITIES = ("xy", "x", "y")
 
 N_PER_KN = 1000.0

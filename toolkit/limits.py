@@ -18,8 +18,12 @@ import os
 from pathlib import Path
 
 from .errors import LacunaError
-from .fe.grid import grid_shape
+from .fe.grid import Grid, grid_shape, make_grid
 
+# Above this many element-node pairs per element the optimiser's filter (toolkit/optimize/filters.py) runs as an
+# FFT convolution instead of a sparse matrix: with a radius of 24 elements on a 600 x 200 grid the matrix would
+# hold some 200 million entries. Below it the matrix's weights count in the memory estimate.
+FILTER_SPARSE_LIMIT = 200
 # kB (1024 bytes) per element = a + b * log2(ne); benchmarks/bench_load.py memory, 2 cores, Python 3.11, the
 # default ("auto") solver: multifrontal nested dissection from 20,000 dofs, SuperLU below. "analysis": one solid
 # analysis. "optimize": the solid analysis kept while BESO runs. (With SuperLU alone at every size the same
@@ -67,8 +71,6 @@ def peak_memory_bytes(nx: int, ny: int, dx: float = 1.0, dy: float = 1.0, *, sta
 
     ``dx``, ``dy`` (mm) and ``filter_radius_mm`` matter only for the optimiser's filter; safety margin included.
     """
-    from .optimize.filters import _SPARSE_LIMIT
-
     if stage not in STAGES:
         raise ValueError(f"stage must be one of {STAGES}, got {stage!r}")
     ne = float(nx) * float(ny)
@@ -76,7 +78,7 @@ def peak_memory_bytes(nx: int, ny: int, dx: float = 1.0, dy: float = 1.0, *, sta
     per_element = a + b * math.log2(max(ne, 2.0)) + PER_EXTRA_CASE_KB * max(int(cases) - 1, 0)
     if stage == "optimize":
         weights = _filter_weights(dx, dy, filter_radius_mm)
-        if weights <= _SPARSE_LIMIT:
+        if weights <= FILTER_SPARSE_LIMIT:
             per_element += PER_FILTER_WEIGHT_KB * max(weights - DEFAULT_FILTER_WEIGHTS, 0)
     return SAFETY * 1024.0 * per_element * ne + FIXED_BYTES
 
@@ -139,7 +141,8 @@ def smallest_element_size(width_mm: float, height_mm: float, budget_bytes: float
     return size
 
 
-def _amount(n_bytes: float) -> str:
+def amount_text(n_bytes: float) -> str:
+    """A memory amount for a message: MB, GB or TB with the digits that matter."""
     if n_bytes >= 1e12:
         return f"{n_bytes / 1e12:,.0f} TB" if n_bytes >= 100e12 else f"{n_bytes / 1e12:.2g} TB"
     if n_bytes >= 10e9:
@@ -167,8 +170,17 @@ def check_memory(nx: int, ny: int, dx: float, dy: float, *, stage: str = "analys
         hint = (f"Raise element_size to at least {fit:g} mm ({fx} x {fy} elements), or run on a machine with "
                 "more memory.")
     raise LacunaError(
-        f"this grid ({nx} x {ny} elements of {dx:.4g} x {dy:.4g} mm) needs about {_amount(need)} of memory to "
-        f"{verb}, and about {_amount(budget)} is free.",
+        f"this grid ({nx} x {ny} elements of {dx:.4g} x {dy:.4g} mm) needs about {amount_text(need)} of memory to "
+        f"{verb}, and about {amount_text(budget)} is free.",
         where="[panel] element_size",
         hint=hint,
     )
+
+
+def grid_within_memory(width_mm: float, height_mm: float, element_size_mm: float | None = None,
+                       target_elements: int = 20000) -> Grid:
+    """:func:`toolkit.fe.grid.make_grid`, refused before anything is allocated when the grid's analysis would not
+    fit in the free memory (:func:`check_memory`, naming the element size that would fit)."""
+    nx, ny = grid_shape(width_mm, height_mm, element_size_mm, target_elements)
+    check_memory(nx, ny, width_mm / nx, height_mm / ny, stage="analysis")
+    return make_grid(width_mm, height_mm, element_size_mm, target_elements)

@@ -186,7 +186,7 @@ def check_memory(counts, *, nx: int, ny: int, dx: float, dy: float, other_cases:
     its displacements, forces, stresses and element energies; toolkit.limits has the measured law). When even
     one stop per travelling load does not fit, the grid is at fault and this check leaves it to the grid's own.
     """
-    from .limits import _amount, available_memory_bytes, peak_memory_bytes
+    from .limits import amount_text, available_memory_bytes, peak_memory_bytes
 
     counts = list(counts)
     if not counts:
@@ -210,7 +210,7 @@ def check_memory(counts, *, nx: int, ny: int, dx: float, dy: float, other_cases:
     verb = "analyse" if stage == "analysis" else "optimise"
     raise LacunaError(
         f"{n:,} stops make {total:,} load cases with the panel's other loads; on this grid ({nx} x {ny} elements) "
-        f"they need about {_amount(need(total))} of memory to {verb}, and about {_amount(budget)} is free: at most "
+        f"they need about {amount_text(need(total))} of memory to {verb}, and about {amount_text(budget)} is free: at most "
         f"{max(room, 1):,} stops of this load fit (every load case keeps its own displacements, stresses and "
         "element energies).",
         where=f"{source} {key}",

@@ -94,9 +94,9 @@ def _read(doc, layers: Layers, path: str, join_mm: float, chord_mm: float, warni
     r = Reading(path, unit, mm_per(unit), _reference_point(outline_items), join_mm, chord_mm, warnings)
 
     width, height, outline_handles = _outline(outline_items, layers.outline, r)
-    openings = regions(_loops(by_layer.get(layers.openings.casefold(), []), layers.openings, "opening", r),
+    openings = regions(closed_loops(by_layer.get(layers.openings.casefold(), []), layers.openings, "opening", r),
                        layers.openings, "opening", width, height, r)
-    keep = regions(_loops(by_layer.get(layers.keep.casefold(), []), layers.keep, "keep zone", r),
+    keep = regions(closed_loops(by_layer.get(layers.keep.casefold(), []), layers.keep, "keep zone", r),
                    layers.keep, "keep zone", width, height, r)
     found_supports = supports(by_layer.get(layers.support.casefold(), []), layers.support, width, height, openings, r)
     found_loads = loads(by_layer.get(layers.load.casefold(), []), layers.load, width, height, openings, r)
@@ -181,7 +181,8 @@ def _outline(items: list[Item], layer: str, r: Reading) -> tuple[float, float, t
     return float(width), float(height), tuple(loop.handles)
 
 
-def _loops(items: list[Item], layer: str, what: str, r: Reading) -> list[Piece]:
+def closed_loops(items: list[Item], layer: str, what: str, r: Reading) -> list[Piece]:
+    """The closed loops drawn on ``layer`` (annotation skipped with a warning; an open chain refused)."""
     pieces: list[Piece] = []
     for item in items:
         if item.kind in ANNOTATION:

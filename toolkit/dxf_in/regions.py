@@ -20,7 +20,7 @@ def regions(loops: list[Piece], layer: str, what: str, width: float, height: flo
     shapes: list[tuple[Polygon, tuple[str, ...]]] = []
     hatches: dict[str, list[Polygon]] = {}
     for loop in loops:
-        poly = _polygon(loop, layer, r)
+        poly = loop_polygon(loop, layer, r)
         if loop.kinds[0] in ("HATCH", "MPOLYGON"):
             hatches.setdefault(loop.handles[0], []).append(poly)
         else:
@@ -94,7 +94,8 @@ def _unite_overlaps(shapes, layer: str, what: str, eps: float, r: Reading) -> tu
     return tuple(out)
 
 
-def _polygon(loop: Piece, layer: str, r: Reading) -> Polygon:
+def loop_polygon(loop: Piece, layer: str, r: Reading) -> Polygon:
+    """A closed loop as a polygon in the local frame; refused when it has no area or crosses itself."""
     ring = flatten(loop.points, loop.bulges, True, r.chord_tol)
     poly = Polygon(r.to_local(ring))
     labels = _handle_labels(loop)

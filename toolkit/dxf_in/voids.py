@@ -31,10 +31,10 @@ from shapely.geometry import Polygon
 
 from ..errors import LacunaError
 from ..model import Frame, Void
-from . import _loops
+from . import closed_loops
 from .pieces import Piece, flatten
 from .reading import Reading
-from .regions import _polygon
+from .regions import loop_polygon
 from .source import Item, model_items
 
 # CONTRACT.md output layers; a hand-drawn layout for `lacuna check` uses the same ones.
@@ -78,9 +78,9 @@ def read_voids(doc: DxfDocument, frame: Frame, layers: Sequence[str] | None = No
             continue
         layer = items[0].layer
         hatches: dict[str, list[Polygon]] = {}
-        for loop in _loops(items, layer, "void", r):
+        for loop in closed_loops(items, layer, "void", r):
             if loop.kinds[0] in ("HATCH", "MPOLYGON"):
-                hatches.setdefault(loop.handles[0], []).append(_polygon(loop, layer, r))
+                hatches.setdefault(loop.handles[0], []).append(loop_polygon(loop, layer, r))
             else:
                 voids.append(_void_of(loop, layer, r))
         for handle, polys in hatches.items():
@@ -123,7 +123,7 @@ def _void_of(loop: Piece, layer: str, r: Reading) -> Void:
                            np.ones(2), True, CHORD_MM)
             return Void(id=ident, family="bore", centre=centre, size_mm=diameter, shape=Polygon(ring),
                         handle=handles, layer=layer)
-    shape = _polygon(loop, layer, r)  # refuses a shape with no area or one that crosses itself
+    shape = loop_polygon(loop, layer, r)  # refuses a shape with no area or one that crosses itself
     outline = tuple((float(x), float(y), float(b)) for (x, y), b in zip(pts, bulges)) if not loop.curved else ()
     if not loop.curved:
         slot = _stadium(pts, bulges)

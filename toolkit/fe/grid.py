@@ -130,13 +130,10 @@ def make_grid(
 ) -> Grid:
     """A grid covering width x height exactly, elements near ``element_size_mm`` (or about ``target_elements``).
 
-    A grid whose analysis would not fit in the free memory is refused before anything is allocated
-    (:func:`toolkit.limits.check_memory`, with the element size that would fit).
+    Only the absolute cap is checked here; the stages check the grid against the free memory first
+    (:func:`toolkit.limits.grid_within_memory`).
     """
-    from ..limits import check_memory
-
     nx, ny = grid_shape(width_mm, height_mm, element_size_mm, target_elements)
-    check_memory(nx, ny, width_mm / nx, height_mm / ny, stage="analysis")
     if nx * ny > 5_000_000:
         raise LacunaError(
             f"the element size gives {nx} x {ny} elements, too many to solve here.",

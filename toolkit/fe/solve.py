@@ -9,13 +9,13 @@ from functools import lru_cache
 import numpy as np
 import scipy.sparse as sp
 import scipy.sparse.linalg as spla
-from threadpoolctl import ThreadpoolController  # holds BLAS to one thread where that pays (_BlasOneThread)
+from threadpoolctl import ThreadpoolController  # holds BLAS to one thread where that pays (BlasOneThread)
 
 from ..errors import LacunaError
 from .grid import Grid
 
 
-class _BlasOneThread:
+class BlasOneThread:
     """Runs BLAS/LAPACK on one thread inside ``with`` (threadpoolctl).
 
     The fronts are many small dense matrices and a few of a few hundred rows: OpenBLAS's threads gain little
@@ -286,7 +286,8 @@ class _Multifrontal:
         return x
 
 
-def _sorted_csc(K: sp.spmatrix) -> sp.csc_matrix:
+def sorted_csc(K: sp.spmatrix) -> sp.csc_matrix:
+    """K as CSC with sorted row indices (the form the factorisers and the pattern checks expect)."""
     K = sp.csc_matrix(K)
     return K if K.has_sorted_indices else K.sorted_indices()
 
@@ -415,7 +416,7 @@ class LinearSolver:
             raise ValueError(f"unknown solver backend {backend!r}")
         if backend == "multifrontal" and grid is None:
             raise ValueError("the multifrontal backend needs the grid")
-        K = _sorted_csc(K)
+        K = sorted_csc(K)
         n = K.shape[0]
         if grid is not None and grid.n_dofs != n:
             raise ValueError(f"grid has {grid.n_dofs} dofs, the matrix {n}")
@@ -435,7 +436,7 @@ class LinearSolver:
                 if backend == "multifrontal":
                     raise
             else:
-                self._one_thread = _BlasOneThread()
+                self._one_thread = BlasOneThread()
                 self.backend = "multifrontal"
                 self.refactor(K)
                 return
@@ -470,7 +471,7 @@ class LinearSolver:
 
     def refactor(self, K: sp.spmatrix) -> None:
         """Factorise a new matrix of the same sparsity pattern as the one given at construction."""
-        data = _sorted_csc(K).data if sp.issparse(K) else np.asarray(K)
+        data = sorted_csc(K).data if sp.issparse(K) else np.asarray(K)
         if self.backend == "multifrontal":
             with self._one_thread():
                 self._frontal.factor(data)

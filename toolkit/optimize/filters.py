@@ -8,11 +8,9 @@ import numpy as np
 import scipy.sparse as sp
 
 from ..errors import LacunaError
+from .. import limits
 from ..fe.grid import Grid
 
-# Above this many element-node pairs per element the filter runs as an FFT convolution: a sparse matrix with
-# a radius of 24 elements on a 600 x 200 grid would hold some 200 million entries.
-_SPARSE_LIMIT = 200
 # Above this many elements the filter keeps its two factors apart rather than their product (see _sparse).
 _PRODUCT_LIMIT = 250_000
 
@@ -48,7 +46,7 @@ class SensitivityFilter:
         self._kernel = np.maximum(radius_mm - dist, 0.0)  # [oy + ky, ox + kx]
         self.matrix: sp.csr_matrix | None = None
         self._W: sp.csr_matrix | None = None
-        if np.count_nonzero(self._kernel) <= _SPARSE_LIMIT:
+        if np.count_nonzero(self._kernel) <= limits.FILTER_SPARSE_LIMIT:
             self.matrix = self._sparse(grid)
         else:
             self._norm = self._correlate(np.ones((ny + 1, nx + 1)))

@@ -7,7 +7,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import LacunaError
-from ..fe.grid import Grid, make_grid
+from ..fe.grid import Grid
+from ..limits import grid_within_memory
 from ..model import Panel
 from .settings import ZoneSettings
 from .zones import Zones, non_design_zones
@@ -55,7 +56,7 @@ def build_problem(panel: Panel, zones: ZoneSettings, element_size_mm: float | No
     from ..fe.loads import load_matrix
 
     size = element_size_mm if element_size_mm is not None else panel.element_size_mm
-    grid = make_grid(panel.width_mm, panel.height_mm, size)
+    grid = grid_within_memory(panel.width_mm, panel.height_mm, size)
     solid = panel.solid
     fractions = solid_fractions(grid, solid)
     active = fractions > 0.0

@@ -55,7 +55,8 @@ def major_axis_deg(region) -> float:
     return principal_axes(Polygon(region.exterior))[0]
 
 
-def _inscribed(region, tol: float | None = None) -> tuple[np.ndarray, float]:
+def inscribed_circle(region, tol: float | None = None) -> tuple[np.ndarray, float]:
+    """The centre and radius of the largest circle inside ``region`` (to a tolerance scaled to its size)."""
     tol = tol if tol is not None else max(1e-3, 5e-3 * math.sqrt(max(region.area, 1e-12)))
     mic = shapely.maximum_inscribed_circle(region, tol)
     xy = shapely.get_coordinates(mic)
@@ -240,7 +241,7 @@ def fit_inside(region, pts: np.ndarray, feature: float = 0.0) -> np.ndarray | No
     Centres tried: the polygon's own centroid and the region's largest inscribed circle's centre.
     """
     pts = np.asarray(pts, dtype=float)
-    centres = [pts.mean(axis=0), _inscribed(region)[0]]
+    centres = [pts.mean(axis=0), inscribed_circle(region)[0]]
     shapely.prepare(region)
     best = None
     for c in centres:
@@ -295,7 +296,7 @@ def regular_ngon(region, sides: int, feature: float = 0.0, turns: int = 12
     radius r0 times cos(pi/n) (fits at the circle's centre) and r0 / cos(pi/n); bisection on every (centre, turn)
     candidate at once.
     """
-    c0, r0 = _inscribed(region)
+    c0, r0 = inscribed_circle(region)
     if r0 <= 0:
         return None
     ang = math.radians(major_axis_deg(region))
@@ -379,7 +380,7 @@ def inscribed_slot(region, widths, angle_deg: float | None = None, fan_deg=(0.0,
     as long as the region could still remove more than the best found.
     """
     angle = major_axis_deg(region) if angle_deg is None else angle_deg
-    _, r0 = _inscribed(region)
+    _, r0 = inscribed_circle(region)
     reach = 2.0 * float(shapely.minimum_bounding_radius(region))
     best = None
     fan = np.asarray(fan_deg, dtype=float)
@@ -449,7 +450,7 @@ def greedy_bores(region, stock, web_of, start=(), limit: int = 64) -> list[tuple
              for x, y, d in placed]))
     out = []
     while len(out) < limit and not room.is_empty and room.area > 0:
-        c, r = _inscribed(room)
+        c, r = inscribed_circle(room)
         fits = [d for d in stock if d / 2.0 <= r * (1.0 + 1e-9)]
         if not fits:
             break
@@ -466,7 +467,7 @@ def packed_bores(region, stock, web_of, angle_deg: float | None = None) -> list[
     stock = sorted({float(d) for d in stock}, reverse=True)
     if not stock:
         return []
-    _, r0 = _inscribed(region)
+    _, r0 = inscribed_circle(region)
     angle = major_axis_deg(region) if angle_deg is None else angle_deg
     options = [greedy_bores(region, stock, web_of)]
     for d in [s for s in stock if s <= 2.0 * r0][:3]:
@@ -547,7 +548,7 @@ def slot_rows(region, widths, web_of, angle_deg: float | None = None, most: int 
     a = math.radians(angle)
     turned = shapely.transform(region, lambda xy: _rotate(xy, a))
     x0, y0, x1, y1 = turned.bounds
-    _, r0 = _inscribed(region)
+    _, r0 = inscribed_circle(region)
     best: tuple[float, list] = (0.0, [])
     for w in sorted({float(x) for x in widths if x <= 2.0 * r0}, reverse=True)[:3]:
         core = shapely.buffer(turned, -w / 2.0, quad_segs=8)

@@ -67,7 +67,9 @@ def fit_error(shape, target: Polygon) -> float:
     return float(shapely.area(overlay(shapely.symmetric_difference, shape, target)) / target.area)
 
 
-def _objective(target: Polygon, allowed):
+def overlay_error(target: Polygon, allowed):
+    """A cost of a candidate shape: its symmetric difference from ``target`` (and a penalty outside ``allowed``)
+    as a share of the target's area."""
     area = target.area
     shapely.prepare(target)
 
@@ -116,7 +118,7 @@ def fit_polygon(target: Polygon, sides: int, *, allowed=None, refine: bool = Tru
         raise LacunaError(f"a polygon void has 3 to 12 sides, got {sides!r}.", where="[voids] sides",
                           hint="Set sides to a whole number from 3 to 12, e.g. 6.")
     n = sides
-    cost = _objective(target, allowed)
+    cost = overlay_error(target, allowed)
     area, (cx, cy), _ = second_moments(target)
     angle, (r1, r2) = principal_axes(target)
     # Semi-axes of the affine n-gon with the void's area and its principal-axis aspect ratio.
@@ -232,7 +234,7 @@ def fit_slot(target: Polygon, widths, *, allowed=None, source: int = 0) -> Draft
     if not widths:
         raise LacunaError("no slot widths to choose from.", where="[voids] slot_widths",
                           hint="List the cutter widths, e.g. slot_widths = [20, 32, 50].")
-    cost = _objective(target, allowed)
+    cost = overlay_error(target, allowed)
     area, (cx, cy), _ = second_moments(target)
     angle, _ = principal_axes(target)
     turn = math.radians(angle)

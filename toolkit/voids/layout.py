@@ -36,22 +36,19 @@ import shapely
 from shapely.geometry import Polygon
 
 from ..errors import LacunaError
-from ..jobfile import VoidOptions
 from ..model import Panel, Rules, Void
 from ..rules import check as rule_check
-from .cover import _inscribed as cover_inscribed
-from .cover import (hex_cells, hull_ngon, inscribed_slot, largest_part, major_axis_deg, packed_bores,
-                    regular_corners, regular_ngon, slot_rows, split)
+from .cover import (hex_cells, hull_ngon, inscribed_circle, inscribed_slot, largest_part, major_axis_deg,
+                    packed_bores, regular_corners, regular_ngon, slot_rows, split)
 from .fit import fit_error, fit_polygon, fit_slot, overlay
 from .measure import FreeformVoid, clean, inscribed_width
 from .outline import Draft
 from .shape import shape_ok
+from .settings import CORNERS, FAMILIES, VoidOptions
 from .standardise import snap_centres, standardise_sizes
 from .symmetry import (Mirror, fold, layout_mirror, split_centre, symmetric_bores, symmetric_polygon,
                        symmetric_slot)
 
-FAMILIES = ("polygon", "slot", "bore", "mixed")
-CORNERS = ("none", "chamfer", "radius")
 # Every rule is kept with this much to spare, so the check on differently flattened arcs agrees (mm).
 SAFETY_MM = 0.05
 SHRINK_STEPS = tuple(1.0 - 0.05 * k for k in range(11))  # down to half size
@@ -695,13 +692,13 @@ def lattice_layout(allowed, family: str, r: Resolved, score, *, source: int = -1
         row = pitch * math.sqrt(3.0) / 2.0
         # Offsets along the rows, and across them: the plain one and the one putting a row through the middle of
         # the region's depth (a band one void deep holds one row).
-        centre_y = cover_inscribed(region)[0][1]
+        centre_y = inscribed_circle(region)[0][1]
         through = ((centre_y - (region.bounds[1] - row)) / row) % 1.0
         for offset in [(ox, oy) for oy in (0.0, through) for ox in (0.0, 0.5)]:
             pieces = hex_cells(region, pitch, web, 0.0, offset)
             drafts = []
             for i, p in enumerate(pieces):
-                c, radius = cover_inscribed(p)  # one search: its centre and radius go together
+                c, radius = inscribed_circle(p)  # one search: its centre and radius go together
                 if 2.0 * radius < r.min_void_mm:
                     continue
                 if family == "bore":

@@ -21,7 +21,7 @@ import scipy.sparse.linalg as spla
 
 from ..errors import LacunaError
 from ..fe.grid import Grid
-from ..fe.solve import LinearSolver, _BlasOneThread, _sorted_csc
+from ..fe.solve import LinearSolver, BlasOneThread, sorted_csc
 
 # A piece of an outline whose midpoint lies within this many element sizes of a grid line lies on that line
 # (pieces are cut at every crossing, so any other piece keeps clear of the lines by its own half-length).
@@ -176,7 +176,7 @@ class ReusedSolver:
 
     def __init__(self, K0: sp.spmatrix, free: np.ndarray, grid: Grid, max_iterations: int = 30,
                  rtol: float = 1e-10, backend: str = "auto"):
-        K0 = _sorted_csc(K0)
+        K0 = sorted_csc(K0)
         n = K0.shape[0]
         free = np.asarray(free)
         mask = np.zeros(n, dtype=bool)
@@ -198,7 +198,7 @@ class ReusedSolver:
         self.iterations = 0
         self.last_iterations: tuple[int, ...] = ()
         self._last = None
-        self._one_thread = _BlasOneThread()
+        self._one_thread = BlasOneThread()
         K0, _ = self._softened(K0)
         self._factor = LinearSolver(K0, mask, grid=grid, backend=backend)
         self._factored_diagonal = K0.data[self._diagonal]
@@ -206,7 +206,7 @@ class ReusedSolver:
 
     def _softened(self, K: sp.spmatrix) -> tuple[sp.csc_matrix, np.ndarray]:
         """K with the soft diagonal on its empty free rows, and which free dofs (of ``_idx``) are not empty."""
-        K = _sorted_csc(K)
+        K = sorted_csc(K)
         if not (np.array_equal(K.indptr, self._indptr) and np.array_equal(K.indices, self._indices)):
             raise ValueError("the matrix must have the sparsity pattern of the first one")
         data = K.data.copy()

@@ -38,7 +38,7 @@ from shapely.geometry import LineString, Point, Polygon, box
 
 from ..errors import LacunaError
 from ..model import LineLoad, Panel, PointLoad
-from .fit import MIN_TURN, _objective, bore_room, overlay
+from .fit import MIN_TURN, bore_room, overlay, overlay_error
 from .measure import second_moments
 from .outline import Draft
 
@@ -472,7 +472,7 @@ def symmetric_polygon(draft: Draft, target: Polygon, fixed, mirror: Mirror, allo
     """A polygon draft made symmetric about the mid-lines ``fixed``, centred on them: the nearer (by the fitting's
     own measure) of the fitted n-gon averaged with its mirror images and an affine regular n-gon aligned with the
     mid-lines. None when no n-gon of that many sides can be (an odd n and both mid-lines)."""
-    cost = _objective(target, allowed)
+    cost = overlay_error(target, allowed)
     n = len(draft.corners)
     scale = math.sqrt(max(target.area, 1e-9))
     candidates = []
@@ -493,7 +493,7 @@ def symmetric_polygon(draft: Draft, target: Polygon, fixed, mirror: Mirror, allo
 def symmetric_slot(draft: Draft, target: Polygon, fixed, mirror: Mirror, allowed=None) -> Draft:
     """A slot draft centred on the mid-lines ``fixed`` and turned along or across them (the only turns a mirror
     through its centre maps onto themselves), whichever fits nearer."""
-    cost = _objective(target, allowed)
+    cost = overlay_error(target, allowed)
     centre = list(draft.centre)
     for a in fixed:
         centre[_index(a)] = mirror.about(a)
