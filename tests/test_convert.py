@@ -20,7 +20,8 @@ import numpy as np
 import pytest
 from PIL import Image
 
-from toolkit.convert import LACUNA_NS, change_units, convert, dxf_to_svg, svg_to_dxf
+from toolkit.convert import change_units, convert, dxf_to_svg, svg_to_dxf
+from toolkit.convert.record import LACUNA_NS
 from toolkit.errors import LacunaError
 
 LAYER = f"{{{LACUNA_NS}}}layer"

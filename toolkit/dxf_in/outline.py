@@ -7,8 +7,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ..arcs import sagitta
 from ..errors import LacunaError
-from .pieces import Piece, sagitta
+from .pieces import Piece
 
 # A vertex where the outline turns by less than this is a point along a straight side, not a corner;
 # a corner must be a right angle within the same tolerance.

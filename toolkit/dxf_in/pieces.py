@@ -16,11 +16,8 @@ from ezdxf import path as ezpath
 from ezdxf.edgesmith import is_closed_entity
 from ezdxf.math import arc_angle_span_deg
 
+from ..arcs import bulge_of
 from ..errors import LacunaError
-
-# Each flattened arc gets at least one chord per 45 degrees, so a coarse chord tolerance on a small circle
-# still gives a recognisable shape (a full circle has at least 8 sides).
-MAX_CHORD_ANGLE = math.pi / 4
 
 # Points further than this from the reference point (drawing units; a million km in mm) are damage, not
 # drafting: their squared distances would overflow. NaN fails the comparison too.
@@ -88,7 +85,7 @@ def _pieces_of(item, ref: np.ndarray, flat_tol: float, where: str) -> list[Piece
             return [Piece(pts, np.ones(2), True, *one)]
         span = arc_angle_span_deg(e.dxf.start_angle, e.dxf.end_angle)
         pts = _xy([e.start_point, e.end_point], ref)
-        return [Piece(pts, np.array([sign * math.tan(math.radians(span) / 4)]), False, *one)]
+        return [Piece(pts, np.array([sign * bulge_of(math.radians(span))]), False, *one)]
     if kind == "LWPOLYLINE":
         sign = _extrusion_sign(e, where, item)
         pts = _xy(e.vertices_in_wcs(), ref)
@@ -151,46 +148,6 @@ def unsupported(item, where: str, why: str) -> LacunaError:
 
 def where_of(where: str, item) -> str:
     return f"{where}, layer {item.layer}, {item.kind} {item.handle}"
-
-
-def flatten(points: np.ndarray, bulges: np.ndarray, closed: bool, chord_tol: float) -> np.ndarray:
-    """Vertices of a piece with every arc segment replaced by chords no further than ``chord_tol`` off it.
-
-    Chord points are spread evenly in angle from the arc's start, so the same arc drawn as an ARC or as a
-    polyline bulge flattens to the same points. The result has no repeated closing vertex.
-    """
-    n = len(points)
-    out = []
-    for i in range(len(bulges)):
-        p0, p1 = points[i], points[(i + 1) % n]
-        out.append(p0[None, :])
-        if bulges[i] != 0.0:
-            out.append(arc_chord_points(p0, p1, float(bulges[i]), chord_tol))
-    if not closed:
-        out.append(points[-1][None, :])
-    return np.concatenate(out) if out else points.copy()
-
-
-def arc_chord_points(p0: np.ndarray, p1: np.ndarray, bulge: float, chord_tol: float) -> np.ndarray:
-    """The inner chord points of the arc from p0 to p1 with the given bulge (end points excluded)."""
-    theta = 4.0 * math.atan(bulge)
-    d = p1 - p0
-    chord = math.hypot(d[0], d[1])
-    if chord == 0.0:
-        return np.empty((0, 2))
-    normal = np.array([-d[1], d[0]]) / chord
-    centre = (p0 + p1) / 2 + normal * (chord / 2) / math.tan(theta / 2)
-    radius = abs(chord / 2 / math.sin(theta / 2))
-    step = 2.0 * math.acos(max(-1.0, 1.0 - chord_tol / radius))
-    count = max(math.ceil(abs(theta) / min(step, MAX_CHORD_ANGLE) - 1e-9), 1)
-    start = math.atan2(p0[1] - centre[1], p0[0] - centre[0])
-    angles = start + theta * np.arange(1, count) / count
-    return centre + radius * np.column_stack([np.cos(angles), np.sin(angles)])
-
-
-def sagitta(p0: np.ndarray, p1: np.ndarray, bulge: float) -> float:
-    """How far an arc segment bows away from its chord (zero for a straight one)."""
-    return math.dist(p0, p1) / 2 * abs(bulge)
 
 
 def _polyline_piece(pts: np.ndarray, bulges: np.ndarray, closed: bool, one) -> Piece:

@@ -6,9 +6,10 @@ import shapely
 from shapely.geometry import Polygon, box
 from shapely.strtree import STRtree
 
+from ..arcs import flatten
 from ..errors import LacunaError
 from ..model import Region
-from .pieces import Piece, flatten
+from .pieces import Piece
 from .reading import Reading
 
 

@@ -29,10 +29,11 @@ import shapely
 from ezdxf.document import Drawing as DxfDocument
 from shapely.geometry import Polygon
 
+from ..arcs import flatten
 from ..errors import LacunaError
 from ..model import Frame, Void
 from . import closed_loops
-from .pieces import Piece, flatten
+from .pieces import Piece
 from .reading import Reading
 from .regions import loop_polygon
 from .source import Item, model_items

@@ -16,7 +16,7 @@ import numpy as np
 import shapely
 from shapely.geometry import Polygon
 
-from ..dxf_in.pieces import flatten
+from ..arcs import bulge_of, flatten
 from ..model import Point, Void
 from .measure import following, preceding
 
@@ -271,7 +271,7 @@ def eased_outline(points: np.ndarray, corner: str, size: float):
     for i in range(n):
         a = pts[i] + back[i] * u_prev[i]
         b = pts[i] + back[i] * u_next[i]
-        bulge = 0.0 if corner == "chamfer" else math.tan(turn[i] / 4.0)
+        bulge = 0.0 if corner == "chamfer" else bulge_of(turn[i])
         out.append((float(a[0]), float(a[1]), bulge))
         out.append((float(b[0]), float(b[1]), 0.0))
     return tuple(out)

@@ -1,242 +1,30 @@
-"""`lacuna convert`: DXF -> SVG (chosen layers), SVG -> DXF (closed paths), DXF -> DXF in another length unit.
+"""SVG -> closed outlines: every closed path, rect, circle, ellipse and polygon of an SVG as a closed run of
+(x, y, bulge) vertices (or a circle), in the unit of the drawing it is to become.
 
-- DXF -> SVG draws with ezdxf's drawing add-on and its SVG back end, sized in millimetres at 1:1 (or 1:N).
-  Each layer becomes a group; a ``metadata`` element records the exact map from SVG coordinates back to the
-  drawing (unit and affine), so an SVG made here converts back to the drawing's own coordinates.
-- SVG -> DXF turns every closed path, rect, circle, ellipse and polygon into a closed LWPOLYLINE (or a CIRCLE),
-  keeping circular arcs as bulges. Circular arcs are recognised as SVG arc commands with rx == ry, and as
-  cubic Béziers that are the standard approximation of an arc (control arms 4/3 tan(sweep/4) r along the
-  tangents), which is how most programs, ezdxf's drawing add-on among them, write arcs. Anything else curved is
-  flattened to within ``chord_mm``. Open paths are left out (listed in ``messages``).
-- DXF -> DXF changes the length unit: model space is scaled about the origin and $INSUNITS set together.
-
-The functions return the new file's content; writing it (atomically) is the caller's job.
+Circular arcs are kept as bulges. They are recognised as SVG arc commands with rx == ry, and as cubic Béziers
+that are the standard approximation of an arc (control arms 4/3 tan(sweep/4) r along the tangents), which is how
+most programs, ezdxf's drawing add-on among them, write arcs. Anything else curved is flattened to within
+``chord_mm``. Open paths are left out (counted in ``messages``).
 """
 
 from __future__ import annotations
 
 import math
-import os
 import re
 import xml.etree.ElementTree as ET
 from dataclasses import dataclass
-from pathlib import Path
 
-import ezdxf
 import numpy as np
-from ezdxf import bbox
-from ezdxf.addons.drawing import Frontend, RenderContext, layout as draw_layout, svg as draw_svg
-from ezdxf.addons.drawing.config import BackgroundPolicy, Configuration
-from ezdxf.document import Drawing as DxfDocument
-from ezdxf.lldxf import const
-from ezdxf.math import Matrix44
 
-from .dxf_in.pieces import ENTITY_DATA_ERRORS
-from .dxf_out import dxf_version_code, serialise
-from .errors import LacunaError
-from .units import INSUNITS_TO_UNIT, MM_PER_UNIT, UNIT_TO_INSUNITS, mm_per
+from ..arcs import bulge_of, merge_arcs, whole_circle
+from ..errors import LacunaError
+from ..units import mm_per
+from .record import LACUNA_NS, read_record
 
-SVG_NS = "http://www.w3.org/2000/svg"
-LACUNA_NS = "urn:lacuna:svg:drawing:1"
 DEFAULT_LAYER = "0"
-# SVG coordinates are written as integers (ezdxf's SVG back end): mapping the drawing's extent onto 1e15 keeps
-# a resolution of 1e-15 of the extent, far below 1e-6 of a drawing unit, and below 2**53 where doubles
-# stop holding every integer.
-COORDINATE_SPACE = 1e15
-PAGE_MARGIN_MM = 5.0
 # CSS absolute units in mm (CSS Values and Units Level 3, section 6.2: 1in = 96px = 2.54cm = 72pt = 6pc).
 CSS_MM = {"mm": 1.0, "cm": 10.0, "in": 25.4, "px": 25.4 / 96.0, "pt": 25.4 / 72.0, "pc": 25.4 / 6.0, "q": 0.25}
 
-ET.register_namespace("lacuna", LACUNA_NS)
-
-
-# --------------------------------------------------------------------------------------------- dispatch
-
-
-def convert(in_path, out_path, *, layers: list[str] | None = None, units: str | None = None,
-            scale: float = 1.0, messages: list[str] | None = None) -> bytes:
-    """``lacuna convert IN OUT``: the content of OUT (bytes), chosen by the two file suffixes."""
-    src, dst = Path(in_path), Path(out_path)
-    kinds = (src.suffix.lower(), dst.suffix.lower())
-    where = str(src)
-    if src.resolve() == dst.resolve():
-        raise LacunaError("the output would overwrite the input.", where=str(dst),
-                          hint="Name another output file; lacuna never modifies the files it is given.")
-    if kinds == (".dxf", ".svg"):
-        if units is not None:
-            raise LacunaError("--units changes a DXF drawing's unit; an SVG is always sized in millimetres.",
-                              where=where, hint="Leave out --units, or convert to a .dxf file.")
-        return dxf_to_svg(_open(src), layers=layers, scale=scale, where=where).encode("utf-8")
-    if kinds == (".svg", ".dxf"):
-        text = _read_text(src)
-        return svg_to_dxf(text, layers=layers, unit=units, where=where, messages=messages)
-    if kinds == (".dxf", ".dxf"):
-        if layers:
-            raise LacunaError("--layers picks what to draw in an SVG; a unit change scales the whole drawing.",
-                              where=where, hint="Leave out --layers.")
-        if units is None:
-            raise LacunaError("converting DXF to DXF changes its length unit, and no --units was given.",
-                              where=where, hint=f"Add --units with one of {', '.join(MM_PER_UNIT)}.")
-        return change_units(_open(src), units, where=where, messages=messages)
-    raise LacunaError(
-        f"cannot convert {src.suffix or 'a file without suffix'} to {dst.suffix or 'a file without suffix'}.",
-        where=f"{src} -> {dst}",
-        hint="Convert .dxf to .svg, .svg to .dxf, or .dxf to .dxf with --units.",
-    )
-
-
-def _open(path: Path) -> DxfDocument:
-    from .dxf_in.source import open_document
-
-    doc, _warnings = open_document(os.fspath(path))
-    return doc
-
-
-def _read_text(path: Path) -> str:
-    if not path.is_file():
-        raise LacunaError("no such file.", where=str(path), hint="Check the path and the file name.")
-    try:
-        return path.read_text(encoding="utf-8")
-    except UnicodeDecodeError:
-        raise LacunaError("the file is not UTF-8 text, so not an SVG file.", where=str(path),
-                          hint="Save it again as SVG (UTF-8).") from None
-
-
-# --------------------------------------------------------------------------------------------- DXF -> SVG
-
-
-def drawing_unit_mm(doc: DxfDocument) -> tuple[str, float]:
-    """The drawing's unit name and mm per unit; unitless is read as mm, as everywhere in lacuna."""
-    code = int(doc.header.get("$INSUNITS", 0) or 0)
-    unit = INSUNITS_TO_UNIT.get(code, "mm")
-    return unit, MM_PER_UNIT[unit]
-
-
-class _LayerGroups(draw_svg.SVGRenderBackend):
-    """ezdxf's SVG render back end, with each drawn element moved into a group of its DXF layer."""
-
-    def __init__(self, page, settings):
-        super().__init__(page, settings)
-        self.groups: dict[str, ET.Element] = {}
-
-    def _group(self, layer: str) -> ET.Element:
-        key = layer.casefold()
-        if key not in self.groups:
-            group = ET.SubElement(self.entities, "g", id=_svg_id(layer, len(self.groups)))
-            group.set(f"{{{LACUNA_NS}}}layer", layer)
-            self.groups[key] = group
-        return self.groups[key]
-
-    def _move_last(self, properties) -> None:
-        last = self.entities[-1] if len(self.entities) else None
-        if last is not None and last.tag == "path":
-            self.entities.remove(last)
-            self._group(properties.layer).append(last)
-
-    def add_strokes(self, d, properties):
-        if d:
-            super().add_strokes(d, properties)
-            self._move_last(properties)
-
-    def add_filling(self, d, properties):
-        if d:
-            super().add_filling(d, properties)
-            self._move_last(properties)
-
-
-class _Backend(draw_svg.SVGBackend):
-    @staticmethod
-    def make_backend(page, settings):
-        return _LayerGroups(page, settings)
-
-
-def _damaged(doc: DxfDocument, where: str) -> LacunaError:
-    """The error for a drawing the drawing add-on cannot draw: it names the entities whose data is missing or
-    not finite."""
-    bad = []
-    for entity in doc.modelspace():
-        try:
-            box = bbox.extents([entity], fast=True)
-            sound = not box.has_data or np.isfinite([*box.extmin, *box.extmax]).all()
-        except ENTITY_DATA_ERRORS:
-            sound = False
-        if not sound:
-            bad.append(f"{entity.dxftype()} {entity.dxf.handle}")
-    listed = ", ".join(bad[:10]) + (f" and {len(bad) - 10} more" if len(bad) > 10 else "")
-    return LacunaError(
-        "the drawing cannot be drawn: it has coordinates that are missing or not finite numbers (a damaged file?)"
-        + (f" in {listed}." if bad else "."),
-        where=f"{where}, {listed}" if bad else where,
-        hint="Redraw or delete those entities, or pick other layers with --layers.",
-    )
-
-
-def _svg_id(layer: str, k: int) -> str:
-    # XML ids must start with a letter and hold no spaces; the exact name lives in lacuna:layer.
-    slug = re.sub(r"[^a-z0-9_.-]+", "-", layer.casefold()).strip("-")
-    return slug if slug and slug[0].isalpha() else f"layer-{k}-{slug}".rstrip("-")
-
-
-def dxf_to_svg(doc: DxfDocument, *, layers: list[str] | None = None, scale: float = 1.0,
-               where: str = "<document>") -> str:
-    """Draw ``doc``'s model space (``layers`` only, when given) as SVG text at 1:``scale`` in millimetres."""
-    if not (isinstance(scale, (int, float)) and math.isfinite(scale) and scale > 0):
-        raise LacunaError(f"the drawing scale 1:N needs a positive N, got {scale!r}.", where="scale")
-    unit, mm = drawing_unit_mm(doc)
-    ctx = RenderContext(doc)
-    if layers:
-        known = {layer.dxf.name.casefold(): layer.dxf.name for layer in doc.layers}
-        missing = [name for name in layers if name.casefold() not in known]
-        if missing:
-            raise LacunaError(
-                f"the drawing has no layer {', '.join(repr(m) for m in missing)}; it has "
-                f"{', '.join(sorted(known.values()))}.",
-                where=f"{where}, --layers", hint="Name layers that exist (case does not matter).",
-            )
-        chosen = {name.casefold() for name in layers}
-
-        def only_chosen(all_layers) -> None:
-            for props in all_layers:
-                props.is_visible = props.layer.casefold() in chosen
-
-        ctx.set_layer_properties_override(only_chosen)
-    backend = _Backend()
-    config = Configuration(background_policy=BackgroundPolicy.WHITE)
-    try:
-        Frontend(ctx, backend, config=config).draw_layout(doc.modelspace(), finalize=True)
-    except ENTITY_DATA_ERRORS:
-        raise _damaged(doc, where) from None
-    page = draw_layout.Page(0, 0, draw_layout.Units.mm, margins=draw_layout.Margins.all(PAGE_MARGIN_MM))
-    settings = draw_layout.Settings(fit_page=False, scale=mm / scale, output_coordinate_space=COORDINATE_SPACE)
-    drawn = backend.player().bbox()
-    if drawn.has_data and not np.isfinite([*drawn.extmin, *drawn.extmax]).all():
-        raise _damaged(doc, where)
-    root = backend.get_xml_root_element(page, settings=settings) if drawn.has_data else None
-    if root is None or backend.transformation_matrix is None or next(root.iter("path"), None) is None:
-        chosen_text = f" on the layers {', '.join(layers)}" if layers else ""
-        raise LacunaError(f"there is nothing to draw{chosen_text} in model space.", where=where,
-                          hint="Choose layers that hold entities in model space.")
-    for rect in [child for child in root if child.tag == "rect"]:
-        root.remove(rect)  # a transparent sheet: the drawing's colours were already chosen for white paper
-    _add_metadata(root, backend.transformation_matrix, unit, scale)
-    return ET.tostring(root, encoding="unicode", xml_declaration=True)
-
-
-def _add_metadata(root: ET.Element, m: Matrix44, unit: str, scale: float) -> None:
-    """Record the map SVG -> drawing: x_d = a x + c y + e, y_d = b x + d y + f (SVG matrix order)."""
-    forward = np.array([[m[0, 0], m[1, 0], m[3, 0]], [m[0, 1], m[1, 1], m[3, 1]], [0.0, 0.0, 1.0]])
-    back = np.linalg.inv(forward)
-    a, c, e = back[0]
-    b, d, f = back[1]
-    meta = ET.Element("metadata")
-    info = ET.SubElement(meta, f"{{{LACUNA_NS}}}drawing")
-    info.set("unit", unit)
-    info.set("scale", f"1:{scale:g}")
-    info.set("to-drawing", " ".join(repr(float(v)) for v in (a, b, c, d, e, f)))
-    root.insert(0, meta)
-
-
-# --------------------------------------------------------------------------------------------- SVG -> DXF
 
 # A path segment in its element's coordinates.
 @dataclass(frozen=True)
@@ -246,10 +34,12 @@ class _Seg:
     arc: tuple = ()      # A: rx, ry, phi_deg, large, sweep
 
 
-def svg_to_dxf(text: str, *, layers: list[str] | None = None, unit: str | None = None, where: str = "<svg>",
-               chord_mm: float = 0.01, dxf_version: str = "R2018", messages: list[str] | None = None) -> bytes:
-    """Closed outlines of an SVG as a DXF drawing (bytes) in ``unit`` (default: mm, or the unit recorded by
-    :func:`dxf_to_svg`). ``layers`` picks groups by layer name (recorded by :func:`dxf_to_svg`)."""
+def read_outlines(text: str, *, layers: list[str] | None = None, unit: str | None = None, where: str = "<svg>",
+                  chord_mm: float = 0.01,
+                  messages: list[str] | None = None) -> tuple[list[tuple[str, str, object]], str]:
+    """The closed outlines of an SVG: ([(layer, "circle", ((cx, cy), r)) or (layer, "polyline", [(x, y, bulge),
+    ...]), ...], their unit), in ``unit`` (default: mm, or the unit recorded by :mod:`toolkit.convert.svg_draw`).
+    ``layers`` picks groups by layer name (as recorded); open paths are left out and counted in ``messages``."""
     notes = messages if messages is not None else []
     try:
         root = ET.fromstring(text)
@@ -299,19 +89,7 @@ def svg_to_dxf(text: str, *, layers: list[str] | None = None, unit: str | None =
             + ".", where=where,
             hint="Close the outlines in the SVG (a path ending in Z, or a rect, circle, ellipse or polygon).",
         )
-    doc = ezdxf.new(dxf_version_code(dxf_version))
-    doc.header["$INSUNITS"] = UNIT_TO_INSUNITS[out_unit]
-    doc.header["$MEASUREMENT"] = 0 if out_unit in ("in", "ft") else 1
-    msp = doc.modelspace()
-    for layer, kind, data in shapes:
-        if layer not in doc.layers:
-            doc.layers.add(layer)
-        if kind == "circle":
-            (cx, cy), r = data
-            msp.add_circle((cx, cy), r, dxfattribs={"layer": layer})
-        else:
-            msp.add_lwpolyline(data, format="xyb", close=True, dxfattribs={"layer": layer})
-    return serialise(doc)
+    return shapes, out_unit
 
 
 def _local(tag: str) -> str:
@@ -323,15 +101,9 @@ _LENGTH = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*([a-zA-
 
 def _root_map(root: ET.Element, where: str) -> tuple[np.ndarray, str]:
     """3x3 affine from the root's user units to the source drawing, and that drawing's unit."""
-    for meta in root.iter(f"{{{LACUNA_NS}}}drawing"):
-        try:
-            a, b, c, d, e, f = (float(v) for v in meta.get("to-drawing", "").split())
-            unit = meta.get("unit", "mm")
-            mm_per(unit)
-        except (ValueError, LacunaError):
-            raise LacunaError("the SVG's lacuna drawing record is damaged.", where=f"{where}, metadata",
-                              hint="Delete the <metadata> element to read the SVG at its printed size.") from None
-        return np.array([[a, c, e], [b, d, f], [0.0, 0.0, 1.0]]), unit
+    recorded = read_record(root, where)
+    if recorded is not None:
+        return recorded
     view = root.get("viewBox")
     vb = None
     if view:
@@ -357,7 +129,6 @@ def _root_map(root: ET.Element, where: str) -> tuple[np.ndarray, str]:
         height_user = h
     # SVG y runs down from the top; DXF y runs up: the bottom of the view goes to y = 0.
     return np.array([[kx, 0.0, -x0 * kx], [0.0, -ky, (y0 + height_user) * ky], [0.0, 0.0, 1.0]]), "mm"
-
 
 def _css_mm(value: str | None, where: str, attr: str) -> float | None:
     if value is None:
@@ -657,7 +428,7 @@ def _outline(segments: list[_Seg], m: np.ndarray, chord: float):
             pieces.append((_apply(m, seg.pts[0]), 0.0))
         elif seg.kind == "A" and s is not None and seg.arc[0] == seg.arc[1]:
             sweep = _arc_sweep(seg)
-            pieces.append((_apply(m, seg.pts[0]), flip * math.tan(sweep / 4.0)))
+            pieces.append((_apply(m, seg.pts[0]), flip * bulge_of(sweep)))
         elif seg.kind == "A":
             pts = _arc_points(seg, chord / max(np.linalg.norm(m[:2, :2], 2), 1e-300))
             pieces += [(_apply(m, p), 0.0) for p in pts[:-1]]
@@ -671,8 +442,8 @@ def _outline(segments: list[_Seg], m: np.ndarray, chord: float):
                 pieces.append((ctrl[0], bulge))
             else:
                 pieces += [(p, 0.0) for p in _flatten_cubic(ctrl, chord)[:-1]]
-    pieces = _merge_arcs(_drop_repeats(pieces))
-    circle = _whole_circle(pieces)
+    pieces = merge_arcs(_drop_repeats(pieces))
+    circle = whole_circle(pieces)
     if circle is not None:
         return "circle", circle
     return "polyline", [(float(p[0]), float(p[1]), float(b)) for p, b in pieces]
@@ -764,7 +535,7 @@ def _cubic_as_arc(p: np.ndarray, rel_tol: float = 1e-8) -> float | None:
     tol = rel_tol * length
     if np.hypot(*(ideal1 - p1)) > tol or np.hypot(*(ideal2 - p2)) > tol:
         return None
-    return math.tan(theta / 4.0)
+    return bulge_of(theta)
 
 
 def _flatten_cubic(p: np.ndarray, chord: float) -> list[np.ndarray]:
@@ -776,130 +547,3 @@ def _flatten_cubic(p: np.ndarray, chord: float) -> list[np.ndarray]:
     pts = ((1 - t) ** 3) * p[0] + 3 * ((1 - t) ** 2) * t * p[1] + 3 * (1 - t) * t * t * p[2] + t ** 3 * p[3]
     pts[0], pts[-1] = p[0], p[3]
     return list(pts)
-
-
-def _bulge_centre(a: np.ndarray, b: np.ndarray, bulge: float) -> tuple[np.ndarray, float]:
-    """Centre and radius of the arc from a to b with the given bulge (DXF convention)."""
-    chord = b - a
-    length = float(np.hypot(*chord))
-    theta = 4.0 * math.atan(bulge)
-    r = length / (2.0 * math.sin(abs(theta) / 2.0))
-    mid = (a + b) / 2
-    normal = np.array([-chord[1], chord[0]]) / length  # left of the chord
-    # Distance from the chord's middle to the centre, positive to the left for a counter-clockwise arc.
-    h = r * math.cos(theta / 2.0) * (1 if bulge > 0 else -1)
-    return mid + normal * h, r
-
-
-def _merge_arcs(pieces: list[tuple[np.ndarray, float]], rel_tol: float = 1e-7) -> list[tuple[np.ndarray, float]]:
-    """Join neighbouring arcs on one circle, turning the same way, into one bulge (sweep under 360 degrees)."""
-    n = len(pieces)
-    if n < 2:
-        return pieces
-    out: list[list] = []
-    for i, (p, b) in enumerate(pieces):
-        nxt = pieces[(i + 1) % n][0]
-        if out and b != 0 and out[-1][1] != 0 and (out[-1][1] > 0) == (b > 0):
-            a0 = out[-1][0]
-            c0, r0 = _bulge_centre(a0, p, out[-1][1])
-            c1, r1 = _bulge_centre(p, nxt, b)
-            total = 4 * math.atan(out[-1][1]) + 4 * math.atan(b)
-            if abs(r0 - r1) <= rel_tol * r0 and np.hypot(*(c0 - c1)) <= rel_tol * r0 and \
-                    abs(total) < 2 * math.pi * (1 - 1e-9):
-                out[-1][1] = math.tan(total / 4.0)
-                continue
-        out.append([p, b])
-    return [(p, b) for p, b in out]
-
-
-def _whole_circle(pieces, rel_tol: float = 1e-7):
-    """((cx, cy), r) when every piece is an arc of one circle turning one way, else None."""
-    if len(pieces) < 2 or any(b == 0 for _, b in pieces) or len({b > 0 for _, b in pieces}) != 1:
-        return None
-    n = len(pieces)
-    circles = [_bulge_centre(pieces[i][0], pieces[(i + 1) % n][0], pieces[i][1]) for i in range(n)]
-    (c, r) = circles[0]
-    if all(abs(ri - r) <= rel_tol * r and np.hypot(*(ci - c)) <= rel_tol * r for ci, ri in circles[1:]):
-        total = sum(4 * math.atan(b) for _, b in pieces)
-        if abs(abs(total) - 2 * math.pi) < 1e-6:
-            return (float(c[0]), float(c[1])), float(r)
-    return None
-
-
-# --------------------------------------------------------------------------------------------- DXF -> DXF
-
-
-def change_units(doc: DxfDocument, unit: str, *, where: str = "<document>",
-                 messages: list[str] | None = None) -> bytes:
-    """The drawing in ``unit``: model space scaled about the origin and $INSUNITS set, as DXF bytes.
-
-    The scale is the exact ratio of the two units (1 in = 25.4 mm exactly, the international yard and pound
-    of 1959). Line-type, dimension and text sizes in the header and dimension styles scale with it, and each
-    paper-space viewport looks at the same part of the model. Paper-space geometry and block definitions are
-    left as they are (block references scale their contents).
-    """
-    notes = messages if messages is not None else []
-    target_mm = mm_per(unit, where=f"{where}, --units")
-    if doc.dxfversion <= const.DXF12:
-        raise LacunaError("a DXF R12 drawing cannot record its length unit ($INSUNITS came with R2000).",
-                          where=where, hint="Save the drawing as DXF R2000 or later first.")
-    code = int(doc.header.get("$INSUNITS", 0) or 0)
-    if code not in INSUNITS_TO_UNIT:
-        said = "unitless ($INSUNITS = 0)" if code == 0 else f"in a unit lacuna does not read ($INSUNITS = {code})"
-        raise LacunaError(
-            f"the drawing is {said}, so there is nothing to convert from.", where=f"{where}, header $INSUNITS",
-            hint=f"Set the drawing's units ({', '.join(f'{c} = {u}' for u, c in UNIT_TO_INSUNITS.items())}) "
-            "in the drafting program, then convert.",
-        )
-    source = INSUNITS_TO_UNIT[code]
-    factor = MM_PER_UNIT[source] / target_mm
-    if factor != 1.0:
-        _scale_document(doc, factor, where, notes)
-    doc.header["$INSUNITS"] = UNIT_TO_INSUNITS[unit]
-    doc.header["$MEASUREMENT"] = 0 if unit in ("in", "ft") else 1
-    return serialise(doc)
-
-
-_HEADER_POINTS = ("$EXTMIN", "$EXTMAX", "$LIMMIN", "$LIMMAX", "$INSBASE")
-_HEADER_SIZES = ("$LTSCALE", "$TEXTSIZE", "$DIMSCALE")
-
-
-def _scale_document(doc: DxfDocument, factor: float, where: str, notes: list[str]) -> None:
-    from ezdxf import transform
-
-    m = Matrix44.scale(factor, factor, factor)
-    log = []
-    for entity in list(doc.modelspace()):  # one at a time, so a damaged entity is named
-        try:
-            log += list(transform.inplace([entity], m))
-        except ENTITY_DATA_ERRORS as error:
-            handle = entity.dxf.get("handle", "?")
-            raise LacunaError(
-                f"the {entity.dxftype()} {handle} cannot be scaled: its data is incomplete or damaged ({error}).",
-                where=f"{where}, entity {handle}", hint="Redraw or delete it in the drafting program and convert again.",
-            ) from None
-    for entry in log:
-        entity = getattr(entry, "entity", None)
-        handle = entity.dxf.handle if entity is not None else "?"
-        raise LacunaError(
-            f"the {entity.dxftype() if entity is not None else 'entity'} {handle} cannot be scaled "
-            f"({getattr(entry, 'msg', entry)}).",
-            where=f"{where}, entity {handle}", hint="Explode it in the drafting program and convert again.",
-        )
-    for name in _HEADER_POINTS:
-        if name in doc.header:
-            doc.header[name] = tuple(float(v) * factor for v in doc.header[name])
-    for name in _HEADER_SIZES:
-        if name in doc.header:
-            doc.header[name] = float(doc.header[name]) * factor
-    for style in doc.dimstyles:
-        style.dxf.dimscale = float(style.dxf.get("dimscale", 1.0)) * factor
-    for paper in doc.layouts:
-        if paper.is_modelspace:
-            continue
-        for vp in paper.query("VIEWPORT"):
-            if vp.dxf.get("status", 1) == 1:
-                continue  # the paper-space view of the sheet itself
-            vp.dxf.view_center_point = tuple(float(v) * factor for v in vp.dxf.view_center_point)
-            vp.dxf.view_height = float(vp.dxf.view_height) * factor
-    notes.append(f"{where}: model space scaled by {factor:.12g}.")
