@@ -284,3 +284,42 @@ def test_every_void_gets_its_own_id_when_a_honeycomb_layout_is_filled_further():
     ids = [v.id for v in run.voids]
     assert len(ids) == len(set(ids)), ids
     assert set(ids) == {f"V{k}" for k in range(1, len(ids) + 1)}
+
+
+def test_the_bounded_search_finds_the_layout_the_full_search_finds():
+    # A long tapering void in a 0.5 web-ratio profile, under an energy field rising to the right: the candidate
+    # layouts (whole, split, honeycombs) are scored; fitted in falling order of their pieces' bound, the search
+    # that stops early must pick a layout of the same worth as the one that fits them all, with fewer fits.
+    from toolkit.voids import layout as L
+    from toolkit.voids.measure import clean
+
+    steel = Rules(min_web_mm=25, edge_cover_mm=25, min_void_mm=20)
+    r = replace(L.resolve_settings(VoidOptions(family="polygon", sides=6, snap_mm=0.0), steel), web_ratio=0.5)
+    shape = Polygon([(200, 250), (1500, 120), (1500, 420)])
+    neighbour = box(1560, 100, 1800, 450)
+    kept, _ = clean([shape], r.min_void_mm)
+    field = lambda p: 1.0 + np.asarray(p)[:, 0] / 500.0  # noqa: E731
+    rho = 4.0
+    score = lambda g: g.area * (1.0 - mean_over(g, field, 10.0) / rho)  # noqa: E731
+    bound = lambda g: g.area * mean_over(g, lambda p: np.maximum(1.0 - field(p) / rho, 0.0), 10.0)  # noqa: E731
+    room = L.Room(kept[0], box(0, 0, 2000, 600), [neighbour], r, 1.0)
+    fits = []
+    real = L._settled
+
+    def counting(*args):
+        fits.append(1)
+        return real(*args)
+
+    L._settled = counting
+    try:
+        every = L.candidates(room, "polygon", r)
+        n_every = len(fits)
+        fits.clear()
+        bounded = L.candidates(room, "polygon", r, score=score, bound=bound)
+        n_bounded = len(fits)
+    finally:
+        L._settled = real
+    worth = lambda layouts: max(score(L._removed(ds)) for ds in layouts)  # noqa: E731
+    assert len(every) >= 3 and bounded
+    assert worth(bounded) == pytest.approx(worth(every), rel=1e-9)
+    assert n_bounded < n_every

@@ -51,6 +51,9 @@ from .symmetry import (Mirror, fold, layout_mirror, split_centre, symmetric_bore
 
 # Every rule is kept with this much to spare, so the check on differently flattened arcs agrees (mm).
 SAFETY_MM = 0.05
+# The worth of a layout and its bound are both sampled on a grid of points (``mean_over``): a layout is passed
+# over only when its bound is this share below the best found, so sampling cannot pass over a better one.
+BOUND_SLACK = 0.02
 SHRINK_STEPS = tuple(1.0 - 0.05 * k for k in range(11))  # down to half size
 MOVE_RINGS = 4
 # A made void may stand this far out of its freeform void (the contour is no more exact than the grid); the
@@ -58,6 +61,8 @@ MOVE_RINGS = 4
 ROOM_TOLERANCE_MM = 0.5
 # Rounds of refitting a void with the margin its own size asks for, where a web ratio ties the two.
 SETTLE_ROUNDS = 4
+# A sound fit whose size is within this share of the size its room was made for is kept without refitting.
+SETTLE_TOLERANCE = 0.02
 # Relative tolerance of the largest-inscribed-circle searches that only choose among candidates (the proof and
 # the placing step measure finely).
 FIT_RTOL = 5e-3
@@ -520,7 +525,9 @@ def _settled(room: Room, part, fit) -> tuple | None:
     extent = _extent(part)
     best = None
     sound = unsound = None  # (extent, s(e) - e)
-    for _ in range(SETTLE_ROUNDS if room.r.web_ratio else 1):
+    # Only a web tied to the void's own size, to a neighbour or an opening, makes the room depend on the size.
+    tied = room.r.web_ratio and (len(room.others) or room.openings)
+    for _ in range(SETTLE_ROUNDS if tied else 1):
         space = room.within(part, extent)
         got = fit(space) if space is not None else None
         if got is None:
@@ -533,10 +540,10 @@ def _settled(room: Room, part, fit) -> tuple | None:
             if best is None or got[1] > best[1]:
                 best = got
             sound = (extent, gap)
+            if -gap <= SETTLE_TOLERANCE * extent:
+                break  # the fit takes nearly all the room its own size leaves
         else:
             unsound = (extent, gap)
-        if abs(gap) <= 1e-3 * extent:
-            break
         if sound is not None and unsound is not None and sound[1] < unsound[1]:
             (e0, g0), (e1, g1) = sound, unsound
             root = e0 - g0 * (e1 - e0) / (g1 - g0)
@@ -624,11 +631,17 @@ def _pitches(room: Room, r: Resolved) -> list[float]:
     return sizes
 
 
-def candidates(room: Room, family: str, r: Resolved, *, trials: int = 2) -> list[list[Draft]]:
+def candidates(room: Room, family: str, r: Resolved, *, trials: int = 2, score=None, bound=None
+               ) -> list[list[Draft]]:
     """The layouts one freeform void could become in one family: the whole void; split into 2 to ``MAX_PIECES``
     voids along its length; a honeycomb of smaller voids (a web tied to the void's size is narrower between small
     voids); bores packed into it. The honeycombs are ranked by the area of their pieces and only the best
-    ``trials`` are fitted."""
+    ``trials`` are fitted.
+
+    With ``score`` (a layout's worth, as ``rationalise`` takes it) and ``bound`` (an upper bound of the worth of
+    anything fitted inside a region), the layouts are fitted in falling order of their pieces' bound and the
+    search stops once no layout left can beat the best found: the layout of most worth is the same as without
+    the bound, found with fewer fits."""
     v = room.v
     if room.region is None:
         return []
@@ -656,11 +669,23 @@ def candidates(room: Room, family: str, r: Resolved, *, trials: int = 2) -> list
                 combs.append((sum(p.area for p in useful), useful))
     combs.sort(key=lambda c: -c[0])
     layouts += [pieces for _, pieces in combs[:trials]]
+    if score is not None and bound is not None:
+        ceilings = [sum(bound(p) for p in pieces) for pieces in layouts]
+        order = np.argsort(-np.asarray(ceilings), kind="stable")
+        layouts = [layouts[k] for k in order]
+        ceilings = [ceilings[k] for k in order]
+    else:
+        ceilings = [math.inf] * len(layouts)
     out = []
-    for pieces in layouts:
+    best = -math.inf
+    for pieces, ceiling in zip(layouts, ceilings):
+        if ceiling * (1.0 + BOUND_SLACK) < best:
+            break  # the rest are sorted below it
         drafts = [d for i, p in enumerate(pieces) if (d := fit(room, p, r, v.index, i)) is not None]
         if drafts:
             out.append(drafts)
+            if score is not None:
+                best = max(best, score(_removed(drafts)))
     if family == "slot":
         # Slots side by side along the void's length, in the room its neighbours leave for slots of the void's size.
         widths = [w for w in r.slot_widths_mm if w >= r.min_void_mm]
@@ -886,8 +911,11 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
         density = lambda g: mean_over(g, sample, spacing)  # noqa: E731
         rho = max(max(density(v.shape) for v in kept), 1e-300)
         score = lambda g: g.area * (1.0 - density(g) / rho)  # noqa: E731
+        # No shape inside g can be worth more than g's material that works less than the threshold.
+        bound = lambda g: g.area * mean_over(  # noqa: E731
+            g, lambda pts: np.maximum(1.0 - sample(pts) / rho, 0.0), spacing)
     else:
-        score = lambda g: g.area  # noqa: E731
+        score = bound = lambda g: g.area  # noqa: E731
 
     opening_shapes = [o.shape for o in panel.openings]
     families = ("polygon", "slot", "bore") if r.family == "mixed" else (r.family,)
@@ -901,7 +929,7 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
                                 for f in families}
             continue
         room = Room(v, space, shapes[:k] + shapes[k + 1:], r, ROOM_TOLERANCE_MM, openings=opening_shapes)
-        options[v.index] = {f: candidates(room, f, r) for f in families}
+        options[v.index] = {f: candidates(room, f, r, score=score, bound=bound) for f in families}
     best = {i: {f: _choose_layout(layouts, score) for f, layouts in fams.items()} for i, fams in options.items()}
 
     def pick(fits: dict[str, list[Draft]]) -> str | None:
