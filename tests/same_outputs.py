@@ -87,7 +87,7 @@ def run_all(workdir: Path) -> dict[str, Path]:
     """Run every scenario into ``workdir``; return output name -> path (names relative to ``workdir``)."""
     from drawings import sample_drawing
     from toolkit import api
-    from toolkit.svg_out import tradeoff_svg
+    from toolkit.write.tradeoff_plot import tradeoff_svg
 
     workdir = Path(workdir)
     demo_dxf, demo_job = api.demo_files()

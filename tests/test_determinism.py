@@ -11,7 +11,7 @@ here. What is allowed to differ is what a drawing program stamps on every save, 
   or creates a document, $TDUPDATE and $VERSIONGUID on every save (ezdxf/document.py, Drawing._setup_metadata
   and Drawing._update_metadata, ezdxf 1.4), and stamps its version and the save time in the WRITTEN_BY_EZDXF
   variable of its EZDXF_META dictionary (ezdxf documentation, "ezdxf Metadata").
-- The date printed on the result figure and in the report (svg_out.result_svg, report.report_markdown).
+- The date printed on the result figure and in the report (write.result_sheet.result_svg, write.report.report_markdown).
 
 Everything else, header included, is compared byte for byte after those values are masked.
 """

@@ -22,12 +22,12 @@ from shapely.geometry import Polygon, box
 import group_codes
 from drawings import Placement, add_rectangle, new_doc, sample_panel, write
 from toolkit.dxf_in import read_drawing
-from toolkit.dxf_out import (
-    CENTRE, CHECK, FREEFORM, LOOKS, NOTE, OUR_LAYERS, VERSIONS, VOID_LAYERS, Marker, add_results, nearest_aci,
-    result_copy_bytes,
-)
 from toolkit.errors import LacunaError
 from toolkit.model import Frame, Void
+from toolkit.write.dxf_copy import add_results, nearest_aci, result_copy_bytes
+from toolkit.write.dxf_file import VERSIONS
+from toolkit.write.layers import CENTRE, CHECK, FREEFORM, LOOKS, NOTE, OUR_LAYERS, VOID_LAYERS
+from toolkit.write.shapes import Marker
 
 # Header variables a writer must change: when and by what the file was saved, and the next free handle.
 # ($TDUPDATE/$TDUUPDATE: "local/universal date and time of the last update", DXF reference, header section.)
@@ -360,7 +360,7 @@ def test_bad_results_are_named():
 def test_the_copy_keeps_the_drawings_creation_date(tmp_path):
     # The drafter's $TDCREATE (here set to 2000-01-01, Julian day 2451545.0), read from the bytes of the input and
     # of the copy (not through a loader, which stamps its own time), is the same.
-    from toolkit.dxf_out import _creation_dates
+    from toolkit.write.dxf_copy import _creation_dates
 
     path = office_drawing(tmp_path)
     text = path.read_text(encoding="utf-8")

@@ -1,6 +1,6 @@
 """A run stopped part way leaves no partial file: Ctrl-C (SIGINT) and a hard kill (SIGKILL) at random moments.
 
-Every output goes through toolkit.outputs.write_atomic: written whole to a hidden temporary ``.<name>.<random>.part``
+Every output goes through toolkit.write.files.write_atomic: written whole to a hidden temporary ``.<name>.<random>.part``
 beside the target, flushed to disk, then renamed. POSIX rename() replaces the target atomically: a reader sees
 the old file or the new one, never a mixture (POSIX.1-2017, rename(): "If the link named by the new argument
 exists, it shall be removed and old renamed to new. In this case, a link named new shall remain visible to other
@@ -34,7 +34,7 @@ import pytest
 
 from drawings import sample_drawing
 from group_codes import pairs
-from toolkit import outputs
+from toolkit.write import files as outputs
 from toolkit.api import optimize_file
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -60,7 +60,7 @@ profile = "timber-bored"
 """
 FRAMES = 3
 DATE = re.compile(rb"\d{4}-\d{2}-\d{2}")
-TEMPORARY = re.compile(r"^\.(?P<final>.+)\.[^.]+\.part$")  # outputs.write_atomic: ".<name>.<random>.part"
+TEMPORARY = re.compile(r"^\.(?P<final>.+)\.[^.]+\.part$")  # files.write_atomic: ".<name>.<random>.part"
 
 
 @pytest.fixture(scope="module")
@@ -192,7 +192,7 @@ def test_ctrl_c_between_two_files_removes_the_temporary(reference, tmp_path, mon
 KILL_AT_THIRD_RENAME = """
 import os, signal, sys
 from pathlib import Path
-from toolkit import outputs
+from toolkit.write import files as outputs
 calls = [0]
 real = os.replace
 def replace(src, dst):

@@ -161,7 +161,7 @@ def test_outputs_that_cannot_be_written_are_refused_before_the_optimiser_runs(tm
 def test_checking_a_result_drawing_writes_beside_it_not_into_a_doubled_folder(tmp_path):
     # CONTRACT.md: outputs go by default to <stem>-lacuna beside the input; a drawing lacuna wrote is already
     # named <stem>-lacuna, so its own results go into the folder it is in.
-    from toolkit.outputs import default_out_dir
+    from toolkit.write.files import default_out_dir
 
     assert default_out_dir(tmp_path / "beam.dxf") == tmp_path / "beam-lacuna"
     assert default_out_dir(tmp_path / "beam-lacuna" / "beam-lacuna.dxf") == tmp_path / "beam-lacuna"

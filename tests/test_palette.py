@@ -20,7 +20,7 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
-from toolkit import palette
+from toolkit.write import palette
 
 # Machado et al. 2009, severity 1.0 (see module docstring for the source).
 MACHADO_2009 = {

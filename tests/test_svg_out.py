@@ -23,9 +23,11 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from shapely.geometry import Point, box
 
-from toolkit import model, palette, svg_out
+from toolkit import model
 from toolkit.errors import LacunaError
 from toolkit.fe.grid import Grid
+from toolkit.fe.stress import principal_stresses
+from toolkit.write import analysis_figure, fields, palette, sheet
 
 SVG = "{http://www.w3.org/2000/svg}"
 
@@ -90,7 +92,7 @@ def beam():
     panel = beam_panel()
     grid = StandInGrid(nx=40, ny=8, dx=L / 40, dy=H / 8)
     fractions, displacement, stress = beam_arrays(grid, panel)
-    text = svg_out.analysis_svg(panel, grid, fractions, displacement, stress, date="2025-03-14")
+    text = analysis_figure.analysis_svg(panel, grid, fractions, displacement, stress, date="2025-03-14")
     return panel, grid, fractions, displacement, stress, text
 
 
@@ -111,7 +113,7 @@ def drawing_matrix(text: str) -> tuple[float, ...]:
 def render(text: str, px_per_mm: float = 8.0):
     from PIL import Image
 
-    png = cairosvg.svg2png(bytestring=text.encode(), output_width=int(round(svg_out.SHEET_WIDTH_MM * px_per_mm)))
+    png = cairosvg.svg2png(bytestring=text.encode(), output_width=int(round(sheet.SHEET_WIDTH_MM * px_per_mm)))
     return np.asarray(Image.open(io.BytesIO(png)).convert("RGB")).astype(float) / 255.0
 
 
@@ -122,16 +124,16 @@ def pixel_of(text: str, xy, px_per_mm: float = 8.0) -> tuple[int, int]:
 
 def side_of_pixels(pixels: np.ndarray) -> np.ndarray:
     """+1 where a pixel is nearest a tension class colour, -1 nearest a compression one (CIE76)."""
-    classes = palette.class_colours(svg_out._STRESS_CLASSES_PER_SIDE)
+    classes = palette.class_colours(fields.STRESS_CLASSES_PER_SIDE)
     lab_classes = palette.srgb_to_lab(np.array([palette.hex_to_rgb(c) for c in classes]))
     lab = palette.srgb_to_lab(pixels.reshape(-1, 3))
     nearest = np.argmin(np.linalg.norm(lab[:, None, :] - lab_classes[None, :, :], axis=2), axis=1)
-    return np.where(nearest >= svg_out._STRESS_CLASSES_PER_SIDE, 1, -1)
+    return np.where(nearest >= fields.STRESS_CLASSES_PER_SIDE, 1, -1)
 
 
 def stress_cells(text: str) -> dict[int, int]:
     """Element -> colour class, read back from the stress group's merged runs."""
-    colours = palette.class_colours(svg_out._STRESS_CLASSES_PER_SIDE)
+    colours = palette.class_colours(fields.STRESS_CLASSES_PER_SIDE)
     cells: dict[int, int] = {}
     for path in groups(text)["stress"].iter(f"{SVG}path"):
         c = colours.index(path.get("fill"))
@@ -162,7 +164,7 @@ def test_sheet_is_sized_in_millimetres_and_panel_drawn_to_the_stated_scale(beam)
     assert width == "260mm" and height.endswith("mm")
     assert [float(v) for v in re.split(r"[\s,]+", root.get("viewBox"))] == [0.0, 0.0, 260.0, float(height[:-2])]
     a, b, c, d, _, _ = drawing_matrix(text)
-    n = svg_out.drawing_scale(L, H)
+    n = sheet.drawing_scale(L, H)
     assert (a, b, c, d) == pytest.approx((1.0 / n, 0.0, 0.0, -1.0 / n))  # y flipped: local y points up
     heading = all_text(groups(text)["heading"])
     assert f"Scale 1:{n}" in heading and "x to the right, y up" in heading
@@ -172,7 +174,7 @@ def test_title_block_names_the_job_and_carries_the_caution(beam):
     *_, text = beam
     block = all_text(groups(text)["title"])
     for piece in ("Test beam B1", "load case: main", "E = 10000 MPa", "\u03bd = 0.3", "thickness 100 mm",
-                  "2025-03-14", svg_out.CAUTION):
+                  "2025-03-14", sheet.CAUTION):
         assert piece in block, piece
 
 
@@ -185,7 +187,7 @@ def test_legend_says_which_side_is_tension(beam):
     assert float(tension.get("x")) > float(compression.get("x"))  # tension on the right of the bar
     bar = next(g for g in legend.iter(f"{SVG}g") if g.get("id") == "legend-bar")
     fills = [r.get("fill") for r in bar.iter(f"{SVG}rect")]
-    assert fills[-1] == palette.class_colours(svg_out._STRESS_CLASSES_PER_SIDE)[-1]
+    assert fills[-1] == palette.class_colours(fields.STRESS_CLASSES_PER_SIDE)[-1]
     assert "MPa" in all_text(legend)
 
 
@@ -201,7 +203,7 @@ def test_supports_loads_and_keep_zones(beam):
 
 def test_other_load_case_draws_its_own_loads(beam):
     panel, grid, fractions, displacement, stress, _ = beam
-    text = svg_out.analysis_svg(panel, grid, fractions, displacement, stress, case="plant", date="2025-03-14")
+    text = analysis_figure.analysis_svg(panel, grid, fractions, displacement, stress, case="plant", date="2025-03-14")
     assert "12 kN" in all_text(groups(text)["loads"])
     assert "load case: plant" in all_text(groups(text)["title"])
 
@@ -213,7 +215,7 @@ def test_deflection_scale_from_the_beam_formula(beam):
     *_, text = beam
     mid = 5.0 * W * L**4 / (384.0 * E * I)  # Roark table 8.1: 0.15625 mm here
     # 4 % of the smaller side over the largest deflection, nearest on the 1-2-5 series: 16 / 0.15625 = 102 -> 100
-    assert svg_out.deflection_scale_for(mid, L, H) == 100.0
+    assert analysis_figure.deflection_scale_for(mid, L, H) == 100.0
     assert groups(text)["drawing"].get("data-deflection-scale") == "100"
     assert "drawn \u00d7 100" in all_text(groups(text)["legend"])
     outline = next(p for p in groups(text)["deflected"].iter(f"{SVG}path") if p.get("data-ring") == "outline")
@@ -243,10 +245,10 @@ def test_bottom_mid_span_cell_has_the_class_colour_of_the_beam_stress(beam):
     vmax = float(groups(text)["drawing"].get("data-stress-limit-MPa"))
     dy = H / 8
     sx = (W * L * L / 8.0) * (H / 2 - dy / 2) / I  # M y / I at the bottom row's centre: 0.656 MPa
-    expected = palette.class_colours(svg_out._STRESS_CLASSES_PER_SIDE)[
-        int(palette.classify(np.array([sx]), vmax, svg_out._STRESS_CLASSES_PER_SIDE)[0])
+    expected = palette.class_colours(fields.STRESS_CLASSES_PER_SIDE)[
+        int(palette.classify(np.array([sx]), vmax, fields.STRESS_CLASSES_PER_SIDE)[0])
     ]
-    assert expected in palette.class_colours(svg_out._STRESS_CLASSES_PER_SIDE)[svg_out._STRESS_CLASSES_PER_SIDE:]
+    assert expected in palette.class_colours(fields.STRESS_CLASSES_PER_SIDE)[fields.STRESS_CLASSES_PER_SIDE:]
     img = render(text)
     c, r = pixel_of(text, (L / 2 + 0.25 * L / 40, 0.25 * dy))  # off the tick at the element centre
     patch = img[r - 1 : r + 2, c - 1 : c + 2].reshape(-1, 3)
@@ -282,10 +284,10 @@ def test_cells_carry_the_class_of_their_dominant_principal_stress(nx, ny, seed):
     grid = StandInGrid(nx=nx, ny=ny, dx=10.0, dy=10.0)
     fractions = np.where(rng.random(nx * ny) < 0.3, 0.0, 1.0)
     stress = rng.normal(scale=rng.uniform(0.1, 50.0), size=(nx * ny, 3))
-    text = svg_out.analysis_svg(panel, grid, fractions, np.zeros(2 * (nx + 1) * (ny + 1)), stress, date="d")
+    text = analysis_figure.analysis_svg(panel, grid, fractions, np.zeros(2 * (nx + 1) * (ny + 1)), stress, date="d")
     vmax = float(groups(text)["drawing"].get("data-stress-limit-MPa"))
-    dominant = svg_out.dominant_principal(stress)
-    classes = palette.classify(dominant, vmax, svg_out._STRESS_CLASSES_PER_SIDE)
+    dominant = fields.dominant_principal(stress)
+    classes = palette.classify(dominant, vmax, fields.STRESS_CLASSES_PER_SIDE)
     expected = {(e // nx, e % nx): int(classes[e]) for e in np.flatnonzero(fractions > 0)}
     assert stress_cells(text) == expected
 
@@ -293,7 +295,7 @@ def test_cells_carry_the_class_of_their_dominant_principal_stress(nx, ny, seed):
 def test_same_figure_with_the_project_grid(beam):
     panel, grid, fractions, displacement, stress, text = beam
     real = Grid(nx=grid.nx, ny=grid.ny, dx=grid.dx, dy=grid.dy)
-    again = svg_out.analysis_svg(panel, real, fractions, displacement, stress, date="2025-03-14")
+    again = analysis_figure.analysis_svg(panel, real, fractions, displacement, stress, date="2025-03-14")
     assert again == text
 
 
@@ -305,7 +307,7 @@ def test_twenty_thousand_elements_stay_small():
     rng = np.random.default_rng(7)
     stress = rng.normal(size=(nx * ny, 3))
     displacement = rng.normal(scale=0.1, size=2 * (nx + 1) * (ny + 1))
-    text = svg_out.analysis_svg(panel, grid, np.ones(nx * ny), displacement, stress, date="d")
+    text = analysis_figure.analysis_svg(panel, grid, np.ones(nx * ny), displacement, stress, date="d")
     size = len(text.encode())
     print(f"20,000 random-class elements: {size / 1e6:.2f} MB")
     assert size < 3e6
@@ -321,35 +323,35 @@ def test_bilinear_interpolation_reproduces_a_linear_field():
     a, b = np.array([0.3, -0.2]), np.array([[0.01, -0.004], [0.002, 0.007]])
     u = (a + grid.node_xy @ b.T).ravel()
     pts = np.random.default_rng(1).random((100, 2)) * [7 * 13.0, 4 * 9.0]
-    assert np.allclose(svg_out.interpolate_displacement(grid, u, pts), a + pts @ b.T, atol=1e-12)
+    assert np.allclose(analysis_figure.interpolate_displacement(grid, u, pts), a + pts @ b.T, atol=1e-12)
 
 
 def test_principal_stresses_obey_the_tensor_invariants():
     # Trace and determinant of the 2-D stress tensor are invariant (any mechanics-of-materials text), and pure
     # shear tau has principals +-tau at 45 degrees (Mohr's circle centred at the origin).
     s = np.random.default_rng(2).normal(scale=20.0, size=(200, 3))
-    s1, s2, theta = svg_out.principal_stresses(s)
+    s1, s2, theta = principal_stresses(s)
     assert np.allclose(s1 + s2, s[:, 0] + s[:, 1])
     assert np.allclose(s1 * s2, s[:, 0] * s[:, 1] - s[:, 2] ** 2)
     c, sn = np.cos(theta), np.sin(theta)
     normal_on_s1 = s[:, 0] * c * c + s[:, 1] * sn * sn + 2 * s[:, 2] * c * sn
     assert np.allclose(normal_on_s1, s1)
-    s1, s2, theta = svg_out.principal_stresses(np.array([[0.0, 0.0, 5.0]]))
+    s1, s2, theta = principal_stresses(np.array([[0.0, 0.0, 5.0]]))
     assert (s1[0], s2[0], math.degrees(theta[0])) == pytest.approx((5.0, -5.0, 45.0))
-    assert svg_out.dominant_principal(np.array([[-7.0, 2.0, 0.0]]))[0] == -7.0
+    assert fields.dominant_principal(np.array([[-7.0, 2.0, 0.0]]))[0] == -7.0
 
 
 @pytest.mark.parametrize("x, nearest", [(102.4, 100), (160, 200), (3.3, 5), (0.0041, 0.005), (6.9, 5), (7.2, 10)])
 def test_one_two_five_series(x, nearest):
     # The 1-2-5 series of round numbers for scale bars and magnifications (common practice, no source); nearest
     # on a log scale, so the switch from 5 to 10 sits at sqrt(50) = 7.07.
-    assert svg_out.nice_125(x) == pytest.approx(nearest)
+    assert sheet.nice_125(x) == pytest.approx(nearest)
 
 
 @pytest.mark.parametrize("w, h, scale", [(3000, 600, 20), (2000, 400, 20), (150, 90, 1), (24000, 3000, 200)])
 def test_drawing_scale_is_a_drafting_scale_that_fits(w, h, scale):
     # Drafting scales 1:1, 1:2, 1:5, 1:10, 1:20, 1:25, 1:50 ... (common practice, no source).
-    assert svg_out.drawing_scale(w, h) == scale
+    assert sheet.drawing_scale(w, h) == scale
 
 
 # --- bad input
@@ -358,9 +360,9 @@ def test_drawing_scale_is_a_drafting_scale_that_fits(w, h, scale):
 def test_wrong_array_shapes_are_refused(beam):
     panel, grid, fractions, displacement, stress, _ = beam
     with pytest.raises(LacunaError, match="stress array has shape"):
-        svg_out.analysis_svg(panel, grid, fractions, displacement, stress[:-1])
+        analysis_figure.analysis_svg(panel, grid, fractions, displacement, stress[:-1])
     with pytest.raises(LacunaError, match="displacement array"):
-        svg_out.analysis_svg(panel, grid, fractions, displacement[:-2], stress)
+        analysis_figure.analysis_svg(panel, grid, fractions, displacement[:-2], stress)
 
 
 def test_non_finite_results_and_unknown_case_are_refused(beam):
@@ -368,16 +370,16 @@ def test_non_finite_results_and_unknown_case_are_refused(beam):
     bad = stress.copy()
     bad[3, 0] = np.nan
     with pytest.raises(LacunaError, match="not finite"):
-        svg_out.analysis_svg(panel, grid, fractions, displacement, bad)
+        analysis_figure.analysis_svg(panel, grid, fractions, displacement, bad)
     with pytest.raises(LacunaError, match="'wind'.*main, plant"):
-        svg_out.analysis_svg(panel, grid, fractions, displacement, stress, case="wind")
+        analysis_figure.analysis_svg(panel, grid, fractions, displacement, stress, case="wind")
     with pytest.raises(LacunaError, match="grid covers"):
-        svg_out.analysis_svg(panel, StandInGrid(nx=40, ny=8, dx=10.0, dy=50.0), fractions, displacement, stress)
+        analysis_figure.analysis_svg(panel, StandInGrid(nx=40, ny=8, dx=10.0, dy=50.0), fractions, displacement, stress)
 
 
 def test_no_deflection_draws_no_deflected_shape(beam):
     panel, grid, fractions, displacement, stress, _ = beam
-    text = svg_out.analysis_svg(panel, grid, fractions, np.zeros_like(displacement), stress, date="d")
+    text = analysis_figure.analysis_svg(panel, grid, fractions, np.zeros_like(displacement), stress, date="d")
     assert len(list(groups(text)["deflected"])) == 0
     assert "no deflection to draw" in all_text(groups(text)["legend"])
 
@@ -387,7 +389,7 @@ def test_no_convergence_line_runs_along_the_frame():
     # plot's frame (they hid under its top edge when the axes ended at their end ticks).
     import xml.etree.ElementTree as ET
 
-    from toolkit.svg_out import convergence_svg
+    from toolkit.write.convergence_plot import convergence_svg
 
     c = np.linspace(100.0, 140.0, 30)
     v = np.linspace(1.0, 0.5, 30)

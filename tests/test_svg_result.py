@@ -20,10 +20,12 @@ import pytest
 from shapely.geometry import Point, box
 
 from test_svg_out import SVG, all_text, groups, pixel_of
-from toolkit import model, svg_out
+from toolkit import model
 from toolkit.errors import LacunaError
 from toolkit.fe.grid import Grid
 from toolkit.rules.check import Violation
+from toolkit.write import convergence_plot, fields, layout_frame, result_sheet
+from toolkit.write.sheet import CAUTION, drawing_scale, nice_ticks, outline_path
 
 # CONTRACT.md, "Output layers": DXF layer names; the SVG group ids are the same in lower case.
 CONTRACT_LAYERS = ("LACUNA-VOID-POLYGON", "LACUNA-VOID-SLOT", "LACUNA-VOID-BORE", "LACUNA-FREEFORM",
@@ -96,7 +98,7 @@ def sheet():
     freeform = [Point(HOLE[:2]).buffer(HOLE[2], 32)]
     voids = [rounded_square_void(), slot_void(), bore_void()]
     violation = Violation("min_web", (600.0, 300.0), 42.0, 60.0, void_ids=("P1", "S1"))
-    text = svg_out.result_svg(panel, GRID, densities=densities, freeform=freeform, voids=voids,
+    text = result_sheet.result_svg(panel, GRID, densities=densities, freeform=freeform, voids=voids,
                               profile="timber-bored", volume_removed_percent=7.25, mass_removed_kg=1.9,
                               date="2025-06-02", violations=[violation])
     return panel, voids, text
@@ -120,7 +122,7 @@ def hex_rgb(code: str) -> np.ndarray:
     return np.array([int(code[i : i + 2], 16) for i in (1, 3, 5)]) / 255.0
 
 
-SOLID_GREY = hex_rgb(svg_out.density_colours()[-1])
+SOLID_GREY = hex_rgb(fields.density_colours()[-1])
 WHITE = np.ones(3)
 
 
@@ -139,7 +141,7 @@ def test_svg_parses_with_every_contract_group_in_the_drawing(sheet):
 
 
 def test_layer_groups_present_even_when_empty():
-    text = svg_out.result_svg(wall_panel(), GRID, date="d")
+    text = result_sheet.result_svg(wall_panel(), GRID, date="d")
     g = groups(text)
     for name in CONTRACT_LAYERS:
         assert name.lower() in g and len(list(g[name.lower()])) == 0, name
@@ -151,7 +153,7 @@ def test_sheet_in_millimetres_at_a_drafting_scale(sheet):
     root = ET.fromstring(text)
     assert root.get("width") == "260mm" and root.get("height").endswith("mm")
     # 1200 x 600 mm fits 196 x 150 mm of paper first at 1:10 (drafting scales: common practice, no source).
-    assert svg_out.drawing_scale(W, H) == 10
+    assert drawing_scale(W, H) == 10
     assert "Scale 1:10" in all_text(groups(text)["heading"])
     assert groups(text)["scale-bar"].get("data-length") == "200 mm"
 
@@ -186,7 +188,7 @@ def test_legend_names_each_layer_and_title_block_the_job(sheet):
         assert f"layer {name}" in legend
     block = all_text(groups(text)["title"])
     for piece in ("Test wall W3", "profile: timber-bored", "volume removed 7.2 %", "1.9 kg", "2025-06-02",
-                  "3 to make: 1 n-gon, 1 slot, 1 bore", svg_out.CAUTION):
+                  "3 to make: 1 n-gon, 1 slot, 1 bore", CAUTION):
         assert piece in block, piece
 
 
@@ -194,7 +196,7 @@ def test_legend_names_each_layer_and_title_block_the_job(sheet):
 
 
 def test_bore_radius_is_half_the_diameter_exactly_and_matches_the_dxf(sheet):
-    from toolkit import dxf_out
+    from toolkit.write.dxf_copy import add_results
 
     _, voids, text = sheet
     circles = list(groups(text)["lacuna-void-bore"].iter(f"{SVG}circle"))
@@ -203,7 +205,7 @@ def test_bore_radius_is_half_the_diameter_exactly_and_matches_the_dxf(sheet):
     assert float(circles[0].get("r")) == BORE["diameter"] / 2 == 62.5
     assert (float(circles[0].get("cx")), float(circles[0].get("cy"))) == BORE["centre"]
     doc = ezdxf.new()
-    dxf_out.add_results(doc, wall_panel().frame, voids=voids)
+    add_results(doc, wall_panel().frame, voids=voids)
     (dxf_circle,) = doc.modelspace().query('CIRCLE[layer=="LACUNA-VOID-BORE"]')
     assert float(circles[0].get("r")) == dxf_circle.dxf.radius
 
@@ -211,7 +213,7 @@ def test_bore_radius_is_half_the_diameter_exactly_and_matches_the_dxf(sheet):
 @pytest.mark.parametrize("diameter", [20.0, 32.0, 0.1 + 0.2, 101.6, 1e-3 * 1234567])
 def test_bore_radius_text_reads_back_exactly(diameter):
     v = model.Void(id="B", family="bore", centre=(600.0, 300.0), size_mm=diameter, shape=Point(600, 300).buffer(1))
-    text = svg_out.result_svg(wall_panel(), GRID, voids=[v], date="d")
+    text = result_sheet.result_svg(wall_panel(), GRID, voids=[v], date="d")
     (circle,) = groups(text)["lacuna-void-bore"].iter(f"{SVG}circle")
     assert float(circle.get("r")) == diameter / 2
 
@@ -239,7 +241,7 @@ def test_bulge_to_arc_flags(theta_deg, large, sweep):
     # SVG 1.1, 8.3.8 "The elliptical arc curve commands": large-arc-flag 1 for a sweep over 180 degrees,
     # sweep-flag 1 for the positive-angle direction; DXF reference: bulge = tan(theta / 4), positive CCW.
     b = math.tan(math.radians(theta_deg) / 4)
-    d = svg_out.outline_path(((0.0, 0.0, b), (100.0, 0.0, 0.0)))
+    d = outline_path(((0.0, 0.0, b), (100.0, 0.0, 0.0)))
     ((rx, _, _, lg, sw, x, y),) = arcs_of(d)
     chord_radius = 50.0 / math.sin(math.radians(abs(theta_deg)) / 2)  # chord = 2 r sin(theta / 2)
     assert (lg, sw, x, y) == (large, sweep, 100.0, 0.0)
@@ -291,7 +293,7 @@ def test_elements_cut_by_an_opening_are_drawn_by_their_material_state():
     # Density = state x drawn solid share (docs of BesoResult); dividing the share out gives back the state.
     panel = wall_panel()
     densities = hole_densities(panel)
-    state, fractions = svg_out.material_state(panel, GRID, densities)
+    state, fractions = fields.material_state(panel, GRID, densities)
     cut = (fractions > 0.05) & (fractions < 0.95)
     assert cut.sum() > 10
     assert np.allclose(state[cut], 1.0)
@@ -304,15 +306,15 @@ def test_elements_cut_by_an_opening_are_drawn_by_their_material_state():
 
 def test_density_greys_darken_evenly_from_void_to_solid():
     # Equal steps of density, equal steps of CIE L* (our design rule for the scale; L* from CIE 1976).
-    from toolkit import palette
+    from toolkit.write import palette
 
-    colours = svg_out.density_colours()
-    assert colours[0] == "#ffffff" and len(colours) == svg_out.DENSITY_CLASSES
+    colours = fields.density_colours()
+    assert colours[0] == "#ffffff" and len(colours) == fields.DENSITY_CLASSES
     lab = palette.srgb_to_lab(np.array([hex_rgb(c) for c in colours[1:]]))
     steps = np.diff(lab[:, 0])
     assert np.all(steps < 0) and np.ptp(steps) < 0.6
     assert lab[-1, 0] < 55 and abs(lab[:, 1]).max() < 2 and abs(lab[:, 2]).max() < 3  # a grey, not a hue
-    assert list(svg_out.density_classes([0.0, 0.1249, 0.125, 0.5, 0.999, 1.0])) == [0, 0, 1, 4, 7, 7]
+    assert list(fields.density_classes([0.0, 0.1249, 0.125, 0.5, 0.999, 1.0])) == [0, 0, 1, 4, 7, 7]
 
 
 def test_stress_underlay_uses_the_stress_drawing_and_its_legend():
@@ -321,7 +323,7 @@ def test_stress_underlay_uses_the_stress_drawing_and_its_legend():
     xc, yc = GRID.element_centres.T
     # Bending of a simply supported beam: sx = -M y / I, M > 0 (tension at the bottom fibre); sign only matters.
     stress = np.column_stack([-(yc - H / 2) / (H / 2) * 4.0, np.zeros_like(xc), np.zeros_like(xc)])
-    text = svg_out.result_svg(panel, GRID, densities=hole_densities(panel), voids=voids, stress=stress,
+    text = result_sheet.result_svg(panel, GRID, densities=hole_densities(panel), voids=voids, stress=stress,
                               underlay="stress", date="d")
     g = groups(text)
     assert "stress" in g and "density" not in g
@@ -344,15 +346,15 @@ def test_layout_frames_share_size_and_show_the_evolving_layout():
     from toolkit.fe.fractions import solid_fractions
 
     solid = solid_fractions(GRID, panel.solid)  # every element full: iteration 0
-    a = svg_out.layout_frame_svg(panel, GRID, solid, iteration=0, compliance_Nmm=1234.5, volume_fraction=1.0)
-    b = svg_out.layout_frame_svg(panel, GRID, hole_densities(panel), iteration=12, compliance_Nmm=1501.0,
+    a = layout_frame.layout_frame_svg(panel, GRID, solid, iteration=0, compliance_Nmm=1234.5, volume_fraction=1.0)
+    b = layout_frame.layout_frame_svg(panel, GRID, hole_densities(panel), iteration=12, compliance_Nmm=1501.0,
                                  volume_fraction=0.8125)
     ra, rb = ET.fromstring(a), ET.fromstring(b)
     assert (ra.get("width"), ra.get("height")) == (rb.get("width"), rb.get("height"))
     assert ra.get("width").endswith("mm")
     caption = all_text(groups(b)["heading"])
     assert "iteration 12" in caption and "1501 N mm" in caption and "0.812" in caption
-    assert svg_out.CAUTION in all_text(groups(b)["caution"])
+    assert CAUTION in all_text(groups(b)["caution"])
     img_a, img_b = render_sheet(a), render_sheet(b)
     probe = (HOLE[0] - 100, HOLE[1])
     assert np.abs(colour_at(img_a, a, probe) - SOLID_GREY).max() < 0.03
@@ -374,7 +376,7 @@ def beso_volume_history(target: float, rate: float, n: int) -> np.ndarray:
 def plot():
     v = beso_volume_history(0.55, 0.02, 45)
     c = 28000.0 / v**0.6  # compliance rising as material goes; any monotone stand-in will do for the plot
-    return c, v, svg_out.convergence_svg(c, v, target=0.55, title="Test wall W3")
+    return c, v, convergence_plot.convergence_svg(c, v, target=0.55, title="Test wall W3")
 
 
 def test_convergence_polylines_one_vertex_per_iteration(plot):
@@ -407,15 +409,15 @@ def test_convergence_ticks_at_round_values(plot):
     labels = [t.text for t in groups(text)["tick-labels"].iter(f"{SVG}text")]
     assert "compliance, 10\u00b3 N mm" in labels and "volume fraction of the design region" in labels
     # Round values of the 1-2-5 series (common practice, no source).
-    assert svg_out.nice_ticks(28380.0, 34200.0).tolist() == [28000, 30000, 32000, 34000, 36000]
-    assert svg_out.nice_ticks(0.55, 1.0).tolist() == pytest.approx([0.5, 0.6, 0.7, 0.8, 0.9, 1.0])
-    assert svg_out.nice_ticks(0, 45, 6).tolist() == [0, 10, 20, 30, 40, 50]
+    assert nice_ticks(28380.0, 34200.0).tolist() == [28000, 30000, 32000, 34000, 36000]
+    assert nice_ticks(0.55, 1.0).tolist() == pytest.approx([0.5, 0.6, 0.7, 0.8, 0.9, 1.0])
+    assert nice_ticks(0, 45, 6).tolist() == [0, 10, 20, 30, 40, 50]
     for piece in ("0.5", "1.0", "10", "40"):
         assert piece in labels
 
 
 def test_one_iteration_history_still_draws():
-    text = svg_out.convergence_svg([100.0], [0.9], target=0.5)
+    text = convergence_plot.convergence_svg([100.0], [0.9], target=0.5)
     (line, _) = ET.fromstring(text).iter(f"{SVG}polyline")
     assert len(line.get("points").split()) == 1
     assert "not reached" in all_text(groups(text)["legend"])
@@ -427,29 +429,29 @@ def test_one_iteration_history_still_draws():
 def test_bad_requests_are_refused_in_words():
     panel = wall_panel()
     with pytest.raises(LacunaError, match="unknown underlay 'heat'.*density, stress, none"):
-        svg_out.result_svg(panel, GRID, underlay="heat")
+        result_sheet.result_svg(panel, GRID, underlay="heat")
     with pytest.raises(LacunaError, match="no stresses were given"):
-        svg_out.result_svg(panel, GRID, underlay="stress")
+        result_sheet.result_svg(panel, GRID, underlay="stress")
     with pytest.raises(LacunaError, match="densities array has shape"):
-        svg_out.result_svg(panel, GRID, densities=np.ones(10))
+        result_sheet.result_svg(panel, GRID, densities=np.ones(10))
     with pytest.raises(LacunaError, match="unknown void family 'hole'"):
-        svg_out.result_svg(panel, GRID, voids=[model.Void("X", "hole", (1, 1), 5.0, Point(1, 1).buffer(2))])
+        result_sheet.result_svg(panel, GRID, voids=[model.Void("X", "hole", (1, 1), 5.0, Point(1, 1).buffer(2))])
     with pytest.raises(LacunaError, match="check marker 0"):
-        svg_out.result_svg(panel, GRID, violations=[42])
+        result_sheet.result_svg(panel, GRID, violations=[42])
     with pytest.raises(LacunaError, match="same length"):
-        svg_out.convergence_svg([1.0, 2.0], [1.0])
+        convergence_plot.convergence_svg([1.0, 2.0], [1.0])
     with pytest.raises(LacunaError, match="target volume fraction"):
-        svg_out.convergence_svg([1.0], [1.0], target=1.5)
+        convergence_plot.convergence_svg([1.0], [1.0], target=1.5)
     with pytest.raises(LacunaError, match="not finite"):
-        svg_out.convergence_svg([1.0, np.nan], [1.0, 0.9])
+        convergence_plot.convergence_svg([1.0, np.nan], [1.0, 0.9])
     with pytest.raises(LacunaError, match="volume fraction between 0 and 1"):
-        svg_out.layout_frame_svg(panel, GRID, np.ones(GRID.nx * GRID.ny), iteration=3, compliance_Nmm=1.0,
+        layout_frame.layout_frame_svg(panel, GRID, np.ones(GRID.nx * GRID.ny), iteration=3, compliance_Nmm=1.0,
                                  volume_fraction=1.2)
 
 
 def test_masses_on_the_sheet_are_written_without_an_exponent():
     # A precast panel's saving runs to tonnes: "1.21e+03 kg" is not how a drawing states a mass.
-    from toolkit.svg_out import _kilograms
+    from toolkit.write.sheet import kilograms as _kilograms
 
     assert _kilograms(1210.4) == "1210 kg"
     assert _kilograms(20.63) == "20.6 kg"
@@ -464,7 +466,8 @@ def test_void_ids_never_overlap_each_other_other_voids_or_a_point_load():
     from shapely.geometry import Point as P
 
     from toolkit.model import Material, Panel, PointLoad, Support, Void
-    from toolkit.svg_out import LABEL_SIZE, Figure, _label_spots, label_box
+    from toolkit.write.result_sheet import LABEL_SIZE, _label_spots, label_box
+    from toolkit.write.sheet import Figure
 
     panel = Panel(width_mm=3000, height_mm=800, thickness_mm=20, element_size_mm=25,
                   material=Material(E_MPa=210000, nu=0.3), supports=(Support(((0, 0), (0, 800)), "xy"),),

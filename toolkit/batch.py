@@ -260,7 +260,7 @@ def batch_files(drawings, job_path=None, *, out_dir=None, scheduler: str | None 
     ``on_done(row, done, total)`` is called as each panel finishes.
     """
     from .jobfile import read_job
-    from .outputs import plan_outputs, write_outputs
+    from .write.files import plan_outputs, write_outputs
 
     drawings = [Path(d) for d in drawings]
     if not drawings:

@@ -314,7 +314,7 @@ def _label(v: dict) -> str:
 
 
 def _markers(result: CheckResult):
-    from .dxf_out import Marker
+    from .write.shapes import Marker
 
     return [Marker(where=tuple(float(c) for c in v.where), label=_label(entry))
             for v, entry in zip(result.violations, result.summary["violations"])]
@@ -322,7 +322,7 @@ def _markers(result: CheckResult):
 
 def _marked_copy(path: str, frame: Frame, markers, panel_size_mm: tuple[float, float], replace: bool) -> bytes:
     """The drawing with the markers added on LACUNA-CHECK, as file bytes (same version and format)."""
-    from . import dxf_out
+    from .write.dxf_copy import add_check_markers, result_copy_bytes
 
-    return dxf_out.result_copy_bytes(path, frame, add=dxf_out.add_check_markers, check_markers=markers,
-                                     panel_size_mm=panel_size_mm, replace=replace)
+    return result_copy_bytes(path, frame, add=add_check_markers, check_markers=markers,
+                             panel_size_mm=panel_size_mm, replace=replace)

@@ -143,9 +143,9 @@ def sweep_file(drawing, job_path=None, *, volumes, profiles=None, out_dir=None, 
     import dataclasses
 
     from .inputs import load_panel
-    from .outputs import plan_outputs, write_outputs
     from .pipeline import job_rules
-    from .svg_out import tradeoff_svg
+    from .write.files import plan_outputs, write_outputs
+    from .write.tradeoff_plot import tradeoff_svg
 
     volume_list = parse_volumes(volumes) if isinstance(volumes, str) else _checked_volumes(volumes)
     profile_list = parse_profiles(profiles) if profiles is None or isinstance(profiles, str) else \

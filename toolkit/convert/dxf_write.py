@@ -5,7 +5,7 @@ from __future__ import annotations
 
 import ezdxf
 
-from ..dxf_out import dxf_version_code, serialise
+from ..write.dxf_file import dxf_version_code, serialise
 from ..units import UNIT_TO_INSUNITS
 from .svg_read import read_outlines
 

@@ -7,7 +7,7 @@ from ezdxf.lldxf import const
 from ezdxf.math import Matrix44
 
 from ..dxf_in.pieces import ENTITY_DATA_ERRORS
-from ..dxf_out import serialise
+from ..write.dxf_file import serialise
 from ..errors import LacunaError
 from ..units import INSUNITS_TO_UNIT, MM_PER_UNIT, UNIT_TO_INSUNITS, mm_per
 

@@ -12,7 +12,6 @@ and what happens when a drawing already holds results from an earlier run.
 
 from __future__ import annotations
 
-import io
 import math
 import os
 from collections.abc import Iterable, Mapping, Sequence
@@ -22,62 +21,13 @@ import numpy as np
 from ezdxf import bbox, colors
 from ezdxf.document import Drawing as DxfDocument
 from ezdxf.lldxf import const, validator
-from shapely.geometry import MultiPolygon, Polygon
 
-from .errors import LacunaError
-from .model import Frame, Point, Void
-from .units import mm_per
-
-
-@dataclass(frozen=True)
-class LayerLook:
-    """How one of our layers looks: a true colour (with its nearest ACI index for R12/R2000 readers),
-    a line type and a line weight in 1/100 mm (one of the DXF standard weights)."""
-
-    name: str
-    rgb: tuple[int, int, int]
-    linetype: str
-    lineweight: int
-    description: str
-
-
-DASHED = "LACUNA-DASHED"
-# Dash and gap on paper-like proportions for a drawing at 1:1 in mm (our choice); scaled to the drawing's unit.
-DASH_MM, GAP_MM = 12.0, 6.0
-
-VOID_LAYERS = {
-    "polygon": "LACUNA-VOID-POLYGON",
-    "slot": "LACUNA-VOID-SLOT",
-    "bore": "LACUNA-VOID-BORE",
-}
-FREEFORM, CENTRE, NOTE, CHECK = "LACUNA-FREEFORM", "LACUNA-CENTRE", "LACUNA-NOTE", "LACUNA-CHECK"
-
-# Our own choice of look (docs/layers.md): cut lines heavy and dark, the optimiser's raw outline light and
-# dashed, marks thin, violations in a warm red that stands apart from everything else.
-LOOKS: tuple[LayerLook, ...] = (
-    LayerLook(VOID_LAYERS["polygon"], (23, 94, 104), "CONTINUOUS", 50, "voids to cut: n-gons"),
-    LayerLook(VOID_LAYERS["slot"], (92, 64, 140), "CONTINUOUS", 50, "voids to cut: slots"),
-    LayerLook(VOID_LAYERS["bore"], (33, 86, 160), "CONTINUOUS", 50, "voids to cut: bores"),
-    LayerLook(FREEFORM, (204, 138, 46), DASHED, 18, "optimiser's raw void outlines"),
-    LayerLook(CENTRE, (110, 110, 110), "CONTINUOUS", 13, "void centre marks"),
-    LayerLook(NOTE, (38, 38, 38), "CONTINUOUS", 25, "void schedule and notes"),
-    LayerLook(CHECK, (200, 52, 44), "CONTINUOUS", 35, "fabrication-rule violations"),
-)
-OUR_LAYERS: tuple[str, ...] = tuple(look.name for look in LOOKS)
-
-# Writable DXF versions (ezdxf writes these), by release name and by $ACADVER code.
-VERSIONS: dict[str, str] = {
-    name: code for code, name in const.acad_release.items() if code in const.versions_supported_by_save
-}
-
-
-@dataclass(frozen=True)
-class Marker:
-    """A rule violation to mark: a circle round ``where`` (local mm) and a short label beside it."""
-
-    where: Point
-    label: str
-    radius_mm: float | None = None
+from ..errors import LacunaError
+from ..model import Frame, Void
+from ..units import mm_per
+from .dxf_file import dxf_version_code, serialise
+from .layers import CENTRE, CHECK, DASH_MM, DASHED, FREEFORM, GAP_MM, LOOKS, NOTE, OUR_LAYERS, VOID_LAYERS
+from .shapes import Marker, as_marker, check_void, freeform_rings, short_number
 
 
 @dataclass
@@ -119,10 +69,10 @@ def add_results(
     """
     _check_frame(frame)
     voids = list(voids)
-    rings = _freeform_rings(freeform)
-    markers = [_marker(m, k) for k, m in enumerate(check_markers)]
+    rings = freeform_rings(freeform)
+    markers = [as_marker(m, k) for k, m in enumerate(check_markers)]
     for void in voids:
-        _check_void(void)
+        check_void(void)
     extent = _extent(voids, rings, panel_size_mm)
     h_mm = text_height_mm if text_height_mm is not None else _default_text_height(extent)
     if not (math.isfinite(h_mm) and h_mm > 0):
@@ -177,7 +127,7 @@ def add_check_markers(
     markers on LACUNA-CHECK are refused (or, with ``replace``, deleted from model space first).
     """
     _check_frame(frame)
-    markers = [_marker(m, k) for k, m in enumerate(check_markers)]
+    markers = [as_marker(m, k) for k, m in enumerate(check_markers)]
     extent = _extent([], [], panel_size_mm)
     h_mm = text_height_mm if text_height_mm is not None else _default_text_height(extent)
     added = Added()
@@ -198,7 +148,7 @@ def _draw_markers(out, markers, h_mm: float) -> None:
 
 def refuse_earlier_results(input_path, *, replace: bool = False) -> None:
     """Fail fast, before any long computation, when the drawing already holds results and ``replace`` is off."""
-    from .dxf_in.source import open_document
+    from ..dxf_in.source import open_document
 
     doc, _warnings = open_document(os.fspath(input_path))
     _clear_or_refuse(doc, replace)  # on a throwaway copy in memory: with replace it only checks placement
@@ -367,10 +317,6 @@ def _note_block(out: _Pen, rows: list[list[str]], notes: list[str], extent, h: f
         line += 1
 
 
-def _fmt(v: float) -> str:
-    return f"{v:.6g}"
-
-
 def _schedule_rows(voids: list[Void], frame: Frame) -> list[list[str]]:
     """The default schedule: one row per void, positions and sizes in the drawing's unit."""
     if not voids:
@@ -380,8 +326,8 @@ def _schedule_rows(voids: list[Void], frame: Frame) -> list[list[str]]:
     for v in voids:
         cx, cy = frame.to_drawing(np.asarray(v.centre, dtype=float))
         rows.append([
-            v.id, v.family, _fmt(cx), _fmt(cy), _fmt(frame.length_to_drawing(v.size_mm)), v.tool or "-",
-            _fmt(v.area_mm2 / frame.mm_per_unit ** 2),
+            v.id, v.family, short_number(cx), short_number(cy), short_number(frame.length_to_drawing(v.size_mm)), v.tool or "-",
+            short_number(v.area_mm2 / frame.mm_per_unit ** 2),
         ])
     return rows
 
@@ -436,100 +382,6 @@ def _check_frame(frame: Frame) -> None:
         raise LacunaError("the drawing frame has a non-finite origin or angle.", where="frame")
 
 
-def _check_void(void: Void) -> None:
-    where = f"void {void.id}"
-    if void.family not in VOID_LAYERS:
-        raise LacunaError(
-            f"unknown void family {void.family!r}.", where=where, hint=f"Use one of {', '.join(VOID_LAYERS)}."
-        )
-    if not (math.isfinite(void.size_mm) and void.size_mm > 0):
-        raise LacunaError(f"void size must be a positive length, got {void.size_mm} mm.", where=where)
-    if not all(math.isfinite(c) for c in void.centre):
-        raise LacunaError("void centre is not a finite point.", where=where)
-    if void.family != "bore":
-        if void.outline:
-            arr = np.asarray(void.outline, dtype=float)
-            if arr.ndim != 2 or arr.shape[1] != 3 or len(arr) < 2 or not np.isfinite(arr).all():
-                raise LacunaError(
-                    "void outline must be two or more finite (x, y, bulge) vertices.", where=where,
-                    hint="Give the outline as (x, y, bulge) tuples in local mm.",
-                )
-        elif void.shape.is_empty or void.shape.geom_type != "Polygon":
-            raise LacunaError("void has neither an outline nor a polygon shape.", where=where)
-
-
-def _freeform_rings(freeform) -> list[np.ndarray]:
-    """Every ring (outer and holes) of the freeform polygons, without the repeated closing vertex."""
-    if freeform is None:
-        return []
-    geoms = [freeform] if isinstance(freeform, (Polygon, MultiPolygon)) else list(freeform)
-    rings = []
-    for k, g in enumerate(geoms):
-        if isinstance(g, MultiPolygon):
-            parts = list(g.geoms)
-        elif isinstance(g, Polygon):
-            parts = [g]
-        else:
-            raise LacunaError(
-                f"freeform outline {k} is a {type(g).__name__}, not a shapely Polygon or MultiPolygon.",
-                where=f"freeform {k}",
-            )
-        for p in parts:
-            if p.is_empty:
-                continue
-            for ring in (p.exterior, *p.interiors):
-                xy = np.asarray(ring.coords, dtype=float)[:-1, :2]
-                if len(xy) >= 3:
-                    rings.append(xy)
-    return rings
-
-
-def _marker(m, k: int) -> Marker:
-    if isinstance(m, Marker):
-        marker = m
-    elif isinstance(m, Mapping) and "where" in m:
-        label = str(m.get("rule", "check"))
-        if "measured" in m and "required" in m:
-            # a stress rule is broken from above (MPa), a length rule from below
-            sign = ">" if m.get("rule") == "max_edge_stress" else "<"
-            label += f" {_fmt(float(m['measured']))} {sign} {_fmt(float(m['required']))}"
-        marker = Marker(tuple(m["where"]), label, m.get("radius_mm"))
-    else:
-        raise LacunaError(
-            f"check marker {k} is neither a Marker nor a mapping with 'where'.", where=f"check marker {k}"
-        )
-    if len(marker.where) != 2 or not all(math.isfinite(float(c)) for c in marker.where):
-        raise LacunaError(f"check marker {k} has no finite position: {marker.where!r}.", where=f"check marker {k}")
-    if marker.radius_mm is not None and not marker.radius_mm > 0:
-        raise LacunaError(f"check marker {k} radius must be positive.", where=f"check marker {k}")
-    return marker
-
-
-def dxf_version_code(version: str, *, where: str = "dxf_version") -> str:
-    """A release name ("R2013") or $ACADVER code ("AC1027") -> the code; a clear error for anything else."""
-    text = str(version).strip().upper()
-    if text in VERSIONS:
-        return VERSIONS[text]
-    if text in VERSIONS.values():
-        return text
-    raise LacunaError(
-        f"unknown DXF version {version!r}.",
-        where=where,
-        hint=f"Use one of {', '.join(VERSIONS)} (or their codes {', '.join(VERSIONS.values())}).",
-    )
-
-
-def serialise(doc: DxfDocument, *, binary: bool = False) -> bytes:
-    """The document as DXF file bytes (ASCII in the document's own encoding, or binary DXF)."""
-    if binary:
-        stream = io.BytesIO()
-        doc.write(stream, fmt="bin")
-        return stream.getvalue()
-    stream = io.StringIO()
-    doc.write(stream)
-    return stream.getvalue().encode(doc.output_encoding, errors="dxfreplace")
-
-
 def result_copy_bytes(input_path, frame: Frame, *, dxf_version: str | None = None, add=None, **results) -> bytes:
     """Read the drawing at ``input_path`` (never written), add the results, return the new file's bytes.
 
@@ -537,7 +389,7 @@ def result_copy_bytes(input_path, frame: Frame, *, dxf_version: str | None = Non
     check). The copy keeps the input's DXF version, format
     (ASCII or binary) and units unless ``dxf_version`` names a later version to write instead.
     """
-    from .dxf_in.source import open_document  # the one reader of drawing files
+    from ..dxf_in.source import open_document  # the one reader of drawing files
 
     path = os.fspath(input_path)
     target = dxf_version_code(dxf_version) if dxf_version is not None else None

@@ -10,7 +10,7 @@ import os
 import secrets
 from pathlib import Path
 
-from .errors import LacunaError
+from ..errors import LacunaError
 
 
 def default_out_dir(input_path: str | os.PathLike) -> Path:

@@ -1,0 +1,426 @@
+"""The result sheet: the voids to make over an underlay, at 1:N, one group per output layer of CONTRACT.md.
+
+The sheet a shop makes from (underlay "made"): the panel as it will be made, material grey and the voids cut
+through, ordinate dimensions from the datum at the lower-left corner to each void's centre. The same function with
+the "density" underlay draws the optimiser's layout (its freeform voids under the voids to make), and with
+"stress" the stress with the voids cut. The layers' colours are the drawing copy's (:mod:`.layers`).
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+import math
+from collections.abc import Iterable, Sequence
+
+import numpy as np
+import shapely
+
+from ..errors import LacunaError
+from ..fe.fractions import solid_fractions
+from ..model import Panel, PointLoad, Void
+from . import palette, shapes
+from .fields import (SHOWN, VOID_FILL, density_classes, density_colours, dominant_principal, draw_cells,
+                     draw_density_bar, draw_stress, draw_stress_bar, material_state, stress_limit)
+from .layers import LOOKS, VOID_LAYERS
+from .sheet import (INK, MARGIN, ROOM, ROOM_BELOW, Figure, area_path, cased_text, check_grid, checked_array,
+                    date_text, draw_heading, draw_key, draw_scale_bar, draw_title_block, fmt, kilograms, lettering,
+                    outline_path, polygon_path, polygons, section_lines)
+from .symbols import draw_loads, draw_outlines, draw_supports
+
+
+# The output layers of CONTRACT.md in drawing order, and what draws on each.
+RESULT_LAYERS = tuple(look.name.lower() for look in LOOKS)
+_LOOK = {look.name.lower(): look for look in LOOKS}
+_VOID_GROUP = {family: name.lower() for family, name in VOID_LAYERS.items()}
+
+
+def _exact(v: float) -> str:
+    """Shortest text that reads back as exactly the same float (bore radii must equal the drawing's)."""
+    text = repr(float(v))
+    return text[:-2] if text.endswith(".0") else text
+
+
+def _void_label_anchor(void: Void) -> np.ndarray:
+    """Where the outline meets the ray from the centre up and to the right (local mm): the label sits beyond."""
+    c = np.asarray(void.centre, dtype=float)
+    if void.family == "bore":
+        return c + void.size_mm / 2.0 * np.array([math.sqrt(0.5), math.sqrt(0.5)])
+    reach = 2.0 * max(void.length_mm, void.size_mm, 1.0) + float(np.ptp(np.asarray(void.shape.bounds)))
+    ray = shapely.LineString([c, c + reach * np.array([math.sqrt(0.5), math.sqrt(0.5)])])
+    hits = shapely.get_coordinates(shapely.intersection(void.shape.boundary, ray))
+    if len(hits) == 0:
+        return c
+    return hits[np.argmax(np.hypot(*(hits - c).T))]
+
+
+def _as_marker(item, k: int):
+    """A check marker from a :class:`toolkit.rules.check.Violation`, a dxf_out Marker or a check-JSON mapping."""
+    if hasattr(item, "to_json") and hasattr(item, "rule"):
+        item = item.to_json()
+    return shapes.as_marker(item, k)
+
+
+# Void ids on the sheet: lettering of this size (paper mm).
+LABEL_SIZE = 2.3
+_EM = 0.72
+
+
+def label_box(fig: Figure, text: str, at, size: float):
+    """The box (local mm) a line of lettering of ``size`` paper mm started at ``at`` (its baseline) covers: a
+    bold capital or digit of DejaVu Sans is about 0.7 em wide (``_EM``), capitals stand 0.73 em, descenders
+    0.24 em."""
+    s = fig.scale
+    return shapely.box(at[0], at[1] - 0.24 * size * s, at[0] + _EM * size * s * len(text), at[1] + 0.75 * size * s)
+
+
+def _label_spots(fig: Figure, voids: Sequence[Void], size: float):
+    """Where each void's id goes so that no two ids, no id and another void, and no id and the loads or
+    supports overlap: inside the void when it fits with room to spare, else just outside it in the first of
+    eight directions (up-right first) that is clear, further out with a leader line when none is. Returns
+    [(baseline start (local mm), leader segment or None)] in ``voids`` order."""
+    p = fig.paper
+    panel = fig.panel
+    gap = p(0.6)
+    shapes = [v.shape for v in voids]
+    taken: list = []
+    # The loads and supports are drawn on the panel's edges and outside it: ids stay inside the panel, clear of
+    # the edge band where arrows and bearing marks stand.
+    inner = shapely.box(0.0, 0.0, panel.width_mm, panel.height_mm).buffer(-p(1.0), join_style="mitre")
+    # A point load's arrow and its figure stand at its point: ids keep a square of 12 paper mm clear round it.
+    for load in panel.loads:
+        if isinstance(load, PointLoad):
+            inner = inner.difference(shapely.Point(load.at).buffer(p(12.0), cap_style="square"))
+    tree = shapely.STRtree(shapes) if shapes else None
+    dirs = [(math.cos(a), math.sin(a)) for a in np.radians([45, 135, 0, 180, 90, 270, 315, 225])]
+    out = []
+    for k, void in enumerate(voids):
+        w = _EM * size * fig.scale * len(void.id)
+        h = 0.99 * size * fig.scale
+        c = np.asarray(void.centre, dtype=float)
+
+        def clear(box, inside_own: bool) -> bool:
+            spaced = box.buffer(p(0.5))  # a little air between two ids
+            if not inner.covers(box) or any(spaced.intersects(t) for t in taken):
+                return False
+            near = tree.query(box.buffer(gap), predicate="intersects") if tree is not None else []
+            for j in near:
+                if j == k and inside_own:
+                    continue
+                return False
+            return True
+
+        # Inside, above the centre cross, when the void holds the box with a margin.
+        at = c + (-w / 2.0, min(p(1.5), 0.35 * void.size_mm) + p(0.5) + 0.24 * size * fig.scale)
+        box = label_box(fig, void.id, at, size)
+        if void.shape.buffer(-gap).covers(box) and clear(box, inside_own=True):
+            taken.append(box)
+            out.append((at, None))
+            continue
+        placed = None
+        reach = 0.5 * float(max(void.length_mm, void.size_mm)) + gap
+        for ring in (1.0, 2.0, 3.5, 5.0):
+            for dx, dy in dirs:
+                # the box's nearest corner (or edge middle) in the direction faces the void
+                ox = 0.0 if dx > 0.3 else (-w if dx < -0.3 else -w / 2.0)
+                oy = 0.24 * size * fig.scale if dy > 0.3 else (-0.75 * size * fig.scale if dy < -0.3 else -0.3 * h)
+                point = c + reach * ring * np.array([dx, dy])
+                at = point + (ox, oy)
+                box = label_box(fig, void.id, at, size)
+                if clear(box, inside_own=False):
+                    placed = (at, None if ring == 1.0 else (_towards(void.shape, point), point))
+                    break
+            if placed is not None:
+                break
+        if placed is None:  # nowhere clear: the first spot outside, as before
+            at = _void_label_anchor(void) + p(0.6)
+            placed = (at, None)
+        taken.append(label_box(fig, void.id, placed[0], size))
+        out.append(placed)
+    return out
+
+
+def _towards(shape, point) -> np.ndarray:
+    """The point of ``shape``'s outline nearest ``point`` (a leader's foot)."""
+    line = shapely.shortest_line(shape.boundary, shapely.Point(point))
+    return shapely.get_coordinates(line)[0]
+
+
+def _draw_result_layers(fig: Figure, voids: Sequence[Void], freeform, markers) -> None:
+    """The CONTRACT.md output layers, each a group (present even when empty, so a viewer can toggle it)."""
+    p = fig.paper
+    looks = {name: palette.rgb_to_hex(np.asarray(look.rgb) / 255.0) for name, look in _LOOK.items()}
+    bold, thin = fmt(p(0.6), 4), fmt(p(0.25), 4)
+    g = {}
+    for name in RESULT_LAYERS:
+        look = _LOOK[name]
+        if name == "lacuna-freeform":
+            attrs = dict(fill="none", stroke=looks[name], stroke_width=thin, stroke_linejoin="round",
+                         stroke_dasharray=f"{fmt(p(1.6), 4)} {fmt(p(0.8), 4)}")
+        elif name in _VOID_GROUP.values():
+            attrs = dict(fill=VOID_FILL, stroke=looks[name], stroke_width=bold, stroke_linejoin="round")
+        elif name == "lacuna-centre":
+            attrs = dict(fill="none", stroke=looks[name], stroke_width=fmt(p(0.18), 4))
+        elif name == "lacuna-check":
+            attrs = dict(fill="none", stroke=looks[name], stroke_width=fmt(p(0.35), 4))
+        else:
+            attrs = {}
+        g[name] = fig.layer(name, **attrs, **{"data-layer": look.name})
+
+    for ring in shapes.freeform_rings(freeform):
+        g["lacuna-freeform"].add(fig.dwg.path(d=polygon_path(ring)))
+    for void in voids:
+        shapes.check_void(void)
+        group = g[_VOID_GROUP[void.family]]
+        tag = {"data-void-id": void.id}
+        if void.family == "bore":
+            cx, cy = void.centre
+            group.add(fig.dwg.circle(center=(_exact(cx), _exact(cy)), r=_exact(void.size_mm / 2.0), **tag))
+        else:
+            outline = void.outline or tuple((x, y, 0.0) for x, y in list(void.shape.exterior.coords)[:-1])
+            group.add(fig.dwg.path(d=outline_path(outline), **tag))
+        # Crosses about 3 mm on paper, never longer than the void is wide.
+        half = min(p(1.5), 0.35 * void.size_mm)
+        cx, cy = void.centre
+        g["lacuna-centre"].add(fig.dwg.path(
+            d=f"M{fmt(cx - half)} {fmt(cy)}h{fmt(2 * half)}M{fmt(cx)} {fmt(cy - half)}v{fmt(2 * half)}", **tag))
+    spots = _label_spots(fig, voids, LABEL_SIZE)
+    for void, (at, leader) in zip(voids, spots):
+        if leader is not None:
+            g["lacuna-note"].add(fig.dwg.line(start=(fmt(leader[0][0]), fmt(leader[0][1])),
+                                              end=(fmt(leader[1][0]), fmt(leader[1][1])),
+                                              stroke=looks["lacuna-note"], stroke_width=fmt(p(0.15), 4),
+                                              **{"data-void-id": void.id, "data-leader": "1"}))
+        label = cased_text(fig, g["lacuna-note"], void.id, (at[0], at[1]), LABEL_SIZE, weight="bold",
+                            fill=looks["lacuna-note"], local=True)
+        label.attribs["data-void-id"] = void.id
+    for m in markers:
+        r = m.radius_mm if m.radius_mm is not None else p(2.5)
+        x, y = m.where
+        g["lacuna-check"].add(fig.dwg.circle(center=(fmt(x), fmt(y)), r=fmt(r, 4)))
+        cased_text(fig, g["lacuna-check"], m.label, (x + r * math.sqrt(0.5) + p(0.5), y + r * math.sqrt(0.5)),
+                    1.8, casing=0.4, fill=looks["lacuna-check"], local=True)
+
+
+def _layer_key_rows(leave_out: tuple[str, ...] = ()) -> list:
+    """The line key of the result sheets: the panel's lines and each output layer (less ``leave_out``: layers
+    with nothing on the sheet)."""
+    looks = {name: palette.rgb_to_hex(np.asarray(look.rgb) / 255.0) for name, look in _LOOK.items()}
+    rows = [
+        ("line", dict(stroke=INK, stroke_width="0.4"), "panel and openings as drawn"),
+        ("line", dict(stroke=INK, stroke_width="0.3", stroke_dasharray="2 1"), "zone kept solid"),
+    ]
+    for name in RESULT_LAYERS:
+        if name in leave_out:
+            continue
+        look = _LOOK[name]
+        colour = looks[name]
+        if name in _VOID_GROUP.values():
+            sample = ("area", dict(fill=VOID_FILL, stroke=colour, stroke_width="0.6"))
+        elif name == "lacuna-freeform":
+            sample = ("line", dict(stroke=colour, stroke_width="0.25", stroke_dasharray="1.6 0.8"))
+        elif name == "lacuna-centre":
+            sample = ("cross", dict(stroke=colour, stroke_width="0.18"))
+        elif name == "lacuna-note":
+            sample = ("label", dict(fill=colour))
+        else:
+            sample = ("ring", dict(stroke=colour, stroke_width="0.35"))
+        rows.append((*sample, f"{look.description} \u2014 layer {look.name}"))
+    return rows
+
+
+_RESULT_LEGEND = 44.0
+
+# Paper room (mm) under the panel for the x ordinates, below the support symbols.
+_ORDINATE_BAND = 16.0
+_ORDINATE_SIZE = 2.0
+
+
+def _spread(values: np.ndarray, pitch: float) -> np.ndarray:
+    """Positions for labels at ``values`` (sorted) at least ``pitch`` apart: each at its value unless the one
+    before it pushes it on (a leader then joins it to its value)."""
+    out = values.astype(float).copy()
+    for k in range(1, len(out)):
+        out[k] = max(out[k], out[k - 1] + pitch)
+    return out
+
+
+def _draw_ordinates(fig: Figure, voids: Sequence[Void]) -> None:
+    """Ordinate dimensions of every void's centre from the datum (the panel's lower-left corner, local 0, 0):
+    x values along a line under the panel, y values up a line left of it, each with a tick at the true position
+    and a jogged leader to its lettering where neighbours crowd it. Values in the drawing's unit; a centre shared
+    by several voids is written once."""
+    if not voids:
+        return
+    p = fig.paper
+    f = fig.panel.frame
+    g = fig.layer("ordinates", stroke=INK, stroke_width=fmt(p(0.15), 4), fill="none")
+    decimals = {"mm": 0, "cm": 1, "m": 3, "in": 2, "ft": 3}.get(f.unit, 3)
+
+    def text(v: float) -> str:
+        return f"{f.length_to_drawing(v):.{decimals}f}"
+
+    pitch = p(_ORDINATE_SIZE * 1.25)
+    # x ordinates: a datum line below the support symbols, values written upright-turned (reading up).
+    base = -p(ROOM_BELOW - 2.0)
+    xs = np.unique(np.round([v.centre[0] for v in voids], 6))
+    xs = np.concatenate([[0.0], xs])
+    where = _spread(xs, pitch)
+    g.add(fig.dwg.line(start=(fmt(0), fmt(base)), end=(fmt(fig.panel.width_mm), fmt(base))))
+    for x, at in zip(xs, where):
+        g.add(fig.dwg.path(d=f"M{fmt(x)} {fmt(base)}v{fmt(-p(1.2))}L{fmt(at)} {fmt(base - p(3.0))}"
+                           f"v{fmt(-p(0.6))}", **{"data-ordinate": f"x {text(x)}"}))
+        label = "0" if x == 0.0 else text(x)
+        s = fig.scale
+        g.add(lettering(fig.dwg, label, (0, 0), _ORDINATE_SIZE, anchor="end", fill=INK,
+                         transform=f"matrix(0 {fmt(s, 6)} {fmt(s, 6)} 0 {fmt(at + 0.35 * p(_ORDINATE_SIZE))} "
+                                   f"{fmt(base - p(4.0))})"))
+    # y ordinates: a datum line left of the panel, beyond the support symbols, values written level.
+    side = -p(ROOM - 6.0)
+    ys = np.unique(np.round([v.centre[1] for v in voids], 6))
+    ys = np.concatenate([[0.0], ys])
+    where = _spread(ys, pitch)
+    g.add(fig.dwg.line(start=(fmt(side), fmt(0)), end=(fmt(side), fmt(fig.panel.height_mm))))
+    for y, at in zip(ys, where):
+        g.add(fig.dwg.path(d=f"M{fmt(side)} {fmt(y)}h{fmt(-p(1.2))}L{fmt(side - p(3.0))} {fmt(at)}"
+                           f"h{fmt(-p(0.6))}", **{"data-ordinate": f"y {text(y)}"}))
+        fig.text(g, "0" if y == 0.0 else text(y), (side - p(4.2), at - 0.35 * p(_ORDINATE_SIZE)), _ORDINATE_SIZE,
+                 anchor="end", local=True)
+    # The datum: a circle with a cross at the corner.
+    r = p(1.2)
+    g.add(fig.dwg.circle(center=(0, 0), r=fmt(r), **{"data-datum": "1"}))
+    g.add(fig.dwg.path(d=f"M{fmt(-r)} 0h{fmt(2 * r)}M0 {fmt(-r)}v{fmt(2 * r)}"))
+
+
+def _draw_result_legend(fig: Figure, underlay: str, stress_range) -> None:
+    g = fig.sheet_group("legend")
+    x0, top = MARGIN, fig.legend_top
+    if underlay == "density":
+        draw_density_bar(fig, g, x0, top)
+    elif underlay == "stress":
+        draw_stress_bar(fig, g, x0, top, *stress_range)
+    elif underlay == "made":
+        fig.text(g, "The panel as it will be made: material grey, voids cut through.", (x0, top + 2.5), 2.8,
+                 weight="bold")
+        for k, line in enumerate((
+                f"Ordinates: each void's centre from the datum at the panel's lower-left corner, in "
+                f"{fig.panel.frame.unit}; x along the",
+                "bottom, y up the left side. Sizes and corner coordinates: the void schedule (CSV).",
+                "The optimiser's layout and its freeform voids: the layout figure.")):
+            fig.text(g, line, (x0, top + 8.0 + 4.2 * k), 2.4)
+    else:
+        fig.text(g, "No underlay: the voids over the panel as drawn.", (x0, top + 2.5), 2.8, weight="bold")
+    draw_scale_bar(fig, x0, top + 29.0)
+    # The sheet a shop makes from shows no freeform outlines: its key does not list them.
+    leave_out = ("lacuna-freeform",) if underlay == "made" else ()
+    draw_key(fig, g, x0 + 132.0, top, _layer_key_rows(leave_out), pitch=4.3)
+
+
+_UNDERLAYS = ("made", "density", "stress", "none")
+
+# The panel's material on the sheet a shop makes from: a light grey, so the cut voids (paper white) and every line
+# over it read clearly.
+MADE_FILL = "#d6d6d0"
+_FAMILY_WORDS = {"polygon": ("n-gon", "n-gons"), "slot": ("slot", "slots"), "bore": ("bore", "bores")}
+
+
+def _void_count_text(voids: Sequence[Void]) -> str:
+    if not voids:
+        return "no voids to make"
+    counts = {f: sum(v.family == f for v in voids) for f in _FAMILY_WORDS}
+    parts = [f"{n} {_FAMILY_WORDS[f][n != 1]}" for f, n in counts.items() if n]
+    return f"{len(voids)} to make: " + ", ".join(parts)
+
+
+def result_svg(
+    panel: Panel,
+    grid,
+    *,
+    densities=None,
+    freeform=(),
+    voids: Iterable[Void] = (),
+    stress=None,
+    underlay: str = "density",
+    title: str | None = None,
+    profile: str = "",
+    volume_removed_percent: float | None = None,
+    mass_removed_kg: float | None = None,
+    date: _dt.date | str | None = None,
+    violations: Iterable = (),
+) -> str:
+    """The result sheet as SVG text: the voids to make over an underlay, at 1:N on a 260 mm wide sheet.
+
+    One group per output layer of CONTRACT.md (ids in lower case, present even when empty): voids to make
+    bold over a paper-white cut (slots and eased corners as true arcs, bores as circles of the drill's radius in
+    local mm), the optimiser's freeform outlines thin and dashed, centre crosses, void ids, and ``violations``
+    (rule checks: Violation values, check-JSON mappings or dxf_out Markers) ringed. ``underlay`` is "density"
+    (the optimised material state of ``densities`` (ne,) in greys; nothing when no densities are given),
+    "stress" (``stress`` (ne, 3) sx, sy, txy in MPa, drawn as on the analysis figure) or "none". The title block
+    names the panel, profile, the volume removed and the date, over the caution.
+    """
+    if underlay not in _UNDERLAYS:
+        raise LacunaError(f"unknown underlay {underlay!r}.", where="result figure",
+                          hint=f"Use one of: {', '.join(_UNDERLAYS)}.")
+    voids = list(voids)
+    markers = [_as_marker(m, k) for k, m in enumerate(violations)]
+    ne = grid.nx * grid.ny
+    check_grid(panel, grid, "result figure")
+    solid = panel.solid
+    state = None
+    if densities is not None:
+        state, _ = material_state(panel, grid, densities)
+    elif underlay == "density":
+        underlay = "none"
+    stress_range = None
+    if underlay == "stress":
+        if stress is None:
+            raise LacunaError("a stress underlay was asked for, but no stresses were given.", where="result figure",
+                              hint="Pass stress=(ne, 3) element stresses of one load case, or underlay='density'.")
+        stress = checked_array(stress, (ne, 3), "stress", grid)
+        # The stress belongs to the panel with the voids to make cut: draw that material, not the optimiser's.
+        if voids:
+            solid = shapely.difference(solid, shapely.union_all([v.shape for v in voids]))
+        drawn = solid_fractions(grid, solid) > 0.0
+        dominant = dominant_principal(stress)
+        shown = dominant[drawn]
+        vmax = stress_limit(shown)
+        stress_range = (vmax, float(shown.max()) if shown.size else 0.0, float(shown.min()) if shown.size else 0.0)
+
+    fig = Figure(panel, legend_height=_RESULT_LEGEND,
+                 room_below=ROOM_BELOW + (_ORDINATE_BAND if underlay == "made" else 0.0))
+    what = {"density": "under them the optimised layout", "stress": "under them the stress with the voids cut",
+            "none": "over the panel as drawn",
+            "made": "cut from the panel as it will be made"}[underlay]
+    draw_heading(fig, title or f"{panel.name}: voids to make",
+                  f"Scale 1:{fig.scale}; lengths in {panel.frame.unit}; voids to make {what}.")
+    if underlay == "made":
+        made = shapely.difference(solid, shapely.union_all([v.shape for v in voids])) if voids else solid
+        g = fig.layer("made", fill=MADE_FILL, stroke="none")
+        for poly in polygons(made):
+            g.add(fig.dwg.path(d=area_path(poly), fill_rule="evenodd"))
+    elif underlay == "density":
+        draw_cells(fig, "density", grid, density_classes(state), state >= SHOWN, density_colours(), solid)
+    elif underlay == "stress":
+        draw_stress(fig, grid, drawn, dominant, stress_range[0], solid)
+        fig.drawing.attribs["data-stress-limit-MPa"] = f"{stress_range[0]:g}"
+    draw_outlines(fig, panel)
+    _draw_result_layers(fig, voids, freeform, markers)
+    draw_supports(fig, panel)
+    for case in panel.cases:
+        draw_loads(fig, panel, case)
+    if underlay == "made":
+        _draw_ordinates(fig, voids)
+    _draw_result_legend(fig, underlay, stress_range)
+    removed = "volume removed: not stated"
+    if volume_removed_percent is not None:
+        removed = f"volume removed {volume_removed_percent:.1f} %"
+        if mass_removed_kg is not None:
+            removed += f" ({kilograms(mass_removed_kg)})"
+    draw_title_block(fig, [
+        (0.3, "PANEL", [panel.name, f"profile: {profile}" if profile else "profile: not stated"]),
+        (0.3, "VOIDS", [_void_count_text(voids), removed]),
+        (0.2, "SECTION", section_lines(panel)),
+        (0.2, "FIGURE", [f"date {date_text(date)}",
+                         f"1:{fig.scale}, {len(markers)} rule marker{'' if len(markers) == 1 else 's'}"]),
+    ])
+    fig.drawing.attribs["data-underlay"] = underlay
+    return fig.tostring()

@@ -1,0 +1,98 @@
+"""What the drawing copy and the SVG sheets both draw, checked before either draws it: the voids to make, the
+optimiser's freeform outlines as rings, and the rule-violation markers."""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping
+from dataclasses import dataclass
+
+import numpy as np
+from shapely.geometry import MultiPolygon, Polygon
+
+from ..errors import LacunaError
+from ..model import Point, Void
+from .layers import VOID_LAYERS
+
+
+@dataclass(frozen=True)
+class Marker:
+    """A rule violation to mark: a circle round ``where`` (local mm) and a short label beside it."""
+
+    where: Point
+    label: str
+    radius_mm: float | None = None
+
+
+def short_number(v: float) -> str:
+    """A figure in a drawing's text: six significant digits."""
+    return f"{v:.6g}"
+
+
+def check_void(void: Void) -> None:
+    where = f"void {void.id}"
+    if void.family not in VOID_LAYERS:
+        raise LacunaError(
+            f"unknown void family {void.family!r}.", where=where, hint=f"Use one of {', '.join(VOID_LAYERS)}."
+        )
+    if not (math.isfinite(void.size_mm) and void.size_mm > 0):
+        raise LacunaError(f"void size must be a positive length, got {void.size_mm} mm.", where=where)
+    if not all(math.isfinite(c) for c in void.centre):
+        raise LacunaError("void centre is not a finite point.", where=where)
+    if void.family != "bore":
+        if void.outline:
+            arr = np.asarray(void.outline, dtype=float)
+            if arr.ndim != 2 or arr.shape[1] != 3 or len(arr) < 2 or not np.isfinite(arr).all():
+                raise LacunaError(
+                    "void outline must be two or more finite (x, y, bulge) vertices.", where=where,
+                    hint="Give the outline as (x, y, bulge) tuples in local mm.",
+                )
+        elif void.shape.is_empty or void.shape.geom_type != "Polygon":
+            raise LacunaError("void has neither an outline nor a polygon shape.", where=where)
+
+
+def freeform_rings(freeform) -> list[np.ndarray]:
+    """Every ring (outer and holes) of the freeform polygons, without the repeated closing vertex."""
+    if freeform is None:
+        return []
+    geoms = [freeform] if isinstance(freeform, (Polygon, MultiPolygon)) else list(freeform)
+    rings = []
+    for k, g in enumerate(geoms):
+        if isinstance(g, MultiPolygon):
+            parts = list(g.geoms)
+        elif isinstance(g, Polygon):
+            parts = [g]
+        else:
+            raise LacunaError(
+                f"freeform outline {k} is a {type(g).__name__}, not a shapely Polygon or MultiPolygon.",
+                where=f"freeform {k}",
+            )
+        for p in parts:
+            if p.is_empty:
+                continue
+            for ring in (p.exterior, *p.interiors):
+                xy = np.asarray(ring.coords, dtype=float)[:-1, :2]
+                if len(xy) >= 3:
+                    rings.append(xy)
+    return rings
+
+
+def as_marker(m, k: int) -> Marker:
+    if isinstance(m, Marker):
+        marker = m
+    elif isinstance(m, Mapping) and "where" in m:
+        label = str(m.get("rule", "check"))
+        if "measured" in m and "required" in m:
+            # a stress rule is broken from above (MPa), a length rule from below
+            sign = ">" if m.get("rule") == "max_edge_stress" else "<"
+            label += f" {short_number(float(m['measured']))} {sign} {short_number(float(m['required']))}"
+        marker = Marker(tuple(m["where"]), label, m.get("radius_mm"))
+    else:
+        raise LacunaError(
+            f"check marker {k} is neither a Marker nor a mapping with 'where'.", where=f"check marker {k}"
+        )
+    if len(marker.where) != 2 or not all(math.isfinite(float(c)) for c in marker.where):
+        raise LacunaError(f"check marker {k} has no finite position: {marker.where!r}.", where=f"check marker {k}")
+    if marker.radius_mm is not None and not marker.radius_mm > 0:
+        raise LacunaError(f"check marker {k} radius must be positive.", where=f"check marker {k}")
+    return marker
