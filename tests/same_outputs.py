@@ -13,7 +13,8 @@ Each file is read back and made comparable before it is digested:
   folder the run wrote into (the JSON lists its outputs by path), and the stamps a DXF writer puts on every
   save or every new drawing ($TDCREATE, $TDUCREATE, $TDUPDATE, $TDUUPDATE, $VERSIONGUID, $FINGERPRINTGUID:
   DXF reference, "HEADER Section Group Codes", from memory; and ezdxf's CREATED_BY_EZDXF and WRITTEN_BY_EZDXF
-  values, ezdxf documentation, "ezdxf Metadata");
+  values, ezdxf documentation, "ezdxf Metadata"); the CLASS records of a DXF are put in sorted order (ezdxf
+  writes them in an order that changes with each process's string-hash seed);
 - "exact": the masked bytes, digested as they are;
 - "rounded": the masked text with every decimal number rounded to 9 significant figures, so that a difference in
   the last bits of a float (another BLAS, another processor's fused multiply-add) does not count.
@@ -135,7 +136,20 @@ def mask_dxf(text: str) -> str:
             var = None
         if var in MASKED_DXF_VARS or (code == "1" and _EZDXF_STAMP.match(value.strip())):
             out[k + 1] = "*"
-    return "\n".join(out)
+    return _sorted_classes("\n".join(out))
+
+
+def _sorted_classes(text: str) -> str:
+    """The CLASS records of the CLASSES section in sorted order. ezdxf writes them in the order of a set of names,
+    which changes with the string-hash seed of each process (PYTHONHASHSEED); a reader looks them up by name, so
+    the order carries nothing (DXF reference, "CLASSES Section", from memory)."""
+    start = text.find("\n  2\nCLASSES\n")
+    if start < 0:
+        return text
+    end = text.find("\n  0\nENDSEC", start)
+    body = text[start + len("\n  2\nCLASSES"):end]
+    records = ["  0\nCLASS" + r for r in body.split("\n  0\nCLASS") if r.strip()]
+    return text[:start + len("\n  2\nCLASSES")] + "\n" + "\n".join(sorted(records)) + text[end:]
 
 
 def normalised(path: Path, workdir: Path, dates: set[str]) -> str:
