@@ -264,10 +264,9 @@ def test_mixed_picks_the_family_that_removes_idle_material():
     assert res.voids and hot(res.voids) < hot(plain.voids)
 
 
-def test_every_void_gets_its_own_id_when_a_honeycomb_layout_is_filled_further():
-    # A glulam beam of our own under a uniform load, bores, timber-bored: the honeycomb over the region wins and
-    # the fill then adds voids of the same (honeycomb) source. Each void must keep its own id (the schedule, the
-    # drawing's labels and the change records all follow it).
+def _glulam_beam(family: str):
+    """The whole job on a glulam beam of our own: 3000 x 600 x 100 mm, pin + roller, 6 kN/m on top, timber-bored
+    with a 60 mm web and edge cover, voids of ``family``; a 50 mm grid keeps it to a second or two."""
     from toolkit.jobfile import parse_job
     from toolkit.model import LineLoad
     from toolkit.pipeline import optimize_panel
@@ -276,9 +275,17 @@ def test_every_void_gets_its_own_id_when_a_honeycomb_layout_is_filled_further():
                   material=Material(E_MPa=11000, nu=0.3),
                   supports=(Support(((0, 0), (150, 0)), "xy"), Support(((2850, 0), (3000, 0)), "y")),
                   loads=(LineLoad((0, 600), (3000, 600), (0.0, -6.0)),))
-    job = parse_job('units = "mm"\n[optimize]\nvolume_fraction = 0.5\nfilter_radius = 150\n[voids]\nfamily = "bore"\n'
-                    '[rules]\nprofile = "timber-bored"\nmin_web = 60\nedge_cover = 60\nbearing_clearance = 150\n')
-    run = optimize_panel(panel, job)
+    job = parse_job(f'units = "mm"\n[optimize]\nvolume_fraction = 0.5\nfilter_radius = 150\n[voids]\n'
+                    f'family = "{family}"\n[rules]\nprofile = "timber-bored"\nmin_web = 60\nedge_cover = 60\n'
+                    'bearing_clearance = 150\n')
+    return optimize_panel(panel, job)
+
+
+def test_every_void_gets_its_own_id_when_a_honeycomb_layout_is_filled_further():
+    # A glulam beam of our own under a uniform load, bores, timber-bored: the honeycomb over the region wins and
+    # the fill then adds voids of the same (honeycomb) source. Each void must keep its own id (the schedule, the
+    # drawing's labels and the change records all follow it).
+    run = _glulam_beam("bore")
     notes = " ".join(run.rationalised.notes)
     assert "honeycomb" in notes and "more void(s) placed" in notes  # the path this test is about was taken
     ids = [v.id for v in run.voids]
@@ -323,3 +330,14 @@ def test_the_bounded_search_finds_the_layout_the_full_search_finds():
     assert len(every) >= 3 and bounded
     assert worth(bounded) == pytest.approx(worth(every), rel=1e-9)
     assert n_bounded < n_every
+
+
+def test_mixed_gets_the_honeycomb_and_the_fill_too():
+    # The glulam beam of the test above, voids of any family: the honeycomb over the region (of one family, the
+    # one worth most) competes with the fitted voids as it does for a single family, so mixed removes no less
+    # than the n-gons alone here (before, mixed skipped it: 9.7 % against the n-gons' 11.8 %).
+    mixed, ngons = _glulam_beam("mixed"), _glulam_beam("polygon")
+    assert any("honeycomb" in n for n in mixed.rationalised.notes)
+    assert mixed.mass_removed_percent >= 0.98 * ngons.mass_removed_percent
+    assert mixed.final.compliance_Nmm <= mixed.freeform_analysis.compliance_Nmm
+    assert not mixed.rationalised.violations

@@ -743,6 +743,17 @@ def lattice_layout(allowed, family: str, r: Resolved, score, *, source: int = -1
     return best[1]
 
 
+def _lattice_of(allowed, families, r: Resolved, score, *, openings=()) -> list[Draft]:
+    """The honeycomb over ``allowed`` (``lattice_layout``) of most worth among ``families``, one family each."""
+    best: tuple[float, list[Draft]] = (0.0, [])
+    for family in families:
+        got = lattice_layout(allowed, family, r, score, source=-1, openings=openings)
+        worth = sum(score(d.shape()) for d in got)
+        if worth > best[0]:
+            best = (worth, got)
+    return best[1]
+
+
 def _fill(placed: list[Draft], allowed, site: Site, r: Resolved, score, evaluate, cap: float, openings
           ) -> tuple[list[Draft], int]:
     """New voids in the room the layout leaves (the region open to voids less every void grown by its web): a
@@ -753,7 +764,9 @@ def _fill(placed: list[Draft], allowed, site: Site, r: Resolved, score, evaluate
         return placed, 0
     grown = [shapely.buffer(d.shape(), r.web(d.extent())) for d in placed]
     room = overlay(shapely.difference, allowed, shapely.union_all(grown))
-    extra = lattice_layout(room, r.family, r, score, source=-1, openings=openings) if not room.is_empty else []
+    # ``mixed``: a honeycomb of one of the families the layout already uses (max_types counts families).
+    families = sorted({d.family for d in placed}) if r.family == "mixed" else [r.family]
+    extra = _lattice_of(room, families, r, score, openings=openings) if not room.is_empty else []
     # Numbered after the voids of the same source already there (a honeycomb layout is source -1 too): every
     # void keeps its own (source, part), which its id follows.
     first = 1 + max((d.part for d in placed if d.source == -1), default=-1)
@@ -978,8 +991,11 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
         c_fit, e_fit = evaluate(placed)
         first = (c_fit, e_fit)
         # The honeycomb over the whole region is not laid symmetric: a symmetric layout keeps its own voids.
-        grid_drafts = lattice_layout(allowed, r.family, r, score, openings=opening_shapes) \
-            if r.family != "mixed" and not mirror.axes else []
+        # ``mixed``: the families the fitted voids chose (all three when none was), one family per honeycomb.
+        lattice_families = (sorted({d.family for d in placed}) or list(families)[: r.max_types]) \
+            if r.family == "mixed" else [r.family]
+        grid_drafts = _lattice_of(allowed, lattice_families, r, score, openings=opening_shapes) \
+            if not mirror.axes else []
         other = place(grid_drafts, site, r) if grid_drafts else None
         area_fit = sum(d.shape().area for d in placed)
         # The honeycomb is analysed only when it could be taken: it removes clearly more, or the fit is too soft.
@@ -1012,7 +1028,7 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
                           cap_Nmm=cap, first=first)
         notes += list(shaped.notes)
         placed = list(shaped.drafts)
-        if r.family != "mixed" and not mirror.axes:
+        if not mirror.axes:
             placed, filled = _fill(placed, allowed, site, r, score, evaluate, cap, opening_shapes)
             if filled:
                 notes.append(f"{filled} more void(s) placed in the room the layout left, where the material works "
