@@ -29,6 +29,7 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
+import scipy.sparse as sp
 import shapely
 import shapely.errors
 from scipy.sparse.linalg import splu
@@ -37,6 +38,7 @@ from shapely.geometry import LineString, Point, box
 
 from .fe import tri6
 from .fe.loads import G_MM_S2
+from .fe.solve import SINGULAR_PIVOT
 from .fe.stress import principal_stresses
 from .fe.trimesh import MeshError, TriMesh, graded_mesh
 from .model import LineLoad, Panel, PointLoad, Void
@@ -109,7 +111,7 @@ def size_field(src_xy: np.ndarray, src_h: np.ndarray, h_max: float, growth: floa
     if len(src_h):
         edges = np.exp(np.arange(np.log(src_h.min()), np.log(src_h.max()) + 0.12, 0.12))
         which = np.clip(np.searchsorted(edges, src_h, side="right") - 1, 0, len(edges) - 1)
-        for b in np.unique(which):
+        for b in np.unique(which):   # finest first
             sel = which == b
             groups.append((cKDTree(src_xy[sel]), float(src_h[sel].min())))
 
@@ -117,7 +119,14 @@ def size_field(src_xy: np.ndarray, src_h: np.ndarray, h_max: float, growth: floa
         x = np.asarray(x, dtype=float).reshape(-1, 2)
         out = np.full(len(x), float(h_max))
         for tree, hs in groups:
-            out = np.minimum(out, hs + growth * tree.query(x)[0])
+            # a group can lower h only where h is above its size, and only through sources nearer than
+            # (h - h_s) / growth: the search is bounded by that (the same minimum, far fewer tree visits)
+            open_ = np.flatnonzero(out > hs)
+            if len(open_) == 0:
+                continue
+            reach = (out[open_] - hs) / growth if growth > 0 else np.full(len(open_), np.inf)
+            d = tree.query(x[open_], distance_upper_bound=float(reach.max()) * (1 + 1e-12))[0]
+            out[open_] = np.minimum(out[open_], hs + growth * d)
         return out
 
     return h
@@ -125,23 +134,45 @@ def size_field(src_xy: np.ndarray, src_h: np.ndarray, h_max: float, growth: floa
 
 def solve(mesh: TriMesh, E: float, nu: float, thickness: float, held: np.ndarray, values: np.ndarray,
           F: np.ndarray) -> np.ndarray:
-    """Displacements (2n, ncases) with ``held`` dofs at ``values`` (2n, ncases) under forces ``F`` (2n, ncases)."""
-    K = tri6.stiffness(mesh.points, mesh.tri, E, nu, thickness).tocsc()
+    """Displacements (2n, ncases) with ``held`` dofs at ``values`` (2n, ncases) under forces ``F`` (2n, ncases).
+
+    Only the free dofs' block of the stiffness is assembled; the held dofs' pull on the free ones is summed
+    element by element (k_e v_e). Raises RuntimeError where a part of the model is held by nothing."""
+    ke = tri6.element_stiffness(mesh.points, mesh.tri, E, nu, thickness)
+    dofs = tri6.element_dofs(mesh.tri)
     free = ~held
+    m = int(free.sum())
+    number = np.full(len(held), -1, dtype=np.int64)
+    number[free] = np.arange(m)
+    fe = number[dofs]                                              # (ne, 12): free numbers, -1 where held
+    ve = np.where(held[dofs][..., None], values[dofs], 0.0)        # (ne, 12, nc)
+    pull = ke @ ve
+    rows = fe.ravel()
+    on = rows >= 0
+    rhs = F[free] - np.stack([np.bincount(rows[on], weights=pull.reshape(-1, pull.shape[2])[on, c], minlength=m)
+                              for c in range(pull.shape[2])], axis=1)
+    r, c = np.repeat(fe, 12, axis=1).ravel(), np.tile(fe, (1, 12)).ravel()
+    keep = (r >= 0) & (c >= 0)
+    Kff = sp.csc_matrix((ke.ravel()[keep], (r[keep], c[keep])), shape=(m, m))
+    # K is symmetric positive definite on the free dofs: diagonal pivots, a minimum-degree order on its own
+    # pattern (it fills in less than SuperLU's default here)
+    lu = splu(Kff, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.0, options={"SymmetricMode": True})
+    pivots = np.abs(lu.U.diagonal())
+    if not pivots.min() > SINGULAR_PIVOT * pivots.max():
+        raise RuntimeError("a part of the local model is held by nothing")
     U = np.where(held[:, None], values, 0.0)
-    rhs = F[free] - K[free][:, held] @ values[held]
-    # a minimum-degree order on K's own (symmetric) pattern fills in less than SuperLU's default here
-    U[free] = splu(K[free][:, free].tocsc(), permc_spec="MMD_AT_PLUS_A").solve(np.ascontiguousarray(rhs))
+    U[free] = lu.solve(np.ascontiguousarray(rhs))
     return U
 
 
 def nodal_average(mesh: TriMesh, U: np.ndarray, E: float, nu: float) -> np.ndarray:
     """(n, 3, ncases) stresses at the nodes, averaged over the elements meeting there."""
     per = tri6.nodal_stresses(mesh.points, mesh.tri, U, E, nu)    # (ne, 6, 3, nc)
-    total = np.zeros((mesh.n_nodes,) + per.shape[2:])
-    count = np.zeros(mesh.n_nodes)
-    np.add.at(total, mesh.tri.ravel(), per.reshape((-1,) + per.shape[2:]))
-    np.add.at(count, mesh.tri.ravel(), 1.0)
+    at = mesh.tri.ravel()
+    flat = per.reshape(len(at), -1)
+    total = np.stack([np.bincount(at, weights=flat[:, k], minlength=mesh.n_nodes) for k in range(flat.shape[1])],
+                     axis=1).reshape((mesh.n_nodes,) + per.shape[2:])
+    count = np.bincount(at, minlength=mesh.n_nodes).astype(float)
     return total / count[:, None, None]
 
 
@@ -456,7 +487,11 @@ def _nominal(solid, shape) -> np.ndarray:
     ex, ey = np.meshgrid(ix, iy)
     elements = (ey * g.nx + ex).ravel()
     cells = shapely.box(ex.ravel() * g.dx, ey.ravel() * g.dy, (ex.ravel() + 1) * g.dx, (ey.ravel() + 1) * g.dy)
-    w = shapely.area(shapely.intersection(cells, shape))
+    # cells wholly inside the void count whole; only those its edge crosses are cut
+    shapely.prepare(shape)
+    w = np.where(shapely.contains(shape, cells), g.dx * g.dy, 0.0)
+    cut = np.flatnonzero((w == 0.0) & shapely.intersects(shape, cells))
+    w[cut] = shapely.area(shapely.intersection(cells[cut], shape))
     w = w * solid.active[elements]
     if w.sum() <= 0:
         elements = np.array([g.element_at(*shape.centroid.coords[0])])
@@ -526,8 +561,13 @@ def _hold_supports(panel: Panel, mesh: TriMesh, held: np.ndarray, values: np.nda
             d, node = cKDTree(mesh.points).query(s.points[0])
             nodes = np.array([node]) if d < tol * 1e3 else np.array([], dtype=int)
         else:
-            d = shapely.distance(LineString(s.points), shapely.points(mesh.points))
-            nodes = np.flatnonzero(d < tol * 10)
+            line = LineString(s.points)
+            x0, y0, x1, y1 = line.bounds
+            p = mesh.points
+            near = np.flatnonzero((p[:, 0] >= x0 - tol * 10) & (p[:, 0] <= x1 + tol * 10)
+                                  & (p[:, 1] >= y0 - tol * 10) & (p[:, 1] <= y1 + tol * 10))
+            d = shapely.distance(line, shapely.points(p[near]))
+            nodes = near[d < tol * 10]
         for axis, letter in enumerate("xy"):
             if letter in s.fix and len(nodes):
                 held[2 * nodes + axis] = True

@@ -35,16 +35,35 @@ def shape_grad(nat: np.ndarray) -> np.ndarray:
     return np.stack([dxi, deta], axis=-1)
 
 
+# The reference element's data, the same in every element of every model: the shape functions and their
+# derivatives at the three Gauss points, and the derivatives at the six nodes (where stresses are recovered).
+N_GAUSS = shape(GAUSS_3)              # (3, 6)
+DN_GAUSS = shape_grad(GAUSS_3)        # (3, 6, 2)
+DN_NODES = shape_grad(NODE_NAT)       # (6, 6, 2)
+
+
+def gradients(xe: np.ndarray, dn: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Shape-function derivatives by (x, y) (ne, p, 6, 2) and Jacobian determinants (ne, p) of the elements
+    ``xe`` (ne, 6, 2) at p natural points, given the derivatives by (xi, eta) there: ``dn`` (p, 6, 2), the same
+    points in every element, or (ne, p, 6, 2)."""
+    dn = np.broadcast_to(dn, (len(xe),) + dn.shape[-3:]) if dn.ndim == 3 else dn
+    x, y = xe[:, None, :, 0], xe[:, None, :, 1]                    # (ne, 1, 6)
+    dxi, deta = dn[..., 0], dn[..., 1]                             # (ne, p, 6)
+    x_xi, y_xi = np.sum(dxi * x, axis=2), np.sum(dxi * y, axis=2)  # (ne, p): J = d(x, y) / d(xi, eta)
+    x_eta, y_eta = np.sum(deta * x, axis=2), np.sum(deta * y, axis=2)
+    det = x_xi * y_eta - y_xi * x_eta
+    d_x = (y_eta[..., None] * dxi - y_xi[..., None] * deta) / det[..., None]
+    d_y = (x_xi[..., None] * deta - x_eta[..., None] * dxi) / det[..., None]
+    return np.stack([d_x, d_y], axis=-1), det
+
+
 def _B(xe: np.ndarray, nat: np.ndarray):
     """Strain-displacement matrices (ne, 3, 12) and Jacobian determinants (ne,) at one natural point per element.
 
     ``nat`` is (2,) for the same point in every element or (ne, 2)."""
-    dn = shape_grad(np.broadcast_to(nat, (len(xe), 2)))          # (ne, 6, 2)
-    J = np.einsum("eai,eaj->eij", dn, xe)                          # J[i, j] = d x_j / d nat_i
-    det = J[:, 0, 0] * J[:, 1, 1] - J[:, 0, 1] * J[:, 1, 0]
-    inv = np.stack([np.stack([J[:, 1, 1], -J[:, 0, 1]], -1), np.stack([-J[:, 1, 0], J[:, 0, 0]], -1)], 1)
-    inv /= det[:, None, None]
-    dxy = np.einsum("eai,eji->eaj", dn, inv)                       # d N_a / d x_j
+    dn = shape_grad(np.broadcast_to(nat, (len(xe), 2)))[:, None]  # (ne, 1, 6, 2)
+    dxy, det = gradients(xe, dn)
+    dxy, det = dxy[:, 0], det[:, 0]
     B = np.zeros((len(xe), 3, 12))
     B[:, 0, 0::2] = dxy[:, :, 0]
     B[:, 1, 1::2] = dxy[:, :, 1]
@@ -58,16 +77,32 @@ def element_dofs(tri: np.ndarray) -> np.ndarray:
     return np.stack([2 * tri, 2 * tri + 1], axis=2).reshape(len(tri), 12)
 
 
+def element_stiffness(points: np.ndarray, tri: np.ndarray, E: float, nu: float, thickness: float) -> np.ndarray:
+    """(ne, 12, 12) element stiffnesses (N/mm), dofs as ``element_dofs``. Raises ValueError on an element turned
+    inside out.
+
+    B^T D B written out for the plane-stress D: with a = dN/dx, b = dN/dy scaled by the root of the Gauss weight,
+    thickness and Jacobian, the blocks are sums over the Gauss points of outer products a a^T, a b^T, b b^T."""
+    dxy, det = gradients(points[tri], DN_GAUSS)                    # (ne, 3, 6, 2), (ne, 3)
+    if np.any(det <= 0.0):
+        raise ValueError("an element is turned inside out")
+    D = plane_stress_D(E, nu)
+    w = np.sqrt(GAUSS_3_W * thickness * det)[..., None]            # (ne, 3, 1)
+    a, b = dxy[..., 0] * w, dxy[..., 1] * w                        # (ne, 3, 6)
+    aT, bT = a.transpose(0, 2, 1), b.transpose(0, 2, 1)
+    aa, bb, ab = aT @ a, bT @ b, aT @ b                            # (ne, 6, 6); ab[i, j] = a_i b_j
+    ba = ab.transpose(0, 2, 1)
+    ke = np.empty((len(tri), 6, 2, 6, 2))
+    ke[:, :, 0, :, 0] = D[0, 0] * aa + D[2, 2] * bb
+    ke[:, :, 0, :, 1] = D[0, 1] * ab + D[2, 2] * ba
+    ke[:, :, 1, :, 0] = D[0, 1] * ba + D[2, 2] * ab
+    ke[:, :, 1, :, 1] = D[1, 1] * bb + D[2, 2] * aa
+    return ke.reshape(len(tri), 12, 12)
+
+
 def stiffness(points: np.ndarray, tri: np.ndarray, E: float, nu: float, thickness: float) -> sp.csr_matrix:
     """The assembled stiffness (2n x 2n, N/mm). Raises ValueError on an element turned inside out."""
-    xe = points[tri]
-    D = plane_stress_D(E, nu)
-    ke = np.zeros((len(tri), 12, 12))
-    for nat, w in zip(GAUSS_3, GAUSS_3_W):
-        B, det = _B(xe, nat)
-        if np.any(det <= 0.0):
-            raise ValueError("an element is turned inside out")
-        ke += np.matmul(B.transpose(0, 2, 1), D @ B) * (w * thickness * det)[:, None, None]
+    ke = element_stiffness(points, tri, E, nu, thickness)
     dofs = element_dofs(tri)
     rows = np.repeat(dofs, 12, axis=1).ravel()
     cols = np.tile(dofs, (1, 12)).ravel()
@@ -77,13 +112,11 @@ def stiffness(points: np.ndarray, tri: np.ndarray, E: float, nu: float, thicknes
 
 def body_load(points: np.ndarray, tri: np.ndarray, force_per_volume: np.ndarray, thickness: float) -> np.ndarray:
     """(2n,) consistent nodal forces of a uniform body force (N/mm3, two components)."""
-    xe = points[tri]
+    _, det = gradients(points[tri], DN_GAUSS)                      # (ne, 3)
+    share = (det * GAUSS_3_W * thickness) @ N_GAUSS                # (ne, 6): each node's share of the volume
     f = np.zeros(2 * len(points))
-    for nat, w in zip(GAUSS_3, GAUSS_3_W):
-        _, det = _B(xe, nat)
-        n = shape(nat)
-        for c in range(2):
-            np.add.at(f, 2 * tri + c, np.outer(det * w * thickness * force_per_volume[c], n))
+    for c in range(2):
+        f[c::2] = np.bincount(tri.ravel(), weights=(share * force_per_volume[c]).ravel(), minlength=len(points))
     return f
 
 
@@ -107,15 +140,15 @@ def edge_load(points: np.ndarray, edges: np.ndarray, traction: np.ndarray, thick
 
 def nodal_stresses(points: np.ndarray, tri: np.ndarray, U: np.ndarray, E: float, nu: float) -> np.ndarray:
     """(ne, 6, 3[, ncases]) stresses sx, sy, txy at each element's own nodes (not averaged), MPa."""
-    xe = points[tri]
-    D = plane_stress_D(E, nu)
+    dxy, _ = gradients(points[tri], DN_NODES)                      # (ne, 6 points, 6 nodes, 2)
     ue = U[element_dofs(tri)]                                      # (ne, 12[, nc])
-    out = []
-    for nat in NODE_NAT:
-        B, _ = _B(xe, nat)
-        DB = np.einsum("kl,elj->ekj", D, B)
-        out.append(np.einsum("ekj,ej...->ek...", DB, ue))
-    return np.stack(out, axis=1)
+    ue = ue.reshape((len(tri), 6, 2) + ue.shape[2:])
+    u, v = ue[:, :, 0], ue[:, :, 1]                                # (ne, 6[, nc])
+    sub = "epa,ea...->ep..."
+    strain = [np.einsum(sub, dxy[..., 0], u), np.einsum(sub, dxy[..., 1], v),
+              np.einsum(sub, dxy[..., 1], u) + np.einsum(sub, dxy[..., 0], v)]
+    D = plane_stress_D(E, nu)
+    return np.stack([D[k, 0] * strain[0] + D[k, 1] * strain[1] + D[k, 2] * strain[2] for k in range(3)], axis=2)
 
 
 def stresses_at(points: np.ndarray, tri: np.ndarray, element: np.ndarray, nat: np.ndarray, U: np.ndarray,

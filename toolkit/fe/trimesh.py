@@ -167,6 +167,8 @@ def graded_mesh(region, size: Callable[[np.ndarray], np.ndarray], *, tag: Callab
     (an arc flattened to chords has corners of its own, which a mesh finer than the chords would feel).
     """
     breaks = np.asarray(breaks, dtype=float).reshape(-1, 2)
+    # prepared once: every point-in-region test below (fill, smoothing, piece votes) is then a fast lookup
+    shapely.prepare(region)
     # one run per stretch of edge between two corners or breaks: its polyline, arc lengths and node positions
     runs: list[dict] = []
     corner_pts = []
@@ -209,11 +211,11 @@ def graded_mesh(region, size: Callable[[np.ndarray], np.ndarray], *, tag: Callab
         pts = np.vstack([bpts, inside])
         dl = Delaunay(pts)
         simp = dl.simplices
-        missing = _missing(simp, segs)
+        missing = _missing(simp, segs, len(pts))
         if not missing.any():
             keep = _inside(dl, pts, segs, region)
             tri = simp[keep]
-            extra = _stray_sides(tri, segs)
+            extra = _stray_sides(tri, segs, len(pts))
             if not extra:
                 break
             raise MeshError(f"{extra} triangle sides lie on the mesh's edge but on no edge of the region.")
@@ -239,17 +241,15 @@ def graded_mesh(region, size: Callable[[np.ndarray], np.ndarray], *, tag: Callab
     tri = np.where((area < 0)[:, None], tri[:, [0, 2, 1]], tri)
 
     # middle nodes: one per side; a boundary side takes its polyline middle
-    sides = np.vstack([tri[:, [0, 1]], tri[:, [1, 2]], tri[:, [2, 0]]])
-    key = np.sort(sides, axis=1)
-    uniq, inv = np.unique(key, axis=0, return_inverse=True)
+    n0 = len(pts)
+    # sides by integer key (smaller node * n0 + larger): sorted as the (smaller, larger) pairs would be
+    uniq, inv = np.unique(_side_keys(tri, n0), return_inverse=True)
     inv = inv.ravel()
-    mid_xy = 0.5 * (pts[uniq[:, 0]] + pts[uniq[:, 1]])
-    seg_key = np.sort(segs, axis=1)
-    lookup = {(int(a), int(b)): i for i, (a, b) in enumerate(seg_key)}
-    side_of_seg = np.array([lookup.get((int(a), int(b)), -1) for a, b in uniq])
+    ends = np.column_stack([uniq // n0, uniq % n0])
+    mid_xy = 0.5 * (pts[ends[:, 0]] + pts[ends[:, 1]])
+    side_of_seg = _find_keys(_keys(segs, n0), uniq)
     on_edge = side_of_seg >= 0
     mid_xy[on_edge] = mids[side_of_seg[on_edge]]
-    n0 = len(pts)
     ne = len(tri)
     mid_numbers = n0 + inv.reshape(3, ne).T
     tri6 = np.hstack([tri, mid_numbers])
@@ -296,10 +296,27 @@ def _piece_of(runs, k):
     raise IndexError(k)
 
 
-def _missing(tri: np.ndarray, segs: np.ndarray) -> np.ndarray:
-    sides = np.sort(np.vstack([tri[:, [0, 1]], tri[:, [1, 2]], tri[:, [2, 0]]]), axis=1)
-    have = set(map(tuple, sides.tolist()))
-    return np.array([tuple(s) not in have for s in np.sort(segs, axis=1).tolist()])
+def _keys(pairs: np.ndarray, n: int) -> np.ndarray:
+    """One integer per undirected side (a, b) of a mesh of ``n`` points."""
+    pairs = np.asarray(pairs, dtype=np.int64)
+    return np.minimum(pairs[:, 0], pairs[:, 1]) * n + np.maximum(pairs[:, 0], pairs[:, 1])
+
+
+def _find_keys(table: np.ndarray, keys: np.ndarray) -> np.ndarray:
+    """Index in ``table`` of each of ``keys``, -1 where it is not there."""
+    if len(table) == 0:
+        return np.full(len(keys), -1, dtype=np.int64)
+    order = np.argsort(table)
+    found = order[np.minimum(np.searchsorted(table, keys, sorter=order), len(table) - 1)]
+    return np.where(table[found] == keys, found, -1)
+
+
+def _side_keys(tri: np.ndarray, n: int) -> np.ndarray:
+    return _keys(np.vstack([tri[:, [0, 1]], tri[:, [1, 2]], tri[:, [2, 0]]]), n)
+
+
+def _missing(tri: np.ndarray, segs: np.ndarray, n: int) -> np.ndarray:
+    return ~np.isin(_keys(segs, n), _side_keys(tri, n))
 
 
 def _inside(dl: Delaunay, pts: np.ndarray, segs: np.ndarray, region) -> np.ndarray:
@@ -330,13 +347,12 @@ def _inside(dl: Delaunay, pts: np.ndarray, segs: np.ndarray, region) -> np.ndarr
     return keep[label]
 
 
-def _stray_sides(tri: np.ndarray, segs: np.ndarray) -> int:
+def _stray_sides(tri: np.ndarray, segs: np.ndarray, n: int) -> int:
     """Triangle sides used by one triangle only that are not edge sides (a hole in the mesh)."""
-    sides = np.sort(np.vstack([tri[:, [0, 1]], tri[:, [1, 2]], tri[:, [2, 0]]]), axis=1)
-    uniq, counts = np.unique(sides, axis=0, return_counts=True)
-    once = set(map(tuple, uniq[counts == 1].tolist()))
-    edge = set(map(tuple, np.sort(segs, axis=1).tolist()))
-    return len(once - edge) + len(edge - once)
+    uniq, counts = np.unique(_side_keys(tri, n), return_counts=True)
+    once = uniq[counts == 1]
+    edge = np.unique(_keys(segs, n))
+    return len(np.setdiff1d(once, edge, assume_unique=True)) + len(np.setdiff1d(edge, once, assume_unique=True))
 
 
 def _fill(region, size: Callable, bpts: np.ndarray) -> np.ndarray:
@@ -355,6 +371,10 @@ def _fill(region, size: Callable, bpts: np.ndarray) -> np.ndarray:
         out.append(done)
         q = cell / 4.0
         kids = centres[split]
+        # a cell clear of the region (inside a hole, say) has no centre in it at any depth: not split further
+        half = 0.5 * cell
+        kids = kids[shapely.intersects(shapely.box(kids[:, 0] - half, kids[:, 1] - half, kids[:, 0] + half,
+                                                   kids[:, 1] + half), region)]
         centres = np.vstack([kids + [-q, -q], kids + [q, -q], kids + [-q, q], kids + [q, q]])
         cell /= 2.0
     pts = np.vstack(out)
@@ -381,10 +401,9 @@ def _smooth(region, bpts: np.ndarray, inside: np.ndarray, size: Callable, n_fixe
         simp = simp[shapely.contains_xy(region, cen[:, 0], cen[:, 1])]
         i = np.concatenate([simp[:, 0], simp[:, 1], simp[:, 2], simp[:, 1], simp[:, 2], simp[:, 0]])
         j = np.concatenate([simp[:, 1], simp[:, 2], simp[:, 0], simp[:, 0], simp[:, 1], simp[:, 2]])
-        total = np.zeros_like(pts)
-        count = np.zeros(len(pts))
-        np.add.at(total, i, pts[j])
-        np.add.at(count, i, 1.0)
+        total = np.column_stack([np.bincount(i, weights=pts[j, 0], minlength=len(pts)),
+                                 np.bincount(i, weights=pts[j, 1], minlength=len(pts))])
+        count = np.bincount(i, minlength=len(pts)).astype(float)
         new = total[nb:] / np.maximum(count[nb:], 1.0)[:, None]
         ok = movable & (count[nb:] > 0) & shapely.contains_xy(region, new[:, 0], new[:, 1])
         ok &= tree.query(new)[0] > EDGE_GAP * size(new)
