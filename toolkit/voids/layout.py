@@ -298,7 +298,18 @@ class Site:
         """At least the least void size: a polygon's inscribed circle, a slot's width, a bore's diameter; and a
         polygon still one the shop can make (sides of the least feature, corners neither flat nor sharp)."""
         if draft.family == "polygon":
-            return inscribed_width(draft.shape(), FIT_RTOL) >= self.least + SAFETY_MM and shape_ok(draft, self.feature)
+            if not shape_ok(draft, self.feature):  # checks convexity too, which the bounds below need
+                return False
+            shape, need = draft.shape(), self.least + SAFETY_MM
+            # A convex shape of area A and perimeter P holds a largest circle of radius r with r P / 2 <= A <= r P
+            # (the triangles from its centre to the sides; the rim of width r covers it): its diameter lies
+            # between 2A/P and 4A/P, which settles most drafts without the search.
+            low = 2.0 * shape.area / shape.length
+            if low >= need:
+                return True
+            if 2.0 * low < need:
+                return False
+            return inscribed_width(shape, FIT_RTOL) >= need
         return draft.size >= self.least - 1e-9
 
     def fits(self, trial: Draft, i: int, state: list[Draft], move: bool = True) -> Draft | None:
