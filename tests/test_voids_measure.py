@@ -2,12 +2,14 @@
 
 import math
 
+import numpy as np
+
 import pytest
 from shapely import affinity
 from shapely.geometry import Point, Polygon, box
 
 from toolkit.errors import LacunaError
-from toolkit.voids.measure import clean, measure, principal_axes, second_moments
+from toolkit.voids.measure import clean, inscribed_width, measure, principal_axes, second_moments
 
 
 def test_rectangle_second_moments():
@@ -61,3 +63,18 @@ def test_clean_rejects_what_is_not_an_area():
     with pytest.raises(LacunaError) as err:
         clean([box(0, 0, 10, 10)], -1)
     assert err.value.where == "[rules] min_void"
+
+
+def test_a_convex_shapes_inscribed_diameter_lies_between_2a_over_p_and_4a_over_p():
+    # What Site.big_enough leans on: r P / 2 <= A (the triangles from the circle's centre to the sides, each of
+    # height >= r) and A <= r P (the inner parallel body at depth r has no area, and the rim of width r has at
+    # most r P). Geometry, no outside source; checked on random convex polygons, triangles to thin slivers.
+    rng = np.random.default_rng(7)
+    for _ in range(300):
+        pts = rng.normal(size=(int(rng.integers(3, 12)), 2)) * rng.uniform(0.01, 5.0, size=2)
+        hull = Polygon(pts).convex_hull
+        if hull.area <= 1e-9:
+            continue
+        low, high = 2.0 * hull.area / hull.length, 4.0 * hull.area / hull.length
+        width = inscribed_width(hull, 1e-6)
+        assert low * (1 - 1e-4) <= width <= high * (1 + 1e-4)
