@@ -196,5 +196,8 @@ def test_progress_line_estimates_the_time_left():
         capped = _Progress(limit=12, target=0.5, rate=0.02, window=5)
         capped.started = 100.0
         assert capped.left(10, 0.8) == "  about 1 s left"  # two iterations to the limit
+        last = _Progress(limit=11, target=0.5, rate=0.02, window=5)
+        last.started = 100.0
+        assert last.left(10, 0.8) == "  under 1 s left"  # one iteration of 0.5 s: not "about 0 s"
     finally:
         clock.perf_counter = real

@@ -140,7 +140,9 @@ class _Progress:
             to_target = math.ceil(math.log(self.target / volume) / math.log(1.0 - self.rate))
         remaining = min(self.limit - iteration, to_target + 2 * self.window)
         seconds = max(remaining, 0) * per
-        return f"  about {seconds / 60:.0f} min left" if seconds >= 120 else f"  about {seconds:.0f} s left"
+        if seconds >= 120:
+            return f"  about {seconds / 60:.0f} min left"
+        return f"  about {seconds:.0f} s left" if seconds >= 1.0 else "  under 1 s left"
 
     def __call__(self, index: int, compliance: float, volume: float) -> None:
         iteration = index + 1  # the optimiser counts from 0; people and the figures from 1
