@@ -7,9 +7,9 @@ from ezdxf.lldxf import const
 from ezdxf.math import Matrix44
 
 from ..dxf_in.pieces import ENTITY_DATA_ERRORS
-from ..write.dxf_file import serialise
 from ..errors import LacunaError
 from ..units import INSUNITS_TO_UNIT, MM_PER_UNIT, UNIT_TO_INSUNITS, mm_per
+from ..write.dxf_file import serialise
 
 
 def change_units(doc: DxfDocument, unit: str, *, where: str = "<document>",

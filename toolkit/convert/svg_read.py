@@ -130,6 +130,7 @@ def _root_map(root: ET.Element, where: str) -> tuple[np.ndarray, str]:
     # SVG y runs down from the top; DXF y runs up: the bottom of the view goes to y = 0.
     return np.array([[kx, 0.0, -x0 * kx], [0.0, -ky, (y0 + height_user) * ky], [0.0, 0.0, 1.0]]), "mm"
 
+
 def _css_mm(value: str | None, where: str, attr: str) -> float | None:
     if value is None:
         return None

@@ -326,8 +326,8 @@ def _schedule_rows(voids: list[Void], frame: Frame) -> list[list[str]]:
     for v in voids:
         cx, cy = frame.to_drawing(np.asarray(v.centre, dtype=float))
         rows.append([
-            v.id, v.family, short_number(cx), short_number(cy), short_number(frame.length_to_drawing(v.size_mm)), v.tool or "-",
-            short_number(v.area_mm2 / frame.mm_per_unit ** 2),
+            v.id, v.family, short_number(cx), short_number(cy), short_number(frame.length_to_drawing(v.size_mm)),
+            v.tool or "-", short_number(v.area_mm2 / frame.mm_per_unit ** 2),
         ])
     return rows
 

@@ -68,6 +68,7 @@ def draw_cells(fig: Figure, name: str, grid, classes, drawn, colours: Sequence[s
 
 
 def draw_stress(fig: Figure, grid, drawn, dominant, vmax, solid) -> None:
+    """The dominant principal stress of the drawn elements in the classes of the diverging scale."""
     classes = palette.classify(dominant, vmax, STRESS_CLASSES_PER_SIDE)
     draw_cells(fig, "stress", grid, classes, drawn, palette.class_colours(STRESS_CLASSES_PER_SIDE), solid)
 

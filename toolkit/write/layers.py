@@ -19,7 +19,6 @@ class LayerLook:
 
 
 DASHED = "LACUNA-DASHED"
-
 # Dash and gap on paper-like proportions for a drawing at 1:1 in mm (our choice); scaled to the drawing's unit.
 DASH_MM, GAP_MM = 12.0, 6.0
 
@@ -29,7 +28,6 @@ VOID_LAYERS = {
     "bore": "LACUNA-VOID-BORE",
 }
 FREEFORM, CENTRE, NOTE, CHECK = "LACUNA-FREEFORM", "LACUNA-CENTRE", "LACUNA-NOTE", "LACUNA-CHECK"
-
 
 # Our own choice of look (docs/layers.md): cut lines heavy and dark, the optimiser's raw outline light and
 # dashed, marks thin, violations in a warm red that stands apart from everything else.

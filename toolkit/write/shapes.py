@@ -30,6 +30,7 @@ def short_number(v: float) -> str:
 
 
 def check_void(void: Void) -> None:
+    """Refuse a void neither writer can draw: an unknown family, a size or centre that is not finite, no outline."""
     where = f"void {void.id}"
     if void.family not in VOID_LAYERS:
         raise LacunaError(
@@ -78,6 +79,8 @@ def freeform_rings(freeform) -> list[np.ndarray]:
 
 
 def as_marker(m, k: int) -> Marker:
+    """A :class:`Marker` from a Marker or a mapping shaped like a check-JSON violation (``where``, ``rule``, and
+    ``measured`` with ``required`` for the label); ``k`` numbers it in the messages."""
     if isinstance(m, Marker):
         marker = m
     elif isinstance(m, Mapping) and "where" in m:

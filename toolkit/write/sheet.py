@@ -98,6 +98,7 @@ def nice_ticks(lo: float, hi: float, count: int = 5) -> np.ndarray:
 
 
 def tick_labels(ticks: np.ndarray, power: int = 0) -> list[str]:
+    """Tick values as text, to the decimals their step needs, in units of 10**power, with a true minus."""
     step = abs(ticks[1] - ticks[0]) / 10.0**power if len(ticks) > 1 else 1.0
     decimals = max(0, -math.floor(math.log10(step) + 1e-9))
     return [f"{t / 10.0**power:.{decimals}f}".replace("-", "\u2212") for t in ticks]
@@ -140,6 +141,7 @@ def _ring_path(coords: np.ndarray) -> str:
 
 
 def polygons(geom) -> list[Polygon]:
+    """The polygons of a shapely geometry (none for an empty one)."""
     if geom.is_empty:
         return []
     if isinstance(geom, Polygon):
@@ -293,6 +295,7 @@ def cased_text(fig: Figure, group, content: str, at, size: float, casing: float 
 
 
 def checked_array(values, shape, name: str, grid, where: str = "result figure") -> np.ndarray:
+    """The values as a float array of ``shape``, refused when the shape is wrong or a value not finite."""
     array = np.asarray(values, dtype=float)
     if array.shape != shape:
         raise LacunaError(
@@ -310,6 +313,7 @@ def checked_array(values, shape, name: str, grid, where: str = "result figure") 
 
 
 def check_grid(panel: Panel, grid, where: str) -> None:
+    """Refuse a grid that does not cover the panel's envelope."""
     if abs(grid.nx * grid.dx - panel.width_mm) > 1e-6 * panel.width_mm or abs(
         grid.ny * grid.dy - panel.height_mm
     ) > 1e-6 * panel.height_mm:
@@ -322,6 +326,7 @@ def check_grid(panel: Panel, grid, where: str) -> None:
 
 
 def draw_heading(fig: Figure, title: str, scale_note: str) -> None:
+    """The sheet's title and, under it, the frame note and the scale."""
     g = fig.sheet_group("heading")
     title, size = fit(title, fig.width - 2 * MARGIN, 5.0)
     fig.text(g, title, (MARGIN, MARGIN + 5.0), size, weight="bold")
@@ -425,6 +430,7 @@ def section_lines(panel: Panel) -> list[str]:
 
 
 def date_text(date) -> str:
+    """The date for a title block: the ISO date of ``date`` (a date or text), today's when None."""
     if date is None:
         date = _dt.date.today()
     return date.isoformat() if isinstance(date, _dt.date) else str(date)

@@ -17,6 +17,7 @@ if TYPE_CHECKING:
 
 
 def drawing_xy(panel: Panel, local_xy) -> list[float]:
+    """A point of the panel's local frame in the drawing's coordinates."""
     return [float(v) for v in panel.frame.to_drawing(np.asarray(local_xy, dtype=float))]
 
 
@@ -242,6 +243,8 @@ def _margins_json(run: OptimizeRun) -> list[dict]:
 
 
 def drawing_notes(run: OptimizeRun) -> list[str]:
+    """The notes the drawing copy carries below the panel: what was removed, the rules, the largest edge stress,
+    the caution."""
     f = run.panel.frame
     r = run.rules
     return [

@@ -10,6 +10,7 @@ from .sheet import INK, Figure, area_path, fmt, polygon_path
 
 
 def draw_outlines(fig: Figure, panel: Panel) -> None:
+    """The panel, its openings and its keep zones (dashed) as drawn."""
     width = fmt(fig.paper(0.4), 4)
     g = fig.layer("panel", fill="none", stroke=INK, stroke_width=width, stroke_linejoin="miter")
     g.add(fig.dwg.rect((0, 0), (fmt(panel.width_mm), fmt(panel.height_mm))))
@@ -109,6 +110,7 @@ def _label_at(fig: Figure, group, text: str, tail, direction, gap: float = 1.2) 
 
 
 def draw_loads(fig: Figure, panel: Panel, case: str) -> None:
+    """The loads of one case: a heavy arrow and its figure for a point load, a row of arrows for a line load."""
     p = fig.paper
     g = fig.layer("loads", stroke=INK, stroke_width=fmt(p(0.35), 4))
     for load in panel.loads:
