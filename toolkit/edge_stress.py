@@ -145,15 +145,24 @@ def solve(mesh: TriMesh, E: float, nu: float, thickness: float, held: np.ndarray
     number = np.full(len(held), -1, dtype=np.int64)
     number[free] = np.arange(m)
     fe = number[dofs]                                              # (ne, 12): free numbers, -1 where held
-    ve = np.where(held[dofs][..., None], values[dofs], 0.0)        # (ne, 12, nc)
-    pull = ke @ ve
-    rows = fe.ravel()
-    on = rows >= 0
-    rhs = F[free] - np.stack([np.bincount(rows[on], weights=pull.reshape(-1, pull.shape[2])[on, c], minlength=m)
-                              for c in range(pull.shape[2])], axis=1)
-    r, c = np.repeat(fe, 12, axis=1).ravel(), np.tile(fe, (1, 12)).ravel()
-    keep = (r >= 0) & (c >= 0)
-    Kff = sp.csc_matrix((ke.ravel()[keep], (r[keep], c[keep])), shape=(m, m))
+    rhs = F[free].copy()
+    touch = np.flatnonzero(np.any(fe < 0, axis=1))                 # the elements with a held dof
+    if len(touch):
+        ve = np.where(held[dofs[touch]][..., None], values[dofs[touch]], 0.0)    # (k, 12, nc)
+        pull = (ke[touch] @ ve).reshape(-1, values.shape[1])
+        rows = fe[touch].ravel()
+        on = rows >= 0
+        for c in range(values.shape[1]):
+            rhs[:, c] -= np.bincount(rows[on], weights=pull[on, c], minlength=m)
+    # the free-free entries: all of an element with no held dof (most), the free part of the others
+    inner = np.ones(len(fe), dtype=bool)
+    inner[touch] = False
+    ok = fe[touch] >= 0
+    keep = ok[:, :, None] & ok[:, None, :]
+    data = np.concatenate([ke[inner].ravel(), ke[touch][keep]])
+    r = np.concatenate([np.repeat(fe[inner], 12, axis=1).ravel(), np.broadcast_to(fe[touch][:, :, None], keep.shape)[keep]])
+    c = np.concatenate([np.tile(fe[inner], (1, 12)).ravel(), np.broadcast_to(fe[touch][:, None, :], keep.shape)[keep]])
+    Kff = sp.csc_matrix((data, (r, c)), shape=(m, m))
     # K is symmetric positive definite on the free dofs: diagonal pivots, a minimum-degree order on its own
     # pattern (it fills in less than SuperLU's default here)
     lu = splu(Kff, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.0, options={"SymmetricMode": True})

@@ -46,11 +46,13 @@ def gradients(xe: np.ndarray, dn: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Shape-function derivatives by (x, y) (ne, p, 6, 2) and Jacobian determinants (ne, p) of the elements
     ``xe`` (ne, 6, 2) at p natural points, given the derivatives by (xi, eta) there: ``dn`` (p, 6, 2), the same
     points in every element, or (ne, p, 6, 2)."""
-    dn = np.broadcast_to(dn, (len(xe),) + dn.shape[-3:]) if dn.ndim == 3 else dn
-    x, y = xe[:, None, :, 0], xe[:, None, :, 1]                    # (ne, 1, 6)
-    dxi, deta = dn[..., 0], dn[..., 1]                             # (ne, p, 6)
-    x_xi, y_xi = np.sum(dxi * x, axis=2), np.sum(dxi * y, axis=2)  # (ne, p): J = d(x, y) / d(xi, eta)
-    x_eta, y_eta = np.sum(deta * x, axis=2), np.sum(deta * y, axis=2)
+    x, y = xe[..., 0], xe[..., 1]                                  # (ne, 6)
+    dxi, deta = dn[..., 0], dn[..., 1]                             # (p, 6) or (ne, p, 6)
+    if dn.ndim == 3:   # J = d(x, y) / d(xi, eta) at each point: one product per entry for all elements
+        x_xi, y_xi, x_eta, y_eta = x @ dxi.T, y @ dxi.T, x @ deta.T, y @ deta.T      # (ne, p)
+    else:
+        x_xi, y_xi = np.einsum("epa,ea->ep", dxi, x), np.einsum("epa,ea->ep", dxi, y)
+        x_eta, y_eta = np.einsum("epa,ea->ep", deta, x), np.einsum("epa,ea->ep", deta, y)
     det = x_xi * y_eta - y_xi * x_eta
     d_x = (y_eta[..., None] * dxi - y_xi[..., None] * deta) / det[..., None]
     d_y = (x_xi[..., None] * deta - x_eta[..., None] * dxi) / det[..., None]
@@ -81,23 +83,23 @@ def element_stiffness(points: np.ndarray, tri: np.ndarray, E: float, nu: float, 
     """(ne, 12, 12) element stiffnesses (N/mm), dofs as ``element_dofs``. Raises ValueError on an element turned
     inside out.
 
-    B^T D B written out for the plane-stress D: with a = dN/dx, b = dN/dy scaled by the root of the Gauss weight,
-    thickness and Jacobian, the blocks are sums over the Gauss points of outer products a a^T, a b^T, b b^T."""
+    B^T D B summed over the Gauss points, written out for the plane-stress D: with a = dN/dx and b = dN/dy at the
+    points, each scaled by the root of the point's weight x thickness x det J, one product G = [a b]^T [a b] per
+    element gives the sums a a^T, a b^T, b b^T the blocks are made of."""
     dxy, det = gradients(points[tri], DN_GAUSS)                    # (ne, 3, 6, 2), (ne, 3)
     if np.any(det <= 0.0):
         raise ValueError("an element is turned inside out")
+    ne = len(tri)
+    ab = (dxy * np.sqrt(GAUSS_3_W * thickness * det)[:, :, None, None]).transpose(0, 1, 3, 2).reshape(ne, 3, 12)
+    G = ab.transpose(0, 2, 1) @ ab                                 # (ne, 12, 12): [[a a^T, a b^T], [b a^T, b b^T]]
+    aa, a_b, b_a, bb = G[:, :6, :6], G[:, :6, 6:], G[:, 6:, :6], G[:, 6:, 6:]
     D = plane_stress_D(E, nu)
-    w = np.sqrt(GAUSS_3_W * thickness * det)[..., None]            # (ne, 3, 1)
-    a, b = dxy[..., 0] * w, dxy[..., 1] * w                        # (ne, 3, 6)
-    aT, bT = a.transpose(0, 2, 1), b.transpose(0, 2, 1)
-    aa, bb, ab = aT @ a, bT @ b, aT @ b                            # (ne, 6, 6); ab[i, j] = a_i b_j
-    ba = ab.transpose(0, 2, 1)
-    ke = np.empty((len(tri), 6, 2, 6, 2))
+    ke = np.empty((ne, 6, 2, 6, 2))
     ke[:, :, 0, :, 0] = D[0, 0] * aa + D[2, 2] * bb
-    ke[:, :, 0, :, 1] = D[0, 1] * ab + D[2, 2] * ba
-    ke[:, :, 1, :, 0] = D[0, 1] * ba + D[2, 2] * ab
+    ke[:, :, 0, :, 1] = D[0, 1] * a_b + D[2, 2] * b_a
+    ke[:, :, 1, :, 0] = D[0, 1] * b_a + D[2, 2] * a_b
     ke[:, :, 1, :, 1] = D[1, 1] * bb + D[2, 2] * aa
-    return ke.reshape(len(tri), 12, 12)
+    return ke.reshape(ne, 12, 12)
 
 
 def stiffness(points: np.ndarray, tri: np.ndarray, E: float, nu: float, thickness: float) -> sp.csr_matrix:
