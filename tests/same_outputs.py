@@ -1,9 +1,10 @@
 """Every output of a few whole runs, as digests: the demo's `optimize` and `analyze`, an `optimize` in metres with
 slots, a `check`, three conversions and a trade-off plot.
 
-Used by tests/test_same_outputs.py, and run as a script to record the expected digests:
+Used by tests/test_same_outputs.py (the rounded digests), and run as a script:
 
     python tests/same_outputs.py --record      # writes tests/same_outputs.json
+    python tests/same_outputs.py --compare     # names every output that differs, to the byte or rounded
 
 Record only from code whose outputs are known good (the fixture pins them: a change of any byte fails the test).
 
@@ -192,14 +193,34 @@ def environment() -> dict[str, str]:
     return env
 
 
+def compare(found: dict[str, dict[str, str]], expected: dict) -> list[str]:
+    """One line per output that differs from the fixture: missing, extra, or its exact or rounded digest."""
+    lines = []
+    for name in sorted(set(found) | set(expected["files"])):
+        if name not in found or name not in expected["files"]:
+            lines.append(f"{name}: {'not written' if name not in found else 'not in the fixture'}")
+            continue
+        kinds = [k for k in ("exact", "rounded") if found[name][k] != expected["files"][name][k]]
+        if kinds:
+            lines.append(f"{name}: differs {' and '.join(kinds)}")
+    return lines
+
+
 def main(argv: list[str]) -> int:
     import tempfile
 
-    if argv != ["--record"]:
+    if argv not in (["--record"], ["--compare"]):
         print(__doc__)
         return 2
     with tempfile.TemporaryDirectory() as tmp:
         found = digests(Path(tmp) / "run")
+    if argv == ["--compare"]:
+        expected = json.loads(FIXTURE.read_text())
+        if expected["environment"] != environment():
+            print(f"recorded on {expected['environment']}, running on {environment()}: exact digests may differ")
+        lines = compare(found, expected)
+        print("\n".join(lines) if lines else f"all {len(found)} outputs the same to the byte")
+        return 1 if lines else 0
     FIXTURE.write_text(json.dumps({"environment": environment(), "files": found}, indent=2, sort_keys=True) + "\n")
     print(f"recorded {len(found)} outputs in {FIXTURE}")
     return 0

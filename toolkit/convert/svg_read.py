@@ -525,7 +525,7 @@ def _cubic_as_arc(p: np.ndarray, rel_tol: float = 1e-8) -> float | None:
         return None
     theta = -2.0 * half  # a positive (counter-clockwise) arc starts turned clockwise from its chord
     r = length / (2.0 * math.sin(abs(theta) / 2.0))
-    arm = 4.0 / 3.0 * math.tan(abs(theta) / 4.0) * r
+    arm = 4.0 / 3.0 * bulge_of(abs(theta)) * r  # the arm of the standard cubic: 4/3 tan(sweep / 4) r
     u = chord / length
 
     def turn(v, a):

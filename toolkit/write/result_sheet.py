@@ -54,7 +54,8 @@ def _void_label_anchor(void: Void) -> np.ndarray:
 
 
 def _as_marker(item, k: int):
-    """A check marker from a :class:`toolkit.rules.check.Violation`, a dxf_out Marker or a check-JSON mapping."""
+    """A check marker from a :class:`toolkit.rules.check.Violation`, a :class:`~toolkit.write.shapes.Marker` or a
+    check-JSON mapping."""
     if hasattr(item, "to_json") and hasattr(item, "rule"):
         item = item.to_json()
     return shapes.as_marker(item, k)
@@ -352,7 +353,7 @@ def result_svg(
     One group per output layer of CONTRACT.md (ids in lower case, present even when empty): voids to make
     bold over a paper-white cut (slots and eased corners as true arcs, bores as circles of the drill's radius in
     local mm), the optimiser's freeform outlines thin and dashed, centre crosses, void ids, and ``violations``
-    (rule checks: Violation values, check-JSON mappings or dxf_out Markers) ringed. ``underlay`` is "density"
+    (rule checks: Violation values, check-JSON mappings or Markers of write.shapes) ringed. ``underlay`` is "density"
     (the optimised material state of ``densities`` (ne,) in greys; nothing when no densities are given),
     "stress" (``stress`` (ne, 3) sx, sy, txy in MPa, drawn as on the analysis figure) or "none". The title block
     names the panel, profile, the volume removed and the date, over the caution.
