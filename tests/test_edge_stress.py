@@ -581,6 +581,26 @@ def test_stiffness_has_exactly_the_rigid_motions_free():
     assert np.abs(K @ turn).max() < 1e-9 * w.max()
 
 
+def test_solve_refuses_a_model_free_to_move():
+    """Held dofs that leave a rigid motion free (statics: a body held at one point can still turn about it, one held
+    only across x can still slide along y) give an error, not displacements from a near-singular factor."""
+    mesh, _ = _plate_with_hole_mesh()
+    n = mesh.n_nodes
+    F = np.zeros((2 * n, 1))
+    F[1::2] = 1.0
+    outer = np.unique(mesh.edges[mesh.edge_tag == 1].ravel())
+    one = int(outer[0])
+    for dofs in ([2 * one, 2 * one + 1], 2 * outer):
+        held = np.zeros(2 * n, dtype=bool)
+        held[dofs] = True
+        with pytest.raises(RuntimeError, match="rigid motion"):
+            solve(mesh, E, NU, 1.0, held, np.zeros((2 * n, 1)), F)
+    held = np.zeros(2 * n, dtype=bool)
+    held[2 * outer[[0, len(outer) // 2]]] = held[2 * outer[[0, len(outer) // 2]] + 1] = True
+    U = solve(mesh, E, NU, 1.0, held, np.zeros((2 * n, 1)), F)
+    assert np.all(np.isfinite(U)) and np.abs(U).max() > 0
+
+
 def test_loads_keep_their_resultants():
     """Self-weight sums to rho g t A of the region (statics); a uniform edge traction to traction x length x t."""
     mesh, _ = _plate_with_hole_mesh()

@@ -38,7 +38,6 @@ from shapely.geometry import LineString, Point, box
 
 from .fe import tri6
 from .fe.loads import G_MM_S2
-from .fe.solve import SINGULAR_PIVOT
 from .fe.stress import principal_stresses
 from .fe.trimesh import MeshError, TriMesh, graded_mesh
 from .model import LineLoad, Panel, PointLoad, Void
@@ -137,7 +136,7 @@ def solve(mesh: TriMesh, E: float, nu: float, thickness: float, held: np.ndarray
     """Displacements (2n, ncases) with ``held`` dofs at ``values`` (2n, ncases) under forces ``F`` (2n, ncases).
 
     Only the free dofs' block of the stiffness is assembled; the held dofs' pull on the free ones is summed
-    element by element (k_e v_e). Raises RuntimeError where a part of the model is held by nothing."""
+    element by element (k_e v_e). Raises RuntimeError when the held dofs leave a rigid motion free."""
     ke = tri6.element_stiffness(mesh.points, mesh.tri, E, nu, thickness)
     dofs = tri6.element_dofs(mesh.tri)
     free = ~held
@@ -157,18 +156,22 @@ def solve(mesh: TriMesh, E: float, nu: float, thickness: float, held: np.ndarray
     # the free-free entries: all of an element with no held dof (most), the free part of the others
     inner = np.ones(len(fe), dtype=bool)
     inner[touch] = False
-    ok = fe[touch] >= 0
-    keep = ok[:, :, None] & ok[:, None, :]
+    outer = fe[touch]
+    keep = (outer >= 0)[:, :, None] & (outer >= 0)[:, None, :]
     data = np.concatenate([ke[inner].ravel(), ke[touch][keep]])
-    r = np.concatenate([np.repeat(fe[inner], 12, axis=1).ravel(), np.broadcast_to(fe[touch][:, :, None], keep.shape)[keep]])
-    c = np.concatenate([np.tile(fe[inner], (1, 12)).ravel(), np.broadcast_to(fe[touch][:, None, :], keep.shape)[keep]])
+    r = np.concatenate([np.repeat(fe[inner], 12, axis=1).ravel(), np.broadcast_to(outer[:, :, None], keep.shape)[keep]])
+    c = np.concatenate([np.tile(fe[inner], (1, 12)).ravel(), np.broadcast_to(outer[:, None, :], keep.shape)[keep]])
     Kff = sp.csc_matrix((data, (r, c)), shape=(m, m))
-    # K is symmetric positive definite on the free dofs: diagonal pivots, a minimum-degree order on its own
-    # pattern (it fills in less than SuperLU's default here)
+    # The mesh is one piece: K is positive definite on the free dofs when the held ones stop every rigid motion
+    # (the motions' values at the held dofs have rank 3, measured against their largest singular value).
+    node, axis = np.divmod(np.flatnonzero(held), 2)
+    xy = mesh.points[node] - mesh.points.mean(axis=0)
+    rigid = np.column_stack([axis == 0, axis == 1, np.where(axis == 0, -xy[:, 1], xy[:, 0])]).astype(float)
+    sv = np.linalg.svd(rigid, compute_uv=False) if len(rigid) >= 3 else np.zeros(1)
+    if not sv[-1] > 1e-9 * sv[0]:
+        raise RuntimeError("the local model is not held against every rigid motion")
+    # diagonal pivots (K is symmetric positive definite there), a minimum-degree order on K's own pattern
     lu = splu(Kff, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.0, options={"SymmetricMode": True})
-    pivots = np.abs(lu.U.diagonal())
-    if not pivots.min() > SINGULAR_PIVOT * pivots.max():
-        raise RuntimeError("a part of the local model is held by nothing")
     U = np.where(held[:, None], values, 0.0)
     U[free] = lu.solve(np.ascontiguousarray(rhs))
     return U

@@ -23,6 +23,7 @@ along it (so a curved edge gets curved elements), elsewhere the straight middle.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import cached_property
 from typing import Callable
 
 import numpy as np
@@ -74,11 +75,16 @@ class TriMesh:
             angles.append(np.degrees(np.arccos(np.clip(cos, -1.0, 1.0))))
         return float(np.min(angles))
 
+    @cached_property
+    def _centroids(self) -> cKDTree:
+        """A k-d tree of the elements' centroids, built at the first ``locate`` (several sections per model)."""
+        return cKDTree(self.points[self.tri[:, :3]].mean(axis=1))
+
     def locate(self, xy) -> tuple[np.ndarray, np.ndarray]:
         """(element, (xi, eta)) of each point, element -1 where the point is outside the mesh."""
         xy = np.atleast_2d(np.asarray(xy, dtype=float))
         corners = self.points[self.tri[:, :3]]
-        near = cKDTree(corners.mean(axis=1)).query(xy, k=min(12, len(corners)))[1].reshape(len(xy), -1)
+        near = self._centroids.query(xy, k=min(12, len(corners)))[1].reshape(len(xy), -1)
         c = corners[near]                                              # (k, m, 3, 2)
         d1, d2 = c[..., 1, :] - c[..., 0, :], c[..., 2, :] - c[..., 0, :]
         rhs = xy[:, None, :] - c[..., 0, :]
@@ -140,20 +146,27 @@ def _along(run: np.ndarray, s: np.ndarray, cum: np.ndarray) -> np.ndarray:
     return run[i] + t[:, None] * (run[i + 1] - run[i])
 
 
-def _place_run(run: np.ndarray, size: Callable, h_floor: float):
-    """Nodes along one run (ends included) evenly in ds / h, and the polyline middle of each piece."""
+def _split(values: np.ndarray, lengths) -> list[np.ndarray]:
+    """``values`` cut into consecutive pieces of the given lengths."""
+    return np.split(values, np.cumsum(lengths)[:-1])
+
+
+def _run_samples(run: np.ndarray, h_floor: float):
+    """Arc lengths along one run (cumulative ``cum`` at its vertices, samples ``s``) fine enough to integrate
+    ds / h on, and the sample points."""
     seg = np.linalg.norm(np.diff(run, axis=0), axis=1)
     cum = np.r_[0.0, np.cumsum(seg)]
     total = cum[-1]
-    # sample the run finely enough to integrate ds / h
     n_sample = int(min(4000, max(8, np.ceil(total / max(h_floor, 1e-9) * 2))))
     s = np.linspace(0.0, total, n_sample + 1)
-    h = size(_along(run, s, cum))
+    return cum, s, _along(run, s, cum)
+
+
+def _run_nodes(s: np.ndarray, h: np.ndarray) -> np.ndarray:
+    """Arc lengths of a run's nodes (ends included), evenly in ds / h given h at the samples ``s``."""
     w = np.r_[0.0, np.cumsum(0.5 * (1.0 / h[1:] + 1.0 / h[:-1]) * np.diff(s))]
     n = max(1, int(np.ceil(w[-1] - 0.25)))
-    s_nodes = np.interp(np.linspace(0.0, w[-1], n + 1), w, s)
-    s_mid = 0.5 * (s_nodes[1:] + s_nodes[:-1])
-    return _along(run, s_nodes, cum), _along(run, s_mid, cum), (run, cum, s_nodes)
+    return np.interp(np.linspace(0.0, w[-1], n + 1), w, s)
 
 
 def graded_mesh(region, size: Callable[[np.ndarray], np.ndarray], *, tag: Callable[[np.ndarray], np.ndarray],
@@ -169,24 +182,29 @@ def graded_mesh(region, size: Callable[[np.ndarray], np.ndarray], *, tag: Callab
     breaks = np.asarray(breaks, dtype=float).reshape(-1, 2)
     # prepared once: every point-in-region test below (fill, smoothing, piece votes) is then a fast lookup
     shapely.prepare(region)
-    # one run per stretch of edge between two corners or breaks: its polyline, arc lengths and node positions
+    # one run per stretch of edge between two corners or breaks: its polyline, arc lengths and node positions.
+    # Each loop's runs are sampled as finely as the smallest size on it or on a loop before it; the size field
+    # is asked once for all loops' vertices and once for all runs' samples.
+    loops = [_break_indices(loop, breaks, tol) for loop in _loops(region)]
+    h_loops = _split(size(np.vstack([loop for loop, _, _ in loops])), [len(loop) for loop, _, _ in loops])
+    floors = np.minimum.accumulate([float(np.min(h)) for h in h_loops])
     runs: list[dict] = []
     corner_pts = []
-    h_floor = np.inf
-    for loop in _loops(region):
-        loop, cut, corners = _break_indices(loop, breaks, tol)
+    for (loop, cut, corners), h_floor in zip(loops, floors):
         corner_pts.append(loop[corners])
         closed = np.vstack([loop, loop[:1]])
         if len(cut) == 0:
             cut = np.array([0])
-        h_floor = min(h_floor, float(np.min(size(loop))))
         first = len(runs)
         for k, start in enumerate(cut):
             end = cut[(k + 1) % len(cut)]
             run = closed[start:end + 1] if end > start else np.vstack([closed[start:], closed[1:end + 1]])
-            _, _, (run, cum, s_nodes) = _place_run(run, size, h_floor)
-            runs.append({"run": run, "cum": cum, "s": list(s_nodes), "next": len(runs) + 1})
+            cum, samples, xy = _run_samples(run, h_floor)
+            runs.append({"run": run, "cum": cum, "samples": samples, "xy": xy, "next": len(runs) + 1})
         runs[-1]["next"] = first
+    h_runs = _split(size(np.vstack([r.pop("xy") for r in runs])), [len(r["samples"]) for r in runs])
+    for r, h in zip(runs, h_runs):
+        r["s"] = list(_run_nodes(r.pop("samples"), h))
     corner_pts = np.vstack(corner_pts) if corner_pts else np.zeros((0, 2))
     bpts = _boundary(runs)[0]
 
