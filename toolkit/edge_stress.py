@@ -49,6 +49,7 @@ ARC_STEP_RAD = math.pi / 16  # at most this much of an arc's turn per element
 CORNER_SHRINK = 8.0         # a sharp corner's elements are this much smaller than the edge's
 WEB_ELEMENTS = 3.0          # at least this many elements across a web
 GROWTH = 0.25               # the element size grows by this much per unit distance from an edge
+FEW_SOURCES = 8             # a size group of no more sources than this is searched without a k-d tree
 # The window reaches this many void radii (smallest enclosing circle) beyond the void, and at least
 # ``WINDOW_CELLS`` grid elements (the grid's field near the smeared void is rough within a few elements).
 WINDOW_RADII = 1.5
@@ -112,19 +113,25 @@ def size_field(src_xy: np.ndarray, src_h: np.ndarray, h_max: float, growth: floa
         which = np.clip(np.searchsorted(edges, src_h, side="right") - 1, 0, len(edges) - 1)
         for b in np.unique(which):   # finest first
             sel = which == b
-            groups.append((cKDTree(src_xy[sel]), float(src_h[sel].min())))
+            # a k-d tree pays for many sources; a handful (the webs' middles) are measured directly
+            near = cKDTree(src_xy[sel]) if sel.sum() > FEW_SOURCES else src_xy[sel]
+            groups.append((near, float(src_h[sel].min())))
 
     def h(x: np.ndarray) -> np.ndarray:
         x = np.asarray(x, dtype=float).reshape(-1, 2)
         out = np.full(len(x), float(h_max))
-        for tree, hs in groups:
+        for near, hs in groups:
             # a group can lower h only where h is above its size, and only through sources nearer than
-            # (h - h_s) / growth: the search is bounded by that (the same minimum, far fewer tree visits)
+            # (h - h_s) / growth: the search is bounded by that (the same minimum, fewer tree visits)
             open_ = np.flatnonzero(out > hs)
             if len(open_) == 0:
                 continue
-            reach = (out[open_] - hs) / growth if growth > 0 else np.full(len(open_), np.inf)
-            d = tree.query(x[open_], distance_upper_bound=float(reach.max()) * (1 + 1e-12))[0]
+            if isinstance(near, np.ndarray):
+                diff = x[open_, None, :] - near[None, :, :]
+                d = np.sqrt(np.min(diff[..., 0] ** 2 + diff[..., 1] ** 2, axis=1))
+            else:
+                reach = (out[open_] - hs) / growth if growth > 0 else np.full(len(open_), np.inf)
+                d = near.query(x[open_], distance_upper_bound=float(reach.max()) * (1 + 1e-12))[0]
             out[open_] = np.minimum(out[open_], hs + growth * d)
         return out
 
@@ -255,8 +262,14 @@ def edge_snapper(void: Void, reach: float):
             arcs.append([centre[0], centre[1], r, start, theta])
         arcs = np.asarray(arcs, dtype=float).reshape(-1, 5)
 
+    # a box holding every side and every arc's whole circle: only points near it can be within reach
+    ends = np.vstack([lines.reshape(-1, 2), arcs[:, :2] - arcs[:, 2:3], arcs[:, :2] + arcs[:, 2:3]])
+    lo, hi = ends.min(axis=0) - reach, ends.max(axis=0) + reach
+
     def snap(points: np.ndarray) -> np.ndarray:
-        p = np.asarray(points, dtype=float)
+        points = np.asarray(points, dtype=float)
+        near = np.flatnonzero(np.all((points >= lo) & (points <= hi), axis=1))
+        p = points[near]
         best = np.full(len(p), np.inf)
         out = p.copy()
         for a, b in lines:
@@ -274,7 +287,9 @@ def edge_snapper(void: Void, reach: float):
             dist = np.where(inside, np.abs(np.linalg.norm(rel, axis=1) - r), np.inf)
             take = dist < best
             best[take], out[take] = dist[take], q[take]
-        return np.where((best <= reach)[:, None], out, p)
+        moved = points.copy()
+        moved[near] = np.where((best <= reach)[:, None], out, p)
+        return moved
 
     return snap
 

@@ -206,7 +206,8 @@ def graded_mesh(region, size: Callable[[np.ndarray], np.ndarray], *, tag: Callab
     for r, h in zip(runs, h_runs):
         r["s"] = list(_run_nodes(r.pop("samples"), h))
     corner_pts = np.vstack(corner_pts) if corner_pts else np.zeros((0, 2))
-    bpts = _boundary(runs)[0]
+    boundary = _boundary(runs)
+    bpts = boundary[0]
 
     inside = _fill(region, size, bpts)
     seeds = np.asarray(seeds, dtype=float).reshape(-1, 2)
@@ -223,7 +224,7 @@ def graded_mesh(region, size: Callable[[np.ndarray], np.ndarray], *, tag: Callab
 
     inside = _smooth(region, bpts, inside, size, len(seeds))
     for _ in range(RECOVERY_ROUNDS):
-        bpts, segs, mids = _boundary(runs)
+        bpts, segs, mids = boundary
         if snap is not None:
             bpts, mids = snap(bpts), snap(mids)
         pts = np.vstack([bpts, inside])
@@ -248,6 +249,7 @@ def graded_mesh(region, size: Callable[[np.ndarray], np.ndarray], *, tag: Callab
                 r = np.linalg.norm(inside - 0.5 * (a + b), axis=1)
                 gone |= r < 0.75 * np.linalg.norm(b - a)
         inside = inside[~gone]
+        boundary = _boundary(runs)
     else:
         raise MeshError("the region's edges could not be recovered in the triangulation.")
 
