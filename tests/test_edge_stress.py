@@ -284,6 +284,36 @@ def test_web_between_two_bores():
     assert r1.peak_MPa == pytest.approx(r2.peak_MPa, rel=0.03)   # the layout is symmetric about y = 200
 
 
+def test_a_neighbours_sharp_corners_are_meshed_at_its_edge_size(monkeypatch):
+    """A bore's model holds its sharp-cornered neighbour as a hole whose corners get elements of the neighbour's
+    edge size (its perimeter / 32 here), not an eighth of it: the bore's figures are taken on the bore's edge,
+    and the neighbour's own model refines its corners (docs/edge-stress.md). Both still get a figure."""
+    import toolkit.edge_stress as es
+
+    meshes = []
+    real = es.graded_mesh
+    monkeypatch.setattr(es, "graded_mesh", lambda *a, **k: meshes.append(real(*a, **k)) or meshes[-1])
+    corners = [(570.0, 170.0), (630.0, 170.0), (630.0, 230.0), (570.0, 230.0)]
+    square = Void(id="V2", family="polygon", centre=(600.0, 200.0), size_mm=60.0 * math.sqrt(2.0),
+                  shape=Polygon(corners), outline=tuple((x, y, 0.0) for x, y in corners), sides=4)
+    r_bore, r_square = whole_path(strip_panel(20.0), [bore((480.0, 200.0), 60.0, "V1"), square])
+    assert r_bore.peak_MPa is not None and r_square.peak_MPa is not None
+
+    def shortest_at_corners(mesh):
+        p = mesh.points
+        chords = np.linalg.norm(p[mesh.tri[:, [1, 2, 0]]] - p[mesh.tri[:, :3]], axis=2)   # (ne, 3)
+        at = np.zeros(len(mesh.tri), dtype=bool)
+        for c in corners:
+            at |= np.any(np.linalg.norm(p[mesh.tri[:, :3]] - c, axis=2) < 1e-6, axis=1)
+        assert at.any()
+        return chords[at].min()
+
+    # the square's edge size: its perimeter / 32 as a neighbour, / 64 in its own model, where its corners get an
+    # eighth of that
+    assert shortest_at_corners(meshes[0]) > 0.5 * 240.0 / 32.0
+    assert shortest_at_corners(meshes[1]) < 2.0 * 240.0 / 64.0 / es.CORNER_SHRINK
+
+
 # --- lacuna check with [rules] max_edge_stress_MPa ---------------------------------------------------------------
 
 STRIP_JOB = """
