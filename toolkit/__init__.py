@@ -3,13 +3,9 @@
 Results are for design exploration; every member must be checked by a qualified engineer to the local code.
 """
 
-__version__ = "0.1.0"
+from .about import CAUTION, __version__
 
-CAUTION = (
-    "Results are for design exploration only. The FE model is linear-elastic, plane-stress and isotropic; "
-    "it does not check strength, stability, connections or durability. Every member must be checked by a "
-    "qualified engineer to the local design code before anything is made."
-)
+__all__ = ["CAUTION", "__version__", "optimize_document"]
 
 
 def optimize_document(doc, job, **options):

@@ -9,7 +9,7 @@ from dataclasses import dataclass, field
 from importlib import resources
 from pathlib import Path
 
-from . import CAUTION
+from .about import CAUTION
 from .analysis import Analysis, analyze
 from .inputs import load_panel
 from .jobfile import template_text

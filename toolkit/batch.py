@@ -22,8 +22,8 @@ from contextlib import contextmanager
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from . import CAUTION, __version__
-from .errors import LacunaError
+from .about import CAUTION, __version__
+from .errors import LacunaError, one_paragraph
 
 SUMMARY_STEM = "batch-summary"
 
@@ -33,12 +33,6 @@ VIOLATED = "rules violated"
 REFUSED = "refused"          # bad input: the paragraph `lacuna optimize` would print, exit 2 on its own
 FAILED = "failed"            # a fault of lacuna or of the cluster (a worker lost), not of the input
 STATUS_EXIT = {DONE: 0, VIOLATED: 1, REFUSED: 2, FAILED: 3}
-
-
-def _paragraph(text: str) -> str:
-    from .cli import one_paragraph  # the command line's own rule for one printable paragraph
-
-    return one_paragraph(text)
 
 
 # --- the engine ------------------------------------------------------------------------------------------------
@@ -122,7 +116,7 @@ def run_tasks(client, function, tasks: list[dict], on_done=None) -> list[dict]:
         except Exception as error:  # the worker died or the cluster went away: that panel failed, not the batch
             lost = (f"the job did not come back from its Dask worker ({type(error).__name__}: {error}); the worker "
                     "may have run out of memory or been stopped.")
-            row = {**_task_keys(tasks[i]), "status": FAILED, "message": _paragraph(lost)}
+            row = {**_task_keys(tasks[i]), "status": FAILED, "message": one_paragraph(lost)}
         rows[i] = row
         if on_done is not None:
             on_done(i, row, done, len(tasks))
@@ -165,9 +159,9 @@ def optimize_task(drawing: str, job: str | None, out_dir: str, force: bool = Fal
         row["cpu_seconds"] = time.process_time() - cpu   # the worker process's CPU time over the job
         row["import_seconds"] = begun - started   # the worker's first task pays for importing lacuna
     except LacunaError as error:
-        return {**row, "status": REFUSED, "message": _paragraph(str(error))}
+        return {**row, "status": REFUSED, "message": one_paragraph(str(error))}
     except Exception as error:  # a defect of lacuna on this panel: say so in its row, keep the batch going
-        return {**row, "status": FAILED, "message": _paragraph(
+        return {**row, "status": FAILED, "message": one_paragraph(
             f"internal error ({type(error).__name__}: {error}); a fault in lacuna, not in the input: run "
             "`lacuna --debug optimize` on this drawing and report the traceback.")}
     s = outcome.summary
@@ -291,7 +285,7 @@ def batch_files(drawings, job_path=None, *, out_dir=None, scheduler: str | None 
     for i, (d, j, folder) in enumerate(zip(drawings, jobs, folders)):
         if blocked[i]:
             rows[i] = {"drawing": str(d), "job": str(j or ""), "folder": str(folder), "status": REFUSED,
-                       "message": _paragraph(blocked[i])}
+                       "message": one_paragraph(blocked[i])}
             if on_done is not None:
                 on_done(rows[i], sum(r is not None for r in rows), len(drawings))
             continue

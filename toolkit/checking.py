@@ -18,7 +18,7 @@ from typing import Sequence
 
 import numpy as np
 
-from . import CAUTION, __version__
+from .about import CAUTION, __version__
 from .dxf_in import read_document
 from .dxf_in.source import open_document
 from .dxf_in.voids import VOID_LAYERS, read_voids

@@ -13,8 +13,8 @@ import click
 
 # Only click and the light top of the package load here, so `lacuna --help` answers at once; each command imports
 # the API (numpy, scipy, ezdxf, shapely behind it) when it runs. tests/test_startup.py holds this.
-from . import CAUTION, __version__
-from .errors import LacunaError, naming
+from .about import CAUTION, __version__
+from .errors import LacunaError, naming, one_paragraph
 
 EXIT_BAD_INPUT = 2
 EXIT_INTERNAL = 3
@@ -47,15 +47,6 @@ class _Lacuna(click.Group):
                 err=True,
             )
             ctx.exit(EXIT_INTERNAL)
-
-
-def one_paragraph(text: str) -> str:
-    """``text`` as one printable line: line breaks become spaces, other control characters their escapes.
-
-    Messages quote names and values from the files they are about; a damaged file's control characters (a
-    form feed, an escape sequence) would otherwise break the paragraph or reach the terminal.
-    """
-    return "".join(c if c.isprintable() else " " if c in "\n\r\t" else repr(c)[1:-1] for c in text)
 
 
 def _emit(summary: dict, as_json: bool, lines: list[str]) -> None:

@@ -37,3 +37,12 @@ def naming(drawing, job_path=None):
             error.where = f"{job_path or drawing} {error.where}"
             error.args = (str(error),)
         raise
+
+
+def one_paragraph(text: str) -> str:
+    """``text`` as one printable line: line breaks become spaces, other control characters their escapes.
+
+    Messages quote names and values from the files they are about; a damaged file's control characters (a
+    form feed, an escape sequence) would otherwise break the paragraph or reach the terminal.
+    """
+    return "".join(c if c.isprintable() else " " if c in "\n\r\t" else repr(c)[1:-1] for c in text)

@@ -19,7 +19,7 @@ from pathlib import Path
 
 import numpy as np
 
-from . import CAUTION, __version__
+from .about import CAUTION, __version__
 from .batch import DONE, STATUS_EXIT, VIOLATED, JobsResult, dask_client, optimize_task, run_tasks
 from .errors import LacunaError
 

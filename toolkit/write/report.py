@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from .. import CAUTION
+from ..about import CAUTION
 
 
 def _num(value, digits: int = 4) -> str:

@@ -7,7 +7,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from .. import CAUTION, __version__
+from ..about import CAUTION, __version__
 from ..edge_stress import edge_json
 from ..model import Drawing, Panel
 
