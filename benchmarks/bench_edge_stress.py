@@ -1,7 +1,8 @@
 """Seconds and figures of the local models at voids (toolkit/edge_stress.py).
 
     python benchmarks/bench_edge_stress.py [--refine 1,2] [--skip-demo] [--scenarios plate,spandrel]
-                                           [--repeat 3] [--save DIR | --load DIR] [--skip-verification]
+                                           [--repeat 3] [--save DIR | --load DIR] [--against OLDER]
+                                           [--skip-verification]
 
 1. The bundled demo (loft lintel): the whole job up to the made layout's analysis, then the local model of each
    made void at every ``refine`` (element sizes divided by it): seconds, elements, peak, nominal, Kt per void,
@@ -11,8 +12,9 @@
    The whole job runs once; the local models of all its made voids are then timed ``--repeat`` times on one BLAS
    thread (the best run is printed: process seconds, total and per void, and wall seconds), with each void's
    elements, peak, nominal and Kt. ``--save DIR`` keeps each job's panel, voids and analyses (pickle) and
-   ``--load DIR`` times those again, so an older checkout of ``toolkit`` (on PYTHONPATH) can be timed on the very
-   same voids: docs/edge-stress.md gives the figures before and after.
+   ``--load DIR`` times those again; ``--against OLDER`` (a folder holding an older ``toolkit`` package, e.g.
+   ``git archive 9a56650 toolkit | tar -x -C OLDER``) times the very same voids with it in a second process and
+   prints both side by side. docs/edge-stress.md gives the figures before and after.
 3. The verification cases of tests/test_edge_stress.py at refine 0.5 / 1 / 2 / 4: measured Kt beside the
    published value (docs/edge-stress.md carries the table).
 """
@@ -30,6 +32,7 @@ ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT / "tests"))
 sys.path.insert(0, str(ROOT / "benchmarks"))
 
+TOTAL_TAG = "scenario-total"   # the line --against reads back from the older toolkit's run
 SPEED_SCENARIOS = {"plate": "3000 x 1000 plate, steel-cut, hexagons",
                    "spandrel": "6000 x 1500 spandrel, precast-formed, n-gons"}
 
@@ -72,6 +75,7 @@ def scenarios(names, repeat: int, save: str | None, load: str | None):
 
     from toolkit.edge_stress import void_edge_stress
 
+    totals = {}
     for key in names:
         if load:
             with open(Path(load) / f"{key}.pickle", "rb") as f:
@@ -101,7 +105,7 @@ def scenarios(names, repeat: int, save: str | None, load: str | None):
                 if best is None or sum(seconds) < sum(best[0]):
                     best, results = (seconds, wall), out
         seconds, wall = best
-        print(f"\n{SPEED_SCENARIOS[key]}: {len(voids)} voids; the job's timings_s['edge stresses'] = {own:.2f} s")
+        print(f"\n{SPEED_SCENARIOS[key]}: {len(voids)} voids; timings_s['edge stresses'] of the job when it ran: {own:.2f} s")
         print(f"{'void':6s}{'s':>8s}{'elements':>10s}{'peak MPa':>11s}{'nominal':>10s}{'Kt':>8s}  note")
         for v, dt, r in zip(voids, seconds, results):
             fig = lambda x, f="{:11.3f}": f.format(x) if x is not None else f"{'-':>11s}"  # noqa: E731
@@ -110,6 +114,32 @@ def scenarios(names, repeat: int, save: str | None, load: str | None):
         total = sum(seconds)
         print(f"best of {repeat}: {total:.2f} s process time, {total / max(len(voids), 1) * 1e3:.0f} ms per void "
               f"({min(seconds) * 1e3:.0f} - {max(seconds) * 1e3:.0f} ms); wall {wall:.2f} s")
+        print(f"{TOTAL_TAG} {key} {total:.6f} {len(voids)}")
+        totals[key] = (total, len(voids))
+    return totals
+
+
+def against(older: str, names, repeat: int, jobs: str, totals) -> None:
+    """Times the same jobs with the ``toolkit`` package found in ``older`` and prints both side by side."""
+    import os
+    import subprocess
+
+    env = dict(os.environ, PYTHONPATH=os.pathsep.join([older, os.environ.get("PYTHONPATH", "")]).rstrip(os.pathsep))
+    cmd = [sys.executable, __file__, "--skip-demo", "--skip-verification", "--scenarios", ",".join(names),
+           "--repeat", str(repeat), "--load", jobs]
+    print(f"\nthe same jobs with the toolkit in {older}:", flush=True)
+    out = subprocess.run(cmd, env=env, capture_output=True, text=True, check=True).stdout
+    before = {}
+    for line in out.splitlines():
+        if line.startswith(TOTAL_TAG):
+            _, key, total, n = line.split()
+            before[key] = (float(total), int(n))
+        elif "best of" in line or "voids;" in line:
+            print(line)
+    print(f"\n{'job':10s}{'voids':>7s}{'older s':>10s}{'ms/void':>9s}{'this s':>9s}{'ms/void':>9s}{'ratio':>8s}")
+    for key in names:
+        (t0, n0), (t1, n1) = before[key], totals[key]
+        print(f"{key:10s}{n1:7d}{t0:10.2f}{t0 / n0 * 1e3:9.0f}{t1:9.2f}{t1 / n1 * 1e3:9.0f}{t0 / t1:8.2f}")
 
 
 def verification():
@@ -160,6 +190,8 @@ def main():
     ap.add_argument("--repeat", type=int, default=3)
     ap.add_argument("--save", help="keep each scenario's job (panel, voids, analyses) in this folder")
     ap.add_argument("--load", help="time the jobs kept by --save in this folder instead of running them")
+    ap.add_argument("--against", help="a folder holding an older toolkit package (git archive COMMIT toolkit | "
+                                      "tar -x -C DIR): times the same jobs with it, side by side")
     ap.add_argument("--skip-verification", action="store_true")
     args = ap.parse_args()
     if not args.skip_demo:
@@ -168,7 +200,14 @@ def main():
     for n in names:
         if n not in SPEED_SCENARIOS:
             ap.error(f"unknown scenario {n!r} (plate, spandrel)")
-    scenarios(names, args.repeat, args.save, args.load)
+    jobs = args.load or args.save
+    if args.against and not jobs:
+        import tempfile
+
+        jobs = args.save = tempfile.mkdtemp(prefix="lacuna-edge-jobs-")
+    totals = scenarios(names, args.repeat, args.save, args.load)
+    if args.against and names:
+        against(args.against, names, args.repeat, jobs, totals)
     if not args.skip_verification:
         verification()
 
