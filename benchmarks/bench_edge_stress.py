@@ -105,7 +105,8 @@ def scenarios(names, repeat: int, save: str | None, load: str | None):
                 if best is None or sum(seconds) < sum(best[0]):
                     best, results = (seconds, wall), out
         seconds, wall = best
-        print(f"\n{SPEED_SCENARIOS[key]}: {len(voids)} voids; timings_s['edge stresses'] of the job when it ran: {own:.2f} s")
+        print(f"\n{SPEED_SCENARIOS[key]}: {len(voids)} voids; timings_s['edge stresses'] of the job when it ran: "
+              f"{own:.2f} s")
         print(f"{'void':6s}{'s':>8s}{'elements':>10s}{'peak MPa':>11s}{'nominal':>10s}{'Kt':>8s}  note")
         for v, dt, r in zip(voids, seconds, results):
             fig = lambda x, f="{:11.3f}": f.format(x) if x is not None else f"{'-':>11s}"  # noqa: E731
