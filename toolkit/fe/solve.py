@@ -328,7 +328,9 @@ class _Pardiso:
     300 x 100 and 600 x 200 elements (docs/dependencies.md). Run on one thread, as the multifrontal code, so a
     design comes out the same on any machine."""
 
-    def __init__(self):
+    def __init__(self, ordered: bool = False):
+        """``ordered``: the matrix comes already in a fill-reducing order (the grid's nested dissection), used as
+        it is; otherwise PARDISO finds one (METIS)."""
         import pypardiso
         from pypardiso.pardiso_wrapper import PyPardisoError
 
@@ -353,11 +355,14 @@ class _Pardiso:
         iparm = self._solver.iparm
         iparm[:] = 0
         iparm[0] = 1     # settings given here
-        iparm[1] = 2     # fill-reducing order: METIS nested dissection (the serial one: the same on any machine)
+        iparm[1] = 2     # fill-reducing order where none is given: METIS (the serial one: the same on any machine)
         iparm[7] = 2     # up to two steps of iterative refinement, as MKL's defaults
         iparm[17] = -1   # report the factor's nonzeros
         iparm[34] = 0    # one-based indices
         iparm[55] = 1    # keep the diagonal for pardiso_getdiag
+        self._ordered = ordered
+        if ordered:
+            iparm[4] = 1  # a permutation of our own: the identity, set once the size is known
         self._getdiag = self._solver.libmkl.pardiso_getdiag
         self._getdiag.restype = None
         self._controller = ThreadpoolController()
@@ -385,6 +390,8 @@ class _Pardiso:
 
     def factor(self, A: sp.csr_matrix) -> None:
         """Factorise ``A`` (the upper triangle, CSR); after the first call, of the same pattern."""
+        if self._ordered and len(self._solver.perm) != A.shape[0]:
+            self._solver.perm = np.arange(1, A.shape[0] + 1, dtype=np.int32)
         self._solver.set_phase(22 if self._analysed else 12)
         try:
             with self._one_thread():
@@ -459,7 +466,10 @@ class LinearSolver:
         if backend in ("auto", "multifrontal"):
             backend = "pardiso" if pardiso_available() else "superlu"
         self.backend = backend
-        if grid is not None and backend == "superlu":  # PARDISO finds its own fill-reducing order
+        if grid is not None and backend in ("superlu", "pardiso"):
+            # The grid's own nested dissection: SuperLU keeps it (NATURAL); PARDISO takes it as given (an
+            # identity user permutation on the reordered matrix) instead of running METIS, whose ordering cost
+            # more to find and gave a larger factor (docs/dependencies.md).
             nodes = nested_dissection(grid)
             order = np.stack([2 * nodes, 2 * nodes + 1], axis=1).ravel()
             is_free = np.zeros(n, dtype=bool)
@@ -477,7 +487,7 @@ class LinearSolver:
             # PARDISO's symmetric positive definite mode reads the upper triangle row by row: that is the CSC
             # lower triangle read as CSR (K is symmetric), so no transpose is needed.
             sub = sp.tril(sub, format="csc")
-            self._pardiso = _Pardiso()
+            self._pardiso = _Pardiso(ordered=grid is not None)
         sub.sort_indices()
         self._take = sub.data.astype(np.int64) - 1
         self._indices = sub.indices
