@@ -26,7 +26,7 @@ from toolkit.errors import LacunaError
 from toolkit.model import Frame, Void
 from toolkit.write.dxf_copy import add_results, nearest_aci, result_copy_bytes
 from toolkit.write.dxf_file import VERSIONS
-from toolkit.write.layers import CENTRE, CHECK, FREEFORM, LOOKS, NOTE, OUR_LAYERS, VOID_LAYERS
+from toolkit.write.layers import CENTRE, CHECK, DIM, FREEFORM, LOOKS, NOTE, OUR_LAYERS, VOID_LAYERS
 from toolkit.write.shapes import Marker
 
 # Header variables a writer must change: when and by what the file was saved, and the next free handle.
@@ -163,7 +163,11 @@ def test_tables_blocks_header_and_layouts_kept(round_trip):
         names_after = {e.dxf.name for e in getattr(after, table)}
         assert names_before <= names_after, table
     assert {e.dxf.name for e in after.layers} - {e.dxf.name for e in before.layers} == set(OUR_LAYERS)
-    assert [b.name for b in before.blocks] == [b.name for b in after.blocks]
+    # The only blocks added are the ones holding our ordinate dimensions' lines, one per DIMENSION (DXF reference,
+    # DIMENSION group code 2: the name of the block that contains the entities that make up the dimension).
+    ours = [d.dxf.geometry for d in after.modelspace().query(f'DIMENSION[layer=="{DIM}"]')]
+    assert [b.name for b in before.blocks] == [b.name for b in after.blocks if b.name not in ours]
+    assert len(set(ours)) == len(ours) and all(name in after.blocks for name in ours)
     assert before.layout_names() == after.layout_names()
     for var in before.header.varnames():
         if var not in CHANGES_ON_SAVE | STAMPED_ON_LOAD:

@@ -18,6 +18,7 @@ from ..fe.stress import principal_stresses
 from ..model import Panel
 from . import palette
 from .fields import dominant_principal, draw_stress, draw_stress_bar, stress_limit
+from .labels import Labels
 from .sheet import (DEFLECTED_INK, INK, MARGIN, SHEET_WIDTH_MM, Figure, check_grid, checked_array, date_text,
                     draw_heading, draw_key, draw_scale_bar, draw_title_block, fmt, fmt_value, nice_125, polygon_path,
                     polygons, section_lines)
@@ -196,8 +197,9 @@ def analysis_svg(
     _draw_directions(fig, grid, fractions, stress, vmax)
     draw_outlines(fig, panel)
     _draw_deflected(fig, grid, solid, displacement, magnification)
-    draw_supports(fig, panel)
-    draw_loads(fig, panel, case)
+    labels = Labels(fig)
+    draw_supports(fig, panel, labels)
+    draw_loads(fig, panel, case, labels)
     _draw_legend(fig, vmax, peak_t, peak_c, magnification, umax)
     draw_title_block(fig, [
         (0.34, "PANEL", [panel.name, f"load case: {case}"]),

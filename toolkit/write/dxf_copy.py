@@ -1,11 +1,13 @@
-"""Results -> layers in a copy of the drawing: voids, freeform outlines, centre marks, schedule and check markers.
+"""Results -> layers in a copy of the drawing: voids, freeform outlines, centre marks, ordinate dimensions of the
+void centres, schedule and check markers.
 
 Results are computed in the panel's local frame (mm); everything drawn here goes through the panel's
 :class:`~toolkit.model.Frame` into the drawing's unit, position and rotation, so a panel drawn turned 30 degrees
 six kilometres from the origin gets its voids back turned and placed with it. Arcs stay true arcs: a bulge is
 tan(sweep / 4) and keeps its value under rotation and uniform scaling.
 
-The drawing is changed only by adding: new layers (and one line type) of our own, and entities on them. Every
+The drawing is changed only by adding: new layers (one line type and one dimension style) of our own, entities on
+them and the blocks that hold our dimensions' lines. Every
 entity, table entry and handle of the input stays as it was. docs/layers.md describes the layers, their look,
 and what happens when a drawing already holds results from an earlier run.
 """
@@ -26,8 +28,9 @@ from ..errors import LacunaError
 from ..model import Frame, Void
 from ..units import mm_per
 from .dxf_file import dxf_version_code, serialise
-from .layers import CENTRE, CHECK, DASH_MM, DASHED, FREEFORM, GAP_MM, LOOKS, NOTE, OUR_LAYERS, VOID_LAYERS
-from .shapes import Marker, as_marker, check_void, freeform_rings, short_number
+from .layers import CENTRE, CHECK, DASH_MM, DASHED, DIM, FREEFORM, GAP_MM, LOOKS, NOTE, OUR_LAYERS, VOID_LAYERS
+from .ordinates import decimals, ordinate_features, ordinate_text, spread
+from .shapes import Marker, as_marker, check_void, freeform_rings, schedule_decimals, short_number
 
 
 @dataclass
@@ -49,6 +52,7 @@ def add_results(
     voids: Iterable[Void] = (),
     freeform=(),
     centres: bool = True,
+    dimensions: bool = True,
     notes: Sequence[str] = (),
     schedule: Sequence[Sequence[str]] | None = None,
     check_markers: Iterable[Marker | Mapping] = (),
@@ -60,9 +64,11 @@ def add_results(
     """Add results to ``doc``'s model space in place, on the LACUNA-* layers; return the handles added.
 
     ``voids`` are drawn on the layer of their family; ``freeform`` is a shapely (Multi)Polygon or a sequence of
-    them, one closed polyline per ring. ``schedule`` rows (the first is the heading; default: one row per void)
-    and ``notes`` go on LACUNA-NOTE below the panel, in the panel's frame, clear of its envelope
-    (``panel_size_mm``, default: the extent of the results). ``check_markers`` are :class:`Marker` values or
+    them, one closed polyline per ring. With ``dimensions``, LACUNA-DIM gets an ordinate dimension (a DIMENSION
+    entity) from the datum, the panel's lower-left corner, to each void centre's x, set out under the panel, and
+    to its y, left of it, clear of the drawing's own lines there. ``schedule`` rows (the first is the heading;
+    default: one row per void) and ``notes`` go on LACUNA-NOTE below the panel and its ordinates, in the panel's
+    frame, clear of its envelope (``panel_size_mm``, default: the extent of the results). ``check_markers`` are :class:`Marker` values or
     mappings with ``where`` and ``rule`` (and optionally ``measured``, ``required``) as in the check JSON.
     A drawing that already holds entities on any LACUNA-* layer is refused unless ``replace`` is true, which
     deletes those entities from model space first.
@@ -84,8 +90,10 @@ def add_results(
 
     added = Added()
     added.removed = _clear_or_refuse(doc, replace)
-    # Measured before anything of ours is added: the drafter's own annotation under the panel stays readable.
-    floor = _floor_below(doc, frame, extent) if (schedule is None and voids) or schedule or notes else extent[1]
+    # Measured before anything of ours is added: the drafter's own annotation under and left of the panel stays
+    # readable.
+    floor, wall = (_clear_below_and_left(doc, frame, extent) if voids or schedule or notes
+                   else (extent[1], extent[0]))
     added.layers_created = _ensure_layers(doc, frame)
     msp = doc.modelspace()
     out = _Pen(msp, frame, added, legacy=doc.dxfversion <= const.DXF12)
@@ -105,6 +113,8 @@ def add_results(
     for ring in rings:
         out.closed(tuple((x, y, 0.0) for x, y in ring), FREEFORM)
     _draw_markers(out, markers, h_mm)
+    if dimensions and voids:
+        floor = _ordinates(out, voids, floor, wall, h_mm)
 
     rows = [list(map(str, row)) for row in (schedule if schedule is not None else _schedule_rows(voids, frame))]
     if rows or notes:
@@ -162,8 +172,15 @@ def _clear_or_refuse(doc: DxfDocument, replace: bool, layers=None) -> int:
     there by hand, and deleting them would change the drafter's work.
     """
     ours = {name.casefold() for name in (OUR_LAYERS if layers is None else layers)}
+    msp = doc.modelspace()
+    # The block holding the lines of one of our dimensions in model space is part of that dimension (DXF
+    # reference, DIMENSION group code 2): it goes with it, and is no entity drawn by hand.
+    dimension_blocks = {e.dxf.geometry.casefold() for e in msp.query("DIMENSION")
+                        if e.dxf.get("layer", "0").casefold() in ours and e.dxf.hasattr("geometry")}
     found: dict[str, list[tuple[str, str]]] = {}
     for layout in doc.layouts_and_blocks():
+        if layout.name.casefold() in dimension_blocks:
+            continue
         for entity in layout:
             layer = entity.dxf.get("layer", "0")
             if layer.casefold() in ours:
@@ -191,13 +208,15 @@ def _clear_or_refuse(doc: DxfDocument, replace: bool, layers=None) -> int:
             hint="Start from the original drawing, or ask to replace earlier results (replace=True; on the "
             "command line --replace), which deletes the entities on the LACUNA-* layers first.",
         )
-    msp = doc.modelspace()
     removed = 0
     for items in found.values():
         for _, handle in items:
             entity = doc.entitydb.get(handle)
             if entity is not None and entity.is_alive:
+                block = entity.dxf.get("geometry") if entity.dxftype() == "DIMENSION" else None
                 msp.delete_entity(entity)
+                if block is not None and block.casefold() in dimension_blocks and block in doc.blocks:
+                    doc.blocks.delete_block(block, safe=False)
                 removed += 1
     return removed
 
@@ -222,11 +241,20 @@ def _ensure_plot_style(doc: DxfDocument) -> None:
         names["Normal"] = doc.objects.add_placeholder(owner=names.dxf.handle)
 
 
+# Our dimension style: the sizes that depend on the panel (text height, leader offsets, decimals) are set on each
+# dimension, so a style of this name already in the drawing is used as it is.
+DIMSTYLE = "LACUNA-DIM"
+
+
 def _ensure_layers(doc: DxfDocument, frame: Frame) -> list[str]:
     _ensure_plot_style(doc)  # a file read in recovery mode may have lost it: no layer could be added then
     if DASHED not in doc.linetypes:
         dash, gap = DASH_MM / frame.mm_per_unit, GAP_MM / frame.mm_per_unit
         doc.linetypes.add(DASHED, pattern=[dash + gap, dash, -gap], description="lacuna dashed __ __ __")
+    if DIMSTYLE not in doc.dimstyles:
+        doc.dimstyles.new(DIMSTYLE, dxfattribs={"dimtxsty": "Standard", "dimdsep": ord("."), "dimlfac": 1.0,
+                                                "dimscale": 1.0, "dimzin": 0, "dimclrd": 256, "dimclre": 256,
+                                                "dimclrt": 256})
     created = []
     true_colour = doc.dxfversion >= const.DXF2004
     for look in LOOKS:
@@ -275,6 +303,33 @@ class _Pen:
             entity = self.layout.add_lwpolyline(vertices, format="xyb", close=True, dxfattribs={"layer": layer})
         return self._keep(entity, layer)
 
+    def ordinate(self, feature, leader_end, along_x: bool, offset_mm: float, height_mm: float, places: int):
+        """An ordinate DIMENSION on LACUNA-DIM from the datum (local 0, 0) to ``feature``, its leader starting
+        ``offset_mm`` from the feature (DIMEXO) and ending at ``leader_end`` (local mm), measuring along the
+        panel's x (``along_x``) or y, lettering ``height_mm`` high to ``places`` decimals."""
+        at, end, datum = (np.asarray(self._xy(p)) for p in (feature, leader_end, (0.0, 0.0)))
+        d = self.frame.length_to_drawing
+        override = {"dimtxt": d(height_mm), "dimasz": d(height_mm) / 2.0, "dimgap": d(height_mm) / 4.0,
+                    "dimexo": d(offset_mm), "dimdec": places, "dimzin": 0}
+        # Our frame's turn goes on the entity (group code 51, the measuring axes' direction, clockwise) rather than
+        # through the factory's rotation, which turns the leader's end about the drawing's origin instead of the
+        # datum (ezdxf 1.4, add_ordinate_dim): far from the origin the leader would land kilometres away.
+        style = self.layout.add_ordinate_dim(
+            feature_location=tuple(at), offset=tuple(end - at), dtype=1 if along_x else 0, origin=tuple(datum),
+            dimstyle=DIMSTYLE, override=override, dxfattribs={"layer": DIM},
+        )
+        if self.frame.angle_deg % 360.0:
+            style.dimension.dxf.horizontal_direction = -float(self.frame.angle_deg)
+        style.render()
+        entity = style.dimension
+        # The dimension's lines are drawn on block layer 0, which viewers resolve differently; on our layer they
+        # take its look everywhere.
+        block = entity.get_geometry_block()
+        for part in block if block is not None else ():
+            if part.dxf.get("layer", "0") == "0":
+                part.dxf.layer = DIM
+        return self._keep(entity, DIM)
+
     def text(self, content: str, at, height_mm: float, layer: str):
         entity = self.layout.add_text(
             content,
@@ -317,25 +372,54 @@ def _note_block(out: _Pen, rows: list[list[str]], notes: list[str], extent, h: f
         line += 1
 
 
+# Ordinate dimensions, in text heights of the notes (common practice, no source): lettering 0.8 high; leaders start
+# one height clear of the panel and of the drawing's own lines beside it, run four heights out, and jog where
+# neighbours crowd so that lettering stands at least 1.5 of its heights apart.
+DIM_TEXT, DIM_CLEAR, DIM_LEADER, DIM_PITCH = 0.8, 1.0, 4.0, 1.5
+
+
+def _ordinates(out: _Pen, voids: list[Void], floor: float, wall: float, h: float) -> float:
+    """Ordinates of every void centre from the datum: the x values under the panel (below ``floor``), the y values
+    left of it (beyond ``wall``), as a drafter sets them out. Returns the lowest local y they reach, for the notes
+    to start below."""
+    t = DIM_TEXT * h
+    places = decimals(out.frame.unit)
+    lowest = floor
+    end_y = floor - (DIM_CLEAR + DIM_LEADER) * h
+    features = ordinate_features(voids, 0, out.frame)
+    for (value, (fx, fy)), at in zip(features, spread(np.array([f[0] for f in features]), DIM_PITCH * t)):
+        out.ordinate((fx, fy), (at, end_y), True, fy - (floor - DIM_CLEAR * h), t, places)
+        length = len(ordinate_text(out.frame, value)) * CHAR_WIDTH * t
+        lowest = min(lowest, end_y - length - t)
+    end_x = wall - (DIM_CLEAR + DIM_LEADER) * h
+    features = ordinate_features(voids, 1, out.frame)
+    for (_value, (fx, fy)), at in zip(features, spread(np.array([f[0] for f in features]), DIM_PITCH * t)):
+        out.ordinate((fx, fy), (end_x, at), False, fx - (wall - DIM_CLEAR * h), t, places)
+    return lowest
+
+
 def _schedule_rows(voids: list[Void], frame: Frame) -> list[list[str]]:
-    """The default schedule: one row per void, positions and sizes in the drawing's unit."""
+    """The default schedule: one row per void, positions and sizes in the drawing's unit, centres to the schedule
+    CSV's decimals (a drawing far from its origin keeps every digit a shop sets out from)."""
     if not voids:
         return []
     u = frame.unit
+    d = schedule_decimals(u)
     rows = [["id", "family", f"centre x ({u})", f"centre y ({u})", f"size ({u})", "tool", f"area ({u}2)"]]
     for v in voids:
         cx, cy = frame.to_drawing(np.asarray(v.centre, dtype=float))
         rows.append([
-            v.id, v.family, short_number(cx), short_number(cy), short_number(frame.length_to_drawing(v.size_mm)),
+            v.id, v.family, f"{cx:.{d}f}", f"{cy:.{d}f}", short_number(frame.length_to_drawing(v.size_mm)),
             v.tool or "-", short_number(v.area_mm2 / frame.mm_per_unit ** 2),
         ])
     return rows
 
 
-def _floor_below(doc: DxfDocument, frame: Frame, extent) -> float:
+def _clear_below_and_left(doc: DxfDocument, frame: Frame, extent) -> tuple[float, float]:
     """The lowest local y of the drawing's model-space entities standing under the panel (overlapping its local
-    x range and reaching below it), or the extent's own bottom: the notes go below all of them."""
-    floor = extent[1]
+    x range and reaching below it), and the least local x of those standing left of it (overlapping its y range),
+    or the extent's own bottom and left: the ordinates and the notes go beyond all of them."""
+    floor, wall = extent[1], extent[0]
     for box in bbox.multi_flat(doc.modelspace(), fast=True):
         if not box.has_data:
             continue
@@ -344,7 +428,9 @@ def _floor_below(doc: DxfDocument, frame: Frame, extent) -> float:
         lo, hi = corners.min(axis=0), corners.max(axis=0)
         if hi[0] >= extent[0] and lo[0] <= extent[2] and lo[1] < floor:
             floor = float(lo[1])
-    return floor
+        if hi[1] >= extent[1] and lo[1] <= extent[3] and lo[0] < wall:
+            wall = float(lo[0])
+    return floor, wall
 
 
 def _default_text_height(extent) -> float:

@@ -28,9 +28,11 @@ VOID_LAYERS = {
     "bore": "LACUNA-VOID-BORE",
 }
 FREEFORM, CENTRE, NOTE, CHECK = "LACUNA-FREEFORM", "LACUNA-CENTRE", "LACUNA-NOTE", "LACUNA-CHECK"
+# Added after the first seven (CONTRACT.md: extend, never rename): ordinate dimensions from the datum.
+DIM = "LACUNA-DIM"
 
 # Our own choice of look (docs/layers.md): cut lines heavy and dark, the optimiser's raw outline light and
-# dashed, marks thin, violations in a warm red that stands apart from everything else.
+# dashed, marks and dimensions thin, violations in a warm red that stands apart from everything else.
 LOOKS: tuple[LayerLook, ...] = (
     LayerLook(VOID_LAYERS["polygon"], (23, 94, 104), "CONTINUOUS", 50, "voids to cut: n-gons"),
     LayerLook(VOID_LAYERS["slot"], (92, 64, 140), "CONTINUOUS", 50, "voids to cut: slots"),
@@ -39,5 +41,6 @@ LOOKS: tuple[LayerLook, ...] = (
     LayerLook(CENTRE, (110, 110, 110), "CONTINUOUS", 13, "void centre marks"),
     LayerLook(NOTE, (38, 38, 38), "CONTINUOUS", 25, "void schedule and notes"),
     LayerLook(CHECK, (200, 52, 44), "CONTINUOUS", 35, "fabrication-rule violations"),
+    LayerLook(DIM, (96, 72, 48), "CONTINUOUS", 13, "ordinates of void centres from the datum"),
 )
 OUR_LAYERS: tuple[str, ...] = tuple(look.name for look in LOOKS)

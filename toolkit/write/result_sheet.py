@@ -21,7 +21,9 @@ from ..model import Panel, PointLoad, Void
 from . import palette, shapes
 from .fields import (SHOWN, VOID_FILL, density_classes, density_colours, dominant_principal, draw_cells,
                      draw_density_bar, draw_stress, draw_stress_bar, material_state, stress_limit)
-from .layers import LOOKS, VOID_LAYERS
+from .labels import Labels, text_box
+from .layers import DIM, LOOKS, VOID_LAYERS
+from .ordinates import ordinate_features, ordinate_text, spread
 from .sheet import (INK, MARGIN, ROOM, ROOM_BELOW, Figure, area_path, cased_text, check_grid, checked_array,
                     date_text, draw_heading, draw_key, draw_scale_bar, draw_title_block, fmt, kilograms, lettering,
                     outline_path, polygon_path, polygons, section_lines)
@@ -32,6 +34,7 @@ from .symbols import draw_loads, draw_outlines, draw_supports
 RESULT_LAYERS = tuple(look.name.lower() for look in LOOKS)
 _LOOK = {look.name.lower(): look for look in LOOKS}
 _VOID_GROUP = {family: name.lower() for family, name in VOID_LAYERS.items()}
+_DIM_GROUP = DIM.lower()
 
 
 def _exact(v: float) -> str:
@@ -61,81 +64,77 @@ def _as_marker(item, k: int):
     return shapes.as_marker(item, k)
 
 
-# Void ids on the sheet: lettering of this size (paper mm).
+# Void ids on the sheet: lettering of this size (paper mm), bold.
 LABEL_SIZE = 2.3
-_EM = 0.72
 
 
 def label_box(fig: Figure, text: str, at, size: float):
-    """The box (local mm) a line of lettering of ``size`` paper mm started at ``at`` (its baseline) covers: a
-    bold capital or digit of DejaVu Sans is about 0.7 em wide (``_EM``), capitals stand 0.73 em, descenders
-    0.24 em."""
-    s = fig.scale
-    return shapely.box(at[0], at[1] - 0.24 * size * s, at[0] + _EM * size * s * len(text), at[1] + 0.75 * size * s)
+    """The box (local mm) a void id of ``size`` paper mm started at ``at`` (its baseline) covers."""
+    return text_box(fig, text, at, size, bold=True)
 
 
-def _label_spots(fig: Figure, voids: Sequence[Void], size: float):
-    """Where each void's id goes so that no two ids, no id and another void, and no id and the loads or
-    supports overlap: inside the void when it fits with room to spare, else just outside it in the first of
-    eight directions (up-right first) that is clear, further out with a leader line when none is. Returns
-    [(baseline start (local mm), leader segment or None)] in ``voids`` order."""
+def _label_spots(fig: Figure, voids: Sequence[Void], size: float, labels: Labels | None = None):
+    """Where each void's id goes so that no two ids overlap, and no id covers another void, or what ``labels``
+    already holds (the loads' arrows and figures, supports, ordinates): inside the void when it fits with room to
+    spare, else just outside it in the first of sixteen directions (up-right first) that is clear, further out with
+    a leader line (itself crossing no other void or label) when none is. Returns [(baseline start (local mm),
+    leader segment or None)] in ``voids`` order."""
     p = fig.paper
     panel = fig.panel
-    gap = p(0.6)
-    shapes = [v.shape for v in voids]
-    taken: list = []
-    # The loads and supports are drawn on the panel's edges and outside it: ids stay inside the panel, clear of
-    # the edge band where arrows and bearing marks stand.
+    if labels is None:
+        labels = Labels(fig)
+        for void in voids:
+            labels.block(void.shape, owner=void.id)
+    # Ids stay inside the panel, clear of the edge band where arrows and bearing marks stand.
     inner = shapely.box(0.0, 0.0, panel.width_mm, panel.height_mm).buffer(-p(1.0), join_style="mitre")
     # A point load's arrow and its figure stand at its point: ids keep a square of 12 paper mm clear round it.
     for load in panel.loads:
         if isinstance(load, PointLoad):
             inner = inner.difference(shapely.Point(load.at).buffer(p(12.0), cap_style="square"))
-    tree = shapely.STRtree(shapes) if shapes else None
-    dirs = [(math.cos(a), math.sin(a)) for a in np.radians([45, 135, 0, 180, 90, 270, 315, 225])]
+    # Eight directions, up-right first, then the eight between them.
+    dirs = [(math.cos(a), math.sin(a)) for a in np.radians([45, 135, 0, 180, 90, 270, 315, 225,
+                                                            22.5, 67.5, 112.5, 157.5, 202.5, 247.5, 292.5, 337.5])]
+    gap = labels.gap
     out = []
-    for k, void in enumerate(voids):
-        w = _EM * size * fig.scale * len(void.id)
-        h = 0.99 * size * fig.scale
+    for void in voids:
+        box0 = label_box(fig, void.id, (0.0, 0.0), size)
+        w = box0.bounds[2]
+        h = box0.bounds[3] - box0.bounds[1]
+        below = -box0.bounds[1]  # the baseline stands this far above the box's foot
         c = np.asarray(void.centre, dtype=float)
 
-        def clear(box, inside_own: bool) -> bool:
-            spaced = box.buffer(p(0.5))  # a little air between two ids
-            if not inner.covers(box) or any(spaced.intersects(t) for t in taken):
-                return False
-            near = tree.query(box.buffer(gap), predicate="intersects") if tree is not None else []
-            for j in near:
-                if j == k and inside_own:
-                    continue
-                return False
-            return True
-
         # Inside, above the centre cross, when the void holds the box with a margin.
-        at = c + (-w / 2.0, min(p(1.5), 0.35 * void.size_mm) + p(0.5) + 0.24 * size * fig.scale)
+        at = c + (-w / 2.0, min(p(1.5), 0.35 * void.size_mm) + p(0.5) + below)
         box = label_box(fig, void.id, at, size)
-        if void.shape.buffer(-gap).covers(box) and clear(box, inside_own=True):
-            taken.append(box)
+        if void.shape.buffer(-gap).covers(box) and labels.clear(box, own=void.id, within=inner):
+            labels.take(box)
             out.append((at, None))
             continue
         placed = None
         reach = 0.5 * float(max(void.length_mm, void.size_mm)) + gap
-        for ring in (1.0, 2.0, 3.5, 5.0):
+        for ring in (1.0, 2.0, 3.5, 5.0, 7.0, 9.0):
             for dx, dy in dirs:
                 # the box's nearest corner (or edge middle) in the direction faces the void
                 ox = 0.0 if dx > 0.3 else (-w if dx < -0.3 else -w / 2.0)
-                oy = 0.24 * size * fig.scale if dy > 0.3 else (-0.75 * size * fig.scale if dy < -0.3 else -0.3 * h)
+                oy = below if dy > 0.3 else (below - h if dy < -0.3 else below - 0.5 * h)
                 point = c + reach * ring * np.array([dx, dy])
                 at = point + (ox, oy)
                 box = label_box(fig, void.id, at, size)
-                if clear(box, inside_own=False):
-                    placed = (at, None if ring == 1.0 else (_towards(void.shape, point), point))
+                leader = None if ring == 1.0 else (_towards(void.shape, point), point)
+                line = None if leader is None else shapely.LineString(leader)
+                # a leader may touch its own void only at its foot
+                if line is not None and line.length > 0 and line.interpolate(gap).within(void.shape):
+                    continue
+                if labels.clear(box, within=inner, leader=None if line is None else
+                                line.difference(void.shape.buffer(gap))):
+                    placed = (at, leader)
                     break
             if placed is not None:
                 break
         if placed is None:  # nowhere clear: the first spot outside, as before
             at = _void_label_anchor(void) + p(0.6)
             placed = (at, None)
-        taken.append(label_box(fig, void.id, placed[0], size))
+        labels.take(label_box(fig, void.id, placed[0], size))
         out.append(placed)
     return out
 
@@ -146,10 +145,15 @@ def _towards(shape, point) -> np.ndarray:
     return shapely.get_coordinates(line)[0]
 
 
-def _draw_result_layers(fig: Figure, voids: Sequence[Void], freeform, markers) -> None:
-    """The CONTRACT.md output layers, each a group (present even when empty, so a viewer can toggle it)."""
+def _looks() -> dict[str, str]:
+    return {name: palette.rgb_to_hex(np.asarray(look.rgb) / 255.0) for name, look in _LOOK.items()}
+
+
+def _result_groups(fig: Figure) -> dict:
+    """The CONTRACT.md output layers, each a group (present even when empty, so a viewer can toggle it), stacked
+    in the contract's order."""
     p = fig.paper
-    looks = {name: palette.rgb_to_hex(np.asarray(look.rgb) / 255.0) for name, look in _LOOK.items()}
+    looks = _looks()
     bold, thin = fmt(p(0.6), 4), fmt(p(0.25), 4)
     g = {}
     for name in RESULT_LAYERS:
@@ -163,14 +167,22 @@ def _draw_result_layers(fig: Figure, voids: Sequence[Void], freeform, markers) -
             attrs = dict(fill="none", stroke=looks[name], stroke_width=fmt(p(0.18), 4))
         elif name == "lacuna-check":
             attrs = dict(fill="none", stroke=looks[name], stroke_width=fmt(p(0.35), 4))
+        elif name == _DIM_GROUP:
+            attrs = dict(fill="none", stroke=looks[name], stroke_width=fmt(p(0.15), 4))
         else:
             attrs = {}
         g[name] = fig.layer(name, **attrs, **{"data-layer": look.name})
+    return g
 
+
+def _draw_result_layers(fig: Figure, g: dict, voids: Sequence[Void], freeform, markers, labels: Labels) -> None:
+    """The voids to make, freeform outlines, centre crosses, void ids (clear of what ``labels`` holds) and rule
+    markers into the output layers' groups ``g``."""
+    p = fig.paper
+    looks = _looks()
     for ring in shapes.freeform_rings(freeform):
         g["lacuna-freeform"].add(fig.dwg.path(d=polygon_path(ring)))
     for void in voids:
-        shapes.check_void(void)
         group = g[_VOID_GROUP[void.family]]
         tag = {"data-void-id": void.id}
         if void.family == "bore":
@@ -184,7 +196,7 @@ def _draw_result_layers(fig: Figure, voids: Sequence[Void], freeform, markers) -
         cx, cy = void.centre
         g["lacuna-centre"].add(fig.dwg.path(
             d=f"M{fmt(cx - half)} {fmt(cy)}h{fmt(2 * half)}M{fmt(cx)} {fmt(cy - half)}v{fmt(2 * half)}", **tag))
-    spots = _label_spots(fig, voids, LABEL_SIZE)
+    spots = _label_spots(fig, voids, LABEL_SIZE, labels)
     for void, (at, leader) in zip(voids, spots):
         if leader is not None:
             g["lacuna-note"].add(fig.dwg.line(start=(fmt(leader[0][0]), fmt(leader[0][1])),
@@ -205,7 +217,7 @@ def _draw_result_layers(fig: Figure, voids: Sequence[Void], freeform, markers) -
 def _layer_key_rows(leave_out: tuple[str, ...] = ()) -> list:
     """The line key of the result sheets: the panel's lines and each output layer (less ``leave_out``: layers
     with nothing on the sheet)."""
-    looks = {name: palette.rgb_to_hex(np.asarray(look.rgb) / 255.0) for name, look in _LOOK.items()}
+    looks = _looks()
     rows = [
         ("line", dict(stroke=INK, stroke_width="0.4"), "panel and openings as drawn"),
         ("line", dict(stroke=INK, stroke_width="0.3", stroke_dasharray="2 1"), "zone kept solid"),
@@ -223,6 +235,8 @@ def _layer_key_rows(leave_out: tuple[str, ...] = ()) -> list:
             sample = ("cross", dict(stroke=colour, stroke_width="0.18"))
         elif name == "lacuna-note":
             sample = ("label", dict(fill=colour))
+        elif name == _DIM_GROUP:
+            sample = ("line", dict(stroke=colour, stroke_width="0.15"))
         else:
             sample = ("ring", dict(stroke=colour, stroke_width="0.35"))
         rows.append((*sample, f"{look.description} \u2014 layer {look.name}"))
@@ -236,56 +250,51 @@ _ORDINATE_BAND = 16.0
 _ORDINATE_SIZE = 2.0
 
 
-def _spread(values: np.ndarray, pitch: float) -> np.ndarray:
-    """Positions for labels at ``values`` (sorted) at least ``pitch`` apart: each at its value unless the one
-    before it pushes it on (a leader then joins it to its value)."""
-    out = values.astype(float).copy()
-    for k in range(1, len(out)):
-        out[k] = max(out[k], out[k - 1] + pitch)
-    return out
-
-
-def _draw_ordinates(fig: Figure, voids: Sequence[Void]) -> None:
-    """Ordinate dimensions of every void's centre from the datum (the panel's lower-left corner, local 0, 0):
-    x values along a line under the panel, y values up a line left of it, each with a tick at the true position
-    and a jogged leader to its lettering where neighbours crowd it. Values in the drawing's unit; a centre shared
-    by several voids is written once."""
+def _draw_ordinates(fig: Figure, g, voids: Sequence[Void], labels: Labels) -> None:
+    """Ordinate dimensions of every void's centre from the datum (the panel's lower-left corner, local 0, 0) into
+    the group ``g`` (layer LACUNA-DIM): x values along a line under the panel, y values up a line left of it, each
+    with a tick at the true position and a jogged leader to its lettering where neighbours crowd it. Values in
+    the drawing's unit as the drawing copy states them (:mod:`.ordinates`); a centre shared by several voids is
+    written once. The lines and lettering are added to ``labels``."""
     if not voids:
         return
     p = fig.paper
     f = fig.panel.frame
-    g = fig.layer("ordinates", stroke=INK, stroke_width=fmt(p(0.15), 4), fill="none")
-    decimals = {"mm": 0, "cm": 1, "m": 3, "in": 2, "ft": 3}.get(f.unit, 3)
-
-    def text(v: float) -> str:
-        return f"{f.length_to_drawing(v):.{decimals}f}"
-
+    colour = _looks()[_DIM_GROUP]
+    s = fig.scale
     pitch = p(_ORDINATE_SIZE * 1.25)
     # x ordinates: a datum line below the support symbols, values written upright-turned (reading up).
     base = -p(ROOM_BELOW - 2.0)
-    xs = np.unique(np.round([v.centre[0] for v in voids], 6))
-    xs = np.concatenate([[0.0], xs])
-    where = _spread(xs, pitch)
+    xs = np.array([value for value, _ in ordinate_features(voids, 0, f)])
+    where = spread(xs, pitch)
     g.add(fig.dwg.line(start=(fmt(0), fmt(base)), end=(fmt(fig.panel.width_mm), fmt(base))))
+    longest = 0.0
     for x, at in zip(xs, where):
+        label = ordinate_text(f, x)
         g.add(fig.dwg.path(d=f"M{fmt(x)} {fmt(base)}v{fmt(-p(1.2))}L{fmt(at)} {fmt(base - p(3.0))}"
-                           f"v{fmt(-p(0.6))}", **{"data-ordinate": f"x {text(x)}"}))
-        label = "0" if x == 0.0 else text(x)
-        s = fig.scale
-        g.add(lettering(fig.dwg, label, (0, 0), _ORDINATE_SIZE, anchor="end", fill=INK,
+                           f"v{fmt(-p(0.6))}", **{"data-ordinate": f"x {label}"}))
+        g.add(lettering(fig.dwg, label, (0, 0), _ORDINATE_SIZE, anchor="end", fill=colour,
                          transform=f"matrix(0 {fmt(s, 6)} {fmt(s, 6)} 0 {fmt(at + 0.35 * p(_ORDINATE_SIZE))} "
                                    f"{fmt(base - p(4.0))})"))
+        longest = max(longest, text_box(fig, label, (0.0, 0.0), _ORDINATE_SIZE).bounds[2])
+    # The band the x ordinates fill, from the datum line down past the longest value.
+    labels.block(shapely.box(min(0.0, where[0]) - p(1.0), base - p(4.0) - longest - p(0.5),
+                             max(fig.panel.width_mm, where[-1]) + p(1.0), base + p(0.2)))
     # y ordinates: a datum line left of the panel, beyond the support symbols, values written level.
     side = -p(ROOM - 6.0)
-    ys = np.unique(np.round([v.centre[1] for v in voids], 6))
-    ys = np.concatenate([[0.0], ys])
-    where = _spread(ys, pitch)
+    ys = np.array([value for value, _ in ordinate_features(voids, 1, f)])
+    where = spread(ys, pitch)
     g.add(fig.dwg.line(start=(fmt(side), fmt(0)), end=(fmt(side), fmt(fig.panel.height_mm))))
+    longest = 0.0
     for y, at in zip(ys, where):
+        label = ordinate_text(f, y)
         g.add(fig.dwg.path(d=f"M{fmt(side)} {fmt(y)}h{fmt(-p(1.2))}L{fmt(side - p(3.0))} {fmt(at)}"
-                           f"h{fmt(-p(0.6))}", **{"data-ordinate": f"y {text(y)}"}))
-        fig.text(g, "0" if y == 0.0 else text(y), (side - p(4.2), at - 0.35 * p(_ORDINATE_SIZE)), _ORDINATE_SIZE,
-                 anchor="end", local=True)
+                           f"h{fmt(-p(0.6))}", **{"data-ordinate": f"y {label}"}))
+        fig.text(g, label, (side - p(4.2), at - 0.35 * p(_ORDINATE_SIZE)), _ORDINATE_SIZE, anchor="end",
+                 fill=colour, local=True)
+        longest = max(longest, text_box(fig, label, (0.0, 0.0), _ORDINATE_SIZE).bounds[2])
+    labels.block(shapely.box(side - p(4.2) - longest - p(0.5), min(0.0, where[0]) - p(1.2),
+                             side + p(0.2), max(fig.panel.height_mm, where[-1]) + p(1.2)))
     # The datum: a circle with a cross at the corner.
     r = p(1.2)
     g.add(fig.dwg.circle(center=(0, 0), r=fmt(r), **{"data-datum": "1"}))
@@ -311,8 +320,8 @@ def _draw_result_legend(fig: Figure, underlay: str, stress_range) -> None:
     else:
         fig.text(g, "No underlay: the voids over the panel as drawn.", (x0, top + 2.5), 2.8, weight="bold")
     draw_scale_bar(fig, x0, top + 29.0)
-    # The sheet a shop makes from shows no freeform outlines: its key does not list them.
-    leave_out = ("lacuna-freeform",) if underlay == "made" else ()
+    # The sheet a shop makes from shows no freeform outlines, the others no ordinates: a key lists what is drawn.
+    leave_out = ("lacuna-freeform",) if underlay == "made" else (_DIM_GROUP,)
     draw_key(fig, g, x0 + 132.0, top, _layer_key_rows(leave_out), pitch=4.3)
 
 
@@ -362,6 +371,8 @@ def result_svg(
         raise LacunaError(f"unknown underlay {underlay!r}.", where="result figure",
                           hint=f"Use one of: {', '.join(_UNDERLAYS)}.")
     voids = list(voids)
+    for void in voids:
+        shapes.check_void(void)
     markers = [_as_marker(m, k) for k, m in enumerate(violations)]
     ne = grid.nx * grid.ny
     check_grid(panel, grid, "result figure")
@@ -404,12 +415,18 @@ def result_svg(
         draw_stress(fig, grid, drawn, dominant, stress_range[0], solid)
         fig.drawing.attribs["data-stress-limit-MPa"] = f"{stress_range[0]:g}"
     draw_outlines(fig, panel)
-    _draw_result_layers(fig, voids, freeform, markers)
-    draw_supports(fig, panel)
-    for case in panel.cases:
-        draw_loads(fig, panel, case)
+    groups = _result_groups(fig)
+    # One placer for every label: the loads' figures keep off the voids, ordinates and supports; the void ids
+    # then keep off all of that and the loads' arrows and figures.
+    labels = Labels(fig)
+    for void in voids:
+        labels.block(void.shape, owner=void.id)
     if underlay == "made":
-        _draw_ordinates(fig, voids)
+        _draw_ordinates(fig, groups[_DIM_GROUP], voids, labels)
+    draw_supports(fig, panel, labels)
+    for case in panel.cases:
+        draw_loads(fig, panel, case, labels)
+    _draw_result_layers(fig, groups, voids, freeform, markers, labels)
     _draw_result_legend(fig, underlay, stress_range)
     removed = "volume removed: not stated"
     if volume_removed_percent is not None:

@@ -6,15 +6,11 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
+from .shapes import schedule_decimals
 from .summary import voids_json
 
 if TYPE_CHECKING:
     from ..pipeline import OptimizeRun
-
-
-# Decimals of a length in the schedule, by unit: a thousandth of a millimetre whatever the unit (the corner
-# coordinates are set out from these figures).
-_DECIMALS = {"mm": 3, "cm": 4, "m": 6, "in": 5, "ft": 6}
 
 
 def schedule_csv(run: OptimizeRun) -> str:
@@ -28,7 +24,7 @@ def schedule_csv(run: OptimizeRun) -> str:
     w.writerow(["id", "family", f"centre_x_{unit}", f"centre_y_{unit}", "sides", f"size_{unit}",
                 f"length_{unit}", "angle_deg", f"area_{unit}2", "tool", "regular", f"points_{unit}",
                 "peak_stress_MPa", "nominal_stress_MPa", "kt", f"least_web_{unit}", "web_stress_MPa", "edge_note"])
-    d = _DECIMALS.get(unit, 6)
+    d = schedule_decimals(unit)
     for v in voids_json(run):
         # The points a shop sets out from: an n-gon's corners, a slot's two arc centres; a bore needs its centre.
         points = v.get("corners") or v.get("ends") or []

@@ -29,6 +29,16 @@ def short_number(v: float) -> str:
     return f"{v:.6g}"
 
 
+# Decimals of a length in a schedule, by unit: a thousandth of a millimetre whatever the unit (the corner
+# coordinates are set out from these figures).
+_SCHEDULE_DECIMALS = {"mm": 3, "cm": 4, "m": 6, "in": 5, "ft": 6}
+
+
+def schedule_decimals(unit: str) -> int:
+    """Decimals of a length or coordinate in ``unit`` in the void schedules (the CSV and the drawing's notes)."""
+    return _SCHEDULE_DECIMALS.get(unit, 6)
+
+
 def check_void(void: Void) -> None:
     """Refuse a void neither writer can draw: an unknown family, a size or centre that is not finite, no outline."""
     where = f"void {void.id}"

@@ -227,6 +227,11 @@ class Figure:
         p = np.asarray(xy, dtype=float)
         return np.stack([self.origin[0] + p[..., 0] / self.scale, self.origin[1] - p[..., 1] / self.scale], -1)
 
+    def to_local(self, xy) -> np.ndarray:
+        """Sheet positions (paper mm, y down) -> local points (mm, y up)."""
+        p = np.asarray(xy, dtype=float)
+        return np.stack([(p[..., 0] - self.origin[0]) * self.scale, (self.origin[1] - p[..., 1]) * self.scale], -1)
+
     def layer(self, name: str, **attrs) -> svgwrite.container.Group:
         """The group ``name`` inside the drawing (local frame), created on first use."""
         if name not in self._groups:
