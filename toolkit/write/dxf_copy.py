@@ -20,7 +20,7 @@ from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass, field
 
 import numpy as np
-from ezdxf import bbox, colors
+from ezdxf import colors, disassemble
 from ezdxf.document import Drawing as DxfDocument
 from ezdxf.lldxf import const, validator
 
@@ -420,12 +420,16 @@ def _clear_below_and_left(doc: DxfDocument, frame: Frame, extent) -> tuple[float
     x range and reaching below it), and the least local x of those standing left of it (overlapping its y range),
     or the extent's own bottom and left: the ordinates and the notes go beyond all of them."""
     floor, wall = extent[1], extent[0]
-    for box in bbox.multi_flat(doc.modelspace(), fast=True):
-        if not box.has_data:
+    # Each entity's own points taken into the panel's frame (curves flattened, text as its box): the drawing's
+    # axis-aligned boxes of a turned panel's lines would reach far below and beside it.
+    for primitive in disassemble.to_primitives(disassemble.recursive_decompose(doc.modelspace())):
+        points = [(v.x, v.y) for v in primitive.vertices()]
+        if not points:
             continue
-        (x0, y0), (x1, y1) = box.extmin.vec2, box.extmax.vec2
-        corners = frame.to_local(np.array([[x0, y0], [x1, y0], [x1, y1], [x0, y1]], dtype=float))
-        lo, hi = corners.min(axis=0), corners.max(axis=0)
+        local = frame.to_local(np.asarray(points, dtype=float))
+        if not np.isfinite(local).all():
+            continue
+        lo, hi = local.min(axis=0), local.max(axis=0)
         if hi[0] >= extent[0] and lo[0] <= extent[2] and lo[1] < floor:
             floor = float(lo[1])
         if hi[1] >= extent[1] and lo[1] <= extent[3] and lo[0] < wall:
