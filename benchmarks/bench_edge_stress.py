@@ -16,7 +16,8 @@
    ``git archive 9a56650 toolkit | tar -x -C OLDER``) times the very same voids with it in a second process and
    prints both side by side. docs/edge-stress.md gives the figures before and after.
 3. The verification cases of tests/test_edge_stress.py at refine 0.5 / 1 / 2 / 4: measured Kt beside the
-   published value (docs/edge-stress.md carries the table).
+   published value (docs/edge-stress.md carries the table); then the peak at sharp corners (plain and chamfered)
+   as their elements shrink.
 """
 
 from __future__ import annotations
@@ -27,6 +28,8 @@ import pickle
 import sys
 import time
 from pathlib import Path
+
+import numpy as np
 
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT / "tests"))
@@ -143,6 +146,29 @@ def against(older: str, names, repeat: int, jobs: str, totals) -> None:
         print(f"{key:10s}{n1:7d}{t0:10.2f}{t0 / n0 * 1e3:9.0f}{t1:9.2f}{t1 / n1 * 1e3:9.0f}{t0 / t1:8.2f}")
 
 
+def sharp_corners():
+    """The peak at sharp corners against the corner elements' size: a plain square (90° corners) and chamfered
+    ones (135°, 150°) in a wide plate under unit tension (no corner of these converges: docs/edge-stress.md)."""
+    import test_edge_stress as T
+    from toolkit.edge_stress import edge_snapper
+    from toolkit.model import Void
+    from toolkit.voids.outline import eased_outline, outline_polygon
+
+    square = np.array([[-20, -20], [20, -20], [20, 20], [-20, 20]], float)
+    turns = np.radians(np.arange(6) * 60.0)
+    hexagon = 23.1 * np.column_stack([np.cos(turns), np.sin(turns)])
+    shrinks = (1, 2, 4, 8, 16, 32)
+    print("\nsharp corners: peak / remote stress with corner elements of the edge size / "
+          + ", ".join(str(k) for k in shrinks))
+    cases = (("square 40, plain (90°)", square, 0.0), ("square 40, 5 mm chamfers (135°)", square, 5.0),
+             ("hexagon 46, 5 mm chamfers (150°)", hexagon, 5.0))
+    for name, pts, chamfer in cases:
+        ol = eased_outline(pts, "chamfer" if chamfer else "none", chamfer)
+        v = Void(id="Q", family="polygon", centre=(0, 0), size_mm=56, shape=outline_polygon(ol), outline=ol)
+        peaks = [T.plate_peak(v.shape, edge_snapper(v, 0.05), half=400.0, corner_shrink=k)[0] for k in shrinks]
+        print(f"  {name:34s}" + "".join(f"{p:8.3f}" for p in peaks))
+
+
 def verification():
     import test_edge_stress as T
     from toolkit.edge_stress import edge_snapper
@@ -211,6 +237,7 @@ def main():
         against(args.against, names, args.repeat, jobs, totals)
     if not args.skip_verification:
         verification()
+        sharp_corners()
 
 
 if __name__ == "__main__":

@@ -14,8 +14,8 @@ import shapely
 from shapely.geometry import Polygon, box
 
 from toolkit.analysis import analyze
-from toolkit.edge_stress import (WEB_TOO_THIN, _outline_sources, edge_peak, edge_snapper, edge_stresses,
-                                 nodal_average, size_field, solve)
+from toolkit.edge_stress import (CORNER_SHRINK, WEB_TOO_THIN, _outline_sources, edge_peak, edge_snapper,
+                                 edge_stresses, nodal_average, size_field, solve)
 from toolkit.fe import tri6
 from toolkit.fe.trimesh import graded_mesh
 from toolkit.model import LineLoad, Material, Panel, Support, Void
@@ -33,12 +33,14 @@ def bore(centre, diameter, id="V1") -> Void:
     return Void(id=id, family="bore", centre=centre, size_mm=diameter, shape=outline_polygon(outline))
 
 
-def plate_peak(hole: Polygon, snap, half: float, refine: float = 1.0, width: float | None = None):
+def plate_peak(hole: Polygon, snap, half: float, refine: float = 1.0, width: float | None = None,
+               corner_shrink: float = CORNER_SHRINK):
     """Peak edge stress round ``hole`` in a plate 2 half long (x) and ``width`` wide (y, default 2 half) under
-    unit tension along x: the left end held in x (a plane of symmetry), the right end pulled."""
+    unit tension along x: the left end held in x (a plane of symmetry), the right end pulled. A sharp corner of
+    the hole gets elements of its edge size / ``corner_shrink``."""
     hw = half if width is None else width / 2.0
     region = box(-half, -hw, half, hw).difference(hole)
-    xy, h, _, _ = _outline_sources(hole, 64, math.pi / 16, refine)
+    xy, h, _, _ = _outline_sources(hole, 64, math.pi / 16, refine, corner_shrink)
     size = size_field(xy, h, min(half, hw) / 4.0 / refine)
 
     def tag(m):
