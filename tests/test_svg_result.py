@@ -497,6 +497,113 @@ def test_void_ids_never_overlap_each_other_other_voids_or_a_point_load():
             assert v.shape.boundary.distance(P(leader[0])) < 1e-6
 
 
+# The sheets letter in DejaVu Sans first (toolkit/write/sheet.py, FONT); the glyphs' ink boxes and advance widths are
+# read here from the font files themselves with Pillow, not from the writer's estimate of them.
+DEJAVU = {False: "/usr/share/fonts/truetype/dejavu/DejaVuSans.ttf",
+          True: "/usr/share/fonts/truetype/dejavu/DejaVuSans-Bold.ttf"}
+
+
+def lettering_boxes(svg: str):
+    """Every piece of lettering inside the sheet's drawing (local mm), measured from the SVG as written: its
+    transform, font size, anchor and weight, and the font's own glyph boxes. Returns [(box, text, group id,
+    data-void-id)]; a cased label's white copy underneath is left out, its stroke widens the box instead."""
+    from pathlib import Path
+
+    from PIL import ImageFont
+    from shapely.affinity import affine_transform
+    from shapely.geometry import box
+
+    if not all(Path(f).exists() for f in DEJAVU.values()):
+        pytest.skip("DejaVu Sans is not installed: the sheet's lettering cannot be measured")
+    fonts = {bold: ImageFont.truetype(path, 1000) for bold, path in DEJAVU.items()}
+    root = ET.fromstring(svg)
+    (drawing,) = [g for g in root.iter(f"{SVG}g") if g.get("id") == "drawing"]
+    out = []
+    for group in drawing.iter(f"{SVG}g"):
+        for t in group.findall(f"{SVG}text"):
+            if t.get("data-casing"):
+                continue
+            text = "".join(t.itertext())
+            size = float(t.get("font-size"))
+            font = fonts[t.get("font-weight") == "bold"]
+            x0, y0, x1, y1 = font.getbbox(text, anchor="ls")  # ink box, baseline at 0, y down, at 1000 units
+            advance = font.getlength(text)
+            shift = {"start": 0.0, "middle": 0.5, "end": 1.0}[t.get("text-anchor", "start")] * advance
+            k = size / 1000.0
+            casing = 0.3 if any(c.get("data-casing") and "".join(c.itertext()) == text
+                                and c.get("transform") == t.get("transform") for c in group) else 0.0
+            glyphs = box((x0 - shift) * k - casing, y0 * k - casing, (x1 - shift) * k + casing, y1 * k + casing)
+            a, b, c, d, e, f = (float(v) for v in re.fullmatch(r"matrix\(([^)]*)\)", t.get("transform")).group(1)
+                                .replace(",", " ").split())
+            out.append((affine_transform(glyphs, (a, c, b, d, e, f)), text, group.get("id"), t.get("data-void-id")))
+    return out
+
+
+def arrow_shapes(svg: str):
+    """The load arrows as drawn (local mm): each shaft a line of its stroke width, each head its triangle."""
+    from shapely.geometry import LineString, Polygon
+
+    loads = groups(svg)["loads"]
+    out = []
+    for line in loads.iter(f"{SVG}line"):
+        width = float(line.get("stroke-width") or loads.get("stroke-width"))
+        ends = [(float(line.get("x1")), float(line.get("y1"))), (float(line.get("x2")), float(line.get("y2")))]
+        out.append(LineString(ends).buffer(width / 2.0))
+    for path in loads.iter(f"{SVG}path"):
+        numbers = [float(v) for v in re.findall(r"-?\d+(?:\.\d+)?", path.get("d"))]
+        out.append(Polygon(list(zip(numbers[0::2], numbers[1::2]))))
+    return out
+
+
+def crowded_bracket():
+    """A steel bracket of our own, 600 x 300 mm, welded along its left edge: a 50 kN hanger load at the tip's
+    mid-depth and 20 kN on the top edge, 30 voids (hexagons and bores, 36 and 44 mm) in six columns, the last one
+    hard by the tip's arrow."""
+    from shapely.geometry import Polygon
+
+    panel = model.Panel(width_mm=600.0, height_mm=300.0, thickness_mm=12.0, material=model.Material(210000.0, 0.3),
+                        supports=(model.Support(((0.0, 0.0), (0.0, 300.0)), "xy"),),
+                        loads=(model.PointLoad((600.0, 150.0), (0.0, -50e3)), model.PointLoad((300.0, 300.0),
+                                                                                               (0.0, -20e3))),
+                        name="crowded bracket")
+    voids = []
+    for i, x in enumerate((70.0, 170.0, 270.0, 370.0, 470.0, 570.0)):
+        for j, y in enumerate((45.0, 97.0, 150.0, 203.0, 255.0)):
+            d = 44.0 if (i + j) % 2 else 36.0
+            vid = f"V{len(voids) + 1}"
+            if (i + j) % 3:
+                corners = [(x + d / 2 * math.cos(math.radians(60 * k)), y + d / 2 * math.sin(math.radians(60 * k)))
+                           for k in range(6)]
+                voids.append(model.Void(vid, "polygon", (x, y), d, Polygon(corners), sides=6, length_mm=d))
+            else:
+                voids.append(model.Void(vid, "bore", (x, y), d, Point(x, y).buffer(d / 2, 64)))
+    return panel, voids
+
+
+def test_labels_on_the_sheet_overlap_no_label_load_arrow_or_void():
+    # The crowded bracket's sheet, as a shop gets it: every void id, load figure and ordinate read back from the
+    # written SVG and measured with the font itself. No two overlap; none covers a load arrow; none covers a void
+    # outline (a void's id may stand inside its own void, clear of its outline).
+    panel, voids = crowded_bracket()
+    svg = result_sheet.result_svg(panel, Grid(nx=60, ny=30, dx=10.0, dy=10.0), voids=voids, underlay="made")
+    boxes = lettering_boxes(svg)
+    by_group = {g for _, _, g, _ in boxes}
+    assert {"lacuna-note", "loads", "lacuna-dim"} <= by_group
+    assert sorted(t for _, t, g, _ in boxes if g == "loads") == ["20 kN", "50 kN"]
+    assert len([1 for _, _, g, _ in boxes if g == "lacuna-note"]) == len(voids)
+    for i, (a, text_a, group_a, _) in enumerate(boxes):
+        for b, text_b, group_b, _ in boxes[i + 1:]:
+            assert not a.intersects(b), f"{group_a} {text_a!r} overlaps {group_b} {text_b!r}"
+    arrows = arrow_shapes(svg)
+    assert len(arrows) == 4  # two shafts, two heads
+    for lettering, text, group, owner in boxes:
+        assert not any(lettering.intersects(arrow) for arrow in arrows), f"{group} {text!r} covers an arrow"
+        for v in voids:
+            if v.id == owner and v.shape.buffer(-1e-6).contains(lettering):
+                continue  # inside its own void
+            assert not lettering.intersects(v.shape), f"{group} {text!r} covers void {v.id}"
+
+
 def test_the_result_sheet_is_the_panel_as_made_with_ordinates_and_the_layout_a_figure_of_its_own(tmp_path):
     # The demo through optimize: the result sheet shows the panel as it will be made (no density cells, no
     # freeform outlines) with an ordinate from the datum to every void's centre, x and y, in the drawing's unit;
