@@ -251,10 +251,6 @@ def _ensure_layers(doc: DxfDocument, frame: Frame) -> list[str]:
     if DASHED not in doc.linetypes:
         dash, gap = DASH_MM / frame.mm_per_unit, GAP_MM / frame.mm_per_unit
         doc.linetypes.add(DASHED, pattern=[dash + gap, dash, -gap], description="lacuna dashed __ __ __")
-    if DIMSTYLE not in doc.dimstyles:
-        doc.dimstyles.new(DIMSTYLE, dxfattribs={"dimtxsty": "Standard", "dimdsep": ord("."), "dimlfac": 1.0,
-                                                "dimscale": 1.0, "dimzin": 0, "dimclrd": 256, "dimclre": 256,
-                                                "dimclrt": 256})
     created = []
     true_colour = doc.dxfversion >= const.DXF2004
     for look in LOOKS:
@@ -384,6 +380,11 @@ def _ordinates(out: _Pen, voids: list[Void], floor: float, wall: float, h: float
     to start below."""
     t = DIM_TEXT * h
     places = decimals(out.frame.unit)
+    doc = out.layout.doc
+    if DIMSTYLE not in doc.dimstyles:
+        doc.dimstyles.new(DIMSTYLE, dxfattribs={"dimtxsty": "Standard", "dimdsep": ord("."), "dimlfac": 1.0,
+                                                "dimscale": 1.0, "dimzin": 0, "dimclrd": 256, "dimclre": 256,
+                                                "dimclrt": 256})
     lowest = floor
     end_y = floor - (DIM_CLEAR + DIM_LEADER) * h
     features = ordinate_features(voids, 0, out.frame)
