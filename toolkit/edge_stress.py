@@ -32,12 +32,13 @@ import numpy as np
 import scipy.sparse as sp
 import shapely
 import shapely.errors
-from scipy.sparse.linalg import splu
 from scipy.spatial import cKDTree
 from shapely.geometry import LineString, Point, box
 
 from .fe import tri6
+from .errors import LacunaError
 from .fe.loads import G_MM_S2
+from .fe.solve import solve_spd
 from .fe.stress import principal_stresses
 from .fe.trimesh import MeshError, TriMesh, graded_mesh
 from .model import LineLoad, Panel, PointLoad, Void
@@ -177,10 +178,12 @@ def solve(mesh: TriMesh, E: float, nu: float, thickness: float, held: np.ndarray
     sv = np.linalg.svd(rigid, compute_uv=False) if len(rigid) >= 3 else np.zeros(1)
     if not sv[-1] > 1e-9 * sv[0]:
         raise RuntimeError("the local model is not held against every rigid motion")
-    # diagonal pivots (K is symmetric positive definite there), a minimum-degree order on K's own pattern
-    lu = splu(Kff, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.0, options={"SymmetricMode": True})
+    # K is symmetric positive definite there: one factorisation on a minimum-degree order (fe.solve.solve_spd)
     U = np.where(held[:, None], values, 0.0)
-    U[free] = lu.solve(np.ascontiguousarray(rhs))
+    try:
+        U[free] = solve_spd(Kff, rhs)
+    except LacunaError as error:
+        raise RuntimeError(error.message) from error
     return U
 
 

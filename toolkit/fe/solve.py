@@ -328,9 +328,9 @@ class _Pardiso:
     300 x 100 and 600 x 200 elements (docs/dependencies.md). Run on one thread, as the multifrontal code, so a
     design comes out the same on any machine."""
 
-    def __init__(self, ordered: bool = False):
+    def __init__(self, ordered: bool = False, order: str = "metis"):
         """``ordered``: the matrix comes already in a fill-reducing order (the grid's nested dissection), used as
-        it is; otherwise PARDISO finds one (METIS)."""
+        it is; otherwise PARDISO finds one: ``order`` "metis" (nested dissection) or "minimum degree"."""
         import pypardiso
         from pypardiso.pardiso_wrapper import PyPardisoError
 
@@ -355,7 +355,8 @@ class _Pardiso:
         iparm = self._solver.iparm
         iparm[:] = 0
         iparm[0] = 1     # settings given here
-        iparm[1] = 2     # fill-reducing order where none is given: METIS (the serial one: the same on any machine)
+        # fill-reducing order where none is given: METIS (the serial one: the same on any machine) or minimum degree
+        iparm[1] = 2 if order == "metis" else 0
         iparm[7] = 2     # up to two steps of iterative refinement, as MKL's defaults
         iparm[17] = -1   # report the factor's nonzeros
         iparm[34] = 0    # one-based indices
@@ -415,6 +416,30 @@ class _Pardiso:
         b = np.asfortranarray(rhs, dtype=float)
         with self._one_thread():
             return self._solver._call_pardiso(self._A, b)
+
+
+def solve_spd(K: sp.spmatrix, rhs: np.ndarray) -> np.ndarray:
+    """``K x = rhs`` for one symmetric positive definite ``K`` with no grid behind it (a local model at a void),
+    factorised once; ``rhs`` (n,) or (n, k). PARDISO with a minimum-degree order where it loads (at a few thousand
+    to some tens of thousands of unknowns METIS's analysis costs about what SuperLU's whole factorisation does),
+    else SuperLU with diagonal pivots on a minimum-degree order. LacunaError when ``K`` is singular."""
+    K = sp.csc_matrix(K)
+    rhs = np.asarray(rhs, dtype=float)
+    if pardiso_available():
+        solver = _Pardiso(order="minimum degree")
+        upper = sp.tril(K, format="csc")  # the CSC lower triangle read as CSR is the upper one (K symmetric)
+        upper.sort_indices()
+        solver.factor(sp.csr_matrix((upper.data, upper.indices, upper.indptr), shape=K.shape))
+        x = solver.solve(rhs.reshape(len(rhs), -1))
+        return x.reshape(rhs.shape)
+    try:
+        lu = spla.splu(K, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.0, options={"SymmetricMode": True})
+    except RuntimeError as exc:
+        raise _singular() from exc
+    pivots = np.abs(lu.U.diagonal())
+    if not pivots.min() > SINGULAR_PIVOT * pivots.max():
+        raise _singular()
+    return lu.solve(np.ascontiguousarray(rhs))
 
 
 class LinearSolver:
