@@ -75,10 +75,11 @@ def label_box(fig: Figure, text: str, at, size: float):
 
 def _label_spots(fig: Figure, voids: Sequence[Void], size: float, labels: Labels | None = None):
     """Where each void's id goes so that no two ids overlap, and no id covers another void, or what ``labels``
-    already holds (the loads' arrows and figures, supports, ordinates): inside the void when it fits with room to
-    spare, else just outside it in the first of sixteen directions (up-right first) that is clear, further out with
-    a leader line (itself crossing no other void or label) when none is. Returns [(baseline start (local mm),
-    leader segment or None)] in ``voids`` order."""
+    already holds (the loads' arrows and figures, supports, ordinates): inside the void, above its centre cross (or
+    below, right or left of it), when it fits with room to spare; else just outside it in the first of sixteen directions
+    (up-right first) that is clear; further out with a leader line (itself crossing no other void or label) when
+    none is; in a crowd that leaves no such spot, further out still with a leader that may cross another void's
+    outline but no label. Returns [(baseline start (local mm), leader segment or None)] in ``voids`` order."""
     p = fig.paper
     panel = fig.panel
     if labels is None:
@@ -94,6 +95,7 @@ def _label_spots(fig: Figure, voids: Sequence[Void], size: float, labels: Labels
     # Eight directions, up-right first, then the eight between them.
     dirs = [(math.cos(a), math.sin(a)) for a in np.radians([45, 135, 0, 180, 90, 270, 315, 225,
                                                             22.5, 67.5, 112.5, 157.5, 202.5, 247.5, 292.5, 337.5])]
+    fine = [(math.cos(a), math.sin(a)) for a in np.radians(np.arange(0.0, 360.0, 15.0))]
     gap = labels.gap
     out = []
     for void in voids:
@@ -103,31 +105,48 @@ def _label_spots(fig: Figure, voids: Sequence[Void], size: float, labels: Labels
         below = -box0.bounds[1]  # the baseline stands this far above the box's foot
         c = np.asarray(void.centre, dtype=float)
 
-        # Inside, above the centre cross, when the void holds the box with a margin.
-        at = c + (-w / 2.0, min(p(1.5), 0.35 * void.size_mm) + p(0.5) + below)
-        box = label_box(fig, void.id, at, size)
-        if void.shape.buffer(-gap).covers(box) and labels.clear(box, own=void.id, within=inner):
+        # Inside, above the centre cross (else below, right or left of it), when the void holds the box with a
+        # margin.
+        cross = min(p(1.5), 0.35 * void.size_mm) + p(0.5)
+        core = void.shape.buffer(-gap)
+        inside = None
+        for at in (c + (-w / 2.0, cross + below), c + (-w / 2.0, -cross - h + below),
+                   c + (cross, below - 0.5 * h), c + (-cross - w, below - 0.5 * h)):
+            box = label_box(fig, void.id, at, size)
+            if core.covers(box) and labels.clear(box, own=void.id, within=inner):
+                inside = at
+                break
+        if inside is not None:
             labels.take(box)
-            out.append((at, None))
+            out.append((inside, None))
             continue
         placed = None
         reach = 0.5 * float(max(void.length_mm, void.size_mm)) + gap
-        for ring in (1.0, 2.0, 3.5, 5.0, 7.0, 9.0):
-            for dx, dy in dirs:
-                # the box's nearest corner (or edge middle) in the direction faces the void
-                ox = 0.0 if dx > 0.3 else (-w if dx < -0.3 else -w / 2.0)
-                oy = below if dy > 0.3 else (below - h if dy < -0.3 else below - 0.5 * h)
-                point = c + reach * ring * np.array([dx, dy])
-                at = point + (ox, oy)
-                box = label_box(fig, void.id, at, size)
-                leader = None if ring == 1.0 else (_towards(void.shape, point), point)
-                line = None if leader is None else shapely.LineString(leader)
-                # a leader may touch its own void only at its foot
-                if line is not None and line.length > 0 and line.interpolate(gap).within(void.shape):
-                    continue
-                if labels.clear(box, within=inner, leader=None if line is None else
-                                line.difference(void.shape.buffer(gap))):
+        # First with leaders that cross nothing; where a crowd leaves no such spot, a leader may cross another
+        # void's outline (never a label), and the search goes further out, in finer steps.
+        for rings, steps, strict in (((1.0, 2.0, 3.5, 5.0, 7.0, 9.0), dirs, True),
+                                     ((2.0, 3.5, 5.0, 7.0, 9.0, 12.0, 15.0), fine, False)):
+            for ring in rings:
+                for dx, dy in steps:
+                    # the box's nearest corner (or edge middle) in the direction faces the void
+                    ox = 0.0 if dx > 0.3 else (-w if dx < -0.3 else -w / 2.0)
+                    oy = below if dy > 0.3 else (below - h if dy < -0.3 else below - 0.5 * h)
+                    point = c + reach * ring * np.array([dx, dy])
+                    at = point + (ox, oy)
+                    box = label_box(fig, void.id, at, size)
+                    leader = None if ring == 1.0 else (_towards(void.shape, point), point)
+                    line = None if leader is None else shapely.LineString(leader)
+                    # a leader may touch its own void only at its foot
+                    if line is not None and line.length > 0 and line.interpolate(gap).within(void.shape):
+                        continue
+                    clear_line = None if line is None else line.difference(void.shape.buffer(gap))
+                    if not labels.clear(box, within=inner, leader=clear_line if strict else None):
+                        continue
+                    if not strict and any(clear_line.intersects(t) for t in labels.taken):
+                        continue
                     placed = (at, leader)
+                    break
+                if placed is not None:
                     break
             if placed is not None:
                 break
