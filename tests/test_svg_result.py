@@ -604,6 +604,32 @@ def test_labels_on_the_sheet_overlap_no_label_load_arrow_or_void():
             assert not lettering.intersects(v.shape), f"{group} {text!r} covers void {v.id}"
 
 
+def test_a_long_run_of_ordinates_stays_between_the_heading_and_the_legend():
+    # 40 bores of our own at 40 different heights on a 600 x 300 plate (1:5, 60 mm high on paper): their y
+    # ordinates need more room than the panel's side; the lettering keeps to the sheet's room (under the heading,
+    # which ends 8 + 15 mm from the sheet's top edge, toolkit/write/sheet.py MARGIN and HEADING, our layout), does
+    # not overlap, and still names every centre.
+    panel, _ = crowded_bracket()
+    voids = []
+    for k in range(40):
+        c = (40.0 + 13.0 * k, 12.0 + 6.9 * k)
+        voids.append(model.Void(f"V{k + 1}", "bore", c, 10.0, Point(c).buffer(5.0, 32)))
+    svg = result_sheet.result_svg(panel, Grid(nx=60, ny=30, dx=10.0, dy=10.0), voids=voids, underlay="made")
+    a, _, _, d, e, f = (float(v) for v in re.fullmatch(r"matrix\(([^)]*)\)", groups(svg)["drawing"].get("transform"))
+                        .group(1).split())
+    legend_top = min(float(t.get("y")) for t in groups(svg)["legend"].iter(f"{SVG}text")) - 3.0
+    dims = [(b, text) for b, text, group, _ in lettering_boxes(svg) if group == "lacuna-dim"]
+    assert len(dims) == 2 * 41  # x and y of 40 centres and the datum's two zeros
+    for b, text in dims:
+        x0, y0, x1, y1 = b.bounds
+        top, bottom = f + d * y1, f + d * y0  # paper y grows downwards
+        assert top >= 8.0 + 15.0 and bottom <= legend_top, text
+    for i, (b, text) in enumerate(dims):
+        assert not any(b.intersects(other) for other, _ in dims[i + 1:]), text
+    shown = set(re.findall(r'data-ordinate="y ([-\d.]+)"', svg))
+    assert shown == {f"{v.centre[1]:.0f}" for v in voids} | {"0"}
+
+
 def test_the_result_sheet_is_the_panel_as_made_with_ordinates_and_the_layout_a_figure_of_its_own(tmp_path):
     # The demo through optimize: the result sheet shows the panel as it will be made (no density cells, no
     # freeform outlines) with an ordinate from the datum to every void's centre, x and y, in the drawing's unit;

@@ -42,16 +42,21 @@ def ordinate_features(voids: Sequence[Void], axis: int, frame: Frame) -> list[tu
     return [(0.0, (0.0, 0.0))] + [(c[axis], c) for k, c in enumerate(features) if k != datum]
 
 
-def spread(values: np.ndarray, pitch: float) -> np.ndarray:
+def spread(values: np.ndarray, pitch: float, low: float | None = None, high: float | None = None) -> np.ndarray:
     """Positions for the lettering of ordinates at ``values`` (ascending) at least ``pitch`` apart, each as near its
-    value as the others let it (least squares: the crowded ones share the shift both ways), none before the first
-    value (the datum's lettering stays at the datum or after it). A jogged leader joins a moved one to its value.
+    value as the others let it (least squares: the crowded ones share the shift both ways), within [``low``,
+    ``high``] (default: from the first value, the datum's lettering staying at the datum or after it, with no end).
+    A jogged leader joins a moved one to its value. Where ``high`` - ``low`` cannot hold them all ``pitch`` apart,
+    they are set evenly over it, closer.
 
     With p_k = q_k + k * pitch the spacing asks for a non-decreasing q; the q nearest v_k - k * pitch is its
-    isotonic fit, found by pooling adjacent values that break the order into their mean."""
+    isotonic fit, found by pooling adjacent values that break the order into their mean; the bounds clip it."""
     v = np.asarray(values, dtype=float)
     if len(v) == 0:
         return v.copy()
+    low = float(v[0]) if low is None else float(low)
+    if high is not None and len(v) > 1:
+        pitch = min(pitch, (float(high) - low) / (len(v) - 1))
     steps = pitch * np.arange(len(v))
     pools: list[list[float]] = []  # [sum, count] of each run of pooled values
     for q in v - steps:
@@ -61,4 +66,7 @@ def spread(values: np.ndarray, pitch: float) -> np.ndarray:
             pools[-1][0] += total
             pools[-1][1] += count
     fit = np.concatenate([np.full(int(count), total / count) for total, count in pools])
-    return np.maximum(fit, v[0]) + steps
+    fit = np.maximum(fit, low)
+    if high is not None:
+        fit = np.minimum(fit, float(high) - steps[-1])
+    return fit + steps

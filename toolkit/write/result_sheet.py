@@ -269,12 +269,22 @@ _ORDINATE_BAND = 16.0
 _ORDINATE_SIZE = 2.0
 
 
+def _ordinate_run(values: np.ndarray, low: float, high: float, pitch: float) -> tuple[np.ndarray, float]:
+    """Where the lettering of a run of ordinates stands, between ``low`` and ``high`` (local mm), and its size
+    (paper mm): ``_ORDINATE_SIZE`` ``pitch`` apart, smaller and closer where the room cannot hold them all."""
+    size = _ORDINATE_SIZE
+    if len(values) > 1 and (len(values) - 1) * pitch > high - low:
+        size *= (high - low) / ((len(values) - 1) * pitch)
+    return spread(values, pitch, low=low, high=high), size
+
+
 def _draw_ordinates(fig: Figure, g, voids: Sequence[Void], labels: Labels) -> None:
     """Ordinate dimensions of every void's centre from the datum (the panel's lower-left corner, local 0, 0) into
     the group ``g`` (layer LACUNA-DIM): x values along a line under the panel, y values up a line left of it, each
     with a tick at the true position and a jogged leader to its lettering where neighbours crowd it. Values in
     the drawing's unit as the drawing copy states them (:mod:`.ordinates`); a centre shared by several voids is
-    written once. The lines and lettering are added to ``labels``."""
+    written once. The lettering keeps to the sheet's room beside the panel (a long run is set smaller rather than
+    into the heading or off the sheet). The lines and lettering are added to ``labels``."""
     if not voids:
         return
     p = fig.paper
@@ -282,36 +292,38 @@ def _draw_ordinates(fig: Figure, g, voids: Sequence[Void], labels: Labels) -> No
     colour = _looks()[_DIM_GROUP]
     s = fig.scale
     pitch = p(_ORDINATE_SIZE * 1.25)
-    # x ordinates: a datum line below the support symbols, values written upright-turned (reading up).
+    # x ordinates: a datum line below the support symbols, values written upright-turned (reading up), from the
+    # datum to the room right of the panel.
     base = -p(ROOM_BELOW - 2.0)
     xs = np.array([value for value, _ in ordinate_features(voids, 0, f)])
-    where = spread(xs, pitch)
+    where, size = _ordinate_run(xs, 0.0, fig.panel.width_mm + p(ROOM - 4.0), pitch)
     g.add(fig.dwg.line(start=(fmt(0), fmt(base)), end=(fmt(fig.panel.width_mm), fmt(base))))
     longest = 0.0
     for x, at in zip(xs, where):
         label = ordinate_text(f, x)
         g.add(fig.dwg.path(d=f"M{fmt(x)} {fmt(base)}v{fmt(-p(1.2))}L{fmt(at)} {fmt(base - p(3.0))}"
                            f"v{fmt(-p(0.6))}", **{"data-ordinate": f"x {label}"}))
-        g.add(lettering(fig.dwg, label, (0, 0), _ORDINATE_SIZE, anchor="end", fill=colour,
-                         transform=f"matrix(0 {fmt(s, 6)} {fmt(s, 6)} 0 {fmt(at + 0.35 * p(_ORDINATE_SIZE))} "
+        g.add(lettering(fig.dwg, label, (0, 0), size, anchor="end", fill=colour,
+                         transform=f"matrix(0 {fmt(s, 6)} {fmt(s, 6)} 0 {fmt(at + 0.35 * p(size))} "
                                    f"{fmt(base - p(4.0))})"))
-        longest = max(longest, text_box(fig, label, (0.0, 0.0), _ORDINATE_SIZE).bounds[2])
+        longest = max(longest, text_box(fig, label, (0.0, 0.0), size).bounds[2])
     # The band the x ordinates fill, from the datum line down past the longest value.
     labels.block(shapely.box(min(0.0, where[0]) - p(1.0), base - p(4.0) - longest - p(0.5),
                              max(fig.panel.width_mm, where[-1]) + p(1.0), base + p(0.2)))
-    # y ordinates: a datum line left of the panel, beyond the support symbols, values written level.
+    # y ordinates: a datum line left of the panel, beyond the support symbols, values written level, from the
+    # foot of the x ordinates' band to under the heading.
     side = -p(ROOM - 6.0)
     ys = np.array([value for value, _ in ordinate_features(voids, 1, f)])
-    where = spread(ys, pitch)
+    where, size = _ordinate_run(ys, -p(ROOM_BELOW + _ORDINATE_BAND - 4.0), fig.panel.height_mm + p(ROOM - 3.0),
+                                pitch)
     g.add(fig.dwg.line(start=(fmt(side), fmt(0)), end=(fmt(side), fmt(fig.panel.height_mm))))
     longest = 0.0
     for y, at in zip(ys, where):
         label = ordinate_text(f, y)
         g.add(fig.dwg.path(d=f"M{fmt(side)} {fmt(y)}h{fmt(-p(1.2))}L{fmt(side - p(3.0))} {fmt(at)}"
                            f"h{fmt(-p(0.6))}", **{"data-ordinate": f"y {label}"}))
-        fig.text(g, label, (side - p(4.2), at - 0.35 * p(_ORDINATE_SIZE)), _ORDINATE_SIZE, anchor="end",
-                 fill=colour, local=True)
-        longest = max(longest, text_box(fig, label, (0.0, 0.0), _ORDINATE_SIZE).bounds[2])
+        fig.text(g, label, (side - p(4.2), at - 0.35 * p(size)), size, anchor="end", fill=colour, local=True)
+        longest = max(longest, text_box(fig, label, (0.0, 0.0), size).bounds[2])
     labels.block(shapely.box(side - p(4.2) - longest - p(0.5), min(0.0, where[0]) - p(1.2),
                              side + p(0.2), max(fig.panel.height_mm, where[-1]) + p(1.2)))
     # The datum: a circle with a cross at the corner.
