@@ -232,21 +232,20 @@ class Figure:
         p = np.asarray(xy, dtype=float)
         return np.stack([(p[..., 0] - self.origin[0]) * self.scale, (self.origin[1] - p[..., 1]) * self.scale], -1)
 
-    def layer(self, name: str, **attrs) -> svgwrite.container.Group:
-        """The group ``name`` inside the drawing (local frame), created on first use."""
+    def _group(self, parent, name: str, attrs: dict) -> svgwrite.container.Group:
         if name not in self._groups:
             group = self.dwg.g(id=name, **attrs)
-            self.drawing.add(group)
+            parent.add(group)
             self._groups[name] = group
         return self._groups[name]
 
+    def layer(self, name: str, **attrs) -> svgwrite.container.Group:
+        """The group ``name`` inside the drawing (local frame), created on first use."""
+        return self._group(self.drawing, name, attrs)
+
     def sheet_group(self, name: str, **attrs) -> svgwrite.container.Group:
         """The group ``name`` on the sheet (paper mm), created on first use."""
-        if name not in self._groups:
-            group = self.dwg.g(id=name, **attrs)
-            self.dwg.add(group)
-            self._groups[name] = group
-        return self._groups[name]
+        return self._group(self.dwg, name, attrs)
 
     def text(self, group, content: str, at, size: float, *, anchor: str = "start", weight: str = "normal",
              style: str = "normal", fill: str = INK, local: bool = False):
