@@ -207,6 +207,11 @@ def test_a_schedule_in_metres_keeps_its_unit_and_its_digits(tmp_path):
             assert re.fullmatch(r"\d+\.\d{6}", row[key]), (key, row[key])
         assert "e" not in row["area_m2"] and float(row["area_m2"]) > 0.001   # a void of some 0.01-0.1 m2
         assert " mm" not in row["tool"] and re.search(r"\d m\b", row["tool"]), row["tool"]
+    # The drawing copy's schedule notes say the same, in the same unit.
+    notes = [e.dxf.text for e in ezdxf.readfile(tmp_path / "out" / "beam-lacuna.dxf").modelspace()
+             if e.dxftype() == "TEXT" and e.dxf.layer == "LACUNA-NOTE"]
+    tools = [t for t in notes if "overall" in t]  # the n-gons' tool words: "... routed ..., 0.253 m overall"
+    assert tools and not any(re.search(r"\d mm\b", t) for t in tools), tools
 
 
 def test_a_sheet_in_metres_states_its_lengths_in_metres(tmp_path):

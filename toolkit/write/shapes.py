@@ -4,6 +4,7 @@ optimiser's freeform outlines as rings, and the rule-violation markers."""
 from __future__ import annotations
 
 import math
+import re
 from collections.abc import Mapping
 from dataclasses import dataclass
 
@@ -109,3 +110,15 @@ def as_marker(m, k: int) -> Marker:
     if marker.radius_mm is not None and not marker.radius_mm > 0:
         raise LacunaError(f"check marker {k} radius must be positive.", where=f"check marker {k}")
     return marker
+
+
+def tool_in_unit(tool: str, frame) -> str:
+    """The schedule's tool words with their lengths (written in mm by the voids stage) in the drawing's unit, so a
+    schedule in metres says "0.282 m overall", like its columns."""
+    if frame.unit == "mm":
+        return tool
+    def convert(match) -> str:
+        value = frame.length_to_drawing(float(match.group(1)))
+        return f"{value:.4g} {frame.unit}"
+
+    return re.sub(r"(\d+(?:\.\d+)?) mm\b", convert, tool)

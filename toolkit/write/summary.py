@@ -10,6 +10,7 @@ import numpy as np
 from ..about import CAUTION, __version__
 from ..edge_stress import edge_json
 from ..model import Drawing, Panel
+from .shapes import tool_in_unit
 
 if TYPE_CHECKING:
     from ..analysis import Analysis
@@ -73,20 +74,6 @@ def analysis_summary(panel: Panel, drawing: Drawing | None, result: Analysis) ->
     return summary
 
 
-def _tool_in_unit(tool: str, frame) -> str:
-    """The schedule's tool words with their lengths (written in mm by the voids stage) in the drawing's unit, so a
-    schedule in metres says "0.282 m overall", like its columns."""
-    if frame.unit == "mm":
-        return tool
-    import re
-
-    def convert(match) -> str:
-        value = frame.length_to_drawing(float(match.group(1)))
-        return f"{value:.4g} {frame.unit}"
-
-    return re.sub(r"(\d+(?:\.\d+)?) mm\b", convert, tool)
-
-
 def _void_json(panel: Panel, void) -> dict:
     """One schedule line: what a shop needs to make the void, in the drawing's frame and unit. An n-gon carries
     its corners (the sharp ones, before easing) and whether it is regular; a slot the centres of its two end
@@ -101,7 +88,7 @@ def _void_json(panel: Panel, void) -> dict:
         "length": f.length_to_drawing(void.length_mm),
         "angle_deg": (void.angle_deg + f.angle_deg) % (360.0 / void.sides if void.regular else 360.0),
         "area": void.area_mm2 / f.mm_per_unit**2,
-        "tool": _tool_in_unit(void.tool, f),
+        "tool": tool_in_unit(void.tool, f),
     }
     if void.family == "polygon":
         out["regular"] = bool(void.regular)
