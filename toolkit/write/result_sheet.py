@@ -432,7 +432,7 @@ def result_svg(
                  room_below=ROOM_BELOW + (_ORDINATE_BAND if underlay == "made" else 0.0))
     what = {"density": "under them the optimised layout", "stress": "under them the stress with the voids cut",
             "none": "over the panel as drawn",
-            "made": "cut from the panel as it will be made"}[underlay]
+            "made": "cut through the panel"}[underlay]
     draw_heading(fig, title or f"{panel.name}: voids to make",
                   f"Scale 1:{fig.scale}; lengths in {panel.frame.unit}; voids to make {what}.")
     if underlay == "made":
