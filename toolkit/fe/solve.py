@@ -368,6 +368,7 @@ class _Pardiso:
         self._getdiag.restype = None
         self._controller = ThreadpoolController()
         self._analysed = False
+        self._holds = False  # MKL may hold memory for this solver (a factorisation was attempted)
         self._A: sp.csr_matrix | None = None
 
     def _one_thread(self):
@@ -376,9 +377,9 @@ class _Pardiso:
     def _release(self) -> None:
         """Free MKL's memory for this solver (factor and analysis); the next ``factor`` analyses again."""
         solver = getattr(self, "_solver", None)
-        if solver is not None:
+        if solver is not None and getattr(self, "_holds", False):
             solver.free_memory(everything=True)
-        self._analysed = False
+        self._analysed = self._holds = False
 
     def __del__(self):
         # MKL keeps PARDISO's factor and analysis in memory of its own until phase -1 releases them; pypardiso
@@ -394,6 +395,7 @@ class _Pardiso:
         if self._ordered and len(self._solver.perm) != A.shape[0]:
             self._solver.perm = np.arange(1, A.shape[0] + 1, dtype=np.int32)
         self._solver.set_phase(22 if self._analysed else 12)
+        self._holds = True
         try:
             with self._one_thread():
                 self._solver._call_pardiso(A, np.zeros((A.shape[0], 1)))
