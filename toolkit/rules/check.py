@@ -295,6 +295,21 @@ def _edge_gaps(b: _Bodies, W: float, H: float) -> np.ndarray:
     return np.column_stack([lo[:, 0], W - hi[:, 0], lo[:, 1], H - hi[:, 1]])
 
 
+def _void_webs(b: _Bodies, ii: np.ndarray, jj: np.ndarray, min_web: float, ratio: float):
+    """Between voids ii and jj: the clear gap (0 where they touch or overlap) and the web the rules ask, the
+    minimum web or the ratio times the larger one's extent."""
+    signed = shapely.distance(b.cores[ii], b.cores[jj]) - b.radii[ii] - b.radii[jj]
+    return signed, np.maximum(min_web, ratio * np.maximum(b.extent[ii], b.extent[jj]))
+
+
+def _opening_webs(b: _Bodies, panel: Panel, min_web: float, ratio: float):
+    """(n voids, m openings) gaps and required webs, as :func:`_void_webs`."""
+    shapes = _objects([o.shape for o in panel.openings])
+    o_extent = 2.0 * shapely.minimum_bounding_radius(shapes)
+    signed = shapely.distance(b.cores[:, None], shapes[None, :]) - b.radii[:, None]
+    return signed, np.maximum(min_web, ratio * np.maximum(b.extent[:, None], o_extent[None, :]))
+
+
 def check_layout(panel: Panel, voids: Sequence[Void], rules: Rules) -> list[Violation]:
     """Every fabrication rule proved on the final geometry; the list is empty only when all hold.
 
@@ -350,8 +365,7 @@ def check_layout(panel: Panel, voids: Sequence[Void], rules: Rules) -> list[Viol
         ii, jj = tree.query(b.cores, predicate="dwithin", distance=reach)
         keep = ii < jj
         ii, jj = ii[keep], jj[keep]
-        signed = shapely.distance(b.cores[ii], b.cores[jj]) - b.radii[ii] - b.radii[jj]
-        required = np.maximum(rules.min_web_mm, ratio * np.maximum(b.extent[ii], b.extent[jj]))
+        signed, required = _void_webs(b, ii, jj, rules.min_web_mm, ratio)
         for i, j, s, req in zip(ii, jj, signed, required):
             # polygons report distance 0 whether they touch or overlap: those always get the overlap test
             if s >= req - tol and s > tol:
@@ -374,10 +388,7 @@ def check_layout(panel: Panel, voids: Sequence[Void], rules: Rules) -> list[Viol
 
     # voids and the panel's own openings
     if panel.openings:
-        shapes = _objects([o.shape for o in panel.openings])
-        o_extent = 2.0 * shapely.minimum_bounding_radius(shapes)
-        signed = shapely.distance(b.cores[:, None], shapes[None, :]) - b.radii[:, None]
-        required = np.maximum(rules.min_web_mm, ratio * np.maximum(b.extent[:, None], o_extent[None, :]))
+        signed, required = _opening_webs(b, panel, rules.min_web_mm, ratio)
         for i, k in zip(*np.nonzero((signed < required - tol) | (signed <= tol))):
             v, o = voids[i], panel.openings[k]
             s, req = float(signed[i, k]), float(required[i, k])
@@ -493,16 +504,12 @@ def rule_margins(panel: Panel, voids: Sequence[Void], rules: Rules) -> list[Marg
     webs: list[tuple[float, float, tuple[str, ...], str]] = []
     if len(voids) > 1:
         ii, jj = np.triu_indices(len(voids), k=1)
-        signed = shapely.distance(b.cores[ii], b.cores[jj]) - b.radii[ii] - b.radii[jj]
-        required = np.maximum(rules.min_web_mm, ratio * np.maximum(b.extent[ii], b.extent[jj]))
+        signed, required = _void_webs(b, ii, jj, rules.min_web_mm, ratio)
         k = int(np.argmin(signed - required))
         webs.append((float(signed[k]), float(required[k]), (voids[ii[k]].id, voids[jj[k]].id),
                      f"between {voids[ii[k]].id} and {voids[jj[k]].id}"))
     if panel.openings:
-        shapes = _objects([o.shape for o in panel.openings])
-        o_extent = 2.0 * shapely.minimum_bounding_radius(shapes)
-        signed = shapely.distance(b.cores[:, None], shapes[None, :]) - b.radii[:, None]
-        required = np.maximum(rules.min_web_mm, ratio * np.maximum(b.extent[:, None], o_extent[None, :]))
+        signed, required = _opening_webs(b, panel, rules.min_web_mm, ratio)
         i, k = np.unravel_index(int(np.argmin(signed - required)), signed.shape)
         webs.append((float(signed[i, k]), float(required[i, k]), (voids[i].id,),
                      f"between {voids[i].id} and the {_region_name(panel.openings[k], 'opening')}"))
