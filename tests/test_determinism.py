@@ -1,8 +1,9 @@
 """The same input through `lacuna optimize` twice gives the same numbers, the same DXF and the same figures.
 
 The two runs are separate processes with different string-hash seeds (PYTHONHASHSEED: the order of sets and of
-dicts built from sets changes with it) and different BLAS thread counts, so an answer that leans on either shows
-here. What is allowed to differ is what a drawing program stamps on every save, and nothing else:
+dicts built from sets changes with it), different BLAS thread counts, and the checks after the voids run in
+sequence in one and side by side on two threads in the other (toolkit/overlap.py), so an answer that leans on any
+of these shows here. What is allowed to differ is what a drawing program stamps on every save, and nothing else:
 
 - DXF header $TDCREATE and $TDUPDATE (creation and update dates, Julian days) and $VERSIONGUID (a new GUID on
   every save): DXF reference, "HEADER Section Group Codes" (from memory: $TDCREATE "local date/time of drawing
@@ -104,8 +105,10 @@ def two_runs(tmp_path_factory):
     dxf = sample_drawing(tmp, "far")  # turned 30 degrees, 6,000 km from the origin: the frame is exercised too
     job = tmp / "job.toml"
     job.write_text(JOB)
-    a = _run(tmp / "a", dxf, job, {"PYTHONHASHSEED": "1", "OPENBLAS_NUM_THREADS": "1", "OMP_NUM_THREADS": "1"})
-    b = _run(tmp / "b", dxf, job, {"PYTHONHASHSEED": "4242", "OPENBLAS_NUM_THREADS": "2", "OMP_NUM_THREADS": "2"})
+    a = _run(tmp / "a", dxf, job, {"PYTHONHASHSEED": "1", "OPENBLAS_NUM_THREADS": "1", "OMP_NUM_THREADS": "1",
+                                 "LACUNA_THREADS": "1"})
+    b = _run(tmp / "b", dxf, job, {"PYTHONHASHSEED": "4242", "OPENBLAS_NUM_THREADS": "2", "OMP_NUM_THREADS": "2",
+                                    "LACUNA_THREADS": "2"})
     return a, b
 
 

@@ -227,13 +227,21 @@ def edge_peak(mesh: TriMesh, stress: np.ndarray, sides: np.ndarray):
 # --- per void ------------------------------------------------------------------------------------------------
 
 
-def edge_stresses(panel: Panel, voids, final, solid, *, refine: float = 1.0) -> tuple[EdgeStress, ...]:
+def edge_stresses(panel: Panel, voids, final, solid, *, refine: float = 1.0, work=None
+                  ) -> tuple[EdgeStress, ...]:
     """The local model's figures for each of ``voids`` (model.Void): ``final`` is the grid analysis of the
-    panel with the voids cut, ``solid`` the one without them (for the nominal stress)."""
+    panel with the voids cut, ``solid`` the one without them (for the nominal stress). With ``work`` (an open
+    ``overlap.Overlap``) the models are shared among its threads; the figures are the same."""
     voids = tuple(voids)
-    # neighbours by position, not by id: a layout's ids are not trusted to be unique here
-    return tuple(void_edge_stress(panel, v, voids[:i] + voids[i + 1:], final, solid, refine=refine)
-                 for i, v in enumerate(voids))
+    # Prepared here, once: each model prepares its own void, and a neighbour's shape must not be prepared by two
+    # threads at once.
+    shapely.prepare([v.shape for v in voids])
+
+    def one(i: int) -> EdgeStress:
+        # neighbours by position, not by id: a layout's ids are not trusted to be unique here
+        return void_edge_stress(panel, voids[i], voids[:i] + voids[i + 1:], final, solid, refine=refine)
+
+    return tuple(work.map(one, range(len(voids))) if work is not None else map(one, range(len(voids))))
 
 
 def edge_snapper(void: Void, reach: float):

@@ -21,6 +21,7 @@ from .fe.grid import grid_shape
 from .jobfile import Job
 from .limits import check_memory
 from .model import Panel, Region, Rules, Void
+from .overlap import Overlap
 from .optimize import BesoResult, OptimizeSettings, ZoneSettings, build_problem, run_beso
 from .rules.check import impossible_rules
 from .rules.profiles import rules_for
@@ -191,16 +192,23 @@ def optimize_panel(
     lap("voids")
     made = float(sum(v.area_mm2 for v in rationalised.voids))
     free = float(sum(g.area for g in freeform))
-    limit = ""
-    if free > 0 and made < LIMIT_SHARE * free:
-        limit = limiting_rule(panel, list(freeform), void_options, rules, rationalised.voids, made, free,
-                              energy=energy, first_fit_mm2=rationalised.first_fit_mm2)
-    lap("limit")
-    final = analyze(with_voids(panel, rationalised.voids), grid=solid.grid)
-    freeform_analysis = analyze(with_freeform(panel, freeform, solid.grid), grid=solid.grid)
-    lap("re-analysis")
-    # The grid cuts the voids by area fraction; the stress at their edges comes from a local model of each.
-    edge = edge_stresses(panel, rationalised.voids, final, solid)
+    # The checks of the made layout need nothing from each other: the limiting rule's refit, the two
+    # re-analyses and the local models run side by side (overlap.py); each stage's own seconds are kept, and
+    # "checks" is the wall time of them all.
+    with Overlap() as work:
+        limit_job = None
+        if free > 0 and made < LIMIT_SHARE * free:
+            limit_job = work.submit(timed, "limit", timings, limiting_rule, panel, list(freeform), void_options,
+                                    rules, rationalised.voids, made, free, energy=energy,
+                                    first_fit_mm2=rationalised.first_fit_mm2)
+        freeform_job = work.submit(timed, "freeform re-analysis", timings, analyze,
+                                   with_freeform(panel, freeform, solid.grid), grid=solid.grid)
+        final = timed("re-analysis", timings, analyze, with_voids(panel, rationalised.voids), grid=solid.grid)
+        # The grid cuts the voids by area fraction; the stress at their edges comes from a local model of each.
+        edge = timed("edge stresses", timings, edge_stresses, panel, rationalised.voids, final, solid, work=work)
+        freeform_analysis = freeform_job.result()
+        limit = limit_job.result() if limit_job is not None else ""
+    lap("checks")
     edge_limit = job.rules.max_edge_stress_MPa
     warnings = []
     if edge_limit is not None:
@@ -208,7 +216,6 @@ def optimize_panel(
         warnings += unchecked
         if broken:
             rationalised = dataclasses.replace(rationalised, violations=tuple(rationalised.violations) + broken)
-    lap("edge stresses")
     if not beso.converged:
         warnings.append(
             f"the optimiser stopped at max_iterations = {settings.max_iterations} before converging; "
@@ -221,6 +228,15 @@ def optimize_panel(
         rationalised=rationalised, final=final, freeform_analysis=freeform_analysis, warnings=tuple(warnings),
         timings_s=timings, limit=limit, edge=edge, edge_limit_MPa=edge_limit,
     )
+
+
+def timed(stage: str, timings: dict, fn, *args, **kwargs):
+    """``fn(*args, **kwargs)``, its wall seconds put in ``timings[stage]``."""
+    start = time.perf_counter()
+    try:
+        return fn(*args, **kwargs)
+    finally:
+        timings[stage] = time.perf_counter() - start
 
 
 # Below this share of the freeform layout's removed area the report names the rule that held the layout back.
