@@ -9,6 +9,7 @@ from __future__ import annotations
 import csv
 import io
 import json
+import os
 import shutil
 import subprocess
 import sys
@@ -312,3 +313,14 @@ def test_no_knee_on_a_line_a_bend_the_other_way_or_two_points():
     assert knee_index([1, 2], [2, 1]) is None
     assert knee_index([1, 2, 3], [5, 5, 5]) is None
     assert knee_index([1, 2, 3], [10, 1, 0]) == 1
+
+
+def test_the_local_cluster_runs_each_job_on_one_thread():
+    # A job's checks take a second thread where they may (toolkit/overlap.py); on the local cluster every core
+    # already runs a panel of its own, so the workers are started with LACUNA_THREADS=1.
+    from toolkit.batch import dask_client
+    from toolkit.overlap import THREADS_ENV, side_threads
+
+    with dask_client(workers=1) as client:
+        seen = client.run(lambda: (os.environ.get(THREADS_ENV), side_threads()))
+    assert list(seen.values()) == [("1", 1)]

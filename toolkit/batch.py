@@ -24,6 +24,7 @@ from pathlib import Path
 
 from .about import CAUTION, __version__
 from .errors import LacunaError, one_paragraph
+from .overlap import THREADS_ENV
 
 SUMMARY_STEM = "batch-summary"
 
@@ -69,8 +70,10 @@ def dask_client(scheduler: str | None = None, workers: int | None = None):
     # there.
     with dask.config.set(LOCAL_WORKER_CONFIG):
         with _workers_ignore_ctrl_c():
+            # One thread a job too: a job's checks would otherwise take a second thread (overlap.py) from a core
+            # that another worker's panel is using.
             cluster = LocalCluster(n_workers=n, threads_per_worker=1, processes=True, dashboard_address=":0",
-                                   silence_logs=logging.CRITICAL)
+                                   silence_logs=logging.CRITICAL, env={THREADS_ENV: "1"})
         with cluster, Client(cluster) as client:
             yield client
 
