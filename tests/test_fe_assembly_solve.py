@@ -11,7 +11,7 @@ from toolkit.errors import LacunaError
 from toolkit.fe.assembly import Assembler
 from toolkit.fe.element import q4_stiffness
 from toolkit.fe.grid import Grid, make_grid
-from toolkit.fe.solve import LinearSolver, nested_dissection, pardiso_available
+from toolkit.fe.solve import LinearSolver, SharedSolver, nested_dissection, pardiso_available
 
 
 @pytest.mark.parametrize("shape", [(1, 1), (5, 1), (1, 4), (7, 5)])
@@ -190,3 +190,38 @@ def test_a_dropped_pardiso_solver_gives_its_memory_back():
     one_factor = max(held for _, held in grown)
     assert one_factor > 20e6  # the probe sees a factor at all
     assert after_first < 0.5 * one_factor, grown
+
+
+@pytest.mark.parametrize("backend", BACKENDS)
+def test_a_shared_solver_refactors_only_for_the_same_system_and_solves_as_a_new_one(backend):
+    # The solid analysis, the optimiser and the voids' analyses share one factorisation (pipeline.py): a refactor
+    # must give what a new solver gives, to the last bit, and anything but the same pattern and free dofs a new one.
+    g = Grid(12, 6, 10.0, 7.0)
+    a = Assembler(g)
+    ke = q4_stiffness(g.dx, g.dy, 1000.0, 0.3, 5.0)
+    fixed = np.zeros(g.n_dofs, bool)
+    left = np.arange(g.ny + 1) * (g.nx + 1)
+    fixed[2 * left] = fixed[2 * left + 1] = True
+    rng = np.random.default_rng(7)
+    F = rng.standard_normal((g.n_dofs, 2))
+    F[fixed] = 0
+    shared = SharedSolver(backend)
+    first = shared.factor(a.matrix(ke, rng.uniform(1e-3, 1.0, g.n_elements)), ~fixed, g)
+    K = a.matrix(ke, np.where(rng.random(g.n_elements) < 0.5, 1.0, 1e-9))
+    again = shared.factor(K, np.flatnonzero(~fixed), g)  # the same free dofs given as numbers
+    assert again is first and (shared.built, shared.refactored) == (1, 1)
+    assert np.array_equal(again.solve(F), LinearSolver(K, ~fixed, grid=g, backend=backend).solve(F))
+    # one more dof held: another system, a new solver
+    held = fixed.copy()
+    held[-1] = True
+    other = shared.factor(K, ~held, g)
+    assert other is not first and shared.built == 2 and shared.solver is other
+    # another pattern, the same dof count and free dofs (a grid of the other proportions): a new solver as well
+    base = shared.factor(K, ~fixed, g)
+    assert base is not other and shared.built == 3
+    g2 = Grid(6, 12, 10.0, 7.0)
+    assert g2.n_dofs == g.n_dofs
+    K2 = Assembler(g2).matrix(ke, np.ones(g2.n_elements))
+    assert shared.factor(K2, ~fixed, g2) is not base and shared.built == 4
+    shared.release()
+    assert shared.solver is None

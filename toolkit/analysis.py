@@ -13,7 +13,7 @@ from .fe.fractions import solid_fractions
 from .fe.grid import Grid
 from .limits import grid_within_memory
 from .fe.loads import load_matrix
-from .fe.solve import LinearSolver
+from .fe.solve import LinearSolver, SharedSolver
 from .fe.stress import element_stresses, von_mises
 from .model import Panel
 
@@ -55,8 +55,9 @@ class Analysis:
         return int(self.active.sum())
 
 
-def analyze(panel: Panel, grid: Grid | None = None) -> Analysis:
-    """Solve the panel as drawn (openings cut exactly from the grid) for every load case."""
+def analyze(panel: Panel, grid: Grid | None = None, *, shared: SharedSolver | None = None) -> Analysis:
+    """Solve the panel as drawn (openings cut exactly from the grid) for every load case. ``shared``: the
+    job's solver, refactored where it fits this system (``fe.solve.SharedSolver``)."""
     grid = grid or grid_within_memory(panel.width_mm, panel.height_mm, panel.element_size_mm)
     solid = panel.solid
     fractions = solid_fractions(grid, solid)
@@ -72,7 +73,8 @@ def analyze(panel: Panel, grid: Grid | None = None) -> Analysis:
     K = Assembler(grid).matrix(ke, scale)
     # Nodes touching only empty elements carry no stiffness; they are left out of the system.
     free = ~fixed & np.repeat(active_nodes, 2)
-    U = LinearSolver(K, free, grid=grid).solve(F)
+    solver = shared.factor(K, free, grid) if shared is not None else LinearSolver(K, free, grid=grid)
+    U = solver.solve(F)
 
     cases = panel.cases
     weights = np.array([panel.case_weight(c) for c in cases])

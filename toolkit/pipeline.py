@@ -18,6 +18,7 @@ from shapely.geometry import Polygon
 from .analysis import Analysis, analyze
 from .edge_stress import edge_stresses, edge_violations
 from .fe.grid import grid_shape
+from .fe.solve import SharedSolver
 from .jobfile import Job
 from .limits import check_memory
 from .model import Panel, Region, Rules, Void
@@ -173,7 +174,10 @@ def optimize_panel(
         timings[stage] = now - clock[0]
         clock[0] = now
 
-    solid = analyze(panel)
+    # One factorisation carried from the solid analysis through the optimiser to the voids' shape optimisation,
+    # refactored wherever the system is the same (fe.solve.SharedSolver); dropped before the checks.
+    shared = SharedSolver()
+    solid = analyze(panel, shared=shared)
     lap("analysis")
     zones = ZoneSettings(
         edge_cover_mm=rules.edge_cover_mm,
@@ -182,13 +186,14 @@ def optimize_panel(
         void_region=void_region,
     )
     problem = build_problem(panel, zones)
-    beso = run_beso(problem, settings, on_iteration=on_iteration, keep_every=keep_every)
+    beso = run_beso(problem, settings, on_iteration=on_iteration, keep_every=keep_every, shared=shared)
     lap("optimisation")
     openings = shapely.union_all([o.shape for o in panel.openings]) if panel.openings else None
     freeform = tuple(freeform_voids(problem.grid, beso.densities, exclude=openings))
     energy = (solid.grid, strain_energy_density(solid, panel))
     lap("freeform outlines")
-    rationalised = rationalise(panel, list(freeform), void_options, rules, energy=energy)
+    rationalised = rationalise(panel, list(freeform), void_options, rules, energy=energy, shared=shared)
+    shared.release()
     lap("voids")
     made = float(sum(v.area_mm2 for v in rationalised.voids))
     free = float(sum(g.area for g in freeform))

@@ -30,7 +30,7 @@ import numpy as np
 
 from ..errors import LacunaError
 from ..fe.assembly import Assembler
-from ..fe.solve import LinearSolver
+from ..fe.solve import LinearSolver, SharedSolver
 from .filters import SensitivityFilter
 from .problem import Problem, check_problem
 from .settings import OptimizeSettings
@@ -95,13 +95,15 @@ def run_beso(
     on_iteration: Callable[[int, float, float], None] | None = None,
     keep_every: int = 0,
     backend: str = "auto",
+    shared: SharedSolver | None = None,
 ) -> BesoResult:
     """Optimise ``problem`` by soft-kill BESO; see the module docstring for the method.
 
     ``on_iteration(iteration, compliance_Nmm, volume_fraction)`` is called after every analysis (progress
     bars). ``keep_every`` > 0 keeps a copy of the densities every that many iterations, and of the last.
     ``backend`` chooses the sparse solver (:class:`~toolkit.fe.solve.LinearSolver`; "auto" takes the fastest
-    one installed).
+    one installed). ``shared``: the job's solver (``fe.solve.SharedSolver`` of the same backend), refactored
+    where it fits: the design is the same.
     """
     check_problem(problem)
     g = problem.grid
@@ -154,7 +156,8 @@ def run_beso(
     for it in range(settings.max_iterations):
         K = assembler.matrix(ke, base * x**p)
         if solver is None:
-            solver = LinearSolver(K, free, grid=g, backend=backend)
+            solver = shared.factor(K, free, g) if shared is not None and shared.backend == backend \
+                else LinearSolver(K, free, grid=g, backend=backend)
         else:
             solver.refactor(K)
         U = solver.solve(F)

@@ -891,7 +891,7 @@ def _region_for(allowed, mirror: Mirror, fixed, r: Resolved, cache: dict):
 
 
 def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, energy=None,
-                allowed=None, shape_steps: int = 4, first_fit_only: bool = False) -> Rationalised:
+                allowed=None, shape_steps: int = 4, first_fit_only: bool = False, shared=None) -> Rationalised:
     """Freeform voids (shapely polygons, local mm) -> voids a shop can make, keeping ``rules``.
 
     ``energy``: the solid panel's strain-energy density for the ``mixed`` family, as a function of points or
@@ -901,7 +901,8 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
     symmetric about (``symmetry``; a note says which and why not). Raises LacunaError when the rules leave no
     room for any void or a setting is out of range. ``first_fit_only``: stop after the first fit (voids fitted
     and placed, no analysis, no standard sizes, no proof) and return it, with ``first_fit_mm2`` set (what
-    ``pipeline.limiting_rule`` compares).
+    ``pipeline.limiting_rule`` compares). ``shared``: the job's solver for the shape optimisation's analyses
+    (``fe.solve.SharedSolver``), refactored where it fits.
     """
     r = resolve_settings(settings, rules, panel.thickness_mm)
     region = rule_check.impossible_rules(panel, rules)  # raises, in words, when no void fits at all
@@ -993,7 +994,7 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
         from .shape import Evaluator
 
         # A symmetric layout is analysed whole: each seed with its mirror images.
-        evaluate = Evaluator(panel, grid, orbit=mirror.orbit if mirror.axes else None)
+        evaluate = Evaluator(panel, grid, orbit=mirror.orbit if mirror.axes else None, shared=shared)
         # The made layout must be no softer than the freeform one it stands for, and the price of stiffness is
         # where the optimiser stopped: the strain-energy density of the material left round its voids.
         free_shapes = [v.shape for v in clean(freeform, 0.0)[0]] if mirror.axes else [v.shape for v in kept]

@@ -41,7 +41,7 @@ from ..fe.boundary import fixed_dofs
 from ..fe.element import q4_stiffness
 from ..fe.fractions import covered_fractions, solid_fractions
 from ..fe.loads import load_matrix
-from ..fe.solve import LinearSolver
+from ..fe.solve import LinearSolver, SharedSolver
 from ..model import Panel
 from .cover import MIN_INTERIOR_DEG, MIN_TURN_DEG, corner_measures
 from .measure import following, preceding
@@ -64,8 +64,11 @@ _H = 1e-4
 class Evaluator:
     """Compliance and element energies of the panel with a layout of drafts cut out, on one grid."""
 
-    def __init__(self, panel: Panel, grid, orbit: Callable | None = None):
+    def __init__(self, panel: Panel, grid, orbit: Callable | None = None, shared: SharedSolver | None = None):
+        """``shared``: the job's solver (``fe.solve.SharedSolver``), refactored for the first analysis where it
+        fits (the optimiser's, on the same grid and supports)."""
         self.panel, self.grid = panel, grid
+        self.shared = shared
         # A symmetric layout is given by its seeds: ``orbit(draft)`` lists a seed and its mirror images.
         self.orbit = orbit if orbit is not None else (lambda d: [d])
         solid = panel.solid
@@ -90,7 +93,8 @@ class Evaluator:
         f = self.fractions(shapes)
         K = self.assembler.matrix(self.ke, np.maximum(f, EMPTY_SHARE))
         if self.solver is None:
-            self.solver = LinearSolver(K, ~self.fixed, grid=self.grid)
+            self.solver = self.shared.factor(K, ~self.fixed, self.grid) if self.shared is not None \
+                else LinearSolver(K, ~self.fixed, grid=self.grid)
         else:
             self.solver.refactor(K)
         U = self.solver.solve(self.F)
