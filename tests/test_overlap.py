@@ -70,3 +70,19 @@ def test_the_environment_can_ask_for_sequence(monkeypatch):
     assert 1 <= side_threads() <= MOST_THREADS
     monkeypatch.delenv(THREADS_ENV)
     assert 1 <= side_threads() <= MOST_THREADS
+
+
+def test_own_gives_each_thread_geometry_of_its_own():
+    # Shapely geometries must not be used by two threads at once (a prepared one builds its search structures on
+    # first use): each piece of side work takes a deep copy, equal in value, a different GEOS object.
+    import shapely
+    from shapely.geometry import Polygon
+
+    from toolkit.overlap import own
+
+    shape = Polygon([(0, 0), (4, 0), (4, 3)])
+    shapely.prepare(shape)
+    value = {"voids": (shape,), "n": 3}
+    copied = own(value)
+    assert copied == value and copied["voids"][0] is not shape
+    assert copied["voids"][0].equals(shape) and not shapely.is_prepared(copied["voids"][0])

@@ -332,6 +332,69 @@ def test_the_bounded_search_finds_the_layout_the_full_search_finds():
     assert n_bounded < n_every
 
 
+def test_each_layout_says_its_kind_and_a_kind_can_be_fitted_alone():
+    # The limiting rule refits each freeform void as the kind of layout the first fit chose (pipeline.limiting_rule):
+    # asked for one kind, candidates must give that layout alone, the same as the full search gives it.
+    from toolkit.voids import layout as L
+    from toolkit.voids.measure import clean
+
+    steel = Rules(min_web_mm=25, edge_cover_mm=25, min_void_mm=20)
+    r = replace(L.resolve_settings(VoidOptions(family="polygon", sides=6, snap_mm=0.0), steel), web_ratio=0.5)
+    kept, _ = clean([Polygon([(200, 250), (1500, 120), (1500, 420)])], r.min_void_mm)
+    room = L.Room(kept[0], box(0, 0, 2000, 600), [box(1560, 100, 1800, 450)], r, 1.0)
+    every = L.candidates(room, "polygon", r)
+    kinds = [layout.kind for layout in every]
+    assert "split 1" in kinds and any(k.startswith("split ") and k != "split 1" for k in kinds)
+    assert any(k.startswith("comb ") for k in kinds) and len(set(kinds)) == len(kinds)
+    for layout in every:
+        alone = L.candidates(room, "polygon", r, only=layout.kind)
+        assert [a.kind for a in alone] == [layout.kind]
+        assert list(alone[0]) == list(layout)
+    assert L.candidates(room, "polygon", r, only="split 9") == []
+
+
+def test_the_limiting_rule_refits_the_chosen_layouts_in_a_fraction_of_the_fits():
+    # The demo lintel (timber-bored, web ratio 1): the first fit's layouts refitted under a web ratio of 0.5 gain
+    # area, and the refit of the chosen kinds alone takes fewer fits than a new search.
+    from toolkit import pipeline
+    from toolkit.api import demo_files
+    from toolkit.inputs import load_panel
+    from toolkit.voids import layout as L
+
+    drawing, job_path = demo_files()
+    panel, job, _ = load_panel(drawing, job_path)
+    run = pipeline.optimize_panel(panel, job)
+    assert run.rationalised.layouts and all(kind for _, _, kind in run.rationalised.layouts)
+    freeform = list(run.freeform)
+    made = sum(v.area_mm2 for v in run.voids)
+    free = sum(g.area for g in freeform)
+    energy = (run.solid.grid, pipeline.strain_energy_density(run.solid, panel))
+    options = replace(job.voids, optimize_symmetry=job.optimize.symmetry)
+    fits = []
+    real = L._settled
+
+    def counting(*args):
+        fits.append(1)
+        return real(*args)
+
+    texts = {}
+    L._settled = counting
+    try:
+        for name, layouts in (("again", run.rationalised.layouts), ("search", None)):
+            fits.clear()
+            texts[name] = pipeline.limiting_rule(panel, freeform, options, run.rules, run.voids, made, free,
+                                                 energy=energy, first_fit_mm2=run.rationalised.first_fit_mm2,
+                                                 layouts=layouts)
+            texts[name + " fits"] = len(fits)
+    finally:
+        L._settled = real
+    assert texts["again"] == run.limit  # what the job reported
+    assert texts["again"].startswith("the web ratio (1 x the larger void's size) held the voids to make")
+    gain = float(texts["again"].split("fitted again, removes ")[1].split(" %")[0])
+    assert gain >= 2
+    assert texts["again fits"] < texts["search fits"]
+
+
 def test_mixed_gets_the_honeycomb_and_the_fill_too():
     # The glulam beam of the test above, voids of any family: the honeycomb over the region (of one family, the
     # one worth most) competes with the fitted voids as it does for a single family, so mixed removes no less

@@ -42,6 +42,7 @@ from .fe.solve import solve_spd
 from .fe.stress import principal_stresses
 from .fe.trimesh import MeshError, TriMesh, graded_mesh
 from .model import LineLoad, Panel, PointLoad, Void
+from .overlap import own
 
 WEB_TOO_THIN = "web below one element of the local model"
 # Element counts that set the local model's size field at ``refine = 1`` (docs/edge-stress.md, verification):
@@ -233,15 +234,16 @@ def edge_stresses(panel: Panel, voids, final, solid, *, refine: float = 1.0, wor
     panel with the voids cut, ``solid`` the one without them (for the nominal stress). With ``work`` (an open
     ``overlap.Overlap``) the models are shared among its threads; the figures are the same."""
     voids = tuple(voids)
-    # Prepared here, once: each model prepares its own void, and a neighbour's shape must not be prepared by two
-    # threads at once.
-    shapely.prepare([v.shape for v in voids])
 
-    def one(i: int) -> EdgeStress:
+    def one(task) -> EdgeStress:
+        i, p, vs = task
         # neighbours by position, not by id: a layout's ids are not trusted to be unique here
-        return void_edge_stress(panel, voids[i], voids[:i] + voids[i + 1:], final, solid, refine=refine)
+        return void_edge_stress(p, vs[i], vs[:i] + vs[i + 1:], final, solid, refine=refine)
 
-    return tuple(work.map(one, range(len(voids))) if work is not None else map(one, range(len(voids))))
+    if work is None or work.threads == 1:
+        return tuple(map(one, ((i, panel, voids) for i in range(len(voids)))))
+    # On threads, each model works on its own copy of the geometry (overlap.own), made here, before any runs.
+    return tuple(work.map(one, [(i, *own((panel, voids))) for i in range(len(voids))]))
 
 
 def edge_snapper(void: Void, reach: float):

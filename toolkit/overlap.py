@@ -13,10 +13,16 @@ and the count the caller had is the one restored at the end. MKL keeps its count
 the pool's threads holds its own for its life.
 
 ``LACUNA_THREADS=1`` in the environment runs everything in sequence (as does a machine with one core).
+
+Geometry is never shared between the threads: each piece of work takes its own copy (``own``). A shapely
+geometry is not safe to use from two threads at once: a prepared one builds its search structures on first use,
+and two local models doing so at once on a neighbour's outline crashed the process (a segmentation fault in
+GEOS, seen in the test run of 2026-12-02).
 """
 
 from __future__ import annotations
 
+import copy
 import os
 from concurrent.futures import Future, ThreadPoolExecutor
 from typing import Callable, Iterable, TypeVar
@@ -43,6 +49,12 @@ def side_threads() -> int:
         except ValueError:
             pass  # not a number: the environment is not ours to refuse; take the machine's count
     return max(1, min(MOST_THREADS, cores))
+
+
+def own(value: T) -> T:
+    """A deep copy of ``value`` for one thread's work: its shapely geometries new GEOS objects (from their WKB),
+    shared with no other thread."""
+    return copy.deepcopy(value)
 
 
 def _one_blas_thread() -> None:

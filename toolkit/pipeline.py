@@ -22,7 +22,7 @@ from .fe.solve import SharedSolver
 from .jobfile import Job
 from .limits import check_memory
 from .model import Panel, Region, Rules, Void
-from .overlap import Overlap
+from .overlap import Overlap, own
 from .optimize import BesoResult, OptimizeSettings, ZoneSettings, build_problem, run_beso
 from .rules.check import impossible_rules
 from .rules.profiles import rules_for
@@ -198,16 +198,18 @@ def optimize_panel(
     made = float(sum(v.area_mm2 for v in rationalised.voids))
     free = float(sum(g.area for g in freeform))
     # The checks of the made layout need nothing from each other: the limiting rule's refit, the two
-    # re-analyses and the local models run side by side (overlap.py); each stage's own seconds are kept, and
-    # "checks" is the wall time of them all.
+    # re-analyses and the local models run side by side (overlap.py), each on its own copy of the geometry;
+    # each stage's own seconds are kept, and "checks" is the wall time of them all.
     with Overlap() as work:
+        mine = own if work.threads > 1 else (lambda value: value)
         limit_job = None
         if free > 0 and made < LIMIT_SHARE * free:
-            limit_job = work.submit(timed, "limit", timings, limiting_rule, panel, list(freeform), void_options,
-                                    rules, rationalised.voids, made, free, energy=energy,
-                                    first_fit_mm2=rationalised.first_fit_mm2)
+            limit_panel, limit_freeform, limit_voids = mine((panel, list(freeform), rationalised.voids))
+            limit_job = work.submit(timed, "limit", timings, limiting_rule, limit_panel, limit_freeform,
+                                    void_options, rules, limit_voids, made, free, energy=energy,
+                                    first_fit_mm2=rationalised.first_fit_mm2, layouts=rationalised.layouts)
         freeform_job = work.submit(timed, "freeform re-analysis", timings, analyze,
-                                   with_freeform(panel, freeform, solid.grid), grid=solid.grid)
+                                   mine(with_freeform(panel, freeform, solid.grid)), grid=solid.grid)
         final = timed("re-analysis", timings, analyze, with_voids(panel, rationalised.voids), grid=solid.grid)
         # The grid cuts the voids by area fraction; the stress at their edges comes from a local model of each.
         edge = timed("edge stresses", timings, edge_stresses, panel, rationalised.voids, final, solid, work=work)
@@ -249,11 +251,16 @@ LIMIT_SHARE = 0.8
 
 
 def limiting_rule(panel: Panel, freeform, void_options, rules: Rules, made_voids, made_mm2: float,
-                  free_mm2: float, *, energy=None, first_fit_mm2: float | None = None) -> str:
+                  free_mm2: float, *, energy=None, first_fit_mm2: float | None = None, layouts=None) -> str:
     """Which spacing rule held the made layout short of the freeform one, in words with the figure relaxing it
     would give: the layout's first fit (voids fitted and placed, no analysis; ``first_fit_mm2`` when the caller's
     run has it, made with the same ``energy``) is made again with the web ratio halved and, where it sets the
-    web, with the minimum web halved; the larger gain, applied to the made layout, is named."""
+    web, with the minimum web halved; the larger gain, applied to the made layout, is named. ``layouts``: the
+    first fit's choice of layout for each freeform void (``Rationalised.layouts``): the refits then fit that
+    kind of layout alone for each (the whole void, k pieces, a honeycomb of one pitch) in the wider room the
+    relaxed rule leaves, instead of searching again: "the same layout, fitted again, removes X % more". Measured
+    on the 300 x 100 bench plate, 0.39 s against 1.72 s for a new search, which found 49 % more against 47 %; on
+    the demo 31 % against 23 % (a new search chooses by worth, not by area, so it need not remove more)."""
     trials = []
     if rules.web_ratio:
         trials.append(("web_ratio", dataclasses.replace(rules, web_ratio=rules.web_ratio / 2.0),
@@ -267,8 +274,11 @@ def limiting_rule(panel: Panel, freeform, void_options, rules: Rules, made_voids
                        f"the minimum web ({rules.min_web_mm:g} mm)",
                        f"a minimum web of {rules.min_web_mm / 2.0:g} mm"))
 
+    chosen = {i: (f, kind) for i, f, kind in layouts} if layouts else None
+
     def first_fit(r: Rules) -> float:
-        return rationalise(panel, freeform, void_options, r, energy=energy, first_fit_only=True).first_fit_mm2
+        return rationalise(panel, freeform, void_options, r, energy=energy, first_fit_only=True,
+                           layouts=chosen).first_fit_mm2
 
     best = None
     base = (first_fit_mm2 if first_fit_mm2 else first_fit(rules)) if trials else 0.0
@@ -280,12 +290,12 @@ def limiting_rule(panel: Panel, freeform, void_options, rules: Rules, made_voids
     share = 100.0 * made_mm2 / free_mm2
     if best is None or base <= 0 or best[0] <= base * 1.02:
         return (f"the voids to make keep {share:.0f} % of the freeform saving; fitted again with the web ratio or "
-                "the minimum web halved, the first fit keeps less than 2 % more, so no spacing rule is what holds "
+                "the minimum web halved, the same layout keeps less than 2 % more, so no spacing rule is what holds "
                 "them back: the stock sizes, the least feature and the stiffness of the freeform layout (which the "
                 "voids to make must not fall below) do.")
     area, key, name, change = best
     gain = area / base
     return (f"{name} held the voids to make to {100 * made_mm2 / solid:.1f} % of the panel ({share:.0f} % of the "
-            f"freeform saving of {100 * free_mm2 / solid:.1f} %); with {change} the first fit removes "
+            f"freeform saving of {100 * free_mm2 / solid:.1f} %); with {change} the same layout, fitted again, removes "
             f"{100 * (gain - 1):.0f} % more, so the panel could lose about {100 * made_mm2 * gain / solid:.1f} % "
             f"([rules] {key}; the profile's value has its source, check it before changing it).")

@@ -92,6 +92,8 @@ class Rationalised:
     notes: tuple[str, ...] = ()
     shape: object = None  # shape.ShapeResult of the shape optimisation, when it ran
     first_fit_mm2: float = 0.0  # area the first fit removed (voids fitted and placed, before any analysis)
+    # the first fit's choice for each freeform void fitted one by one: (index, family, Layout.kind) each
+    layouts: tuple[tuple[int, str, str], ...] = ()
 
 
 @dataclass(frozen=True)
@@ -642,8 +644,18 @@ def _pitches(room: Room, r: Resolved) -> list[float]:
     return sizes
 
 
-def candidates(room: Room, family: str, r: Resolved, *, trials: int = 2, score=None, bound=None
-               ) -> list[list[Draft]]:
+class Layout(list):
+    """The drafts of one candidate layout of a freeform void, and which kind of layout it is (``kind``: "split 1"
+    for the whole void, "split k" for k pieces, "comb s o" for the honeycomb of the s-th pitch and o-th offset,
+    "rows" for slots side by side, "bores"), so that the same kind can be fitted again under other rules."""
+
+    def __init__(self, drafts=(), kind: str = ""):
+        super().__init__(drafts)
+        self.kind = kind
+
+
+def candidates(room: Room, family: str, r: Resolved, *, trials: int = 2, score=None, bound=None,
+               only: str | None = None) -> list[Layout]:
     """The layouts one freeform void could become in one family: the whole void; split into 2 to ``MAX_PIECES``
     voids along its length; a honeycomb of smaller voids (a web tied to the void's size is narrower between small
     voids); bores packed into it. The honeycombs are ranked by the area of their pieces and only the best
@@ -652,36 +664,41 @@ def candidates(room: Room, family: str, r: Resolved, *, trials: int = 2, score=N
     With ``score`` (a layout's worth, as ``rationalise`` takes it) and ``bound`` (an upper bound of the worth of
     anything fitted inside a region), the layouts are fitted in falling order of their pieces' bound and the
     search stops once no layout left can beat the best found: the layout of most worth is the same as without
-    the bound, found with fewer fits."""
+    the bound, found with fewer fits. ``only``: fit the layouts of that kind (``Layout.kind``) alone."""
     v = room.v
     if room.region is None:
         return []
     if family == "bore":
-        got = _bores_in(room, r, v.index)
-        return [got] if got else []
+        got = _bores_in(room, r, v.index) if only in (None, "bores") else []
+        return [Layout(got, "bores")] if got else []
     fit = _polygon_in if family == "polygon" else _slot_in
-    layouts: list[list] = []
+    wanted = (lambda kind: True) if only is None else (lambda kind: kind == only)  # noqa: E731
+    layouts: list[tuple[str, list]] = []
     length = _extent(room.region)
     most = int(min(MAX_PIECES, max(1, length // max(r.min_void_mm + r.min_web_mm, 1e-9))))
     for k in range(1, most + 1):
+        if not wanted(f"split {k}"):
+            continue
         pieces = split(room.region, k, r.web(length / k)) if k > 1 else [room.region]
         if k > 1 and r.web_ratio and pieces:
             # the web between pieces follows the pieces' own size
             pieces = split(room.region, k, r.web(max(_extent(p) for p in pieces)))
-        layouts.append(pieces)
+        layouts.append((f"split {k}", pieces))
     angle = major_axis_deg(room.region)
     combs = []
-    for size in _pitches(room, r):
+    for s, size in enumerate(_pitches(room, r)):
         web = r.web(size)
-        for offset in ((0.0, 0.0), (0.5, 0.5)):
+        for o, offset in enumerate(((0.0, 0.0), (0.5, 0.5))):
+            if not wanted(f"comb {s} {o}"):
+                continue
             pieces = hex_cells(room.region, size + web, web, angle, offset)
             useful = [p for p in pieces if inscribed_width(p, FIT_RTOL) >= r.min_void_mm]
             if useful:
-                combs.append((sum(p.area for p in useful), useful))
+                combs.append((sum(p.area for p in useful), f"comb {s} {o}", useful))
     combs.sort(key=lambda c: -c[0])
-    layouts += [pieces for _, pieces in combs[:trials]]
+    layouts += [(kind, pieces) for _, kind, pieces in combs[:trials]]
     if score is not None and bound is not None:
-        ceilings = [sum(bound(p) for p in pieces) for pieces in layouts]
+        ceilings = [sum(bound(p) for p in pieces) for _, pieces in layouts]
         order = np.argsort(-np.asarray(ceilings), kind="stable")
         layouts = [layouts[k] for k in order]
         ceilings = [ceilings[k] for k in order]
@@ -689,22 +706,22 @@ def candidates(room: Room, family: str, r: Resolved, *, trials: int = 2, score=N
         ceilings = [math.inf] * len(layouts)
     out = []
     best = -math.inf
-    for pieces, ceiling in zip(layouts, ceilings):
+    for (kind, pieces), ceiling in zip(layouts, ceilings):
         if ceiling * (1.0 + BOUND_SLACK) < best:
             break  # the rest are sorted below it
         drafts = [d for i, p in enumerate(pieces) if (d := fit(room, p, r, v.index, i)) is not None]
         if drafts:
-            out.append(drafts)
+            out.append(Layout(drafts, kind))
             if score is not None:
                 best = max(best, score(_removed(drafts)))
-    if family == "slot":
+    if family == "slot" and wanted("rows"):
         # Slots side by side along the void's length, in the room its neighbours leave for slots of the void's size.
         widths = [w for w in r.slot_widths_mm if w >= r.min_void_mm]
         space = room.within(room.region, min(length, max(widths or [0.0])))
         rows = slot_rows(space, widths, r.web) if space is not None and widths else []
         if rows:
-            out.append([Draft(family="slot", centre=c, size=w, length=n, angle_deg=ang, source=v.index, part=k,
-                              tools=r.tools) for k, (c, ang, w, n) in enumerate(rows)])
+            out.append(Layout([Draft(family="slot", centre=c, size=w, length=n, angle_deg=ang, source=v.index,
+                                     part=k, tools=r.tools) for k, (c, ang, w, n) in enumerate(rows)], "rows"))
     return out
 
 
@@ -891,7 +908,8 @@ def _region_for(allowed, mirror: Mirror, fixed, r: Resolved, cache: dict):
 
 
 def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, energy=None,
-                allowed=None, shape_steps: int = 4, first_fit_only: bool = False, shared=None) -> Rationalised:
+                allowed=None, shape_steps: int = 4, first_fit_only: bool = False, shared=None,
+                layouts: dict[int, tuple[str, str]] | None = None) -> Rationalised:
     """Freeform voids (shapely polygons, local mm) -> voids a shop can make, keeping ``rules``.
 
     ``energy``: the solid panel's strain-energy density for the ``mixed`` family, as a function of points or
@@ -902,7 +920,9 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
     room for any void or a setting is out of range. ``first_fit_only``: stop after the first fit (voids fitted
     and placed, no analysis, no standard sizes, no proof) and return it, with ``first_fit_mm2`` set (what
     ``pipeline.limiting_rule`` compares). ``shared``: the job's solver for the shape optimisation's analyses
-    (``fe.solve.SharedSolver``), refactored where it fits.
+    (``fe.solve.SharedSolver``), refactored where it fits. ``layouts``: {freeform void: (family, layout kind)},
+    from another run's ``Rationalised.layouts``: each of those voids is fitted as that kind of layout
+    alone (the others get the whole search), so a refit under other rules is a fraction of the search.
     """
     r = resolve_settings(settings, rules, panel.thickness_mm)
     region = rule_check.impossible_rules(panel, rules)  # raises, in words, when no void fits at all
@@ -954,7 +974,9 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
                                 for f in families}
             continue
         room = Room(v, space, shapes[:k] + shapes[k + 1:], r, ROOM_TOLERANCE_MM, openings=opening_shapes)
-        options[v.index] = {f: candidates(room, f, r, score=score, bound=bound) for f in families}
+        family, kind = (layouts or {}).get(v.index, (None, None))
+        options[v.index] = {f: candidates(room, f, r, score=score, bound=bound, only=kind)
+                            for f in ((family,) if kind is not None else families)}
     best = {i: {f: _choose_layout(layouts, score) for f, layouts in fams.items()} for i, fams in options.items()}
 
     def pick(fits: dict[str, list[Draft]]) -> str | None:
@@ -975,10 +997,13 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
                 if chosen[i] not in keep:
                     chosen[i] = pick({f: fits[f] for f in keep})
     drafts: list[Draft] = []
+    kinds: dict[int, tuple[str, str]] = {}
     for i, f in chosen.items():
         got = best[i].get(f, []) if f else []
         if not got:
             dropped.append(f"{where(i)}: no {r.family} void of the stock sizes fits in it; dropped.")
+        elif isinstance(got, Layout):
+            kinds[i] = (f, got.kind)
         drafts.extend(got)
 
     site = Site(allowed, r.min_web_mm, r.snap_mm, r.web_ratio, r.min_void_mm,
@@ -987,7 +1012,8 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
     first_fit_mm2 = float(sum(g.area for d in placed for g in site.shapes(d)))
     if first_fit_only:
         return Rationalised(voids=(), changes=(), dropped=tuple(dropped), fit_errors=(), violations=(),
-                            notes=tuple(notes), first_fit_mm2=first_fit_mm2)
+                            notes=tuple(notes), first_fit_mm2=first_fit_mm2,
+                            layouts=tuple((i, f, kind) for i, (f, kind) in kinds.items()))
     grid = energy[0] if isinstance(energy, tuple) else None
     evaluate = cap = None
     if grid is not None and kept and rho is not None:
@@ -1092,4 +1118,5 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
                       else (v.id, 1.0))
     violations = tuple(rule_check.check_layout(panel, list(voids), rules))
     return Rationalised(voids=voids, changes=changes, dropped=tuple(dropped), fit_errors=tuple(errors),
-                        violations=violations, notes=tuple(notes), shape=shaped, first_fit_mm2=first_fit_mm2)
+                        violations=violations, notes=tuple(notes), shape=shaped, first_fit_mm2=first_fit_mm2,
+                        layouts=tuple((i, f, kind) for i, (f, kind) in kinds.items()))
