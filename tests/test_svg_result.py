@@ -140,6 +140,19 @@ def test_svg_parses_with_every_contract_group_in_the_drawing(sheet):
     assert {"heading", "legend", "scale-bar", "title"} <= set(g)
 
 
+def test_the_key_of_a_sheet_with_nothing_on_our_layers_lists_the_panel_alone():
+    # A panel with no voids, no markers and (here) no zone kept solid: every output layer's group is in the
+    # file, empty, and the key names none of them.
+    from dataclasses import replace
+
+    bare = replace(wall_panel(), keep=())
+    legend = all_text(groups(result_sheet.result_svg(bare, GRID, date="d"))["legend"])
+    assert "panel and openings as drawn" in legend
+    assert "zone kept solid" not in legend and "layer LACUNA" not in legend
+    legend = all_text(groups(result_sheet.result_svg(wall_panel(), GRID, date="d"))["legend"])
+    assert "zone kept solid" in legend  # the wall panel's KEEP zone
+
+
 def test_layer_groups_present_even_when_empty():
     text = result_sheet.result_svg(wall_panel(), GRID, date="d")
     g = groups(text)
@@ -665,3 +678,13 @@ def test_the_result_sheet_is_the_panel_as_made_with_ordinates_and_the_layout_a_f
         assert ("y", f"{v['centre'][1]:.0f}") in ordinates, v["id"]
     assert 'data-datum="1"' in sheet
     assert f"{stem}-layout.svg" in {Path(p).name for p in outcome.summary["outputs"]}
+    # The key lists a family's layer only where the sheet has voids of it, and the rule markers only where there
+    # are some; the empty layers' groups stay in the file (to toggle in a viewer).
+    families = {v["family"] for v in voids}
+    for family, layer in (("polygon", "LACUNA-VOID-POLYGON"), ("slot", "LACUNA-VOID-SLOT"),
+                          ("bore", "LACUNA-VOID-BORE")):
+        for svg in (sheet, layout):
+            assert (f"layer {layer}" in svg) == (family in families), (family, families)
+            assert f'id="{layer.lower()}"' in svg
+    assert families != {"polygon", "slot", "bore"}  # so the test sees a family left out
+    assert outcome.summary["rules"]["violations"] == [] and "layer LACUNA-CHECK" not in sheet

@@ -235,12 +235,11 @@ def _draw_result_layers(fig: Figure, g: dict, voids: Sequence[Void], freeform, m
 
 def _layer_key_rows(leave_out: tuple[str, ...] = ()) -> list:
     """The line key of the result sheets: the panel's lines and each output layer (less ``leave_out``: layers
-    with nothing on the sheet)."""
+    with nothing on the sheet; "keep" for a panel with no zone kept solid)."""
     looks = _looks()
-    rows = [
-        ("line", dict(stroke=INK, stroke_width="0.4"), "panel and openings as drawn"),
-        ("line", dict(stroke=INK, stroke_width="0.3", stroke_dasharray="2 1"), "zone kept solid"),
-    ]
+    rows = [("line", dict(stroke=INK, stroke_width="0.4"), "panel and openings as drawn")]
+    if "keep" not in leave_out:
+        rows.append(("line", dict(stroke=INK, stroke_width="0.3", stroke_dasharray="2 1"), "zone kept solid"))
     for name in RESULT_LAYERS:
         if name in leave_out:
             continue
@@ -332,7 +331,7 @@ def _draw_ordinates(fig: Figure, g, voids: Sequence[Void], labels: Labels) -> No
     g.add(fig.dwg.path(d=f"M{fmt(-r)} 0h{fmt(2 * r)}M0 {fmt(-r)}v{fmt(2 * r)}"))
 
 
-def _draw_result_legend(fig: Figure, underlay: str, stress_range) -> None:
+def _draw_result_legend(fig: Figure, underlay: str, stress_range, empty: tuple[str, ...] = ()) -> None:
     g = fig.sheet_group("legend")
     x0, top = MARGIN, fig.legend_top
     if underlay == "density":
@@ -353,7 +352,7 @@ def _draw_result_legend(fig: Figure, underlay: str, stress_range) -> None:
     draw_scale_bar(fig, x0, top + 29.0)
     # The sheet a shop makes from shows no freeform outlines, the others no ordinates: a key lists what is drawn.
     leave_out = ("lacuna-freeform",) if underlay == "made" else (_DIM_GROUP,)
-    draw_key(fig, g, x0 + 132.0, top, _layer_key_rows(leave_out), pitch=4.3)
+    draw_key(fig, g, x0 + 132.0, top, _layer_key_rows(leave_out + empty), pitch=4.3)
 
 
 _UNDERLAYS = ("made", "density", "stress", "none")
@@ -458,7 +457,10 @@ def result_svg(
     for case in panel.cases:
         draw_loads(fig, panel, case, labels)
     _draw_result_layers(fig, groups, voids, freeform, markers, labels)
-    _draw_result_legend(fig, underlay, stress_range)
+    # The key lists what the sheet shows: a layer with nothing on it (no slots, no rule markers) keeps its group,
+    # so a viewer can still toggle it, but gets no row.
+    empty = tuple(n for n, grp in groups.items() if not grp.elements) + (() if panel.keep else ("keep",))
+    _draw_result_legend(fig, underlay, stress_range, empty=empty)
     removed = "volume removed: not stated"
     if volume_removed_percent is not None:
         removed = f"volume removed {volume_removed_percent:.1f} %"
