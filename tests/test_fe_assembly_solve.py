@@ -63,17 +63,21 @@ def test_pardiso_loads_where_it_is_a_dependency():
     assert pardiso_available()
 
 
-@pytest.mark.parametrize("backend", BACKENDS)
-def test_solver_matches_dense_solution_for_several_cases_and_refactor(backend):
-    g = Grid(8, 5, 10.0, 7.0)
-    a = Assembler(g)
-    ke = q4_stiffness(g.dx, g.dy, 1000.0, 0.3, 5.0)
+def _held_at_left(nx: int, ny: int, seed: int, cases: int):
+    """A grid of nx x ny elements held along its left edge: (grid, assembler, ke, held dofs, rng, loads F)."""
+    g = Grid(nx, ny, 10.0, 7.0)
     fixed = np.zeros(g.n_dofs, bool)
     left = np.arange(g.ny + 1) * (g.nx + 1)
     fixed[2 * left] = fixed[2 * left + 1] = True
+    rng = np.random.default_rng(seed)
+    F = rng.standard_normal((g.n_dofs, cases))
+    return g, Assembler(g), q4_stiffness(g.dx, g.dy, 1000.0, 0.3, 5.0), fixed, rng, F
+
+
+@pytest.mark.parametrize("backend", BACKENDS)
+def test_solver_matches_dense_solution_for_several_cases_and_refactor(backend):
+    g, a, ke, fixed, rng, F = _held_at_left(8, 5, seed=3, cases=3)
     free = ~fixed
-    rng = np.random.default_rng(3)
-    F = rng.standard_normal((g.n_dofs, 3))
     F[fixed] = 0
     for use_grid in (g, None) if backend != "multifrontal" else (g,):
         scale = rng.uniform(1e-3, 1.0, g.n_elements)
@@ -196,14 +200,7 @@ def test_a_dropped_pardiso_solver_gives_its_memory_back():
 def test_a_shared_solver_refactors_only_for_the_same_system_and_solves_as_a_new_one(backend):
     # The solid analysis, the optimiser and the voids' analyses share one factorisation (pipeline.py): a refactor
     # must give what a new solver gives, to the last bit, and anything but the same pattern and free dofs a new one.
-    g = Grid(12, 6, 10.0, 7.0)
-    a = Assembler(g)
-    ke = q4_stiffness(g.dx, g.dy, 1000.0, 0.3, 5.0)
-    fixed = np.zeros(g.n_dofs, bool)
-    left = np.arange(g.ny + 1) * (g.nx + 1)
-    fixed[2 * left] = fixed[2 * left + 1] = True
-    rng = np.random.default_rng(7)
-    F = rng.standard_normal((g.n_dofs, 2))
+    g, a, ke, fixed, rng, F = _held_at_left(12, 6, seed=7, cases=2)
     F[fixed] = 0
     shared = SharedSolver(backend)
     first = shared.factor(a.matrix(ke, rng.uniform(1e-3, 1.0, g.n_elements)), ~fixed, g)

@@ -233,17 +233,25 @@ def edge_stresses(panel: Panel, voids, final, solid, *, refine: float = 1.0, wor
     """The local model's figures for each of ``voids`` (model.Void): ``final`` is the grid analysis of the
     panel with the voids cut, ``solid`` the one without them (for the nominal stress). With ``work`` (an open
     ``overlap.Overlap``) the models are shared among its threads; the figures are the same."""
+    tasks = edge_stress_tasks(panel, voids, final, solid, refine=refine,
+                              threaded=work is not None and work.threads > 1)
+    if work is None:
+        return tuple(task() for task in tasks)
+    return tuple(work.map(lambda task: task(), tasks))
+
+
+def edge_stress_tasks(panel: Panel, voids, final, solid, *, refine: float = 1.0, threaded: bool = False) -> list:
+    """One callable per void, giving its ``EdgeStress``, for a caller that runs them as it likes (the pipeline,
+    beside its other checks). ``threaded``: each works on its own copy of the geometry (``overlap.own``), made
+    here, before any of them runs."""
     voids = tuple(voids)
 
-    def one(task) -> EdgeStress:
-        i, p, vs = task
+    def task(i: int):
+        p, vs = own((panel, voids)) if threaded else (panel, voids)
         # neighbours by position, not by id: a layout's ids are not trusted to be unique here
-        return void_edge_stress(p, vs[i], vs[:i] + vs[i + 1:], final, solid, refine=refine)
+        return lambda: void_edge_stress(p, vs[i], vs[:i] + vs[i + 1:], final, solid, refine=refine)
 
-    if work is None or work.threads == 1:
-        return tuple(map(one, ((i, panel, voids) for i in range(len(voids)))))
-    # On threads, each model works on its own copy of the geometry (overlap.own), made here, before any runs.
-    return tuple(work.map(one, [(i, *own((panel, voids))) for i in range(len(voids))]))
+    return [task(i) for i in range(len(voids))]
 
 
 def edge_snapper(void: Void, reach: float):

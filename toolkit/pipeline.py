@@ -16,7 +16,7 @@ import shapely
 from shapely.geometry import Polygon
 
 from .analysis import Analysis, analyze
-from .edge_stress import edge_stresses, edge_violations
+from .edge_stress import edge_stress_tasks, edge_violations
 from .fe.grid import grid_shape
 from .fe.solve import SharedSolver
 from .jobfile import Job
@@ -197,23 +197,28 @@ def optimize_panel(
     lap("voids")
     made = float(sum(v.area_mm2 for v in rationalised.voids))
     free = float(sum(g.area for g in freeform))
-    # The checks of the made layout need nothing from each other: the limiting rule's refit, the two
-    # re-analyses and the local models run side by side (overlap.py), each on its own copy of the geometry;
-    # each stage's own seconds are kept, and "checks" is the wall time of them all.
+    # The checks of the made layout need nothing from each other: the limiting rule's refit and the local models
+    # run on the side threads (overlap.py), each on its own copy of the geometry, while this thread makes the two
+    # re-analyses one after the other (one factorisation of the grid in memory at a time, as in the optimiser).
+    # Each stage's own seconds are kept, and "checks" is the wall time of them all.
     with Overlap() as work:
-        mine = own if work.threads > 1 else (lambda value: value)
+        threaded = work.threads > 1
         limit_job = None
         if free > 0 and made < LIMIT_SHARE * free:
-            limit_panel, limit_freeform, limit_voids = mine((panel, list(freeform), rationalised.voids))
-            limit_job = work.submit(timed, "limit", timings, limiting_rule, limit_panel, limit_freeform,
+            limit_panel, limit_freeform, limit_voids = \
+                own((panel, list(freeform), rationalised.voids)) if threaded else (panel, freeform, rationalised.voids)
+            limit_job = work.submit(timed, "limit", timings, limiting_rule, limit_panel, list(limit_freeform),
                                     void_options, rules, limit_voids, made, free, energy=energy,
                                     first_fit_mm2=rationalised.first_fit_mm2, layouts=rationalised.layouts)
-        freeform_job = work.submit(timed, "freeform re-analysis", timings, analyze,
-                                   mine(with_freeform(panel, freeform, solid.grid)), grid=solid.grid)
         final = timed("re-analysis", timings, analyze, with_voids(panel, rationalised.voids), grid=solid.grid)
         # The grid cuts the voids by area fraction; the stress at their edges comes from a local model of each.
-        edge = timed("edge stresses", timings, edge_stresses, panel, rationalised.voids, final, solid, work=work)
-        freeform_analysis = freeform_job.result()
+        started = time.perf_counter()
+        edge_jobs = [work.submit(task) for task in
+                     edge_stress_tasks(panel, rationalised.voids, final, solid, threaded=threaded)]
+        freeform_analysis = timed("freeform re-analysis", timings, analyze,
+                                  with_freeform(panel, freeform, solid.grid), grid=solid.grid)
+        edge = tuple(job.result() for job in edge_jobs)
+        timings["edge stresses"] = time.perf_counter() - started
         limit = limit_job.result() if limit_job is not None else ""
     lap("checks")
     edge_limit = job.rules.max_edge_stress_MPa
