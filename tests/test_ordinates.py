@@ -14,7 +14,6 @@ from __future__ import annotations
 import csv
 import io
 import math
-from pathlib import Path
 
 import ezdxf
 import numpy as np

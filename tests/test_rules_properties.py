@@ -442,7 +442,7 @@ def test_allowed_region_holds_exactly_the_single_void_rules(scene, seed):
     from shapely import contains_xy  # only to ask which side of the region each sample falls on
 
     inside = contains_xy(region, pts[:, 0], pts[:, 1])
-    sup, ld = dense_segment(*support), np.array([load])
+    ld = np.array([load])
     ax = 1 if H <= W else 0
     D = (W, H)[ax]
     band_lo = 0.0 if rules.depth_band is None else (1 - rules.depth_band) / 2 * D
