@@ -688,3 +688,53 @@ def test_the_result_sheet_is_the_panel_as_made_with_ordinates_and_the_layout_a_f
             assert f'id="{layer.lower()}"' in svg
     assert families != {"polygon", "slot", "bore"}  # so the test sees a family left out
     assert outcome.summary["rules"]["violations"] == [] and "layer LACUNA-CHECK" not in sheet
+
+
+def test_rule_markers_labels_keep_off_each_other_and_the_void_ids():
+    # Markers of our own in a close diagonal run (each label's first spot, up and to the right of its ring, would
+    # sit on the next marker's label), beside a void whose id stands where the first label would go: every label
+    # goes through the sheet's one placer, so no two labels overlap, nor a label and a ring.
+    from shapely.geometry import Point as P
+
+    from toolkit.model import Material, Panel, Support, Void
+    from toolkit.write.labels import Labels, text_box
+    from toolkit.write.result_sheet import LABEL_SIZE, MARKER_SIZE, _label_spots, _marker_spots, label_box
+    from toolkit.write.sheet import Figure
+    from toolkit.write.shapes import Marker
+
+    panel = Panel(width_mm=3000, height_mm=1000, thickness_mm=20, element_size_mm=25,
+                  material=Material(E_MPa=210000, nu=0.3), supports=(Support(((0, 0), (0, 1000)), "xy"),),
+                  name="markers")
+    fig = Figure(panel)
+    step = fig.paper(6.0)  # six paper mm apart along the diagonal: the labels are some 18 paper mm long
+    markers = [Marker((1200.0 + k * step, 400.0 + k * step), "min_web 42 < 60") for k in range(4)]
+    void = Void(id="V1", family="bore", centre=(1230.0, 560.0), size_mm=60.0,
+                shape=P(1230.0, 560.0).buffer(30.0, quad_segs=16))
+    labels = Labels(fig)
+    labels.block(void.shape, owner="V1")
+    (id_at, _), = _label_spots(fig, [void], LABEL_SIZE, labels)
+    placed = _marker_spots(fig, markers, labels)
+    boxes = [label_box(fig, "V1", id_at, LABEL_SIZE)] + [
+        text_box(fig, m.label, at, MARKER_SIZE, anchor=anchor) for m, (_, at, anchor) in zip(markers, placed)]
+    rings = [P(m.where).buffer(r) for m, (r, _, _) in zip(markers, placed)]
+    for i, a in enumerate(boxes):
+        assert not any(a.intersects(b) for b in boxes[i + 1:]), i
+        assert not any(a.intersects(ring) for ring in rings), i
+    # ... where every label on its first spot would not do: the run needs the placer.
+    first = [text_box(fig, m.label, (m.where[0] + d, m.where[1] + d), MARKER_SIZE)
+             for m, d in ((m, r * math.sqrt(0.5) + fig.paper(0.5)) for m, (r, _, _) in zip(markers, placed))]
+    assert any(a.intersects(b) for i, a in enumerate(first) for b in first[i + 1:] + rings[i + 1:])
+
+
+def test_a_markers_figures_carry_three_digits_or_as_many_as_tell_them_apart():
+    # The label beside a rule marker: three significant digits, more only where three would print the measured
+    # and required figures alike (the rule is broken, so they differ).
+    from toolkit.write.shapes import as_marker
+
+    def label(rule, measured, required):
+        return as_marker({"where": (0.0, 0.0), "rule": rule, "measured": measured, "required": required}, 0).label
+
+    assert label("max_edge_stress", 1.90915, 1.2) == "max_edge_stress 1.91 > 1.2"
+    assert label("max_edge_stress", 1.2004, 1.2) == "max_edge_stress 1.2004 > 1.2"
+    assert label("min_web", 42.0, 60.0) == "min_web 42 < 60"
+    assert label("edge_cover", 49.99, 50.0) == "edge_cover 49.99 < 50"

@@ -110,14 +110,20 @@ class Labels:
         return True
 
     def place(self, text: str, size: float, spots: Sequence[tuple[Sequence[float], str]], *, bold: bool = False,
-              prefer=None) -> tuple[np.ndarray, str]:
+              prefer=None, loose: bool = False) -> tuple[np.ndarray, str]:
         """The first of ``spots`` ((baseline anchor point, text-anchor), local mm) where the label is clear, those
-        inside ``prefer`` (a region) first; the first spot when none is. The chosen box is taken."""
+        inside ``prefer`` (a region) first; the first spot when none is. With ``loose``, when none is clear, the
+        first clear of the other labels (it may cross a line: cased lettering reads over one) comes before that.
+        The chosen box is taken."""
         boxes = [text_box(self.fig, text, at, size, anchor=anchor, bold=bold) for at, anchor in spots]
         order = list(range(len(spots)))
         if prefer is not None:
             order.sort(key=lambda k: not prefer.covers(boxes[k]))
-        chosen = next((k for k in order if self.clear(boxes[k])), 0)
+        chosen = next((k for k in order if self.clear(boxes[k])), None)
+        if chosen is None and loose:
+            chosen = next((k for k in order if self.sheet.covers(boxes[k])
+                           and not any(boxes[k].buffer(self.air).intersects(t) for t in self.taken)), None)
+        chosen = 0 if chosen is None else chosen
         self.take(boxes[chosen])
         at, anchor = spots[chosen]
         return np.asarray(at, dtype=float), anchor

@@ -225,12 +225,39 @@ def _draw_result_layers(fig: Figure, g: dict, voids: Sequence[Void], freeform, m
         label = cased_text(fig, g["lacuna-note"], void.id, (at[0], at[1]), LABEL_SIZE, weight="bold",
                             fill=looks["lacuna-note"], local=True)
         label.attribs["data-void-id"] = void.id
-    for m in markers:
-        r = m.radius_mm if m.radius_mm is not None else p(2.5)
+    for m, (r, at, anchor) in zip(markers, _marker_spots(fig, markers, labels)):
         x, y = m.where
         g["lacuna-check"].add(fig.dwg.circle(center=(fmt(x), fmt(y)), r=fmt(r, 4)))
-        cased_text(fig, g["lacuna-check"], m.label, (x + r * math.sqrt(0.5) + p(0.5), y + r * math.sqrt(0.5)),
-                    1.8, casing=0.4, fill=looks["lacuna-check"], local=True)
+        cased_text(fig, g["lacuna-check"], m.label, (at[0], at[1]), MARKER_SIZE, casing=0.4, anchor=anchor,
+                    fill=looks["lacuna-check"], local=True)
+
+
+MARKER_SIZE = 1.8  # paper mm: a rule marker's label, smaller than a void id
+
+
+def _marker_spots(fig: Figure, markers, labels: Labels) -> list:
+    """(ring radius, baseline anchor point, text-anchor) of each rule marker's label (local mm), by the sheet's one
+    label placer: every ring kept clear first, then each label beside its ring, up-right where that is clear of
+    the void ids, load figures, voids and the other markers' rings and labels, else down-right, up-left,
+    down-left, right, left, above or below; where none is, the first of those clear of the other labels (a marker
+    stands on a void's edge, so its label may have to cross an outline); up-right when none is."""
+    p = fig.paper
+    rings = []
+    for m in markers:
+        r = m.radius_mm if m.radius_mm is not None else p(2.5)
+        rings.append(r)
+        labels.block(shapely.Point(m.where).buffer(r, quad_segs=8))
+    h = p(MARKER_SIZE) * 0.7
+    out = []
+    for m, r in zip(markers, rings):
+        x, y = m.where
+        d, gap = r * math.sqrt(0.5) + p(0.5), r + p(0.5)
+        spots = [((x + d, y + d), "start"), ((x + d, y - d - h), "start"), ((x - d, y + d), "end"),
+                 ((x - d, y - d - h), "end"), ((x + gap, y - h / 2), "start"), ((x - gap, y - h / 2), "end"),
+                 ((x, y + gap), "middle"), ((x, y - gap - h), "middle")]
+        at, anchor = labels.place(m.label, MARKER_SIZE, spots, loose=True)
+        out.append((r, at, anchor))
+    return out
 
 
 def _layer_key_rows(leave_out: tuple[str, ...] = ()) -> list:
