@@ -69,7 +69,8 @@ def assert_refusal_in_words(result, *named: Path) -> None:
     """Exit 2 speaks one paragraph naming the file, a layer, a handle or a job key (CONTRACT.md, exit codes)."""
     text = result.stderr
     assert "Traceback" not in result.output
-    said = [line for line in text.splitlines() if line.strip() and not line.startswith("BESO [")]
+    # progress (BESO's line, the later stages' "... " lines) aside
+    said = [line for line in text.splitlines() if line.strip() and not line.startswith(("BESO [", "... "))]
     assert len(said) == 1 and said[0].startswith("lacuna: "), text
     message = said[0]
     assert any(p.name in message for p in named) or "[" in message, message

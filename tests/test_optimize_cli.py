@@ -38,11 +38,24 @@ def optimized(tmp_path_factory):
     result = CliRunner().invoke(main, ["optimize", str(dxf), "--job", str(job), "--out", str(tmp / "out"),
                                        "--json"])
     assert result.exit_code == 0, result.output
-    return dxf, json.loads(result.stdout)
+    return dxf, json.loads(result.stdout), result.stderr
+
+
+def test_progress_names_each_stage_after_the_optimiser_on_stderr_only(optimized):
+    # BESO's line stands still once it ends; the voids and the checks can take minutes on a large grid, so each
+    # later stage says what it does, on stderr (stdout holds the JSON alone: json.loads above read all of it).
+    _, s, err = optimized
+    stages = [line for line in err.splitlines() if line.startswith("... ")]
+    assert len(stages) == 3, err
+    assert stages[0].startswith("... fitting bores to ") and "freeform void" in stages[0]
+    assert stages[0].endswith("under the timber-bored rules")
+    assert stages[1].startswith(f"... checking the {len(s['voids'])} void")
+    assert stages[2].startswith("... writing ")
+    assert err.index("BESO [") < err.index(stages[0])
 
 
 def test_contract_keys(optimized):
-    _, s = optimized
+    _, s, _ = optimized
     for key in ("solid", "iterations", "converged", "volume_fraction_target", "volume_fraction_final",
                 "compliance_freeform_Nmm", "compliance_rationalized_Nmm", "mass_removed_percent", "voids",
                 "rules", "outputs"):  # CONTRACT.md, optimize
@@ -55,7 +68,7 @@ def test_contract_keys(optimized):
 
 
 def test_voids_are_stock_bores_and_the_rules_hold(optimized):
-    _, s = optimized
+    _, s, _ = optimized
     assert s["voids"], "a half-volume target on a lightly loaded beam leaves room for bores"
     # The job names no bore list, so the profile's stock sizes rule (toolkit/rules/profiles/timber-bored.toml).
     stock = set(load_profile("timber-bored").value("bore_diameters"))
@@ -67,13 +80,13 @@ def test_voids_are_stock_bores_and_the_rules_hold(optimized):
 def test_removing_material_never_stiffens(optimized):
     # Energy theorem (common knowledge of linear elasticity, no source needed beyond any FE text): for fixed
     # loads, removing material cannot lower the compliance. Self-weight is off in this job.
-    _, s = optimized
+    _, s, _ = optimized
     assert s["compliance_rationalized_Nmm"] >= s["solid"]["compliance_Nmm"] * (1 - 1e-12)
     assert 0 < s["mass_removed_percent"] < 50
 
 
 def test_drawing_copy_keeps_the_input(optimized):
-    dxf, s = optimized
+    dxf, s, _ = optimized
     original = ezdxf.readfile(dxf)
     copy = ezdxf.readfile(next(p for p in s["outputs"] if p.endswith(".dxf")))
     before = {e.dxf.handle: e.dxftype() for e in original.modelspace()}
@@ -97,7 +110,7 @@ def test_optimize_document_in_place(tmp_path):
 
 
 def test_a_second_run_on_a_result_drawing_needs_replace(optimized, tmp_path):
-    dxf, s = optimized
+    dxf, s, _ = optimized
     result_dxf = next(p for p in s["outputs"] if p.endswith("-lacuna.dxf"))
     job = dxf.with_suffix(".toml")
     refused = CliRunner().invoke(main, ["optimize", result_dxf, "--job", str(job), "--out", str(tmp_path / "a")])

@@ -142,10 +142,12 @@ OPTIMIZE_OUTPUTS = ("lacuna.dxf", "result.svg", "layout.svg", "convergence.svg",
 
 
 def optimize_file(dxf_path, job_path=None, *, out_dir=None, force: bool = False, frames: int = 0,
-                  on_iteration=None, dxf_version: str | None = None, replace: bool = False, job=None) -> Outcome:
+                  on_iteration=None, dxf_version: str | None = None, replace: bool = False, job=None,
+                  on_stage=None) -> Outcome:
     """``lacuna optimize``: the whole job; writes the drawing copy with our layers, figures, schedule, JSON.
 
-    ``job``: a :class:`toolkit.jobfile.Job` already read (a sweep's point), used instead of reading ``job_path``."""
+    ``job``: a :class:`toolkit.jobfile.Job` already read (a sweep's point), used instead of reading ``job_path``.
+    ``on_iteration`` and ``on_stage``: progress, as ``pipeline.optimize_panel`` takes them."""
     from .write.convergence_plot import convergence_svg
     from .write.dxf_copy import refuse_earlier_results, result_copy_bytes
     from .write.layout_frame import layout_frame_svg
@@ -163,7 +165,9 @@ def optimize_file(dxf_path, job_path=None, *, out_dir=None, force: bool = False,
     if frames and not force and out.is_dir() and any(out.glob(f"{stem}-frame-*.svg")):
         raise LacunaError(f"{out} already holds frames of an earlier run ({stem}-frame-*.svg).",
                           hint="Choose another --out folder, or pass --force to replace them.")
-    run = optimize_panel(panel, job, on_iteration=on_iteration, keep_every=frames)
+    run = optimize_panel(panel, job, on_iteration=on_iteration, keep_every=frames, on_stage=on_stage)
+    if on_stage is not None:
+        on_stage("writing the drawing copy, the figures, the schedule and the report")
     summary = optimize_summary(run, drawing)
     date = _dt.date.today().isoformat()
     grid = run.solid.grid
@@ -283,7 +287,7 @@ def _job_from(job):
     )
 
 
-def optimize_document(doc, job, *, on_iteration=None, replace: bool = False) -> Result:
+def optimize_document(doc, job, *, on_iteration=None, replace: bool = False, on_stage=None) -> Result:
     """The whole job on an ezdxf document a CAD host already holds; adds the LACUNA-* layers IN PLACE.
 
     ``job``: a :class:`toolkit.jobfile.Job`, a job-file path or TOML text. Nothing is written to disk; saving the
@@ -298,7 +302,7 @@ def optimize_document(doc, job, *, on_iteration=None, replace: bool = False) -> 
     panel, notes = build_panel_with_notes(drawing, job)
     if notes:
         drawing = dataclasses.replace(drawing, warnings=tuple(drawing.warnings) + tuple(notes))
-    run = optimize_panel(panel, job, on_iteration=on_iteration)
+    run = optimize_panel(panel, job, on_iteration=on_iteration, on_stage=on_stage)
     summary = optimize_summary(run, drawing)
     added = add_results(doc, panel.frame, voids=run.voids, freeform=list(run.freeform), notes=drawing_notes(run),
                         panel_size_mm=(panel.width_mm, panel.height_mm),
@@ -312,7 +316,7 @@ def demo_files() -> tuple[Path, Path]:
     return Path(str(base / f"{DEMO_NAME}.dxf")), Path(str(base / f"{DEMO_NAME}.toml"))
 
 
-def run_demo(out_dir, *, force: bool = False, on_iteration=None) -> Outcome:
+def run_demo(out_dir, *, force: bool = False, on_iteration=None, on_stage=None) -> Outcome:
     """``lacuna demo``: the whole job on the bundled loft lintel: the solid panel's analysis, then the
     optimisation; both sets of files in ``out_dir``. The summary is the optimisation's, listing every file."""
     dxf, job = demo_files()
@@ -321,7 +325,7 @@ def run_demo(out_dir, *, force: bool = False, on_iteration=None) -> Outcome:
     stem = dxf.stem
     plan_outputs(out_dir, [f"{stem}-analysis.json", f"{stem}-optimize.json"], inputs=[dxf, job], force=force)
     analysed = analyze_file(dxf, job, out_dir=out_dir, force=force)
-    optimised = optimize_file(dxf, job, out_dir=out_dir, force=force, on_iteration=on_iteration)
+    optimised = optimize_file(dxf, job, out_dir=out_dir, force=force, on_iteration=on_iteration, on_stage=on_stage)
     optimised.summary["outputs"] = analysed.summary["outputs"] + optimised.summary["outputs"]
     return optimised
 

@@ -116,6 +116,7 @@ class _Progress:
         self.target, self.rate, self.window = target, rate, window
         self.tty = sys.stderr.isatty()
         self.started: float | None = None
+        self.open = False  # a terminal line is being rewritten and wants its newline
 
     def left(self, iteration: int, volume: float) -> str:
         import math
@@ -143,12 +144,19 @@ class _Progress:
                 f"compliance {compliance:10.4g} N mm  kept {100 * volume:5.1f} %{self.left(iteration, volume)}")
         if self.tty:
             click.echo("\r" + line + "   ", nl=False, err=True)
+            self.open = True
         elif iteration % 10 == 0 or iteration == 1:
             click.echo(line, err=True)
 
+    def stage(self, words: str) -> None:
+        """A later stage starts: one line of its own ("... fitting 6-gons to 18 freeform voids ...")."""
+        self.close()
+        click.echo(f"... {words}", err=True)
+
     def close(self) -> None:
-        if self.tty:
+        if self.open:
             click.echo("", err=True)
+            self.open = False
 
 
 @main.command(help=f"""Find where the panel's material does no work and turn it into voids a shop can make.
@@ -178,7 +186,8 @@ def optimize(panel: Path, job_path: Path | None, out_dir: Path | None, as_json: 
     try:
         with naming(panel, job_path):
             outcome = api.optimize_file(panel, job_path, out_dir=out_dir, force=force, frames=frames,
-                                        on_iteration=progress, dxf_version=dxf_version, replace=replace)
+                                        on_iteration=progress, dxf_version=dxf_version, replace=replace,
+                                        on_stage=progress.stage)
     finally:
         progress.close()
     _emit(outcome.summary, as_json, outcome.text_lines())
@@ -346,7 +355,7 @@ def demo(out_dir: Path, as_json: bool, force: bool) -> None:
     plan = api.optimize_plan(api.demo_files()[1])
     progress = _Progress(plan.max_iterations, plan.volume_fraction, plan.evolution_rate, plan.convergence_window)
     try:
-        outcome = api.run_demo(out_dir, force=force, on_iteration=progress)
+        outcome = api.run_demo(out_dir, force=force, on_iteration=progress, on_stage=progress.stage)
     finally:
         progress.close()
     _emit(outcome.summary, as_json, outcome.text_lines())

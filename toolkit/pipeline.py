@@ -145,8 +145,12 @@ def optimize_panel(
     *,
     on_iteration: Callable[[int, float, float], None] | None = None,
     keep_every: int = 0,
+    on_stage: Callable[[str], None] | None = None,
 ) -> OptimizeRun:
-    """The whole job on ``panel`` with ``job``'s settings and rules."""
+    """The whole job on ``panel`` with ``job``'s settings and rules. ``on_iteration(index, compliance, volume)``
+    after each BESO iteration; ``on_stage(words)`` as each later stage starts (what it does, in words), so that a
+    progress display does not stand still on BESO's last line while the voids are fitted and checked."""
+    tell = on_stage or (lambda words: None)
     rules = job_rules(job)
     settings = job.optimize
     # Before any work: "no void can be placed: ..." in plain words; else the region open to voids.
@@ -192,6 +196,10 @@ def optimize_panel(
     freeform = tuple(freeform_voids(problem.grid, beso.densities, exclude=openings))
     energy = (solid.grid, strain_energy_density(solid, panel))
     lap("freeform outlines")
+    kind = {"polygon": f"{void_options.sides}-gons", "slot": "slots", "bore": "bores"}.get(void_options.family,
+                                                                                          "n-gons, slots and bores")
+    tell(f"fitting {kind} to {len(freeform)} freeform void{'s' if len(freeform) != 1 else ''} under "
+         + (f"the {job.rules.profile} rules" if job.rules.profile else "the job's rules"))
     rationalised = rationalise(panel, list(freeform), void_options, rules, energy=energy, shared=shared)
     shared.release()
     lap("voids")
@@ -201,6 +209,10 @@ def optimize_panel(
     # run on the side threads (overlap.py), each on its own copy of the geometry, while this thread makes the two
     # re-analyses one after the other (one factorisation of the grid in memory at a time, as in the optimiser).
     # Each stage's own seconds are kept, and "checks" is the wall time of them all.
+    n = len(rationalised.voids)
+    tell(f"checking the {n} void{'s' if n != 1 else ''} to make: the panel analysed again, a local model of the "
+         "edge stress at each void" + (", the rule that held the layout back" if free > 0 and made < LIMIT_SHARE *
+                                      free else ""))
     with Overlap() as work:
         threaded = work.threads > 1
         limit_job = None
