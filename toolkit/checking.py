@@ -173,11 +173,14 @@ def _edge_stresses(panel: Panel, voids: tuple[Void, ...], job: Job, thickness_kn
                                "max_edge_stress_MPa out to check the geometry alone.")
     from .analysis import analyze
     from .edge_stress import edge_stresses
+    from .overlap import Overlap
     from .pipeline import with_voids
 
     solid = analyze(panel)
     final = analyze(with_voids(panel, voids), grid=solid.grid)
-    return edge_stresses(panel, voids, final, solid)
+    # the local models of a hand-drawn layout, shared among the side threads (overlap.py; the same figures)
+    with Overlap() as work:
+        return edge_stresses(panel, voids, final, solid, work=work)
 
 
 # --- inputs -----------------------------------------------------------------------------------------------------
