@@ -222,3 +222,8 @@ def test_a_shared_solver_refactors_only_for_the_same_system_and_solves_as_a_new_
     assert shared.factor(K2, ~fixed, g2) is not base and shared.built == 4
     shared.release()
     assert shared.solver is None
+    # the assembly pattern: one per grid size for the job, kept when the factor goes
+    pattern = shared.assembler(g)
+    assert shared.assembler(Grid(12, 6, 3.0, 5.0)) is pattern  # other element sizes, the same pattern
+    assert np.array_equal(pattern.matrix(ke).toarray(), Assembler(g).matrix(ke).toarray())
+    assert shared.assembler(g2) is not pattern

@@ -70,7 +70,7 @@ def analyze(panel: Panel, grid: Grid | None = None, *, shared: SharedSolver | No
 
     mat = panel.material
     ke = q4_stiffness(grid.dx, grid.dy, mat.E_MPa, mat.nu, panel.thickness_mm)
-    K = Assembler(grid).matrix(ke, scale)
+    K = (shared.assembler(grid) if shared is not None else Assembler(grid)).matrix(ke, scale)
     # Nodes touching only empty elements carry no stiffness; they are left out of the system.
     free = ~fixed & np.repeat(active_nodes, 2)
     solver = shared.factor(K, free, grid) if shared is not None else LinearSolver(K, free, grid=grid)

@@ -201,7 +201,7 @@ def optimize_panel(
     tell(f"fitting {kind} to {len(freeform)} freeform void{'s' if len(freeform) != 1 else ''} under "
          + (f"the {job.rules.profile} rules" if job.rules.profile else "the job's rules"))
     rationalised = rationalise(panel, list(freeform), void_options, rules, energy=energy, shared=shared)
-    shared.release()
+    shared.release()  # the factor goes; the assembly pattern serves the re-analyses below
     lap("voids")
     made = float(sum(v.area_mm2 for v in rationalised.voids))
     free = float(sum(g.area for g in freeform))
@@ -222,13 +222,16 @@ def optimize_panel(
             limit_job = work.submit(timed, "limit", timings, limiting_rule, limit_panel, list(limit_freeform),
                                     void_options, rules, limit_voids, made, free, energy=energy,
                                     first_fit_mm2=rationalised.first_fit_mm2, layouts=rationalised.layouts)
-        final = timed("re-analysis", timings, analyze, with_voids(panel, rationalised.voids), grid=solid.grid)
+        final = timed("re-analysis", timings, analyze, with_voids(panel, rationalised.voids), grid=solid.grid,
+                      shared=shared)
+        shared.release()
         # The grid cuts the voids by area fraction; the stress at their edges comes from a local model of each.
         started = time.perf_counter()
         edge_jobs = [work.submit(task) for task in
                      edge_stress_tasks(panel, rationalised.voids, final, solid, threaded=threaded)]
         freeform_analysis = timed("freeform re-analysis", timings, analyze,
-                                  with_freeform(panel, freeform, solid.grid), grid=solid.grid)
+                                  with_freeform(panel, freeform, solid.grid), grid=solid.grid, shared=shared)
+        shared.release()
         edge = tuple(job.result() for job in edge_jobs)
         timings["edge stresses"] = time.perf_counter() - started
         limit = limit_job.result() if limit_job is not None else ""

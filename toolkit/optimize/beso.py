@@ -138,7 +138,7 @@ def run_beso(
     fractions = np.asarray(problem.fractions, dtype=float)
     # An element wholly inside an opening behaves as a BESO void, so no node is left without stiffness.
     base = np.maximum(fractions, xmin**p)
-    assembler = Assembler(g)
+    assembler = shared.assembler(g) if shared is not None else Assembler(g)
     free = np.ones(g.n_dofs, dtype=bool)
     free[problem.fixed] = False
     n_admit = settings.admission_ratio * n_design

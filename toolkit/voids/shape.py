@@ -80,7 +80,7 @@ class Evaluator:
                                 frame=panel.frame)
         self.F = load_matrix(grid, panel, fractions=base, solid=solid)
         self.weights = np.array([panel.case_weight(c) for c in panel.cases], dtype=float)
-        self.assembler = Assembler(grid)
+        self.assembler = shared.assembler(grid) if shared is not None else Assembler(grid)
         self.solid = solid
         self.solver: LinearSolver | None = None
         self.analyses = 0
