@@ -6,14 +6,13 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .fe.assembly import Assembler
 from .fe.boundary import check_mechanism, fixed_dofs, where_text
 from .fe.element import q4_stiffness
 from .fe.fractions import solid_fractions
 from .fe.grid import Grid
 from .limits import grid_within_memory
 from .fe.loads import load_matrix
-from .fe.solve import LinearSolver, SharedSolver
+from .fe.solve import SharedSolver
 from .fe.stress import element_stresses, von_mises
 from .model import Panel
 
@@ -70,11 +69,11 @@ def analyze(panel: Panel, grid: Grid | None = None, *, shared: SharedSolver | No
 
     mat = panel.material
     ke = q4_stiffness(grid.dx, grid.dy, mat.E_MPa, mat.nu, panel.thickness_mm)
-    K = (shared.assembler(grid) if shared is not None else Assembler(grid)).matrix(ke, scale)
+    shared = shared if shared is not None else SharedSolver()  # alone: one of its own, dropped on return
+    K = shared.assembler(grid).matrix(ke, scale)
     # Nodes touching only empty elements carry no stiffness; they are left out of the system.
     free = ~fixed & np.repeat(active_nodes, 2)
-    solver = shared.factor(K, free, grid) if shared is not None else LinearSolver(K, free, grid=grid)
-    U = solver.solve(F)
+    U = shared.factor(K, free, grid).solve(F)
 
     cases = panel.cases
     weights = np.array([panel.case_weight(c) for c in cases])

@@ -217,9 +217,9 @@ def optimize_panel(
         threaded = work.threads > 1
         limit_job = None
         if free > 0 and made < LIMIT_SHARE * free:
-            limit_panel, limit_freeform, limit_voids = \
-                own((panel, list(freeform), rationalised.voids)) if threaded else (panel, freeform, rationalised.voids)
-            limit_job = work.submit(timed, "limit", timings, limiting_rule, limit_panel, list(limit_freeform),
+            mine = (panel, list(freeform), rationalised.voids)
+            limit_panel, limit_freeform, limit_voids = own(mine) if threaded else mine
+            limit_job = work.submit(timed, "limit", timings, limiting_rule, limit_panel, limit_freeform,
                                     void_options, rules, limit_voids, made, free, energy=energy,
                                     first_fit_mm2=rationalised.first_fit_mm2, layouts=rationalised.layouts)
         final = timed("re-analysis", timings, analyze, with_voids(panel, rationalised.voids), grid=solid.grid,

@@ -29,8 +29,7 @@ from typing import Callable
 import numpy as np
 
 from ..errors import LacunaError
-from ..fe.assembly import Assembler
-from ..fe.solve import LinearSolver, SharedSolver
+from ..fe.solve import SharedSolver
 from .filters import SensitivityFilter
 from .problem import Problem, check_problem
 from .settings import OptimizeSettings
@@ -138,7 +137,9 @@ def run_beso(
     fractions = np.asarray(problem.fractions, dtype=float)
     # An element wholly inside an opening behaves as a BESO void, so no node is left without stiffness.
     base = np.maximum(fractions, xmin**p)
-    assembler = shared.assembler(g) if shared is not None else Assembler(g)
+    if shared is None or shared.backend != backend:
+        shared = SharedSolver(backend)  # one of its own, dropped on return
+    assembler = shared.assembler(g)
     free = np.ones(g.n_dofs, dtype=bool)
     free[problem.fixed] = False
     n_admit = settings.admission_ratio * n_design
@@ -156,8 +157,7 @@ def run_beso(
     for it in range(settings.max_iterations):
         K = assembler.matrix(ke, base * x**p)
         if solver is None:
-            solver = shared.factor(K, free, g) if shared is not None and shared.backend == backend \
-                else LinearSolver(K, free, grid=g, backend=backend)
+            solver = shared.factor(K, free, g)
         else:
             solver.refactor(K)
         U = solver.solve(F)

@@ -36,7 +36,6 @@ from typing import Callable
 import numpy as np
 import shapely
 
-from ..fe.assembly import Assembler
 from ..fe.boundary import fixed_dofs
 from ..fe.element import q4_stiffness
 from ..fe.fractions import covered_fractions, solid_fractions
@@ -68,7 +67,7 @@ class Evaluator:
         """``shared``: the job's solver (``fe.solve.SharedSolver``), refactored for the first analysis where it
         fits (the optimiser's, on the same grid and supports)."""
         self.panel, self.grid = panel, grid
-        self.shared = shared
+        self.shared = shared if shared is not None else SharedSolver()
         # A symmetric layout is given by its seeds: ``orbit(draft)`` lists a seed and its mirror images.
         self.orbit = orbit if orbit is not None else (lambda d: [d])
         solid = panel.solid
@@ -80,7 +79,7 @@ class Evaluator:
                                 frame=panel.frame)
         self.F = load_matrix(grid, panel, fractions=base, solid=solid)
         self.weights = np.array([panel.case_weight(c) for c in panel.cases], dtype=float)
-        self.assembler = shared.assembler(grid) if shared is not None else Assembler(grid)
+        self.assembler = self.shared.assembler(grid)
         self.solid = solid
         self.solver: LinearSolver | None = None
         self.analyses = 0
@@ -93,8 +92,7 @@ class Evaluator:
         f = self.fractions(shapes)
         K = self.assembler.matrix(self.ke, np.maximum(f, EMPTY_SHARE))
         if self.solver is None:
-            self.solver = self.shared.factor(K, ~self.fixed, self.grid) if self.shared is not None \
-                else LinearSolver(K, ~self.fixed, grid=self.grid)
+            self.solver = self.shared.factor(K, ~self.fixed, self.grid)
         else:
             self.solver.refactor(K)
         U = self.solver.solve(self.F)
