@@ -81,3 +81,24 @@ def test_arcs_on_one_circle_merge_and_a_whole_turn_is_a_circle():
     half = arcs.merge_arcs([(corners[0], QUARTER), (corners[1], QUARTER), (corners[2], 0.0)])
     assert len(half) == 2 and half[0][1] == pytest.approx(1.0, rel=1e-12)
     assert arcs.whole_circle(half) is None
+
+
+@pytest.mark.parametrize("closed", [True, False])
+def test_a_run_of_sides_and_arcs_flattens_to_each_arcs_own_chord_points(closed):
+    """Straight sides, arcs both ways, a zero-length arc and a whole half circle in one run: the run's points are
+    each vertex followed by that segment's own chord points (``arc_chord_points``), in order, and an open run ends
+    on its last vertex."""
+    pts = np.array([[0.0, 0.0], [100.0, 0.0], [100.0, 0.0], [140.0, 60.0], [60.0, 90.0], [-20.0, 40.0]])
+    bulges = np.array([0.3, 0.7, -0.4, 0.0, 1.0, 0.2])
+    run = bulges if closed else bulges[:-1]
+    ring = arcs.flatten(pts, run, closed, 0.05)
+    want = []
+    for i, b in enumerate(run):
+        want.append(pts[i][None, :])
+        if b:
+            want.append(arcs.arc_chord_points(pts[i], pts[(i + 1) % len(pts)], float(b), 0.05))
+    if not closed:
+        want.append(pts[-1][None, :])
+    want = np.concatenate(want)
+    assert ring.shape == want.shape
+    assert np.allclose(ring, want, rtol=0, atol=1e-9)

@@ -101,3 +101,29 @@ def test_clipped_areas_agree_with_shapely():
         half = shapely.Polygon([P[k] - 500 * U, P[k] + 500 * U, P[k] + 500 * U + 500 * N[k],
                                 P[k] - 500 * U + 500 * N[k]])
         assert got[k] == pytest.approx(shape.intersection(half).area, abs=1e-6)
+
+
+@pytest.mark.parametrize("sides", [4, 5, 6, 8])
+def test_a_tidied_hull_has_the_corners_asked_none_too_close_flat_or_sharp(sides):
+    """Random convex hulls (some with corners every few mm along their sides) cut down to ``sides`` corners:
+    exactly that many, inside the hull, no side under the least feature, no corner turning under 5 degrees or
+    sharper than 30 (the limits of voids.cover, common practice, no source)."""
+    from toolkit.voids.cover import MIN_INTERIOR_DEG, MIN_TURN_DEG, corner_measures, tidy_ngon
+
+    rng = np.random.default_rng(sides)
+    made = 0
+    for k in range(150):
+        hull = shapely.convex_hull(shapely.multipoints(rng.normal(size=(20, 2)) * (200, 80)))
+        if k % 2:
+            hull = shapely.segmentize(hull, 15.0)
+        feature = float(rng.choice([0.0, 5.0, 20.0]))
+        got = tidy_ngon(shapely.get_coordinates(hull.exterior)[:-1], sides, feature)
+        if got is None:
+            continue
+        made += 1
+        interior, turn, side, _ = corner_measures(got)
+        assert len(got) == sides
+        assert side.min() >= feature - 1e-9
+        assert turn.min() >= MIN_TURN_DEG - 1e-9 and interior.min() >= MIN_INTERIOR_DEG - 1e-9
+        assert shapely.buffer(hull, 1e-6).covers(shapely.Polygon(got))
+    assert made >= 100

@@ -73,17 +73,54 @@ def flatten(points: np.ndarray, bulges: np.ndarray, closed: bool, chord_tol: flo
 
     Chord points are spread evenly in angle from the arc's start, so the same arc drawn as an ARC or as a
     polyline bulge flattens to the same points. The result has no repeated closing vertex.
+
+    The same arithmetic as ``arc_centre`` and ``arc_chord_points``, in the same order, on plain floats (a void's
+    outline is flattened each time the fitting makes a new draft, and numpy's per-call cost on two-element
+    arrays was most of it): the points are those functions' to the bit.
     """
     n = len(points)
-    out = []
-    for i in range(len(bulges)):
-        p0, p1 = points[i], points[(i + 1) % n]
-        out.append(p0[None, :])
-        if bulges[i] != 0.0:
-            out.append(arc_chord_points(p0, p1, float(bulges[i]), chord_tol))
+    xy = np.asarray(points, dtype=float).tolist()
+    arcs = []  # (segment, centre x, centre y, radius, start angle, sweep, chords)
+    for i, b in enumerate(np.asarray(bulges, dtype=float).tolist()):
+        if b == 0.0:
+            continue
+        (x0, y0), (x1, y1) = xy[i], xy[(i + 1) % n]
+        dx, dy = x1 - x0, y1 - y0
+        chord = math.hypot(dx, dy)
+        if chord == 0.0:
+            continue
+        theta = 4.0 * math.atan(b)
+        half = math.tan(theta / 2)
+        cx = (x0 + x1) / 2 + (-dy / chord) * (chord / 2) / half
+        cy = (y0 + y1) / 2 + (dx / chord) * (chord / 2) / half
+        radius = abs(chord / 2 / math.sin(theta / 2))
+        step = 2.0 * math.acos(max(-1.0, 1.0 - chord_tol / radius))
+        count = max(math.ceil(abs(theta) / min(step, MAX_CHORD_ANGLE) - 1e-9), 1)
+        if count > 1:
+            arcs.append((i, cx, cy, radius, math.atan2(y0 - cy, x0 - cx), theta, count))
+    m = len(bulges)
+    if not arcs:
+        out = np.asarray(points, dtype=float)[:m].copy() if m else np.empty((0, 2))
+        return out if closed or not len(points) else np.vstack([out, np.asarray(points, dtype=float)[-1:]])
+    # Every arc's inner points at once: segment i's start, then its arc's count - 1 points.
+    seg, cx, cy, radius, start, theta, count = (np.array(c) for c in zip(*arcs))
+    inner = count - 1
+    owner = np.repeat(np.arange(len(arcs)), inner)
+    k = np.arange(len(owner)) - np.repeat(np.cumsum(inner) - inner, inner) + 1
+    angles = start[owner] + theta[owner] * k / count[owner]
+    extra = np.zeros(m, dtype=int)
+    extra[seg] = inner
+    total = m + int(inner.sum())
+    out = np.empty((total + (0 if closed else 1), 2))
+    at = np.arange(m) + np.concatenate(([0], np.cumsum(extra)[:-1]))
+    out[at] = np.asarray(points, dtype=float)[:m]
+    mask = np.ones(total, dtype=bool)
+    mask[at] = False
+    out[:total][mask] = np.column_stack([cx[owner] + radius[owner] * np.cos(angles),
+                                         cy[owner] + radius[owner] * np.sin(angles)])
     if not closed:
-        out.append(points[-1][None, :])
-    return np.concatenate(out) if out else points.copy()
+        out[-1] = xy[-1]
+    return out
 
 
 def merge_arcs(pieces: list[tuple[np.ndarray, float]], rel_tol: float = 1e-7) -> list[tuple[np.ndarray, float]]:

@@ -87,12 +87,26 @@ def corner_measures(pts: np.ndarray):
     return interior, 180.0 - interior, lb, tri
 
 
-def _chamfer(pts: np.ndarray, i: int, feature: float) -> np.ndarray | None:
+def _corner(pts: list, i: int) -> tuple[float, float, float]:
+    """Corner ``i`` of a counter-clockwise polygon given as a list of (x, y): interior angle (deg), length of the
+    side to the next corner, and the area of the triangle the corner would cut off if deleted (the arithmetic of
+    ``corner_measures`` on plain floats)."""
+    n = len(pts)
+    px, py = pts[i]
+    ax, ay = pts[i - 1][0] - px, pts[i - 1][1] - py
+    bx, by = pts[(i + 1) % n][0] - px, pts[(i + 1) % n][1] - py
+    la, lb = math.sqrt(ax * ax + ay * ay), math.sqrt(bx * bx + by * by)
+    cosang = (ax * bx + ay * by) / (la * lb) if la * lb > 0.0 else -1.0
+    interior = math.degrees(math.acos(min(max(cosang, -1.0), 1.0)))
+    return interior, lb, 0.5 * abs(ax * by - ay * bx)
+
+
+def _chamfer(pts: list, i: int, feature: float) -> list | None:
     """Corner ``i`` cut by a chamfer whose three sides are all at least ``feature`` long (None: no room)."""
     n = len(pts)
-    p, prev, nxt = pts[i], pts[i - 1], pts[(i + 1) % n]
+    p, prev, nxt = np.asarray(pts[i]), np.asarray(pts[i - 1]), np.asarray(pts[(i + 1) % n])
     a, b = np.linalg.norm(prev - p), np.linalg.norm(nxt - p)
-    theta = math.radians(corner_measures(pts)[0][i])
+    theta = math.radians(_corner(pts, i)[0])
     # A little over the least feature, so the chamfer survives the scaling into the region.
     need = 1.25 * feature / (2.0 * math.sin(theta / 2.0)) if theta > 0 else math.inf
     room = min(a, b) - 1.001 * feature
@@ -101,7 +115,7 @@ def _chamfer(pts: np.ndarray, i: int, feature: float) -> np.ndarray | None:
     c = min(max(0.2 * min(a, b), need), room)
     q1 = p + c * (prev - p) / a
     q2 = p + c * (nxt - p) / b
-    return np.vstack([pts[:i], q1, q2, pts[i + 1:]])
+    return pts[:i] + [q1.tolist(), q2.tolist()] + pts[i + 1:]
 
 
 def tidy_ngon(pts: np.ndarray, sides: int, feature: float) -> np.ndarray | None:
@@ -109,40 +123,58 @@ def tidy_ngon(pts: np.ndarray, sides: int, feature: float) -> np.ndarray | None:
 
     No side shorter than ``feature``, no corner turning less than ``MIN_TURN_DEG``, none sharper than
     ``MIN_INTERIOR_DEG`` (chamfered). None when the polygon is too small for that many corners of that size.
+
+    Deleting a corner changes the measures of its two neighbours alone, so the measures are kept per corner and
+    only those two worked again (plain floats: the polygons are a few dozen corners, where numpy's per-call cost
+    was most of the time).
     """
-    pts = _ccw(np.asarray(pts, dtype=float))
+    pts = _ccw(np.asarray(pts, dtype=float)).tolist()
+    m = [_corner(pts, i) for i in range(len(pts))]  # (interior, side to the next corner, triangle) per corner
+
+    def delete(i: int) -> None:
+        del pts[i]
+        del m[i]
+        n = len(pts)
+        if n:
+            for j in ((i - 1) % n, i % n):
+                m[j] = _corner(pts, j)
+
     for _ in range(8 * sides + 4 * len(pts)):
         n = len(pts)
         if n < 3:
             return None
-        interior, turn, side, tri = corner_measures(pts)
-        flat = turn < MIN_TURN_DEG
-        if flat.any() and n > 3:
-            pts = np.delete(pts, int(np.flatnonzero(flat)[np.argmin(tri[flat])]), axis=0)
+        interior = [c[0] for c in m]
+        side = [c[1] for c in m]
+        tri = [c[2] for c in m]
+        flat = [k for k in range(n) if 180.0 - interior[k] < MIN_TURN_DEG]
+        if flat and n > 3:
+            delete(min(flat, key=tri.__getitem__))
             continue
-        if side.min() < feature and n > 3:
-            i = int(np.argmin(side))
+        shortest = min(side)
+        if shortest < feature and n > 3:
+            i = side.index(shortest)
             j = (i + 1) % n
-            pts = np.delete(pts, i if tri[i] <= tri[j] else j, axis=0)
+            delete(i if tri[i] <= tri[j] else j)
             continue
         if n > sides:
-            pts = np.delete(pts, int(np.argmin(tri)), axis=0)
+            delete(tri.index(min(tri)))
             continue
-        sharp = interior < MIN_INTERIOR_DEG
-        if n == sides and not sharp.any():
-            return pts if side.min() >= feature - 1e-9 else None
+        sharp = [a < MIN_INTERIOR_DEG for a in interior]
+        if n == sides and not any(sharp):
+            return np.array(pts) if shortest >= feature - 1e-9 else None
         if n == sides:
             # A sharp corner with no corner to spare: give up the corner that cuts least (not a sharp one).
-            blunt = np.flatnonzero(~sharp)
-            if blunt.size == 0 or n <= 3:
+            blunt = [k for k in range(n) if not sharp[k]]
+            if not blunt or n <= 3:
                 return None
-            pts = np.delete(pts, int(blunt[np.argmin(tri[blunt])]), axis=0)
+            delete(min(blunt, key=tri.__getitem__))
             continue
         # Fewer corners than asked: chamfer the sharpest corner that has room.
-        for i in np.argsort(interior, kind="stable"):
-            cut = _chamfer(pts, int(i), feature)
+        for i in sorted(range(n), key=interior.__getitem__):
+            cut = _chamfer(pts, i, feature)
             if cut is not None:
                 pts = cut
+                m = [_corner(pts, k) for k in range(len(pts))]
                 break
         else:
             return None
@@ -166,28 +198,28 @@ def clipped_areas(geom, P: np.ndarray, N: np.ndarray) -> np.ndarray:
     half-planes at once: (k,).
 
     With the origin moved onto the line, the shoelace sum of the clipped polygon needs only the parts of its
-    edges on the kept side (the pieces of the outline along the line pass through the origin and add nothing),
-    so each edge adds cross(a, b) when both ends are kept, cross(a, x) or cross(x, b) when it crosses at x."""
+    edges on the kept side (the pieces of the outline along the line pass through the origin and add nothing).
+    An edge a -> b adds cross(a, b) when both ends are kept; when it crosses the line at x = a + t (b - a),
+    cross(a, x) = t cross(a, b) or cross(x, b) = (1 - t) cross(a, b): every edge adds cross(a, b) times the share
+    kept, and cross(a - p, b - p) = cross(a, b) - cross(a, p) + cross(b, p)."""
     out = np.zeros(len(P))
+    px, py = P[:, 0:1], P[:, 1:2]
     for part in shapely.get_parts(geom):
         if part.is_empty or part.area <= 0.0:
             continue
         part = orient(part, 1.0)  # exterior counter-clockwise, holes clockwise
         for ring in shapely.get_rings(part):
-            V = shapely.get_coordinates(ring)[:-1]
-            A = V[None, :, :] - P[:, None, :]
-            B = np.roll(A, -1, axis=1)
-            da = np.einsum("kmi,ki->km", A, N)
-            db = np.roll(da, -1, axis=1)
+            V = shapely.get_coordinates(ring)
+            a, b = V[:-1], V[1:]  # each edge's ends (the ring repeats its first point)
+            da = N @ a.T - np.sum(P * N, axis=1)[:, None]  # signed distances of the edges' starts, (k, m)
+            db = np.concatenate([da[:, 1:], da[:, :1]], axis=1)
+            ax, ay, bx, by = a[:, 0], a[:, 1], b[:, 0], b[:, 1]
+            c = (ax * by - ay * bx) - (ax * py - ay * px) + (bx * py - by * px)
             ina, inb = da >= 0.0, db >= 0.0
             with np.errstate(invalid="ignore", divide="ignore"):
-                t = np.where(ina != inb, da / (da - db), 0.0)
-            X = A + t[:, :, None] * (B - A)
-            cross = lambda p, q: p[..., 0] * q[..., 1] - p[..., 1] * q[..., 0]  # noqa: E731
-            c = np.where(ina & inb, cross(A, B), 0.0)
-            c += np.where(ina & ~inb, cross(A, X), 0.0)
-            c += np.where(~ina & inb, cross(X, B), 0.0)
-            out += 0.5 * c.sum(axis=1)
+                t = da / (da - db)
+            share = np.where(ina, np.where(inb, 1.0, t), np.where(inb, 1.0 - t, 0.0))
+            out += 0.5 * np.sum(c * share, axis=1)
     return np.maximum(out, 0.0)
 
 

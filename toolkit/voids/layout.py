@@ -725,18 +725,24 @@ def candidates(room: Room, family: str, r: Resolved, *, trials: int = 2, score=N
     return out
 
 
-def lattice_layout(allowed, family: str, r: Resolved, score, *, source: int = -1, openings=()) -> list[Draft]:
+def lattice_layout(allowed, family: str, r: Resolved, score, *, source: int = -1, openings=(), bound=None
+                   ) -> list[Draft]:
     """A layout laid over the whole region open to voids, ignoring the freeform voids: a honeycomb of voids of one
     size with the web the rules ask between them (a row where the region is one void deep), each cell keeping
     its void only where the material it removes is worth it (``score`` above zero). Where the rules tie the web
     to the void's size, few large voids in a row can beat the optimiser's many small ones; the caller compares.
+
+    With ``bound`` (an upper bound of the worth of anything fitted inside a region, as ``candidates`` takes it)
+    the honeycombs are fitted in falling order of their cells' bound and the search stops once none left can
+    beat the best found: the same layout with fewer fits.
     """
     region = largest_part(allowed) if allowed is not None else None
     if region is None:
         return []
     depth = inscribed_width(region)
-    best: tuple[float, list[Draft]] = (0.0, [])
     sizes = sorted({min(depth, s) for s in (depth, 0.8 * depth, 0.6 * depth, 0.45 * depth)}, reverse=True)
+    combs = []  # (cells: (piece, centre, radius) each) per size and offset, in the plain order
+    centre_y = inscribed_circle(region)[0][1]
     for size in sizes:
         if size < max(r.min_void_mm, 1e-6):
             continue
@@ -745,45 +751,57 @@ def lattice_layout(allowed, family: str, r: Resolved, score, *, source: int = -1
         row = pitch * math.sqrt(3.0) / 2.0
         # Offsets along the rows, and across them: the plain one and the one putting a row through the middle of
         # the region's depth (a band one void deep holds one row).
-        centre_y = inscribed_circle(region)[0][1]
         through = ((centre_y - (region.bounds[1] - row)) / row) % 1.0
         for offset in [(ox, oy) for oy in (0.0, through) for ox in (0.0, 0.5)]:
-            pieces = hex_cells(region, pitch, web, 0.0, offset)
-            drafts = []
-            for i, p in enumerate(pieces):
+            cells = []
+            for p in hex_cells(region, pitch, web, 0.0, offset):
                 c, radius = inscribed_circle(p)  # one search: its centre and radius go together
-                if 2.0 * radius < r.min_void_mm:
-                    continue
-                if family == "bore":
-                    stock = [d for d in r.bore_diameters_mm if r.min_void_mm <= d <= 2.0 * radius]
-                    if stock:
-                        drafts.append(Draft(family="bore", centre=(float(c[0]), float(c[1])), size=max(stock),
-                                            source=source, part=i, tools=r.tools))
-                    continue
-                room = Room.bare(p, r, openings)
-                d = (_polygon_in if family == "polygon" else _slot_in)(room, p, r, source, i)
-                if d is not None:
-                    drafts.append(d)
-            worth = [d for d in drafts if score(d.shape()) > 0.0]
-            total = sum(score(d.shape()) for d in worth)
-            if total > best[0]:
-                best = (total, worth)
-    return best[1]
+                cells.append((p, c, radius if 2.0 * radius >= r.min_void_mm else None))
+            combs.append(cells)
+    if bound is not None:
+        ceilings = [sum(bound(p) for p, _, radius in cells if radius is not None) for cells in combs]
+        order = [int(k) for k in np.argsort(-np.asarray(ceilings), kind="stable")]
+    else:
+        ceilings, order = [math.inf] * len(combs), list(range(len(combs)))
+    best: tuple[float, int, list[Draft]] = (0.0, -1, [])
+    for k in order:
+        if ceilings[k] * (1.0 + BOUND_SLACK) < best[0]:
+            break  # the rest are sorted below it
+        drafts = []
+        for i, (p, c, radius) in enumerate(combs[k]):
+            if radius is None:
+                continue
+            if family == "bore":
+                stock = [d for d in r.bore_diameters_mm if r.min_void_mm <= d <= 2.0 * radius]
+                if stock:
+                    drafts.append(Draft(family="bore", centre=(float(c[0]), float(c[1])), size=max(stock),
+                                        source=source, part=i, tools=r.tools))
+                continue
+            room = Room.bare(p, r, openings)
+            d = (_polygon_in if family == "polygon" else _slot_in)(room, p, r, source, i)
+            if d is not None:
+                drafts.append(d)
+        worth = [d for d in drafts if score(d.shape()) > 0.0]
+        total = sum(score(d.shape()) for d in worth)
+        # the first of equal worth in the plain order, as a search of every honeycomb would keep
+        if total > best[0] or (total == best[0] and total > 0.0 and k < best[1]):
+            best = (total, k, worth)
+    return best[2]
 
 
-def _lattice_of(allowed, families, r: Resolved, score, *, openings=()) -> list[Draft]:
+def _lattice_of(allowed, families, r: Resolved, score, *, openings=(), bound=None) -> list[Draft]:
     """The honeycomb over ``allowed`` (``lattice_layout``) of most worth among ``families``, one family each."""
     best: tuple[float, list[Draft]] = (0.0, [])
     for family in families:
-        got = lattice_layout(allowed, family, r, score, source=-1, openings=openings)
+        got = lattice_layout(allowed, family, r, score, source=-1, openings=openings, bound=bound)
         worth = sum(score(d.shape()) for d in got)
         if worth > best[0]:
             best = (worth, got)
     return best[1]
 
 
-def _fill(placed: list[Draft], allowed, site: Site, r: Resolved, score, evaluate, cap: float, openings
-          ) -> tuple[list[Draft], int]:
+def _fill(placed: list[Draft], allowed, site: Site, r: Resolved, score, evaluate, cap: float, openings,
+          bound=None) -> tuple[list[Draft], int]:
     """New voids in the room the layout leaves (the region open to voids less every void grown by its web): a
     honeycomb there, each new void kept where it keeps the rules beside the others and is worth it; then those
     costing most stiffness dropped until the panel is no softer than ``cap``. Returns the drafts and how many
@@ -794,7 +812,7 @@ def _fill(placed: list[Draft], allowed, site: Site, r: Resolved, score, evaluate
     room = overlay(shapely.difference, allowed, shapely.union_all(grown))
     # ``mixed``: a honeycomb of one of the families the layout already uses (max_types counts families).
     families = sorted({d.family for d in placed}) if r.family == "mixed" else [r.family]
-    extra = _lattice_of(room, families, r, score, openings=openings) if not room.is_empty else []
+    extra = _lattice_of(room, families, r, score, openings=openings, bound=bound) if not room.is_empty else []
     # Numbered after the voids of the same source already there (a honeycomb layout is source -1 too): every
     # void keeps its own (source, part), which its id follows.
     first = 1 + max((d.part for d in placed if d.source == -1), default=-1)
@@ -1035,7 +1053,7 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
         # ``mixed``: the families the fitted voids chose (all three when none was), one family per honeycomb.
         lattice_families = (sorted({d.family for d in placed}) or list(families)[: r.max_types]) \
             if r.family == "mixed" else [r.family]
-        grid_drafts = _lattice_of(allowed, lattice_families, r, score, openings=opening_shapes) \
+        grid_drafts = _lattice_of(allowed, lattice_families, r, score, openings=opening_shapes, bound=bound) \
             if not mirror.axes else []
         other = place(grid_drafts, site, r) if grid_drafts else None
         area_fit = sum(d.shape().area for d in placed)
@@ -1070,7 +1088,7 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
         notes += list(shaped.notes)
         placed = list(shaped.drafts)
         if not mirror.axes:
-            placed, filled = _fill(placed, allowed, site, r, score, evaluate, cap, opening_shapes)
+            placed, filled = _fill(placed, allowed, site, r, score, evaluate, cap, opening_shapes, bound)
             if filled:
                 notes.append(f"{filled} more void(s) placed in the room the layout left, where the material works "
                              "least, the panel staying no softer than the freeform layout.")

@@ -267,11 +267,11 @@ def eased_outline(points: np.ndarray, corner: str, size: float):
         back = size * np.tan(turn / 2.0)
     room = 0.49 * np.minimum(len_prev, len_next)
     back = np.minimum(back, room)
+    a = (pts + back[:, None] * u_prev).tolist()
+    b = (pts + back[:, None] * u_next).tolist()
+    bulges = [0.0] * n if corner == "chamfer" else [bulge_of(t) for t in turn.tolist()]
     out = []
-    for i in range(n):
-        a = pts[i] + back[i] * u_prev[i]
-        b = pts[i] + back[i] * u_next[i]
-        bulge = 0.0 if corner == "chamfer" else bulge_of(turn[i])
-        out.append((float(a[0]), float(a[1]), bulge))
-        out.append((float(b[0]), float(b[1]), 0.0))
+    for (ax, ay), (bx, by), bulge in zip(a, b, bulges):
+        out.append((ax, ay, bulge))
+        out.append((bx, by, 0.0))
     return tuple(out)
