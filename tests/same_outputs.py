@@ -17,8 +17,11 @@ Each file is read back and made comparable before it is digested:
   values, ezdxf documentation, "ezdxf Metadata"); the CLASS records of a DXF are put in sorted order (ezdxf
   writes them in an order that changes with each process's string-hash seed);
 - "exact": the masked bytes, digested as they are;
-- "rounded": the masked text with every decimal number rounded to 9 significant figures, so that a difference in
-  the last bits of a float (another BLAS, another processor's fused multiply-add) does not count.
+- "rounded": the masked text with every decimal number rounded to 9 significant figures;
+- "skeleton" and "numbers" (what tests/test_same_outputs.py compares): the masked text with its decimal numbers
+  taken out, digested, and those numbers to 7 significant figures, each compared within ``CLOSE`` of its size,
+  so that a difference in the last bits of a float (another BLAS, another processor's fused multiply-add), or
+  the little a few figures grow it to, does not count.
 """
 
 from __future__ import annotations
@@ -32,6 +35,8 @@ import shutil
 import sys
 from importlib import metadata
 from pathlib import Path
+
+import numpy as np
 
 HERE = Path(__file__).resolve().parent
 ROOT = HERE.parent
@@ -174,15 +179,41 @@ def digest(text: str) -> str:
     return hashlib.sha256(text.encode("utf-8", errors="surrogateescape")).hexdigest()
 
 
-def digests(workdir: Path) -> dict[str, dict[str, str]]:
-    """name -> {"exact": ..., "rounded": ...} for every output of :func:`run_all`."""
+# Two figures agree when they differ by no more than this share of the larger (with a floor of a thousandth, so
+# that a figure near zero is measured against a thousandth, not against itself).
+CLOSE = 1e-6
+
+
+def skeleton(text: str) -> tuple[str, str]:
+    """The text with every decimal number replaced by "#", and the numbers, each to 7 significant figures, one
+    space between them."""
+    numbers = " ".join(f"{float(m.group(0)):.7g}" for m in _DECIMAL.finditer(text))
+    return _DECIMAL.sub("#", text), numbers
+
+
+def close(found: str, expected: str) -> bool:
+    """The same count of numbers, each within ``CLOSE`` of the other (see there)."""
+    found, expected = found.split(), expected.split()
+    if len(found) != len(expected):
+        return False
+    a = np.array([float(x) for x in found])
+    b = np.array([float(x) for x in expected])
+    return bool(np.all(np.abs(a - b) <= CLOSE * np.maximum(np.maximum(np.abs(a), np.abs(b)), 1e-3)))
+
+
+def digests(workdir: Path) -> dict[str, dict]:
+    """name -> {"exact": ..., "rounded": ..., "skeleton": ..., "numbers": [...]} for every output of
+    :func:`run_all`: the digests of the masked text as it is and rounded, the digest of the masked text with its
+    numbers taken out, and those numbers (7 significant figures)."""
     before = _dt.date.today().isoformat()
     files = run_all(workdir)
     dates = {before, _dt.date.today().isoformat()}
     out = {}
     for name, path in files.items():
         text = normalised(path, workdir, dates)
-        out[name] = {"exact": digest(text), "rounded": digest(rounded(text))}
+        frame, numbers = skeleton(text)
+        out[name] = {"exact": digest(text), "rounded": digest(rounded(text)), "skeleton": digest(frame),
+                     "numbers": numbers}
     return out
 
 
@@ -200,7 +231,12 @@ def compare(found: dict[str, dict[str, str]], expected: dict) -> list[str]:
         if name not in found or name not in expected["files"]:
             lines.append(f"{name}: {'not written' if name not in found else 'not in the fixture'}")
             continue
-        kinds = [k for k in ("exact", "rounded") if found[name][k] != expected["files"][name][k]]
+        want = expected["files"][name]
+        kinds = [k for k in ("exact", "rounded") if found[name][k] != want[k]]
+        if found[name]["skeleton"] != want["skeleton"]:
+            kinds.append("in its text")
+        elif not close(found[name]["numbers"], want["numbers"]):
+            kinds.append(f"in its figures (by more than {CLOSE:g} of the larger)")
         if kinds:
             lines.append(f"{name}: differs {' and '.join(kinds)}")
     return lines

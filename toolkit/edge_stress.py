@@ -67,6 +67,11 @@ KT_FLOOR = 0.01
 # the arcs for the voids lacuna makes and 0.1 mm for polygons read from a drawing; a web this thin is far below
 # one element of the local model, so no other edge comes this near.
 SNAP_REACH_MM = 0.25
+# The outlines a local model is meshed from are put on a grid of this pitch first. The mesh is not a continuous
+# function of its input (a side holds floor(length / size) sources, the triangulation breaks ties): a void whose
+# coordinates differ in their last bits (another processor's BLAS upstream) was meshed otherwise and its peak
+# moved by half a per cent. A thousandth of a millimetre is far below any drawing's accuracy.
+STEADY_MM = 1e-3
 
 
 @dataclass(frozen=True)
@@ -331,6 +336,11 @@ def _interp_grid(analysis, xy: np.ndarray) -> np.ndarray:
     return np.stack([np.einsum("ka,kac->kc", n, u[:, 0::2]), np.einsum("ka,kac->kc", n, u[:, 1::2])], axis=1)
 
 
+def _steady(shape):
+    """``shape`` with its coordinates on the ``STEADY_MM`` grid (the same mesh for the same drawn void)."""
+    return shapely.set_precision(shape, STEADY_MM)
+
+
 def _outline_sources(shape, n_edge: float, arc_step: float, refine: float, corner_shrink: float = CORNER_SHRINK):
     """Sources of the size field along one void's or opening's edge: points and their sizes, and the size at
     its straight parts. A sharp corner's size is the edge's over ``corner_shrink``."""
@@ -375,7 +385,7 @@ def void_edge_stress(panel: Panel, void: Void, others, final, solid, *, refine: 
 
 
 def _local_model(panel: Panel, void: Void, others, final, solid, refine: float) -> EdgeStress:
-    shape = void.shape
+    shape = _steady(void.shape)
     circle = shapely.minimum_bounding_circle(shape)
     centre = np.asarray(circle.centroid.coords[0])
     radius = float(shapely.minimum_bounding_radius(shape))
@@ -386,7 +396,7 @@ def _local_model(panel: Panel, void: Void, others, final, solid, refine: float) 
     cases = final.cases
 
     # neighbours in the window: other voids and drawn openings
-    neighbours = [(v.id, v.shape) for v in others if shapely.intersects(v.shape, window)]
+    neighbours = [(v.id, _steady(v.shape)) for v in others if shapely.intersects(v.shape, window)]
     neighbours += [(f"opening {o.handle or o.layer}", o.shape) for o in panel.openings
                    if shapely.intersects(o.shape, window)]
     webs_thin = []
