@@ -332,6 +332,39 @@ def test_the_bounded_search_finds_the_layout_the_full_search_finds():
     assert n_bounded < n_every
 
 
+
+def test_the_bounded_honeycomb_search_keeps_the_honeycomb_the_full_search_keeps():
+    # The honeycomb over a region (lattice_layout) under an energy field rising to the right: fitted in falling
+    # order of its cells' bound and stopped early, it must keep the same voids as the search of every size and
+    # offset, with fewer fits.
+    from toolkit.voids import layout as L
+
+    steel = Rules(min_web_mm=25, edge_cover_mm=25, min_void_mm=20)
+    r = replace(L.resolve_settings(VoidOptions(family="polygon", sides=6, snap_mm=0.0), steel), web_ratio=0.5)
+    region = Polygon([(0, 0), (2400, 0), (2400, 700), (900, 700), (0, 450)])
+    field = lambda p: 1.0 + np.asarray(p)[:, 0] / 500.0  # noqa: E731
+    rho = 4.0
+    score = lambda g: g.area * (1.0 - mean_over(g, field, 10.0) / rho)  # noqa: E731
+    bound = lambda g: g.area * mean_over(g, lambda p: np.maximum(1.0 - field(p) / rho, 0.0), 10.0)  # noqa: E731
+    fits = []
+    real = L._settled
+
+    def counting(*args):
+        fits.append(1)
+        return real(*args)
+
+    L._settled = counting
+    try:
+        every = L.lattice_layout(region, "polygon", r, score)
+        n_every = len(fits)
+        fits.clear()
+        bounded = L.lattice_layout(region, "polygon", r, score, bound=bound)
+        n_bounded = len(fits)
+    finally:
+        L._settled = real
+    assert every and [(d.centre, d.corners) for d in bounded] == [(d.centre, d.corners) for d in every]
+    assert n_bounded < n_every
+
 def test_each_layout_says_its_kind_and_a_kind_can_be_fitted_alone():
     # The limiting rule refits each freeform void as the kind of layout the first fit chose (pipeline.limiting_rule):
     # asked for one kind, candidates must give that layout alone, the same as the full search gives it.

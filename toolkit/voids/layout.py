@@ -644,6 +644,16 @@ def _pitches(room: Room, r: Resolved) -> list[float]:
     return sizes
 
 
+def _highest_first(groups: list[list], bound) -> list[tuple[int, float]]:
+    """(index, ceiling) of each group of pieces, ceiling the sum of ``bound`` over its pieces, highest first (equal
+    ones in their given order); without ``bound``, every group in its order with an endless ceiling. A search
+    that fits the groups in this order may stop at the first whose ceiling the best found beats."""
+    if bound is None:
+        return [(k, math.inf) for k in range(len(groups))]
+    ceilings = [sum(bound(p) for p in pieces) for pieces in groups]
+    return [(int(k), ceilings[k]) for k in np.argsort(-np.asarray(ceilings), kind="stable")]
+
+
 class Layout(list):
     """The drafts of one candidate layout of a freeform void, and which kind of layout it is (``kind``: "split 1"
     for the whole void, "split k" for k pieces, "comb s o" for the honeycomb of the s-th pitch and o-th offset,
@@ -697,16 +707,10 @@ def candidates(room: Room, family: str, r: Resolved, *, trials: int = 2, score=N
                 combs.append((sum(p.area for p in useful), f"comb {s} {o}", useful))
     combs.sort(key=lambda c: -c[0])
     layouts += [(kind, pieces) for _, kind, pieces in combs[:trials]]
-    if score is not None and bound is not None:
-        ceilings = [sum(bound(p) for p in pieces) for _, pieces in layouts]
-        order = np.argsort(-np.asarray(ceilings), kind="stable")
-        layouts = [layouts[k] for k in order]
-        ceilings = [ceilings[k] for k in order]
-    else:
-        ceilings = [math.inf] * len(layouts)
     out = []
     best = -math.inf
-    for (kind, pieces), ceiling in zip(layouts, ceilings):
+    for k, ceiling in _highest_first([pieces for _, pieces in layouts], bound if score is not None else None):
+        kind, pieces = layouts[k]
         if ceiling * (1.0 + BOUND_SLACK) < best:
             break  # the rest are sorted below it
         drafts = [d for i, p in enumerate(pieces) if (d := fit(room, p, r, v.index, i)) is not None]
@@ -758,14 +762,9 @@ def lattice_layout(allowed, family: str, r: Resolved, score, *, source: int = -1
                 c, radius = inscribed_circle(p)  # one search: its centre and radius go together
                 cells.append((p, c, radius if 2.0 * radius >= r.min_void_mm else None))
             combs.append(cells)
-    if bound is not None:
-        ceilings = [sum(bound(p) for p, _, radius in cells if radius is not None) for cells in combs]
-        order = [int(k) for k in np.argsort(-np.asarray(ceilings), kind="stable")]
-    else:
-        ceilings, order = [math.inf] * len(combs), list(range(len(combs)))
     best: tuple[float, int, list[Draft]] = (0.0, -1, [])
-    for k in order:
-        if ceilings[k] * (1.0 + BOUND_SLACK) < best[0]:
+    for k, ceiling in _highest_first([[p for p, _, radius in cells if radius is not None] for cells in combs], bound):
+        if ceiling * (1.0 + BOUND_SLACK) < best[0]:
             break  # the rest are sorted below it
         drafts = []
         for i, (p, c, radius) in enumerate(combs[k]):
