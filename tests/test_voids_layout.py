@@ -437,3 +437,31 @@ def test_mixed_gets_the_honeycomb_and_the_fill_too():
     assert mixed.mass_removed_percent >= 0.98 * ngons.mass_removed_percent
     assert mixed.final.compliance_Nmm <= mixed.freeform_analysis.compliance_Nmm
     assert not mixed.rationalised.violations
+
+
+def test_a_honeycomb_a_little_too_soft_is_made_smaller_not_thinned():
+    """Four square voids whose panel is 3 % softer than the cap, where dropping one would remove less than the
+    caller needs: each void is made smaller (2 % of its size a round) until the panel is within the cap, all four
+    kept. Without a rules check to allow it nothing is made smaller and the compliance comes back above the cap.
+    The panel here is a stand-in whose compliance rises with the area cut (1 N mm per mm2 over 10,000)."""
+    from types import SimpleNamespace
+
+    from toolkit.voids import layout as L
+    from toolkit.voids.outline import Draft
+
+    corners = ((50.0, 50.0), (-50.0, 50.0), (-50.0, -50.0), (50.0, -50.0))
+    drafts = [Draft(family="polygon", centre=(200.0 + 300.0 * k, 200.0), size=2.0 * math.hypot(50, 50), source=-1,
+                    part=k, corners=corners) for k in range(4)]
+
+    def evaluate(state):
+        return 10_000.0 + sum(d.shape().area for d in state), np.zeros(100)
+
+    evaluate.grid = SimpleNamespace(nx=10, ny=10, dx=100.0, dy=100.0)
+    area = sum(d.shape().area for d in drafts)
+    cap = 10_000.0 + 0.97 * area
+    c, kept, _ = L._within_cap(drafts, evaluate, cap, floor_mm2=0.8 * area, fits=lambda t, i, s: t)
+    assert c <= cap and len(kept) == 4
+    assert all(k.size < d.size for k, d in zip(kept, drafts))
+    assert sum(d.shape().area for d in kept) >= 0.93 * area  # two rounds of 0.98^2 = 0.96 of the area at most
+    c, kept, _ = L._within_cap(drafts, evaluate, cap, floor_mm2=0.8 * area)
+    assert c > cap and kept == drafts

@@ -40,6 +40,16 @@ MIN_INTERIOR_DEG = 30.0
 MIN_TURN_DEG = 5.0
 # Scales tried when a shape is shrunk into its region: the largest that fits wins (2 % steps).
 _SCALES = np.linspace(1.0, 0.2, 41)
+# Measures of two corners closer than this share of the largest are equal (``tidy_ngon``).
+TIE = 1e-9
+# Corners of a bay a cut may go through (``carve``), evenly taken along its edge when it has more.
+CUT_CORNERS = 8
+# Directions of the lines a region's bay is cut off by (``carve``): every 22.5 degrees.
+_FAN = np.column_stack([np.cos(np.linspace(0, np.pi, 8, endpoint=False)),
+                        np.sin(np.linspace(0, np.pi, 8, endpoint=False))])
+# A shape counts as inside a region when it does once shrunk by this share of its size (``_shrunk``): far below
+# any drawing's accuracy, far above the last bits of the coordinates.
+COVER_SLACK = 1e-7
 # Douglas-Peucker tolerance on the hull before it is cut down to n corners, as a share of the least feature.
 HULL_SIMPLIFY = 0.05
 
@@ -139,6 +149,15 @@ def tidy_ngon(pts: np.ndarray, sides: int, feature: float) -> np.ndarray | None:
             for j in ((i - 1) % n, i % n):
                 m[j] = _corner(pts, j)
 
+    def least(among, values) -> int:
+        """The corner of ``among`` with the least value; corners within TIE of it are told apart by where they
+        stand (their coordinates to the micrometre), not by their place in the ring, so a hull whose corners
+        differ in their last bits, or start elsewhere, loses the same corner."""
+        lo = min(values[k] for k in among)
+        tol = TIE * max(max(values), 1e-300)
+        return min((k for k in among if values[k] <= lo + tol),
+                   key=lambda k: (round(pts[k][0], 3), round(pts[k][1], 3)))
+
     for _ in range(8 * sides + 4 * len(pts)):
         n = len(pts)
         if n < 3:
@@ -148,16 +167,16 @@ def tidy_ngon(pts: np.ndarray, sides: int, feature: float) -> np.ndarray | None:
         tri = [c[2] for c in m]
         flat = [k for k in range(n) if 180.0 - interior[k] < MIN_TURN_DEG]
         if flat and n > 3:
-            delete(min(flat, key=tri.__getitem__))
+            delete(least(flat, tri))
             continue
         shortest = min(side)
         if shortest < feature and n > 3:
-            i = side.index(shortest)
+            i = least(range(n), side)
             j = (i + 1) % n
-            delete(i if tri[i] <= tri[j] else j)
+            delete(least((i, j), tri))
             continue
         if n > sides:
-            delete(tri.index(min(tri)))
+            delete(least(range(n), tri))
             continue
         sharp = [a < MIN_INTERIOR_DEG for a in interior]
         if n == sides and not any(sharp):
@@ -167,10 +186,10 @@ def tidy_ngon(pts: np.ndarray, sides: int, feature: float) -> np.ndarray | None:
             blunt = [k for k in range(n) if not sharp[k]]
             if not blunt or n <= 3:
                 return None
-            delete(min(blunt, key=tri.__getitem__))
+            delete(least(blunt, tri))
             continue
         # Fewer corners than asked: chamfer the sharpest corner that has room.
-        for i in sorted(range(n), key=interior.__getitem__):
+        for i in sorted(range(n), key=lambda k: (round(interior[k], 6), round(pts[k][0], 3), round(pts[k][1], 3))):
             cut = _chamfer(pts, i, feature)
             if cut is not None:
                 pts = cut
@@ -228,6 +247,11 @@ def _halfplane_polygon(P: np.ndarray, N: np.ndarray, reach: float) -> Polygon:
     return Polygon([P - reach * U, P + reach * U, P + reach * U + reach * N, P - reach * U + reach * N])
 
 
+def _place(xy) -> tuple[float, float]:
+    """A point to the micrometre: the key that tells equal candidates apart by where they stand."""
+    return round(float(xy[0]), 3), round(float(xy[1]), 3)
+
+
 def carve(region, pts: np.ndarray, rounds: int = 8) -> np.ndarray | None:
     """The convex polygon ``pts`` cut by straight lines until ``region`` covers it, each cut losing least area.
 
@@ -238,33 +262,54 @@ def carve(region, pts: np.ndarray, rounds: int = 8) -> np.ndarray | None:
     Q = Polygon(pts)
     shapely.prepare(region)
     reach = 4.0 * (Q.length + 1.0)
-    directions = np.column_stack([np.cos(np.linspace(0, np.pi, 8, endpoint=False)),
-                                  np.sin(np.linspace(0, np.pi, 8, endpoint=False))])
+    directions = _FAN
     boundary = region.boundary
     for _ in range(rounds):
         outside = shapely.difference(Q, region)
         if outside.is_empty or outside.area <= 1e-6 * Q.area:
             break
-        piece = max(shapely.get_parts(outside), key=lambda g: g.area)
+        # the largest piece (equal ones told apart by where they stand), its ring from its lowest-left corner:
+        # neither may follow where GEOS happened to start a ring
+        piece = max(shapely.get_parts(outside), key=lambda g: (round(g.area / Q.area, 9), _place(g.centroid.coords[0])))
         corners = shapely.get_coordinates(piece)[:-1]
+        corners = np.roll(corners, -min(range(len(corners)), key=lambda j: _place(corners[j])), axis=0)
         # The cut goes through a point where the region's edge enters the polygon: corners of the outside piece
-        # on the region's boundary (at most eight, evenly taken).
+        # on the region's boundary (at most CUT_CORNERS, evenly taken).
         on_edge = corners[shapely.dwithin(boundary, shapely.points(corners), 1e-6 * math.sqrt(Q.area))]
         corners = on_edge if len(on_edge) else corners
-        if len(corners) > 8:
-            corners = corners[np.linspace(0, len(corners) - 1, 8).astype(int)]
+        if len(corners) > CUT_CORNERS:
+            corners = corners[np.linspace(0, len(corners) - 1, CUT_CORNERS).astype(int)]
         centre = np.asarray(Q.centroid.coords[0])
         P, N = _halfplanes(corners, directions, centre)
         left = clipped_areas(piece, P, N)
         kept = clipped_areas(Q, P, N)
         clear = left <= 1e-6 * max(piece.area, 1e-12)
-        k = int(np.argmax(np.where(clear, kept, -np.inf))) if clear.any() else int(np.argmin(left - 1e-9 * kept))
+        # Cuts along one line through different corners keep the same area (a staircase's corners stand in
+        # lines): areas are compared to a part in 10^9 of the polygon, and among equal ones the cut whose point
+        # comes first (to the micrometre), then whose direction does, wins: not the one the last bits favour.
+        if clear.any():
+            worth = np.where(clear, np.round(kept / Q.area, 9), -np.inf)
+        else:
+            worth = -np.round(left / Q.area, 9) + 1e-9 * np.round(kept / Q.area, 9)
+        tied = np.flatnonzero(worth == worth.max())
+        k = int(min(tied, key=lambda j: (_place(P[j]), j % len(_FAN))))
         cut = largest_part(shapely.intersection(Q, _halfplane_polygon(P[k], N[k], reach)))
         if cut is None or cut.area <= 0:
             return None
         Q = shapely.convex_hull(cut)
     out = shapely.get_coordinates(Q.exterior)[:-1]
     return _ccw(out) if len(out) >= 3 else None
+
+
+def _shrunk(pts: np.ndarray) -> np.ndarray:
+    """The polygon ``pts`` shrunk about its corners' mean by ``COVER_SLACK``: what must lie in a region for
+    ``pts`` to count as inside it.
+
+    A fit is made from the region itself, so it often touches the region's edge, and an exact test of a touching
+    shape falls either way with the last bits of the coordinates: without the slack, a fifth of the plate's fits
+    changed (by 3 - 10 % of their area) when the region's coordinates moved by 1e-13 of themselves."""
+    c = pts.mean(axis=-2, keepdims=True)
+    return c + (1.0 - COVER_SLACK) * (pts - c)
 
 
 def fit_inside(region, pts: np.ndarray, feature: float = 0.0) -> np.ndarray | None:
@@ -278,7 +323,7 @@ def fit_inside(region, pts: np.ndarray, feature: float = 0.0) -> np.ndarray | No
     best = None
     for c in centres:
         cand = c + _SCALES[:, None, None] * (pts - c)[None, :, :]
-        ok = shapely.covers(region, shapely.polygons(cand))
+        ok = shapely.covers(region, shapely.polygons(_shrunk(cand)))
         if ok.any():
             k = int(np.argmax(ok))
             if best is None or _SCALES[k] > best[0]:
@@ -293,7 +338,10 @@ def fit_inside(region, pts: np.ndarray, feature: float = 0.0) -> np.ndarray | No
 
 def hull_ngon(region, sides: int, feature: float) -> np.ndarray | None:
     """An irregular convex ``sides``-gon inside ``region``, as large as the hull method finds (see module text)."""
-    hull = shapely.convex_hull(region)
+    # The hull of the region's corners put on a 1e-6 mm grid: a freeform void's outline runs in steps of the
+    # grid's elements, so its hull has runs of corners in a line, and which of them an exact hull keeps (and the
+    # simplification after it) fell either way with the last bits of the coordinates.
+    hull = shapely.convex_hull(shapely.multipoints(np.round(shapely.get_coordinates(shapely.convex_hull(region)), 6)))
     if not isinstance(hull, Polygon) or hull.area <= 0:
         return None
     # Douglas-Peucker only deletes corners, so the simplified hull is convex and inside the hull; it leaves the
@@ -303,7 +351,7 @@ def hull_ngon(region, sides: int, feature: float) -> np.ndarray | None:
     tidy = tidy_ngon(pts, sides, feature)
     if tidy is None:
         return None
-    if not shapely.covers(region, Polygon(tidy)):
+    if not shapely.covers(region, Polygon(_shrunk(tidy))):
         cut = carve(region, tidy)
         if cut is not None:
             cut = tidy_ngon(cut, sides, feature)

@@ -69,6 +69,9 @@ FIT_RTOL = 5e-3
 # A honeycomb over the whole region replaces the voids fitted to the freeform ones only when it removes this many
 # times their area (or they are softer than the freeform layout): the optimiser's load paths are worth keeping.
 LATTICE_GAIN = 1.1
+# A honeycomb a little softer than the freeform layout has its voids made this much smaller per round
+# (``_within_cap``), rather than a fifth of them dropped.
+CAP_SHRINK = 0.98
 # The most voids one freeform void is split into along its length.
 MAX_PIECES = 4
 
@@ -851,12 +854,14 @@ def threshold_density(grid, energy: np.ndarray, voids, band: float = 2.0) -> flo
     return float(np.median(energy[near])) / (2.0 * grid.element_area)
 
 
-def _within_cap(drafts: list[Draft], evaluate, cap: float, rounds: int = 5, keep: int = 0, floor_mm2: float = 0.0
-                ) -> tuple[float, list[Draft], np.ndarray]:
+def _within_cap(drafts: list[Draft], evaluate, cap: float, rounds: int = 5, keep: int = 0, floor_mm2: float = 0.0,
+                fits=None) -> tuple[float, list[Draft], np.ndarray]:
     """``drafts`` less the voids that cost most stiffness for their area, a fifth at a time, until the compliance is
-    at most ``cap``: (compliance, drafts left, their element energies). The first ``keep`` drafts are not dropped. The caller needs no
-    layout removing less than ``floor_mm2``: the dropping stops there (no analysis is spent on it) and the
-    compliance returned is then the last one analysed, above the cap."""
+    at most ``cap``: (compliance, drafts left, their element energies). The first ``keep`` drafts are not dropped.
+    The caller needs no layout removing less than ``floor_mm2``: where dropping would go below it, the voids are
+    made smaller instead (``CAP_SHRINK`` of their size a round, each only where ``fits(trial, i, state)``, the
+    rules, allow; without ``fits`` none is), and where that cannot go on either the compliance returned is the
+    last one analysed, above the cap."""
     state = list(drafts)
     c, energy = evaluate(state)
     for _ in range(rounds):
@@ -871,7 +876,15 @@ def _within_cap(drafts: list[Draft], evaluate, cap: float, rounds: int = 5, keep
         worst = set(np.argsort(-hot)[: max(1, (len(state) - keep) // 5)].tolist())
         fewer = [d for k, d in enumerate(state) if k < keep or k not in worst]
         if sum(d.shape().area for d in fewer) < floor_mm2:
-            break
+            # A honeycomb a little too soft: every void a little smaller rather than a fifth of them gone.
+            smaller = list(state)
+            for k in range(keep, len(state)):
+                t = state[k].scaled(CAP_SHRINK * state[k].size)
+                if fits is not None and fits(t, k, smaller) is not None:
+                    smaller[k] = t
+            if smaller == state or sum(d.shape().area for d in smaller) < floor_mm2:
+                break
+            fewer = smaller
         state = fewer
         c, energy = evaluate(state)
     return c, state, energy
@@ -1060,7 +1073,8 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
         if other is not None and other[0] and (
                 c_fit > cap or sum(d.shape().area for d in other[0]) > LATTICE_GAIN * area_fit):
             c_grid, lattice, e_grid = _within_cap(other[0], evaluate, cap,
-                                          floor_mm2=LATTICE_GAIN * area_fit if c_fit <= cap else 0.0)
+                                                  floor_mm2=LATTICE_GAIN * area_fit if c_fit <= cap else 0.0,
+                                                  fits=lambda t, i, s: site.fits(t, i, s, move=False))
             area_grid = sum(d.shape().area for d in lattice)
             # The optimiser's own topology is kept unless the honeycomb removes clearly more (LATTICE_GAIN).
             if c_grid <= cap and (c_fit > cap or area_grid > LATTICE_GAIN * area_fit):
@@ -1068,8 +1082,11 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
                              f"rules ask it keeps more of the saving than voids fitted one by one to the "
                              f"optimiser's freeform voids ({area_grid:.0f} against {area_fit:.0f} mm2 removed, "
                              "no softer than the freeform layout).")
-                keep_ids = {id(d) for d in lattice}
-                placed, change_recs, drop_recs = lattice, [c for c in other[1] if id(c[0]) in keep_ids], other[2]
+                keys = {(d.source, d.part): d for d in lattice}
+                change_recs = [c for c in other[1] if (c[0].source, c[0].part) in keys]
+                change_recs += [(d, f"made smaller, {_describe(d)}", "so that the honeycomb is no softer than the "
+                                 "freeform layout") for d in lattice if d not in other[0]]
+                placed, drop_recs = lattice, other[2]
                 first = (c_grid, e_grid)
     for source, reason in drop_recs:
         dropped.append(f"{where(source)}: {reason}; dropped.")
