@@ -155,8 +155,7 @@ def tidy_ngon(pts: np.ndarray, sides: int, feature: float) -> np.ndarray | None:
         differ in their last bits, or start elsewhere, loses the same corner."""
         lo = min(values[k] for k in among)
         tol = TIE * max(max(values), 1e-300)
-        return min((k for k in among if values[k] <= lo + tol),
-                   key=lambda k: (round(pts[k][0], 3), round(pts[k][1], 3)))
+        return min((k for k in among if values[k] <= lo + tol), key=lambda k: _place(pts[k]))
 
     for _ in range(8 * sides + 4 * len(pts)):
         n = len(pts)
@@ -189,7 +188,7 @@ def tidy_ngon(pts: np.ndarray, sides: int, feature: float) -> np.ndarray | None:
             delete(least(blunt, tri))
             continue
         # Fewer corners than asked: chamfer the sharpest corner that has room.
-        for i in sorted(range(n), key=lambda k: (round(interior[k], 6), round(pts[k][0], 3), round(pts[k][1], 3))):
+        for i in sorted(range(n), key=lambda k: (round(interior[k], 6), _place(pts[k]))):
             cut = _chamfer(pts, i, feature)
             if cut is not None:
                 pts = cut
