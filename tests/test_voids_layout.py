@@ -293,23 +293,27 @@ def test_every_void_gets_its_own_id_when_a_honeycomb_layout_is_filled_further():
     assert set(ids) == {f"V{k}" for k in range(1, len(ids) + 1)}
 
 
-def test_the_bounded_search_finds_the_layout_the_full_search_finds():
-    # A long tapering void in a 0.5 web-ratio profile, under an energy field rising to the right: the candidate
-    # layouts (whole, split, honeycombs) are scored; fitted in falling order of their pieces' bound, the search
-    # that stops early must pick a layout of the same worth as the one that fits them all, with fewer fits.
+def _steel_web_ratio_half():
+    """Resolved n-gon settings of a steel plate with a web of half the larger void's size."""
     from toolkit.voids import layout as L
-    from toolkit.voids.measure import clean
 
     steel = Rules(min_web_mm=25, edge_cover_mm=25, min_void_mm=20)
-    r = replace(L.resolve_settings(VoidOptions(family="polygon", sides=6, snap_mm=0.0), steel), web_ratio=0.5)
-    shape = Polygon([(200, 250), (1500, 120), (1500, 420)])
-    neighbour = box(1560, 100, 1800, 450)
-    kept, _ = clean([shape], r.min_void_mm)
+    return replace(L.resolve_settings(VoidOptions(family="polygon", sides=6, snap_mm=0.0), steel), web_ratio=0.5)
+
+
+def _worth_rising_to_the_right():
+    """A layout's worth and its bound, as rationalise makes them, under an energy field rising to the right."""
     field = lambda p: 1.0 + np.asarray(p)[:, 0] / 500.0  # noqa: E731
     rho = 4.0
     score = lambda g: g.area * (1.0 - mean_over(g, field, 10.0) / rho)  # noqa: E731
     bound = lambda g: g.area * mean_over(g, lambda p: np.maximum(1.0 - field(p) / rho, 0.0), 10.0)  # noqa: E731
-    room = L.Room(kept[0], box(0, 0, 2000, 600), [neighbour], r, 1.0)
+    return score, bound
+
+
+def _with_fits_counted(call):
+    """``call()`` and how many fits (layout._settled) it made."""
+    from toolkit.voids import layout as L
+
     fits = []
     real = L._settled
 
@@ -319,18 +323,30 @@ def test_the_bounded_search_finds_the_layout_the_full_search_finds():
 
     L._settled = counting
     try:
-        every = L.candidates(room, "polygon", r)
-        n_every = len(fits)
-        fits.clear()
-        bounded = L.candidates(room, "polygon", r, score=score, bound=bound)
-        n_bounded = len(fits)
+        return call(), len(fits)
     finally:
         L._settled = real
+
+
+def test_the_bounded_search_finds_the_layout_the_full_search_finds():
+    # A long tapering void in a 0.5 web-ratio profile, under an energy field rising to the right: the candidate
+    # layouts (whole, split, honeycombs) are scored; fitted in falling order of their pieces' bound, the search
+    # that stops early must pick a layout of the same worth as the one that fits them all, with fewer fits.
+    from toolkit.voids import layout as L
+    from toolkit.voids.measure import clean
+
+    r = _steel_web_ratio_half()
+    shape = Polygon([(200, 250), (1500, 120), (1500, 420)])
+    neighbour = box(1560, 100, 1800, 450)
+    kept, _ = clean([shape], r.min_void_mm)
+    score, bound = _worth_rising_to_the_right()
+    room = L.Room(kept[0], box(0, 0, 2000, 600), [neighbour], r, 1.0)
+    every, n_every = _with_fits_counted(lambda: L.candidates(room, "polygon", r))
+    bounded, n_bounded = _with_fits_counted(lambda: L.candidates(room, "polygon", r, score=score, bound=bound))
     worth = lambda layouts: max(score(L._removed(ds)) for ds in layouts)  # noqa: E731
     assert len(every) >= 3 and bounded
     assert worth(bounded) == pytest.approx(worth(every), rel=1e-9)
     assert n_bounded < n_every
-
 
 
 def test_the_bounded_honeycomb_search_keeps_the_honeycomb_the_full_search_keeps():
@@ -339,31 +355,14 @@ def test_the_bounded_honeycomb_search_keeps_the_honeycomb_the_full_search_keeps(
     # offset, with fewer fits.
     from toolkit.voids import layout as L
 
-    steel = Rules(min_web_mm=25, edge_cover_mm=25, min_void_mm=20)
-    r = replace(L.resolve_settings(VoidOptions(family="polygon", sides=6, snap_mm=0.0), steel), web_ratio=0.5)
+    r = _steel_web_ratio_half()
     region = Polygon([(0, 0), (2400, 0), (2400, 700), (900, 700), (0, 450)])
-    field = lambda p: 1.0 + np.asarray(p)[:, 0] / 500.0  # noqa: E731
-    rho = 4.0
-    score = lambda g: g.area * (1.0 - mean_over(g, field, 10.0) / rho)  # noqa: E731
-    bound = lambda g: g.area * mean_over(g, lambda p: np.maximum(1.0 - field(p) / rho, 0.0), 10.0)  # noqa: E731
-    fits = []
-    real = L._settled
-
-    def counting(*args):
-        fits.append(1)
-        return real(*args)
-
-    L._settled = counting
-    try:
-        every = L.lattice_layout(region, "polygon", r, score)
-        n_every = len(fits)
-        fits.clear()
-        bounded = L.lattice_layout(region, "polygon", r, score, bound=bound)
-        n_bounded = len(fits)
-    finally:
-        L._settled = real
+    score, bound = _worth_rising_to_the_right()
+    every, n_every = _with_fits_counted(lambda: L.lattice_layout(region, "polygon", r, score))
+    bounded, n_bounded = _with_fits_counted(lambda: L.lattice_layout(region, "polygon", r, score, bound=bound))
     assert every and [(d.centre, d.corners) for d in bounded] == [(d.centre, d.corners) for d in every]
     assert n_bounded < n_every
+
 
 def test_each_layout_says_its_kind_and_a_kind_can_be_fitted_alone():
     # The limiting rule refits each freeform void as the kind of layout the first fit chose (pipeline.limiting_rule):
