@@ -210,13 +210,13 @@ def optimize_panel(
     # re-analyses one after the other (one factorisation of the grid in memory at a time, as in the optimiser).
     # Each stage's own seconds are kept, and "checks" is the wall time of them all.
     n = len(rationalised.voids)
+    held_back = free > 0 and made < LIMIT_SHARE * free  # the limiting rule is looked for
     tell(f"checking the {n} void{'s' if n != 1 else ''} to make: the panel analysed again, a local model of the "
-         "edge stress at each void" + (", the rule that held the layout back" if free > 0 and made < LIMIT_SHARE *
-                                      free else ""))
+         "edge stress at each void" + (", the rule that held the layout back" if held_back else ""))
     with Overlap() as work:
         threaded = work.threads > 1
         limit_job = None
-        if free > 0 and made < LIMIT_SHARE * free:
+        if held_back:
             mine = (panel, list(freeform), rationalised.voids)
             limit_panel, limit_freeform, limit_voids = own(mine) if threaded else mine
             limit_job = work.submit(timed, "limit", timings, limiting_rule, limit_panel, limit_freeform,

@@ -87,9 +87,10 @@ class Labels:
         """Mark ``box`` as lettered."""
         self.taken.append(box)
 
-    def clear(self, box, *, own: str | None = None, within=None, leader=None) -> bool:
+    def clear(self, box, *, own: str | None = None, within=None, leader=None, blocked: bool = True) -> bool:
         """Whether ``box`` (and its ``leader`` segment, when given) is clear of every label and everything blocked
-        (but what ``own`` owns), and inside ``within`` (default: the sheet's drawing area)."""
+        (but what ``own`` owns), and inside ``within`` (default: the sheet's drawing area). ``blocked`` False: of
+        the other labels alone (cased lettering reads over a line)."""
         if not (within if within is not None else self.sheet).covers(box):
             return False
         spaced = box.buffer(self.air)
@@ -97,7 +98,7 @@ class Labels:
             return False
         if leader is not None and any(leader.intersects(t) for t in self.taken):
             return False
-        if self._blocked:
+        if blocked and self._blocked:
             if self._tree is None:
                 self._tree = shapely.STRtree(self._blocked)
             for k in self._tree.query(box.buffer(self.gap), predicate="intersects"):
@@ -121,8 +122,7 @@ class Labels:
             order.sort(key=lambda k: not prefer.covers(boxes[k]))
         chosen = next((k for k in order if self.clear(boxes[k])), None)
         if chosen is None and loose:
-            chosen = next((k for k in order if self.sheet.covers(boxes[k])
-                           and not any(boxes[k].buffer(self.air).intersects(t) for t in self.taken)), None)
+            chosen = next((k for k in order if self.clear(boxes[k], blocked=False)), None)
         chosen = 0 if chosen is None else chosen
         self.take(boxes[chosen])
         at, anchor = spots[chosen]

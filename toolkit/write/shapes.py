@@ -99,7 +99,8 @@ def as_marker(m, k: int) -> Marker:
         if "measured" in m and "required" in m:
             # a stress rule is broken from above (MPa), a length rule from below
             sign = ">" if m.get("rule") == "max_edge_stress" else "<"
-            label += " {} {} {}".format(*_two_figures(float(m["measured"]), float(m["required"]), sign))
+            measured, required = _two_figures(float(m["measured"]), float(m["required"]))
+            label += f" {measured} {sign} {required}"
         marker = Marker(tuple(m["where"]), label, m.get("radius_mm"))
     else:
         raise LacunaError(
@@ -112,14 +113,14 @@ def as_marker(m, k: int) -> Marker:
     return marker
 
 
-def _two_figures(measured: float, required: float, sign: str) -> tuple[str, str, str]:
+def _two_figures(measured: float, required: float) -> tuple[str, str]:
     """A marker's measured and required figures with three significant digits, more only where three would
     print the two alike (1.2004 against 1.2 reads "1.2004 > 1.2", never "1.2 > 1.2"); six at most."""
     for digits in range(3, 7):
         a, b = f"{measured:.{digits}g}", f"{required:.{digits}g}"
         if a != b:
             break
-    return a, sign, b
+    return a, b
 
 
 def tool_in_unit(tool: str, frame) -> str:
