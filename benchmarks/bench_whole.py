@@ -4,8 +4,8 @@ For each size a drawing and a job file are written to a temporary folder (a stee
 loading: the load at the top-left corner, the left edge held across as the mirror line of the whole beam, a
 roller at the bottom-right corner; 10 mm elements, volume 0.5, hexagons, steel-cut) and one fresh Python process
 imports lacuna and runs ``toolkit.api.optimize_file`` on them, writing every output, as ``lacuna optimize``
-does. Printed per size: import seconds, whole-job seconds, the pipeline's stages, peak resident memory, the
-iterations. With --ref PATH (../shared/ref_beso.py, the plain numpy/scipy port kept beside the project) the
+does (with its helper process for the fitting, toolkit/helper.py). Printed per size: import seconds, whole-job
+seconds, the pipeline's stages, peak resident memory (of the job's process, not its helper), the iterations. With --ref PATH (../shared/ref_beso.py, the plain numpy/scipy port kept beside the project) the
 port's BESO alone runs at the same size and iteration count in the same run, and the ratio is printed.
 Prints figures; asserts nothing.
 
@@ -72,7 +72,7 @@ pipeline.optimize_panel = spy
 if hasattr(api, "optimize_panel"):
     api.optimize_panel = spy
 t1 = time.perf_counter()
-api.optimize_file(sys.argv[1], sys.argv[2], out_dir=sys.argv[3], force=True)
+api.optimize_file(sys.argv[1], sys.argv[2], out_dir=sys.argv[3], force=True, helper=True)
 whole = time.perf_counter() - t1
 run = runs[-1] if runs else None
 print(json.dumps({"import_s": imported, "whole_s": whole,

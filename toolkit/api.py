@@ -143,11 +143,12 @@ OPTIMIZE_OUTPUTS = ("lacuna.dxf", "result.svg", "layout.svg", "convergence.svg",
 
 def optimize_file(dxf_path, job_path=None, *, out_dir=None, force: bool = False, frames: int = 0,
                   on_iteration=None, dxf_version: str | None = None, replace: bool = False, job=None,
-                  on_stage=None) -> Outcome:
+                  on_stage=None, helper: bool = False) -> Outcome:
     """``lacuna optimize``: the whole job; writes the drawing copy with our layers, figures, schedule, JSON.
 
     ``job``: a :class:`toolkit.jobfile.Job` already read (a sweep's point), used instead of reading ``job_path``.
-    ``on_iteration`` and ``on_stage``: progress, as ``pipeline.optimize_panel`` takes them."""
+    ``on_iteration``, ``on_stage`` and ``helper`` (a second process for part of the fitting, off by default: see
+    ``toolkit.helper`` before turning it on from a script): as ``pipeline.optimize_panel`` takes them."""
     from .write.convergence_plot import convergence_svg
     from .write.dxf_copy import refuse_earlier_results, result_copy_bytes
     from .write.layout_frame import layout_frame_svg
@@ -165,7 +166,7 @@ def optimize_file(dxf_path, job_path=None, *, out_dir=None, force: bool = False,
     if frames and not force and out.is_dir() and any(out.glob(f"{stem}-frame-*.svg")):
         raise LacunaError(f"{out} already holds frames of an earlier run ({stem}-frame-*.svg).",
                           hint="Choose another --out folder, or pass --force to replace them.")
-    run = optimize_panel(panel, job, on_iteration=on_iteration, keep_every=frames, on_stage=on_stage)
+    run = optimize_panel(panel, job, on_iteration=on_iteration, keep_every=frames, on_stage=on_stage, helper=helper)
     if on_stage is not None:
         on_stage("writing the drawing copy, the figures, the schedule and the report")
     summary = optimize_summary(run, drawing)
@@ -316,7 +317,7 @@ def demo_files() -> tuple[Path, Path]:
     return Path(str(base / f"{DEMO_NAME}.dxf")), Path(str(base / f"{DEMO_NAME}.toml"))
 
 
-def run_demo(out_dir, *, force: bool = False, on_iteration=None, on_stage=None) -> Outcome:
+def run_demo(out_dir, *, force: bool = False, on_iteration=None, on_stage=None, helper: bool = False) -> Outcome:
     """``lacuna demo``: the whole job on the bundled loft lintel: the solid panel's analysis, then the
     optimisation; both sets of files in ``out_dir``. The summary is the optimisation's, listing every file."""
     dxf, job = demo_files()
@@ -325,7 +326,8 @@ def run_demo(out_dir, *, force: bool = False, on_iteration=None, on_stage=None) 
     stem = dxf.stem
     plan_outputs(out_dir, [f"{stem}-analysis.json", f"{stem}-optimize.json"], inputs=[dxf, job], force=force)
     analysed = analyze_file(dxf, job, out_dir=out_dir, force=force)
-    optimised = optimize_file(dxf, job, out_dir=out_dir, force=force, on_iteration=on_iteration, on_stage=on_stage)
+    optimised = optimize_file(dxf, job, out_dir=out_dir, force=force, on_iteration=on_iteration, on_stage=on_stage,
+                              helper=helper)
     optimised.summary["outputs"] = analysed.summary["outputs"] + optimised.summary["outputs"]
     return optimised
 

@@ -187,7 +187,7 @@ def optimize(panel: Path, job_path: Path | None, out_dir: Path | None, as_json: 
         with naming(panel, job_path):
             outcome = api.optimize_file(panel, job_path, out_dir=out_dir, force=force, frames=frames,
                                         on_iteration=progress, dxf_version=dxf_version, replace=replace,
-                                        on_stage=progress.stage)
+                                        on_stage=progress.stage, helper=True)
     finally:
         progress.close()
     _emit(outcome.summary, as_json, outcome.text_lines())
@@ -355,7 +355,7 @@ def demo(out_dir: Path, as_json: bool, force: bool) -> None:
     plan = api.optimize_plan(api.demo_files()[1])
     progress = _Progress(plan.max_iterations, plan.volume_fraction, plan.evolution_rate, plan.convergence_window)
     try:
-        outcome = api.run_demo(out_dir, force=force, on_iteration=progress, on_stage=progress.stage)
+        outcome = api.run_demo(out_dir, force=force, on_iteration=progress, on_stage=progress.stage, helper=True)
     finally:
         progress.close()
     _emit(outcome.summary, as_json, outcome.text_lines())

@@ -22,6 +22,7 @@ from .fe.solve import SharedSolver
 from .jobfile import Job
 from .limits import check_memory
 from .model import Panel, Region, Rules, Void
+from .helper import Helper
 from .overlap import Overlap, own
 from .optimize import BesoResult, OptimizeSettings, ZoneSettings, build_problem, run_beso
 from .rules.check import impossible_rules
@@ -146,10 +147,13 @@ def optimize_panel(
     on_iteration: Callable[[int, float, float], None] | None = None,
     keep_every: int = 0,
     on_stage: Callable[[str], None] | None = None,
+    helper: bool = False,
 ) -> OptimizeRun:
     """The whole job on ``panel`` with ``job``'s settings and rules. ``on_iteration(index, compliance, volume)``
     after each BESO iteration; ``on_stage(words)`` as each later stage starts (what it does, in words), so that a
-    progress display does not stand still on BESO's last line while the voids are fitted and checked."""
+    progress display does not stand still on BESO's last line while the voids are fitted and checked. ``helper``:
+    let a second process take part of the fitting where a second core is free (``toolkit.helper``: only for a
+    caller whose main script keeps its work under ``if __name__ == "__main__":``); the layout is the same."""
     tell = on_stage or (lambda words: None)
     rules = job_rules(job)
     settings = job.optimize
@@ -181,28 +185,11 @@ def optimize_panel(
     # One factorisation carried from the solid analysis through the optimiser to the voids' shape optimisation,
     # refactored wherever the system is the same (fe.solve.SharedSolver); dropped before the checks.
     shared = SharedSolver()
-    solid = analyze(panel, shared=shared)
-    lap("analysis")
-    zones = ZoneSettings(
-        edge_cover_mm=rules.edge_cover_mm,
-        bearing_clearance_mm=rules.bearing_clearance_mm,
-        min_web_mm=rules.min_web_mm,
-        void_region=void_region,
-    )
-    problem = build_problem(panel, zones)
-    beso = run_beso(problem, settings, on_iteration=on_iteration, keep_every=keep_every, shared=shared)
-    lap("optimisation")
-    openings = shapely.union_all([o.shape for o in panel.openings]) if panel.openings else None
-    freeform = tuple(freeform_voids(problem.grid, beso.densities, exclude=openings))
-    energy = (solid.grid, strain_energy_density(solid, panel))
-    lap("freeform outlines")
-    kind = {"polygon": f"{void_options.sides}-gons", "slot": "slots", "bore": "bores"}.get(void_options.family,
-                                                                                          "n-gons, slots and bores")
-    tell(f"fitting {kind} to {len(freeform)} freeform void{'s' if len(freeform) != 1 else ''} under "
-         + (f"the {job.rules.profile} rules" if job.rules.profile else "the job's rules"))
-    rationalised = rationalise(panel, list(freeform), void_options, rules, energy=energy, shared=shared)
-    shared.release()  # the factor goes; the assembly pattern serves the re-analyses below
-    lap("voids")
+    # The helper process starts now so that its imports run beside the optimiser; it goes after the voids.
+    with Helper(helper) as side:
+        solid, beso, problem, freeform, energy, rationalised = _to_voids(
+            panel, job, rules, settings, void_region, void_options, shared, side, lap, tell,
+            on_iteration=on_iteration, keep_every=keep_every)
     made = float(sum(v.area_mm2 for v in rationalised.voids))
     free = float(sum(g.area for g in freeform))
     # The checks of the made layout need nothing from each other: the limiting rule's refit and the local models
@@ -255,6 +242,35 @@ def optimize_panel(
         rationalised=rationalised, final=final, freeform_analysis=freeform_analysis, warnings=tuple(warnings),
         timings_s=timings, limit=limit, edge=edge, edge_limit_MPa=edge_limit,
     )
+
+
+def _to_voids(panel: Panel, job: Job, rules: Rules, settings, void_region, void_options, shared: SharedSolver,
+              side: Helper, lap, tell, *, on_iteration, keep_every):
+    """The stages up to the made voids: the solid analysis, the optimiser, the freeform outlines, the voids."""
+    solid = analyze(panel, shared=shared)
+    lap("analysis")
+    zones = ZoneSettings(
+        edge_cover_mm=rules.edge_cover_mm,
+        bearing_clearance_mm=rules.bearing_clearance_mm,
+        min_web_mm=rules.min_web_mm,
+        void_region=void_region,
+    )
+    problem = build_problem(panel, zones)
+    beso = run_beso(problem, settings, on_iteration=on_iteration, keep_every=keep_every, shared=shared)
+    lap("optimisation")
+    openings = shapely.union_all([o.shape for o in panel.openings]) if panel.openings else None
+    freeform = tuple(freeform_voids(problem.grid, beso.densities, exclude=openings))
+    energy = (solid.grid, strain_energy_density(solid, panel))
+    lap("freeform outlines")
+    kind = {"polygon": f"{void_options.sides}-gons", "slot": "slots", "bore": "bores"}.get(void_options.family,
+                                                                                          "n-gons, slots and bores")
+    tell(f"fitting {kind} to {len(freeform)} freeform void{'s' if len(freeform) != 1 else ''} under "
+         + (f"the {job.rules.profile} rules" if job.rules.profile else "the job's rules"))
+    rationalised = rationalise(panel, list(freeform), void_options, rules, energy=energy, shared=shared,
+                               helper=side)
+    shared.release()  # the factor goes; the assembly pattern serves the re-analyses below
+    lap("voids")
+    return solid, beso, problem, freeform, energy, rationalised
 
 
 def timed(stage: str, timings: dict, fn, *args, **kwargs):

@@ -36,6 +36,7 @@ import shapely
 from shapely.geometry import Polygon
 
 from ..errors import LacunaError
+from ..helper import result_or, share_out
 from ..model import Panel, Rules, Void
 from ..rules import check as rule_check
 from .cover import (hex_cells, hull_ngon, inscribed_circle, inscribed_slot, largest_part, major_axis_deg,
@@ -417,12 +418,20 @@ def energy_sampler(energy) -> tuple[Callable[[np.ndarray], np.ndarray], float | 
         raise LacunaError(f"the strain-energy field has {values.size} values for {nx * ny} elements.",
                           where="energy", hint="Pass one value per element of the grid the panel was solved on.")
 
-    def sample(points: np.ndarray) -> np.ndarray:
-        ix = np.clip(np.floor(points[:, 0] / dx).astype(int), 0, nx - 1)
-        iy = np.clip(np.floor(points[:, 1] / dy).astype(int), 0, ny - 1)
-        return values[iy * nx + ix]
+    return GridSample(values, nx, ny, dx, dy), min(dx, dy) / 2.0
 
-    return sample, min(dx, dy) / 2.0
+
+class GridSample:
+    """The value of the element holding each point (k, 2) -> (k,): a function of points that pickles (the helper
+    process takes it, helper.py)."""
+
+    def __init__(self, values: np.ndarray, nx: int, ny: int, dx: float, dy: float):
+        self.values, self.nx, self.ny, self.dx, self.dy = values, nx, ny, dx, dy
+
+    def __call__(self, points: np.ndarray) -> np.ndarray:
+        ix = np.clip(np.floor(points[:, 0] / self.dx).astype(int), 0, self.nx - 1)
+        iy = np.clip(np.floor(points[:, 1] / self.dy).astype(int), 0, self.ny - 1)
+        return self.values[iy * self.nx + ix]
 
 
 def mean_over(shape, sample, spacing: float | None) -> float:
@@ -441,6 +450,32 @@ def mean_over(shape, sample, spacing: float | None) -> float:
         p = shape.representative_point()
         pts = np.array([[p.x, p.y]])
     return float(np.mean(sample(pts)))
+
+
+def _area(g) -> float:
+    return g.area
+
+
+class Worth:
+    """A layout's worth (``rationalise``): the area of ``g`` less what it costs in stiffness at the price
+    ``rho``, ``g.area * (1 - mean density / rho)``; with ``ceiling``, an upper bound of the worth of any shape
+    inside ``g``: its material that works less than ``rho``, ``g.area * mean(max(1 - density / rho, 0))``.
+    Objects, not closures, so that the helper process can take them."""
+
+    def __init__(self, sample, spacing: float | None, rho: float, ceiling: bool = False):
+        self.sample, self.spacing, self.rho, self.ceiling = sample, spacing, rho, ceiling
+
+    def at(self, rho: float) -> Worth:
+        """The same measure at another price."""
+        return Worth(self.sample, self.spacing, rho, self.ceiling)
+
+    def _below(self, points: np.ndarray) -> np.ndarray:
+        return np.maximum(1.0 - self.sample(points) / self.rho, 0.0)
+
+    def __call__(self, g) -> float:
+        if self.ceiling:
+            return g.area * mean_over(g, self._below, self.spacing)
+        return g.area * (1.0 - mean_over(g, self.sample, self.spacing) / self.rho)
 
 
 # --- fitting by family ------------------------------------------------------------------------------------
@@ -506,6 +541,7 @@ class Room:
             self.others, self.gaps = others[near], gaps[near]
         else:
             self.others, self.gaps = others, np.zeros(0)
+        self.fitted: dict = {}
 
     @classmethod
     def bare(cls, region, r: Resolved, openings=()) -> Room:
@@ -514,6 +550,7 @@ class Room:
         room.v, room.r, room.region = None, r, region
         room.others, room.gaps = np.zeros(0, dtype=object), np.zeros(0)
         room.openings = [(o, _extent(o)) for o in openings] if r.web_ratio else []
+        room.fitted = {}
         return room
 
     def within(self, part, extent: float):
@@ -530,8 +567,9 @@ class Room:
         return part if part is not None and part.area > 0.0 else None
 
 
-def _settled(room: Room, part, fit) -> tuple | None:
-    """``fit(space)`` -> (extent, area, result) in the room ``part`` leaves for a void of the size it finds.
+def _settled(room: Room, part, fit, kind: tuple) -> tuple | None:
+    """``fit(space)`` -> (extent, area, result) in the room ``part`` leaves for a void of the size it finds;
+    ``kind`` names the fit for ``_fitted``.
 
     The margin from the neighbours depends on the void's own size when the rules tie the web to it, and the size
     on the margin: a fit made for extent e has size s(e), smaller the larger e is, and is sound when s(e) <= e. The
@@ -545,7 +583,7 @@ def _settled(room: Room, part, fit) -> tuple | None:
     tied = room.r.web_ratio and (len(room.others) or room.openings)
     for _ in range(SETTLE_ROUNDS if tied else 1):
         space = room.within(part, extent)
-        got = fit(space) if space is not None else None
+        got = _fitted(room, kind, fit, space) if space is not None else None
         if got is None:
             if best is not None:
                 break
@@ -569,6 +607,16 @@ def _settled(room: Room, part, fit) -> tuple | None:
     return best[2] if best is not None else None
 
 
+def _fitted(room: Room, kind: tuple, fit, space):
+    """``fit(space)``, remembered in the room by ``kind`` (what is fitted, under which settings) and the space's
+    exact coordinates: the pieces of a void's layouts and the rounds of ``_settled`` often come to the same space
+    (a tenth of the plate's fits)."""
+    key = (kind, shapely.to_wkb(space))
+    if key not in room.fitted:
+        room.fitted[key] = fit(space)
+    return room.fitted[key]
+
+
 def _polygon_in(room: Room, part, r: Resolved, source: int, k: int) -> Draft | None:
     """The largest n-gon in ``part`` that keeps its web to the neighbours."""
 
@@ -588,7 +636,7 @@ def _polygon_in(room: Room, part, r: Resolved, source: int, k: int) -> Draft | N
             return None
         return _extent(poly), poly.area, (pts, centre)
 
-    got = _settled(room, part, fit)
+    got = _settled(room, part, fit, ("polygon", id(r)))
     if got is None:
         return None
     pts, centre = got
@@ -612,7 +660,7 @@ def _slot_in(room: Room, part, r: Resolved, source: int, k: int) -> Draft | None
         _, _, width, length = got
         return length, width * (length - width) + math.pi * width * width / 4.0, got
 
-    got = _settled(room, part, fit)
+    got = _settled(room, part, fit, ("slot", id(r)))
     if got is None:
         return None
     centre, angle, width, length = got
@@ -665,6 +713,11 @@ class Layout(list):
     def __init__(self, drafts=(), kind: str = ""):
         super().__init__(drafts)
         self.kind = kind
+
+
+def _void_candidates(room: Room, families, r: Resolved, score, bound, only) -> dict[str, list[Layout]]:
+    """``candidates`` of one void in each of ``families`` (a module-level function: the helper process runs it)."""
+    return {f: candidates(room, f, r, score=score, bound=bound, only=only) for f in families}
 
 
 def candidates(room: Room, family: str, r: Resolved, *, trials: int = 2, score=None, bound=None,
@@ -942,7 +995,7 @@ def _region_for(allowed, mirror: Mirror, fixed, r: Resolved, cache: dict):
 
 def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, energy=None,
                 allowed=None, shape_steps: int = 4, first_fit_only: bool = False, shared=None,
-                layouts: dict[int, tuple[str, str]] | None = None) -> Rationalised:
+                layouts: dict[int, tuple[str, str]] | None = None, helper=None) -> Rationalised:
     """Freeform voids (shapely polygons, local mm) -> voids a shop can make, keeping ``rules``.
 
     ``energy``: the solid panel's strain-energy density for the ``mixed`` family, as a function of points or
@@ -956,6 +1009,7 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
     (``fe.solve.SharedSolver``), refactored where it fits. ``layouts``: {freeform void: (family, layout kind)},
     from another run's ``Rationalised.layouts``: each of those voids is fitted as that kind of layout
     alone (the others get the whole search), so a refit under other rules is a fraction of the search.
+    ``helper``: a ``helper.Helper`` whose process takes part of the fitting (the same layout as without it).
     """
     r = resolve_settings(settings, rules, panel.thickness_mm)
     region = rule_check.impossible_rules(panel, rules)  # raises, in words, when no void fits at all
@@ -986,18 +1040,37 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
     # Without an energy field the area alone decides.
     rho = None
     if sample is not None and kept:
-        density = lambda g: mean_over(g, sample, spacing)  # noqa: E731
-        rho = max(max(density(v.shape) for v in kept), 1e-300)
-        score = lambda g: g.area * (1.0 - density(g) / rho)  # noqa: E731
-        # No shape inside g can be worth more than g's material that works less than the threshold.
-        bound = lambda g: g.area * mean_over(  # noqa: E731
-            g, lambda pts: np.maximum(1.0 - sample(pts) / rho, 0.0), spacing)
+        rho = max(max(mean_over(v.shape, sample, spacing) for v in kept), 1e-300)
+        # No shape inside g can be worth more than g's material that works less than the threshold (the bound).
+        score, bound = Worth(sample, spacing, rho), Worth(sample, spacing, rho, ceiling=True)
     else:
-        score = bound = lambda g: g.area  # noqa: E731
-
+        score = bound = _area
     opening_shapes = [o.shape for o in panel.openings]
     families = ("polygon", "slot", "bore") if r.family == "mixed" else (r.family,)
-    options: dict[int, dict[str, list[list[Draft]]]] = {}
+
+    # The analyses need the grid. The freeform layout's analysis comes first: it sets the cap and the price the
+    # later stages use (the candidates keep the first price), and with the price known the honeycomb over the
+    # whole region can start in the helper process while the candidates are fitted (it needs nothing of them).
+    grid = energy[0] if isinstance(energy, tuple) else None
+    evaluate = cap = lattice_job = None
+    later_score, later_bound = score, bound
+    if not first_fit_only and grid is not None and kept and rho is not None:
+        from .shape import Evaluator
+
+        # A symmetric layout is analysed whole: each seed with its mirror images.
+        evaluate = Evaluator(panel, grid, orbit=mirror.orbit if mirror.axes else None, shared=shared)
+        # The made layout must be no softer than the freeform one it stands for, and the price of stiffness is
+        # where the optimiser stopped: the strain-energy density of the material left round its voids.
+        free_shapes = [v.shape for v in clean(freeform, 0.0)[0]] if mirror.axes else [v.shape for v in kept]
+        cap, e_free = evaluate.shapes(free_shapes)
+        rho = threshold_density(grid, e_free, free_shapes) or rho
+        later_score, later_bound = score.at(rho), bound.at(rho)
+        if r.family != "mixed" and not mirror.axes and helper is not None and helper.ready:
+            lattice_job = helper.submit(_lattice_of, allowed, [r.family], r, later_score, openings=opening_shapes,
+                                        bound=later_bound)
+
+    options: dict[int, dict[str, list[list[Draft]]] | None] = {}
+    jobs: dict[int, tuple] = {}
     shapes = [v.shape for v in kept]
     for k, v in enumerate(kept):
         fixed = comp_fixed.get(v.index, ())
@@ -1008,8 +1081,11 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
             continue
         room = Room(v, space, shapes[:k] + shapes[k + 1:], r, ROOM_TOLERANCE_MM, openings=opening_shapes)
         family, kind = (layouts or {}).get(v.index, (None, None))
-        options[v.index] = {f: candidates(room, f, r, score=score, bound=bound, only=kind)
-                            for f in ((family,) if kind is not None else families)}
+        options[v.index] = None  # its place in the order; filled below
+        jobs[v.index] = (room, (family,) if kind is not None else families, r, score, bound, kind)
+    # Each void's candidates alone, shared with the helper process where there is one (the same answers).
+    options.update(share_out(helper, _void_candidates, jobs,
+                             cost=lambda i: jobs[i][0].region.area if jobs[i][0].region is not None else 0.0))
     best = {i: {f: _choose_layout(layouts, score) for f, layouts in fams.items()} for i, fams in options.items()}
 
     def pick(fits: dict[str, list[Draft]]) -> str | None:
@@ -1047,26 +1123,16 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
         return Rationalised(voids=(), changes=(), dropped=tuple(dropped), fit_errors=(), violations=(),
                             notes=tuple(notes), first_fit_mm2=first_fit_mm2,
                             layouts=tuple((i, f, kind) for i, (f, kind) in kinds.items()))
-    grid = energy[0] if isinstance(energy, tuple) else None
-    evaluate = cap = None
-    if grid is not None and kept and rho is not None:
-        from .shape import Evaluator
-
-        # A symmetric layout is analysed whole: each seed with its mirror images.
-        evaluate = Evaluator(panel, grid, orbit=mirror.orbit if mirror.axes else None, shared=shared)
-        # The made layout must be no softer than the freeform one it stands for, and the price of stiffness is
-        # where the optimiser stopped: the strain-energy density of the material left round its voids.
-        free_shapes = [v.shape for v in clean(freeform, 0.0)[0]] if mirror.axes else [v.shape for v in kept]
-        cap, e_free = evaluate.shapes(free_shapes)
-        rho = threshold_density(grid, e_free, free_shapes) or rho
+    score, bound = later_score, later_bound
+    if evaluate is not None:
         c_fit, e_fit = evaluate(placed)
         first = (c_fit, e_fit)
         # The honeycomb over the whole region is not laid symmetric: a symmetric layout keeps its own voids.
         # ``mixed``: the families the fitted voids chose (all three when none was), one family per honeycomb.
         lattice_families = (sorted({d.family for d in placed}) or list(families)[: r.max_types]) \
             if r.family == "mixed" else [r.family]
-        grid_drafts = _lattice_of(allowed, lattice_families, r, score, openings=opening_shapes, bound=bound) \
-            if not mirror.axes else []
+        grid_drafts = [] if mirror.axes else result_or(
+            lattice_job, _lattice_of, allowed, lattice_families, r, score, openings=opening_shapes, bound=bound)
         other = place(grid_drafts, site, r) if grid_drafts else None
         area_fit = sum(d.shape().area for d in placed)
         # The honeycomb is analysed only when it could be taken: it removes clearly more, or the fit is too soft.

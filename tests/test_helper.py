@@ -1,0 +1,93 @@
+"""The helper process (toolkit/helper.py): the work it shares gives the answers the job's own process would, in
+the same order; it is not started where it may not be; a piece it fails on is done here."""
+
+from __future__ import annotations
+
+import time
+from concurrent.futures import Future
+
+import numpy as np
+from shapely.geometry import box
+
+from toolkit import helper as helper_module
+from toolkit.fe.grid import make_grid
+from toolkit.helper import Helper, may_start, share_out
+from toolkit.model import Material, Panel, PointLoad, Rules, Support
+from toolkit.voids.layout import rationalise
+from toolkit.voids.settings import VoidOptions
+
+
+def _square(x: int) -> int:
+    return x * x
+
+
+class _Stand_in:
+    """A helper that answers at once in this process, or fails every piece (``broken``)."""
+
+    def __init__(self, broken: bool = False):
+        self.ready, self.broken, self.sent = True, broken, 0
+
+    def submit(self, fn, *args):
+        self.sent += 1
+        future: Future = Future()
+        if self.broken:
+            future.set_exception(RuntimeError("lost"))
+        else:
+            future.set_result(fn(*args))
+        return future
+
+
+def test_shared_work_gives_every_answer_in_the_order_of_the_tasks():
+    tasks = {f"t{k}": (k,) for k in (5, 3, 9, 1, 7, 2)}
+    cost = {f"t{k}": float(k) for k in (5, 3, 9, 1, 7, 2)}
+    for stand_in in (_Stand_in(), _Stand_in(broken=True), None):
+        got = share_out(stand_in, _square, tasks, cost=cost.get)
+        assert list(got) == list(tasks)
+        assert got == {k: v[0] ** 2 for k, v in tasks.items()}
+        if stand_in is not None:
+            assert stand_in.sent >= 1  # the helper was given work (and, broken, it was done here instead)
+
+
+def test_a_helper_is_not_started_where_it_may_not_be(monkeypatch):
+    assert Helper(wanted=False).why_not == "not asked for"
+    monkeypatch.setenv("LACUNA_THREADS", "1")
+    assert "one core" in may_start()
+    monkeypatch.delenv("LACUNA_THREADS")
+    monkeypatch.setattr(helper_module, "side_threads", lambda: 2)
+    monkeypatch.setattr(helper_module.sys, "executable", "/opt/cad/bin/host-app")
+    assert "not a Python interpreter" in may_start()
+    with Helper() as h:  # nothing is started: the work is done here
+        assert not h.ready
+        assert share_out(h, _square, {"a": (3,), "b": (4,)}) == {"a": 9, "b": 16}
+
+
+def test_the_helper_process_gives_the_same_layout():
+    # A cantilever plate of our own with four freeform voids and a strain-energy field that rises towards the
+    # support, so that the worth of each layout matters: fitted here alone and with the helper process, the
+    # voids, notes and drops must be the same to the bit.
+    if may_start():
+        import pytest
+
+        pytest.skip(f"no helper process on this machine: {may_start()}")
+    panel = Panel(width_mm=1200.0, height_mm=400.0, thickness_mm=10.0, material=Material(E_MPa=210000.0, nu=0.3),
+                  supports=(Support(((0.0, 0.0), (0.0, 400.0)), "xy"),),
+                  loads=(PointLoad((1200.0, 150.0), (0.0, -20000.0)),), element_size_mm=20.0)
+    freeform = [box(150, 150, 420, 250), box(520, 160, 760, 240), box(860, 170, 1040, 230), box(520, 300, 700, 350)]
+    grid = make_grid(panel.width_mm, panel.height_mm, panel.element_size_mm)
+    x = (np.arange(grid.n_elements) % grid.nx + 0.5) * grid.dx
+    energy = (grid, 1.0 + 3.0 * (1.0 - x / panel.width_mm) ** 2)
+    rules = Rules(min_web_mm=30.0, edge_cover_mm=30.0, min_void_mm=20.0, bearing_clearance_mm=60.0, web_ratio=0.3)
+    opts = VoidOptions(family="polygon", sides=6, snap_mm=0.0)
+    alone = rationalise(panel, freeform, opts, rules, energy=energy)
+    with Helper() as h:
+        waited = time.monotonic()
+        while not h.ready and time.monotonic() - waited < 120.0:
+            time.sleep(0.1)
+        assert h.ready, h.why_not
+        shared = rationalise(panel, freeform, opts, rules, energy=energy, helper=h)
+        assert h.sent >= 2  # the honeycomb over the region and some voids' candidates went to the helper
+
+    def key(res):
+        return [(v.family, v.outline, v.area_mm2) for v in res.voids], res.notes, res.dropped, res.changes
+
+    assert alone.voids and key(shared) == key(alone)
