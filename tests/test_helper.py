@@ -7,6 +7,7 @@ import time
 from concurrent.futures import Future
 
 import numpy as np
+import pytest
 from shapely.geometry import box
 
 from toolkit import helper as helper_module
@@ -61,14 +62,23 @@ def test_a_helper_is_not_started_where_it_may_not_be(monkeypatch):
         assert share_out(h, _square, {"a": (3,), "b": (4,)}) == {"a": 9, "b": 16}
 
 
-def test_the_helper_process_gives_the_same_layout():
+@pytest.fixture(scope="module")
+def ready_helper():
+    """A helper process that has answered (one for the tests below: starting one costs about a second)."""
+    if may_start():
+        pytest.skip(f"no helper process on this machine: {may_start()}")
+    with Helper() as h:
+        waited = time.monotonic()
+        while not h.ready and time.monotonic() - waited < 120.0:
+            time.sleep(0.1)
+        assert h.ready, h.why_not
+        yield h
+
+
+def test_the_helper_process_gives_the_same_layout(ready_helper):
     # A cantilever plate of our own with four freeform voids and a strain-energy field that rises towards the
     # support, so that the worth of each layout matters: fitted here alone and with the helper process, the
     # voids, notes and drops must be the same to the bit.
-    if may_start():
-        import pytest
-
-        pytest.skip(f"no helper process on this machine: {may_start()}")
     panel = Panel(width_mm=1200.0, height_mm=400.0, thickness_mm=10.0, material=Material(E_MPa=210000.0, nu=0.3),
                   supports=(Support(((0.0, 0.0), (0.0, 400.0)), "xy"),),
                   loads=(PointLoad((1200.0, 150.0), (0.0, -20000.0)),), element_size_mm=20.0)
@@ -79,15 +89,43 @@ def test_the_helper_process_gives_the_same_layout():
     rules = Rules(min_web_mm=30.0, edge_cover_mm=30.0, min_void_mm=20.0, bearing_clearance_mm=60.0, web_ratio=0.3)
     opts = VoidOptions(family="polygon", sides=6, snap_mm=0.0)
     alone = rationalise(panel, freeform, opts, rules, energy=energy)
-    with Helper() as h:
-        waited = time.monotonic()
-        while not h.ready and time.monotonic() - waited < 120.0:
-            time.sleep(0.1)
-        assert h.ready, h.why_not
-        shared = rationalise(panel, freeform, opts, rules, energy=energy, helper=h)
-        assert h.sent >= 2  # the honeycomb over the region and some voids' candidates went to the helper
+    sent = ready_helper.sent
+    shared = rationalise(panel, freeform, opts, rules, energy=energy, helper=ready_helper)
+    assert ready_helper.sent >= sent + 2  # the honeycomb over the region and some voids' candidates went there
 
     def key(res):
         return [(v.family, v.outline, v.area_mm2) for v in res.voids], res.notes, res.dropped, res.changes
 
     assert alone.voids and key(shared) == key(alone)
+
+
+def test_the_limiting_rule_refits_made_in_the_helper_give_the_same_sentence(ready_helper):
+    # The demo's job (its layout is held back by the web ratio): the limiting rule's refits made in the helper
+    # process (as the pipeline starts them while the voids are shaped), made here, and handed over as failed
+    # pieces (made here again) give the same sentence, the one the job reported.
+    from dataclasses import replace
+
+    from toolkit import pipeline
+    from toolkit.api import demo_files
+    from toolkit.inputs import load_panel
+    from toolkit.voids.layout import first_fit_area
+
+    drawing, job_path = demo_files()
+    panel, job, _ = load_panel(drawing, job_path)
+    run = pipeline.optimize_panel(panel, job)
+    assert run.limit.startswith("the web ratio")
+    freeform = list(run.freeform)
+    made, free = sum(v.area_mm2 for v in run.voids), sum(g.area for g in freeform)
+    energy = (run.solid.grid, pipeline.strain_energy_density(run.solid, panel))
+    options = replace(job.voids, optimize_symmetry=job.optimize.symmetry)
+    layouts = run.rationalised.layouts
+    sent = ready_helper.sent
+    there = {key: ready_helper.submit(first_fit_area, panel, freeform, options, relaxed, energy, layouts)
+             for key, relaxed, _, _ in pipeline.relaxed_rules(run.rules)}
+    lost: Future = Future()
+    lost.set_exception(RuntimeError("the helper process was lost"))
+    texts = [pipeline.limiting_rule(panel, freeform, options, run.rules, run.voids, made, free, energy=energy,
+                                    first_fit_mm2=run.rationalised.first_fit_mm2, layouts=layouts, early=early)
+             for early in (there, None, {key: lost for key in there})]
+    assert ready_helper.sent == sent + len(there) >= 1
+    assert texts == [run.limit] * 3

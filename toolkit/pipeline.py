@@ -22,13 +22,13 @@ from .fe.solve import SharedSolver
 from .jobfile import Job
 from .limits import check_memory
 from .model import Panel, Region, Rules, Void
-from .helper import Helper
+from .helper import Helper, result_or
 from .overlap import Overlap, own
 from .optimize import BesoResult, OptimizeSettings, ZoneSettings, build_problem, run_beso
 from .rules.check import impossible_rules
 from .rules.profiles import rules_for
 from .voids.extract import freeform_voids
-from .voids.layout import Rationalised, rationalise, refuse_impossible
+from .voids.layout import Rationalised, first_fit_area, rationalise, refuse_impossible
 
 G_M_S2 = 9.81
 
@@ -185,44 +185,47 @@ def optimize_panel(
     # One factorisation carried from the solid analysis through the optimiser to the voids' shape optimisation,
     # refactored wherever the system is the same (fe.solve.SharedSolver); dropped before the checks.
     shared = SharedSolver()
-    # The helper process starts now so that its imports run beside the optimiser; it goes after the voids.
+    # The helper process starts now so that its imports run beside the optimiser; it takes part of the fitting,
+    # then the limiting rule's refits while the voids are shaped (``early``), and goes after the checks.
+    early: dict = {}
     with Helper(helper) as side:
         solid, beso, problem, freeform, energy, rationalised = _to_voids(
             panel, job, rules, settings, void_region, void_options, shared, side, lap, tell,
-            on_iteration=on_iteration, keep_every=keep_every)
-    made = float(sum(v.area_mm2 for v in rationalised.voids))
-    free = float(sum(g.area for g in freeform))
-    # The checks of the made layout need nothing from each other: the limiting rule's refit and the local models
-    # run on the side threads (overlap.py), each on its own copy of the geometry, while this thread makes the two
-    # re-analyses one after the other (one factorisation of the grid in memory at a time, as in the optimiser).
-    # Each stage's own seconds are kept, and "checks" is the wall time of them all.
-    n = len(rationalised.voids)
-    held_back = free > 0 and made < LIMIT_SHARE * free  # the limiting rule is looked for
-    tell(f"checking the {n} void{'s' if n != 1 else ''} to make: the panel analysed again, a local model of the "
-         "edge stress at each void" + (", the rule that held the layout back" if held_back else ""))
-    with Overlap() as work:
-        threaded = work.threads > 1
-        limit_job = None
-        if held_back:
-            mine = (panel, list(freeform), rationalised.voids)
-            limit_panel, limit_freeform, limit_voids = own(mine) if threaded else mine
-            limit_job = work.submit(timed, "limit", timings, limiting_rule, limit_panel, limit_freeform,
-                                    void_options, rules, limit_voids, made, free, energy=energy,
-                                    first_fit_mm2=rationalised.first_fit_mm2, layouts=rationalised.layouts)
-        final = timed("re-analysis", timings, analyze, with_voids(panel, rationalised.voids), grid=solid.grid,
-                      shared=shared)
-        shared.release()
-        # The grid cuts the voids by area fraction; the stress at their edges comes from a local model of each.
-        started = time.perf_counter()
-        edge_jobs = [work.submit(task) for task in
-                     edge_stress_tasks(panel, rationalised.voids, final, solid, threaded=threaded)]
-        freeform_analysis = timed("freeform re-analysis", timings, analyze,
-                                  with_freeform(panel, freeform, solid.grid), grid=solid.grid, shared=shared)
-        shared.release()
-        edge = tuple(job.result() for job in edge_jobs)
-        timings["edge stresses"] = time.perf_counter() - started
-        limit = limit_job.result() if limit_job is not None else ""
-    lap("checks")
+            on_iteration=on_iteration, keep_every=keep_every, early=early)
+        made = float(sum(v.area_mm2 for v in rationalised.voids))
+        free = float(sum(g.area for g in freeform))
+        # The checks of the made layout need nothing from each other: the limiting rule's refit and the local models
+        # run on the side threads (overlap.py), each on its own copy of the geometry, while this thread makes the two
+        # re-analyses one after the other (one factorisation of the grid in memory at a time, as in the optimiser).
+        # Each stage's own seconds are kept, and "checks" is the wall time of them all.
+        n = len(rationalised.voids)
+        held_back = free > 0 and made < LIMIT_SHARE * free  # the limiting rule is looked for
+        tell(f"checking the {n} void{'s' if n != 1 else ''} to make: the panel analysed again, a local model of the "
+             "edge stress at each void" + (", the rule that held the layout back" if held_back else ""))
+        with Overlap() as work:
+            threaded = work.threads > 1
+            limit_job = None
+            if held_back:
+                mine = (panel, list(freeform), rationalised.voids)
+                limit_panel, limit_freeform, limit_voids = own(mine) if threaded else mine
+                limit_job = work.submit(timed, "limit", timings, limiting_rule, limit_panel, limit_freeform,
+                                        void_options, rules, limit_voids, made, free, energy=energy,
+                                        first_fit_mm2=rationalised.first_fit_mm2, layouts=rationalised.layouts,
+                                        early=early)
+            final = timed("re-analysis", timings, analyze, with_voids(panel, rationalised.voids), grid=solid.grid,
+                          shared=shared)
+            shared.release()
+            # The grid cuts the voids by area fraction; the stress at their edges comes from a local model of each.
+            started = time.perf_counter()
+            edge_jobs = [work.submit(task) for task in
+                         edge_stress_tasks(panel, rationalised.voids, final, solid, threaded=threaded)]
+            freeform_analysis = timed("freeform re-analysis", timings, analyze,
+                                      with_freeform(panel, freeform, solid.grid), grid=solid.grid, shared=shared)
+            shared.release()
+            edge = tuple(job.result() for job in edge_jobs)
+            timings["edge stresses"] = time.perf_counter() - started
+            limit = limit_job.result() if limit_job is not None else ""
+        lap("checks")
     edge_limit = job.rules.max_edge_stress_MPa
     warnings = []
     if edge_limit is not None:
@@ -245,8 +248,10 @@ def optimize_panel(
 
 
 def _to_voids(panel: Panel, job: Job, rules: Rules, settings, void_region, void_options, shared: SharedSolver,
-              side: Helper, lap, tell, *, on_iteration, keep_every):
-    """The stages up to the made voids: the solid analysis, the optimiser, the freeform outlines, the voids."""
+              side: Helper, lap, tell, *, on_iteration, keep_every, early: dict):
+    """The stages up to the made voids: the solid analysis, the optimiser, the freeform outlines, the voids.
+    Where the helper process is ready when the first fit is made, it starts the limiting rule's refits, each
+    rule's Future put in ``early`` (the checks take them; they are wasted only when no rule is looked for)."""
     solid = analyze(panel, shared=shared)
     lap("analysis")
     zones = ZoneSettings(
@@ -266,8 +271,14 @@ def _to_voids(panel: Panel, job: Job, rules: Rules, settings, void_region, void_
                                                                                           "n-gons, slots and bores")
     tell(f"fitting {kind} to {len(freeform)} freeform void{'s' if len(freeform) != 1 else ''} under "
          + (f"the {job.rules.profile} rules" if job.rules.profile else "the job's rules"))
+
+    def refits(layouts: tuple) -> None:
+        if side.ready:
+            for key, relaxed, _, _ in relaxed_rules(rules):
+                early[key] = side.submit(first_fit_area, panel, list(freeform), void_options, relaxed, energy, layouts)
+
     rationalised = rationalise(panel, list(freeform), void_options, rules, energy=energy, shared=shared,
-                               helper=side)
+                               helper=side, on_first_fit=refits)
     shared.release()  # the factor goes; the assembly pattern serves the re-analyses below
     lap("voids")
     return solid, beso, problem, freeform, energy, rationalised
@@ -286,8 +297,24 @@ def timed(stage: str, timings: dict, fn, *args, **kwargs):
 LIMIT_SHARE = 0.8
 
 
+def relaxed_rules(rules: Rules) -> list[tuple[str, Rules, str, str]]:
+    """The spacing rules a limiting-rule refit may halve: (key, the rules with it halved, its name, the change)
+    for the web ratio and the minimum web where they are set."""
+    trials = []
+    if rules.web_ratio:
+        trials.append(("web_ratio", dataclasses.replace(rules, web_ratio=rules.web_ratio / 2.0),
+                       f"the web ratio ({rules.web_ratio:g} x the larger void's size)",
+                       f"a web ratio of {rules.web_ratio / 2.0:g}"))
+    if rules.min_web_mm > 0:
+        trials.append(("min_web", dataclasses.replace(rules, min_web_mm=rules.min_web_mm / 2.0),
+                       f"the minimum web ({rules.min_web_mm:g} mm)",
+                       f"a minimum web of {rules.min_web_mm / 2.0:g} mm"))
+    return trials
+
+
 def limiting_rule(panel: Panel, freeform, void_options, rules: Rules, made_voids, made_mm2: float,
-                  free_mm2: float, *, energy=None, first_fit_mm2: float | None = None, layouts=None) -> str:
+                  free_mm2: float, *, energy=None, first_fit_mm2: float | None = None, layouts=None,
+                  early: dict | None = None) -> str:
     """Which spacing rule held the made layout short of the freeform one, in words with the figure relaxing it
     would give: the layout's first fit (voids fitted and placed, no analysis; ``first_fit_mm2`` when the caller's
     run has it, made with the same ``energy``) is made again with the web ratio halved and, where it sets the
@@ -296,30 +323,23 @@ def limiting_rule(panel: Panel, freeform, void_options, rules: Rules, made_voids
     kind of layout alone for each (the whole void, k pieces, a honeycomb of one pitch) in the wider room the
     relaxed rule leaves, instead of searching again: "the same layout, fitted again, removes X % more". Measured
     on the 300 x 100 bench plate, 0.39 s against 1.72 s for a new search, which found 49 % more against 47 %; on
-    the demo 31 % against 23 % (a new search chooses by worth, not by area, so it need not remove more)."""
-    trials = []
-    if rules.web_ratio:
-        trials.append(("web_ratio", dataclasses.replace(rules, web_ratio=rules.web_ratio / 2.0),
-                       f"the web ratio ({rules.web_ratio:g} x the larger void's size)",
-                       f"a web ratio of {rules.web_ratio / 2.0:g}"))
+    the demo 31 % against 23 % (a new search chooses by worth, not by area, so it need not remove more).
+    ``early``: {rule key: a Future of its refit's area} started in the helper process while the voids were
+    still being shaped (``relaxed_rules``); a refit missing there is made here."""
     # The minimum web is tried only where it, not the web ratio, sets the web of a void of the made layout's
     # middle size (each trial is a fitting run of its own).
     sizes = sorted(2.0 * float(shapely.minimum_bounding_radius(v.shape)) for v in made_voids) or [0.0]
-    if rules.min_web_mm > 0 and rules.min_web_mm >= rules.web_ratio * sizes[len(sizes) // 2]:
-        trials.append(("min_web", dataclasses.replace(rules, min_web_mm=rules.min_web_mm / 2.0),
-                       f"the minimum web ({rules.min_web_mm:g} mm)",
-                       f"a minimum web of {rules.min_web_mm / 2.0:g} mm"))
+    trials = [t for t in relaxed_rules(rules)
+              if t[0] != "min_web" or rules.min_web_mm >= rules.web_ratio * sizes[len(sizes) // 2]]
+    early = early or {}
 
-    chosen = {i: (f, kind) for i, f, kind in layouts} if layouts else None
-
-    def first_fit(r: Rules) -> float:
-        return rationalise(panel, freeform, void_options, r, energy=energy, first_fit_only=True,
-                           layouts=chosen).first_fit_mm2
+    def first_fit(r: Rules, key: str = "") -> float:
+        return result_or(early.get(key), first_fit_area, panel, freeform, void_options, r, energy, layouts)
 
     best = None
     base = (first_fit_mm2 if first_fit_mm2 else first_fit(rules)) if trials else 0.0
     for key, relaxed, name, change in trials:
-        area = first_fit(relaxed)
+        area = first_fit(relaxed, key)
         if best is None or area > best[0]:
             best = (area, key, name, change)
     solid = float(panel.solid.area)

@@ -574,8 +574,8 @@ def _settled(room: Room, part, fit, kind: tuple) -> tuple | None:
     The margin from the neighbours depends on the void's own size when the rules tie the web to it, and the size
     on the margin: a fit made for extent e has size s(e), smaller the larger e is, and is sound when s(e) <= e. The
     best sound fit is near the e where s(e) = e: start from the part's extent, refit with the size found, and once
-    a sound and an unsound extent bracket that point, refit at the secant's root between them (a tenth of the way back to the sound one) (the plain refit
-    would zigzag towards it); keep the largest sound fit."""
+    a sound and an unsound extent bracket that point, refit at the secant's root between them, a tenth of the way
+    back to the sound one (the plain refit would zigzag towards it); keep the largest sound fit."""
     extent = _extent(part)
     best = None
     sound = unsound = None  # (extent, s(e) - e)
@@ -983,6 +983,15 @@ def _seeds(freeform, mirror: Mirror, r: Resolved):
     return kept, {i: fixed for i, (_, fixed) in enumerate(seeds)}, notes + more
 
 
+def first_fit_area(panel: Panel, freeform, settings: VoidOptions, rules: Rules, energy, layouts) -> float:
+    """The area the first fit removes under ``rules``, each freeform void fitted as the kind of layout
+    ``layouts`` (``Rationalised.layouts``) names: the limiting rule's refit (``pipeline.limiting_rule``), a
+    module-level function so that the helper process can run it."""
+    chosen = {i: (f, kind) for i, f, kind in layouts} if layouts else None
+    return rationalise(panel, freeform, settings, rules, energy=energy, first_fit_only=True,
+                       layouts=chosen).first_fit_mm2
+
+
 def _region_for(allowed, mirror: Mirror, fixed, r: Resolved, cache: dict):
     """The region open to a seed: the allowed region, on the lower-left side of each mid-line the seed does not
     stand on and half a web clear of it (so that the seed and its mirror image keep the web)."""
@@ -995,7 +1004,8 @@ def _region_for(allowed, mirror: Mirror, fixed, r: Resolved, cache: dict):
 
 def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, energy=None,
                 allowed=None, shape_steps: int = 4, first_fit_only: bool = False, shared=None,
-                layouts: dict[int, tuple[str, str]] | None = None, helper=None) -> Rationalised:
+                layouts: dict[int, tuple[str, str]] | None = None, helper=None,
+                on_first_fit: Callable[[tuple], None] | None = None) -> Rationalised:
     """Freeform voids (shapely polygons, local mm) -> voids a shop can make, keeping ``rules``.
 
     ``energy``: the solid panel's strain-energy density for the ``mixed`` family, as a function of points or
@@ -1010,6 +1020,9 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
     from another run's ``Rationalised.layouts``: each of those voids is fitted as that kind of layout
     alone (the others get the whole search), so a refit under other rules is a fraction of the search.
     ``helper``: a ``helper.Helper`` whose process takes part of the fitting (the same layout as without it).
+    ``on_first_fit(layouts)``: told the first fit's choice of layout per void (``Rationalised.layouts``) as soon as
+    it is made, before the analyses, so that a caller can start work that needs only that (the limiting rule's
+    refits, ``first_fit_area``).
     """
     r = resolve_settings(settings, rules, panel.thickness_mm)
     region = rule_check.impossible_rules(panel, rules)  # raises, in words, when no void fits at all
@@ -1123,6 +1136,8 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
         return Rationalised(voids=(), changes=(), dropped=tuple(dropped), fit_errors=(), violations=(),
                             notes=tuple(notes), first_fit_mm2=first_fit_mm2,
                             layouts=tuple((i, f, kind) for i, (f, kind) in kinds.items()))
+    if on_first_fit is not None:
+        on_first_fit(tuple((i, f, kind) for i, (f, kind) in kinds.items()))
     score, bound = later_score, later_bound
     if evaluate is not None:
         c_fit, e_fit = evaluate(placed)
