@@ -49,6 +49,28 @@ def test_shared_work_gives_every_answer_in_the_order_of_the_tasks():
             assert stand_in.sent >= 1  # the helper was given work (and, broken, it was done here instead)
 
 
+def test_the_honeycomb_fitted_two_at_a_time_keeps_the_same_voids():
+    # lattice_layout with a helper fits the next honeycomb there while it fits one here: the same voids as alone,
+    # with the bound (the search stops early) and without it (every honeycomb), and the helper was given work.
+    from dataclasses import replace
+
+    from shapely.geometry import Polygon
+
+    from toolkit.voids import layout as L
+
+    r = replace(L.resolve_settings(VoidOptions(family="polygon", sides=6, snap_mm=0.0),
+                                   Rules(min_web_mm=25, edge_cover_mm=25, min_void_mm=20)), web_ratio=0.5)
+    region = Polygon([(0, 0), (2400, 0), (2400, 700), (900, 700), (0, 450)])
+    field = lambda p: 1.0 + np.asarray(p)[:, 0] / 500.0  # noqa: E731
+    score, bound = L.Worth(field, 10.0, 4.0), L.Worth(field, 10.0, 4.0, ceiling=True)
+    for ceiling in (bound, None):
+        alone = L.lattice_layout(region, "polygon", r, score, bound=ceiling)
+        stand_in = _Stand_in()
+        paired = L.lattice_layout(region, "polygon", r, score, bound=ceiling, helper=stand_in)
+        assert alone and [(d.centre, d.corners) for d in paired] == [(d.centre, d.corners) for d in alone]
+        assert stand_in.sent >= 1
+
+
 def test_a_helper_is_not_started_where_it_may_not_be(monkeypatch):
     assert Helper(wanted=False).why_not == "not asked for"
     monkeypatch.setenv("LACUNA_THREADS", "1")

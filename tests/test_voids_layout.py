@@ -303,11 +303,10 @@ def _steel_web_ratio_half():
 
 def _worth_rising_to_the_right():
     """A layout's worth and its bound, as rationalise makes them, under an energy field rising to the right."""
+    from toolkit.voids import layout as L
+
     field = lambda p: 1.0 + np.asarray(p)[:, 0] / 500.0  # noqa: E731
-    rho = 4.0
-    score = lambda g: g.area * (1.0 - mean_over(g, field, 10.0) / rho)  # noqa: E731
-    bound = lambda g: g.area * mean_over(g, lambda p: np.maximum(1.0 - field(p) / rho, 0.0), 10.0)  # noqa: E731
-    return score, bound
+    return L.Worth(field, 10.0, 4.0), L.Worth(field, 10.0, 4.0, ceiling=True)
 
 
 def _with_fits_counted(call):

@@ -569,7 +569,9 @@ def split(region, k: int, gap: float, angle_deg: float | None = None) -> list[Po
     turned = shapely.transform(region, lambda xy: _rotate(xy, a))
     x0, y0, x1, y1 = turned.bounds
     ts = np.linspace(x0, x1, 65)
-    left = shapely.area(shapely.intersection(turned, shapely.box(x0 - 1.0, y0 - 1.0, ts, y1 + 1.0)))
+    # the area left of each x = t, by the half-plane sum (no overlay: a freeform void has hundreds of corners)
+    left = clipped_areas(turned, np.column_stack([ts, np.zeros_like(ts)]),
+                         np.tile([-1.0, 0.0], (len(ts), 1)))
     cuts = np.interp(np.arange(1, k) / k * turned.area, left, ts)
     edges = np.concatenate([[x0 - 1.0], cuts, [x1 + 1.0]])
     pieces = []

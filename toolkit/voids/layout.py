@@ -785,8 +785,8 @@ def candidates(room: Room, family: str, r: Resolved, *, trials: int = 2, score=N
     return out
 
 
-def lattice_layout(allowed, family: str, r: Resolved, score, *, source: int = -1, openings=(), bound=None
-                   ) -> list[Draft]:
+def lattice_layout(allowed, family: str, r: Resolved, score, *, source: int = -1, openings=(), bound=None,
+                   helper=None) -> list[Draft]:
     """A layout laid over the whole region open to voids, ignoring the freeform voids: a honeycomb of voids of one
     size with the web the rules ask between them (a row where the region is one void deep), each cell keeping
     its void only where the material it removes is worth it (``score`` above zero). Where the rules tie the web
@@ -794,7 +794,8 @@ def lattice_layout(allowed, family: str, r: Resolved, score, *, source: int = -1
 
     With ``bound`` (an upper bound of the worth of anything fitted inside a region, as ``candidates`` takes it)
     the honeycombs are fitted in falling order of their cells' bound and the search stops once none left can
-    beat the best found: the same layout with fewer fits.
+    beat the best found: the same layout with fewer fits. With a ready ``helper`` (``toolkit.helper``) two
+    honeycombs are fitted at a time, one there.
     """
     region = largest_part(allowed) if allowed is not None else None
     if region is None:
@@ -819,36 +820,58 @@ def lattice_layout(allowed, family: str, r: Resolved, score, *, source: int = -1
                 cells.append((p, c, radius if 2.0 * radius >= r.min_void_mm else None))
             combs.append(cells)
     best: tuple[float, int, list[Draft]] = (0.0, -1, [])
-    for k, ceiling in _highest_first([[p for p, _, radius in cells if radius is not None] for cells in combs], bound):
-        if ceiling * (1.0 + BOUND_SLACK) < best[0]:
-            break  # the rest are sorted below it
-        drafts = []
-        for i, (p, c, radius) in enumerate(combs[k]):
-            if radius is None:
-                continue
-            if family == "bore":
-                stock = [d for d in r.bore_diameters_mm if r.min_void_mm <= d <= 2.0 * radius]
-                if stock:
-                    drafts.append(Draft(family="bore", centre=(float(c[0]), float(c[1])), size=max(stock),
-                                        source=source, part=i, tools=r.tools))
-                continue
-            room = Room.bare(p, r, openings)
-            d = (_polygon_in if family == "polygon" else _slot_in)(room, p, r, source, i)
-            if d is not None:
-                drafts.append(d)
+
+    def weigh(k: int, drafts: list[Draft]) -> None:
+        nonlocal best
         worth = [d for d in drafts if score(d.shape()) > 0.0]
         total = sum(score(d.shape()) for d in worth)
         # the first of equal worth in the plain order, as a search of every honeycomb would keep
         if total > best[0] or (total == best[0] and total > 0.0 and k < best[1]):
             best = (total, k, worth)
+
+    order = _highest_first([[p for p, _, radius in cells if radius is not None] for cells in combs], bound)
+    at = 0
+    while at < len(order) and order[at][1] * (1.0 + BOUND_SLACK) >= best[0]:  # the rest are sorted below it
+        k = order[at][0]
+        # With a ready helper, the next honeycomb is fitted there meanwhile. Which is weighed first does not
+        # matter (equal worth goes to the first in the plain order), and one the search would have stopped
+        # before cannot beat the best (its worth is under its ceiling): the same layout either way.
+        ahead = None
+        if helper is not None and helper.ready and at + 1 < len(order):
+            ahead = order[at + 1][0], helper.submit(_comb_drafts, combs[order[at + 1][0]], family, r, source,
+                                                    openings)
+        weigh(k, _comb_drafts(combs[k], family, r, source, openings))
+        if ahead is not None:
+            weigh(ahead[0], result_or(ahead[1], _comb_drafts, combs[ahead[0]], family, r, source, openings))
+        at += 2 if ahead is not None else 1
     return best[2]
 
 
-def _lattice_of(allowed, families, r: Resolved, score, *, openings=(), bound=None) -> list[Draft]:
+def _comb_drafts(cells, family: str, r: Resolved, source: int, openings) -> list[Draft]:
+    """The voids of one honeycomb: each cell (piece, centre, radius; radius None for a cell too small) fitted
+    with a void of ``family`` (a module-level function: the helper process runs it)."""
+    drafts = []
+    for i, (p, c, radius) in enumerate(cells):
+        if radius is None:
+            continue
+        if family == "bore":
+            stock = [d for d in r.bore_diameters_mm if r.min_void_mm <= d <= 2.0 * radius]
+            if stock:
+                drafts.append(Draft(family="bore", centre=(float(c[0]), float(c[1])), size=max(stock),
+                                    source=source, part=i, tools=r.tools))
+            continue
+        room = Room.bare(p, r, openings)
+        d = (_polygon_in if family == "polygon" else _slot_in)(room, p, r, source, i)
+        if d is not None:
+            drafts.append(d)
+    return drafts
+
+
+def _lattice_of(allowed, families, r: Resolved, score, *, openings=(), bound=None, helper=None) -> list[Draft]:
     """The honeycomb over ``allowed`` (``lattice_layout``) of most worth among ``families``, one family each."""
     best: tuple[float, list[Draft]] = (0.0, [])
     for family in families:
-        got = lattice_layout(allowed, family, r, score, source=-1, openings=openings, bound=bound)
+        got = lattice_layout(allowed, family, r, score, source=-1, openings=openings, bound=bound, helper=helper)
         worth = sum(score(d.shape()) for d in got)
         if worth > best[0]:
             best = (worth, got)
@@ -856,7 +879,7 @@ def _lattice_of(allowed, families, r: Resolved, score, *, openings=(), bound=Non
 
 
 def _fill(placed: list[Draft], allowed, site: Site, r: Resolved, score, evaluate, cap: float, openings,
-          bound=None) -> tuple[list[Draft], int]:
+          bound=None, helper=None) -> tuple[list[Draft], int]:
     """New voids in the room the layout leaves (the region open to voids less every void grown by its web): a
     honeycomb there, each new void kept where it keeps the rules beside the others and is worth it; then those
     costing most stiffness dropped until the panel is no softer than ``cap``. Returns the drafts and how many
@@ -867,7 +890,8 @@ def _fill(placed: list[Draft], allowed, site: Site, r: Resolved, score, evaluate
     room = overlay(shapely.difference, allowed, shapely.union_all(grown))
     # ``mixed``: a honeycomb of one of the families the layout already uses (max_types counts families).
     families = sorted({d.family for d in placed}) if r.family == "mixed" else [r.family]
-    extra = _lattice_of(room, families, r, score, openings=openings, bound=bound) if not room.is_empty else []
+    extra = _lattice_of(room, families, r, score, openings=openings, bound=bound, helper=helper) \
+        if not room.is_empty else []
     # Numbered after the voids of the same source already there (a honeycomb layout is source -1 too): every
     # void keeps its own (source, part), which its id follows.
     first = 1 + max((d.part for d in placed if d.source == -1), default=-1)
@@ -1061,11 +1085,10 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
     opening_shapes = [o.shape for o in panel.openings]
     families = ("polygon", "slot", "bore") if r.family == "mixed" else (r.family,)
 
-    # The analyses need the grid. The freeform layout's analysis comes first: it sets the cap and the price the
-    # later stages use (the candidates keep the first price), and with the price known the honeycomb over the
-    # whole region can start in the helper process while the candidates are fitted (it needs nothing of them).
+    # The analyses need the grid. The freeform layout's analysis sets the cap and the price the later stages use
+    # (the candidates keep the first price).
     grid = energy[0] if isinstance(energy, tuple) else None
-    evaluate = cap = lattice_job = None
+    evaluate = cap = None
     later_score, later_bound = score, bound
     if not first_fit_only and grid is not None and kept and rho is not None:
         from .shape import Evaluator
@@ -1078,9 +1101,6 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
         cap, e_free = evaluate.shapes(free_shapes)
         rho = threshold_density(grid, e_free, free_shapes) or rho
         later_score, later_bound = score.at(rho), bound.at(rho)
-        if r.family != "mixed" and not mirror.axes and helper is not None and helper.ready:
-            lattice_job = helper.submit(_lattice_of, allowed, [r.family], r, later_score, openings=opening_shapes,
-                                        bound=later_bound)
 
     options: dict[int, dict[str, list[list[Draft]]] | None] = {}
     jobs: dict[int, tuple] = {}
@@ -1146,8 +1166,8 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
         # ``mixed``: the families the fitted voids chose (all three when none was), one family per honeycomb.
         lattice_families = (sorted({d.family for d in placed}) or list(families)[: r.max_types]) \
             if r.family == "mixed" else [r.family]
-        grid_drafts = [] if mirror.axes else result_or(
-            lattice_job, _lattice_of, allowed, lattice_families, r, score, openings=opening_shapes, bound=bound)
+        grid_drafts = [] if mirror.axes else _lattice_of(allowed, lattice_families, r, score, openings=opening_shapes,
+                                                         bound=bound, helper=helper)
         other = place(grid_drafts, site, r) if grid_drafts else None
         area_fit = sum(d.shape().area for d in placed)
         # The honeycomb is analysed only when it could be taken: it removes clearly more, or the fit is too soft.
@@ -1185,7 +1205,7 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
         notes += list(shaped.notes)
         placed = list(shaped.drafts)
         if not mirror.axes:
-            placed, filled = _fill(placed, allowed, site, r, score, evaluate, cap, opening_shapes, bound)
+            placed, filled = _fill(placed, allowed, site, r, score, evaluate, cap, opening_shapes, bound, helper)
             if filled:
                 notes.append(f"{filled} more void(s) placed in the room the layout left, where the material works "
                              "least, the panel staying no softer than the freeform layout.")
