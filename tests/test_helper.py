@@ -26,7 +26,8 @@ class _Stand_in:
     """A helper that answers at once in this process, or fails every piece (``broken``)."""
 
     def __init__(self, broken: bool = False):
-        self.ready, self.broken, self.sent = True, broken, 0
+        self.ready = self.idle = True
+        self.broken, self.sent = broken, 0
 
     def submit(self, fn, *args):
         self.sent += 1

@@ -73,6 +73,7 @@ class Helper:
     def __init__(self, wanted: bool = True):
         self._pool = None
         self._first: Future | None = None
+        self._pending: set = set()  # work handed over and not yet done
         self.sent = 0  # pieces of work handed to the process
         self.why_not = "not asked for" if not wanted else may_start()
 
@@ -102,22 +103,30 @@ class Helper:
         first = self._first
         return self._pool is not None and first is not None and first.done() and first.exception() is None
 
+    @property
+    def idle(self) -> bool:
+        """Ready, with nothing handed over still to do: work given now starts at once, not behind other work (the
+        process takes one piece at a time, in the order given)."""
+        return self.ready and not self._pending
+
     def submit(self, fn: Callable, *args, **kwargs) -> Future:
         if self._pool is None:
             raise RuntimeError("the helper process is not running")
         future = self._pool.submit(fn, *args, **kwargs)
         self.sent += 1
+        self._pending.add(future)
+        future.add_done_callback(self._pending.discard)
         return future
 
 
 def share_out(helper: Helper | None, fn: Callable, tasks: dict[Hashable, tuple],
               cost: Callable[[Hashable], float] | None = None) -> dict:
-    """``{key: fn(*tasks[key])}``, in the order of ``tasks``. With a ready ``helper`` the tasks are shared: this
+    """``{key: fn(*tasks[key])}``, in the order of ``tasks``. With an idle ``helper`` the tasks are shared: this
     process takes them from the costliest down (by ``cost``), the helper from the cheapest up, two at a time in
     flight so that it never waits for the next; a task the helper could not do is done here. ``fn`` must be a
     module-level function and the tasks picklable."""
     keys = list(tasks)
-    if helper is None or not helper.ready or len(keys) < 2:
+    if helper is None or not helper.idle or len(keys) < 2:
         return {k: fn(*tasks[k]) for k in keys}
     order = sorted(keys, key=lambda k: -cost(k)) if cost is not None else keys
     lock = threading.Lock()

@@ -794,7 +794,7 @@ def lattice_layout(allowed, family: str, r: Resolved, score, *, source: int = -1
 
     With ``bound`` (an upper bound of the worth of anything fitted inside a region, as ``candidates`` takes it)
     the honeycombs are fitted in falling order of their cells' bound and the search stops once none left can
-    beat the best found: the same layout with fewer fits. With a ready ``helper`` (``toolkit.helper``) two
+    beat the best found: the same layout with fewer fits. With an idle ``helper`` (``toolkit.helper``) two
     honeycombs are fitted at a time, one there.
     """
     region = largest_part(allowed) if allowed is not None else None
@@ -833,11 +833,11 @@ def lattice_layout(allowed, family: str, r: Resolved, score, *, source: int = -1
     at = 0
     while at < len(order) and order[at][1] * (1.0 + BOUND_SLACK) >= best[0]:  # the rest are sorted below it
         k = order[at][0]
-        # With a ready helper, the next honeycomb is fitted there meanwhile. Which is weighed first does not
+        # With an idle helper, the next honeycomb is fitted there meanwhile. Which is weighed first does not
         # matter (equal worth goes to the first in the plain order), and one the search would have stopped
         # before cannot beat the best (its worth is under its ceiling): the same layout either way.
         ahead = None
-        if helper is not None and helper.ready and at + 1 < len(order):
+        if helper is not None and helper.idle and at + 1 < len(order):
             ahead = order[at + 1][0], helper.submit(_comb_drafts, combs[order[at + 1][0]], family, r, source,
                                                     openings)
         weigh(k, _comb_drafts(combs[k], family, r, source, openings))
@@ -1044,9 +1044,9 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
     from another run's ``Rationalised.layouts``: each of those voids is fitted as that kind of layout
     alone (the others get the whole search), so a refit under other rules is a fraction of the search.
     ``helper``: a ``helper.Helper`` whose process takes part of the fitting (the same layout as without it).
-    ``on_first_fit(layouts)``: told the first fit's choice of layout per void (``Rationalised.layouts``) as soon as
-    it is made, before the analyses, so that a caller can start work that needs only that (the limiting rule's
-    refits, ``first_fit_area``).
+    ``on_first_fit(layouts)``: told the first fit's choice of layout per void (``Rationalised.layouts``) before the
+    shape optimisation, so that a caller can start work that needs only that (the limiting rule's refits,
+    ``first_fit_area``) while the layout is shaped.
     """
     r = resolve_settings(settings, rules, panel.thickness_mm)
     region = rule_check.impossible_rules(panel, rules)  # raises, in words, when no void fits at all
@@ -1156,8 +1156,6 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
         return Rationalised(voids=(), changes=(), dropped=tuple(dropped), fit_errors=(), violations=(),
                             notes=tuple(notes), first_fit_mm2=first_fit_mm2,
                             layouts=tuple((i, f, kind) for i, (f, kind) in kinds.items()))
-    if on_first_fit is not None:
-        on_first_fit(tuple((i, f, kind) for i, (f, kind) in kinds.items()))
     score, bound = later_score, later_bound
     if evaluate is not None:
         c_fit, e_fit = evaluate(placed)
@@ -1191,6 +1189,8 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
                 first = (c_grid, e_grid)
     for source, reason in drop_recs:
         dropped.append(f"{where(source)}: {reason}; dropped.")
+    if on_first_fit is not None:  # now: the helper is free again, and the shaping ahead is mostly analyses here
+        on_first_fit(tuple((i, f, kind) for i, (f, kind) in kinds.items()))
 
     shaped = None
     if shape_steps and evaluate is not None and placed:
