@@ -9,6 +9,7 @@ iteration count, in the same run. Prints figures; asserts nothing.
 
     python benchmarks/bench_voids.py                     # every scenario
     python benchmarks/bench_voids.py plate --ref ../shared/ref_beso.py
+    python benchmarks/bench_voids.py --helper            # with the second process the lacuna commands use
 """
 
 from __future__ import annotations
@@ -33,6 +34,8 @@ def main() -> None:
     ap = argparse.ArgumentParser()
     ap.add_argument("only", nargs="?", default="", help="run the scenarios whose name holds this text")
     ap.add_argument("--ref", help="path of the plain BESO port to time against (plate scenario)")
+    ap.add_argument("--helper", action="store_true",
+                    help="with the helper process the lacuna commands start (toolkit/helper.py); default one core")
     args = ap.parse_args()
     rows = []
     with threadpool_limits(1):  # one core, as the targets are stated
@@ -41,7 +44,7 @@ def main() -> None:
                 continue
             panel, job = make()
             t0 = time.perf_counter()
-            run = optimize_panel(panel, job)
+            run = optimize_panel(panel, job, helper=args.helper)
             total = time.perf_counter() - t0
             shape = run.rationalised.shape
             rows.append((name, run, total, shape))

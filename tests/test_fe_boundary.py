@@ -105,3 +105,21 @@ def test_point_support_off_the_panel_is_refused():
     solid = box(0, 0, 1000, 300).difference(box(400, 100, 600, 200))
     with pytest.raises(LacunaError, match="inside an opening"):
         fixed_dofs(G, (Support(((500.0, 150.0),), "xy"),), solid=solid)
+
+
+def test_the_parts_of_the_panel_are_those_scipy_ndimage_labels():
+    # element_parts (a graph of shared edges, scipy.sparse.csgraph) against scipy.ndimage.label with its default
+    # cross-shaped structure (a general-purpose reference: parts joined through edges, not corners, numbered in
+    # raster order of their first element) on random grids of random densities.
+    from scipy import ndimage
+
+    from toolkit.fe.boundary import element_parts
+    from toolkit.fe.grid import Grid
+
+    rng = np.random.default_rng(7)
+    for _ in range(200):
+        nx, ny = (int(v) for v in rng.integers(1, 30, 2))
+        active = rng.random(nx * ny) < rng.uniform(0.2, 0.9)
+        expected, n = ndimage.label(active.reshape(ny, nx))
+        labels, parts = element_parts(Grid(nx, ny, 1.0, 1.0), active)
+        assert parts == n and np.array_equal(labels, expected.ravel())

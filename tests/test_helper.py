@@ -90,7 +90,7 @@ def ready_helper():
     """A helper process that has answered (one for the tests below: starting one costs about a second)."""
     if may_start():
         pytest.skip(f"no helper process on this machine: {may_start()}")
-    with Helper() as h:
+    with Helper(modules=("toolkit.voids.layout",)) as h:
         waited = time.monotonic()
         while not h.ready and time.monotonic() - waited < 120.0:
             time.sleep(0.1)

@@ -38,16 +38,18 @@ from .overlap import side_threads
 _PYTHON = re.compile(r"python(w)?(\d+(\.\d+)*)?(\.exe)?", re.IGNORECASE)
 
 
-def _start_worker() -> None:
-    """Run in the helper as it starts: Ctrl-C is the job's to handle; BLAS on one thread; the fitting code
-    imported now, while the job's own process runs the optimiser."""
+def _start_worker(modules: tuple[str, ...]) -> None:
+    """Run in the helper as it starts: Ctrl-C is the job's to handle; BLAS on one thread; the code it will run
+    (``modules``, named by the caller) imported now, while the job's own process runs the optimiser."""
+    import importlib
     import signal
 
     signal.signal(signal.SIGINT, signal.SIG_IGN)
     from threadpoolctl import ThreadpoolController
 
     ThreadpoolController().limit(limits=1, user_api="blas")
-    from .voids import layout  # noqa: F401 - the import is the point
+    for name in modules:
+        importlib.import_module(name)
 
 
 def _ping() -> bool:
@@ -70,7 +72,9 @@ class Helper:
     started when it is not wanted or may not start here). Leaving the block drops it without waiting for work
     it has not begun."""
 
-    def __init__(self, wanted: bool = True):
+    def __init__(self, wanted: bool = True, modules: tuple[str, ...] = ()):
+        """``modules``: what the work handed over will need, imported as the process starts."""
+        self.modules = tuple(modules)
         self._pool = None
         self._first: Future | None = None
         self._pending: set = set()  # work handed over and not yet done
@@ -83,7 +87,7 @@ class Helper:
 
             try:
                 self._pool = ProcessPoolExecutor(1, mp_context=multiprocessing.get_context("spawn"),
-                                                 initializer=_start_worker)
+                                                 initializer=_start_worker, initargs=(self.modules,))
                 self._first = self._pool.submit(_ping)
             except (OSError, RuntimeError, ValueError) as error:  # no process could be made: work here alone
                 self.why_not = f"could not start: {error}"

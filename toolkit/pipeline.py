@@ -188,7 +188,7 @@ def optimize_panel(
     # The helper process starts now so that its imports run beside the optimiser; it takes part of the fitting,
     # then the limiting rule's refits while the voids are shaped (``early``), and goes after the checks.
     early: dict = {}
-    with Helper(helper) as side:
+    with Helper(helper, modules=("toolkit.voids.layout",)) as side:
         solid, beso, problem, freeform, energy, rationalised = _to_voids(
             panel, job, rules, settings, void_region, void_options, shared, side, lap, tell,
             on_iteration=on_iteration, keep_every=keep_every, early=early)

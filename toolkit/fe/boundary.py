@@ -4,7 +4,8 @@ from __future__ import annotations
 
 import numpy as np
 import shapely
-from scipy import ndimage
+import scipy.sparse as sp
+from scipy.sparse.csgraph import connected_components
 from shapely.geometry import LineString, Point
 
 from ..errors import LacunaError
@@ -90,6 +91,24 @@ def fixed_dofs(
     return fixed
 
 
+def element_parts(grid: Grid, active_elements: np.ndarray) -> tuple[np.ndarray, int]:
+    """(label of each element, number of parts): the active elements joined through shared edges (not corners)
+    numbered 1, 2, ... in the order of each part's first element (row by row from the bottom), 0 elsewhere."""
+    active = np.asarray(active_elements, dtype=bool).reshape(grid.ny, grid.nx)
+    number = np.arange(grid.n_elements).reshape(grid.ny, grid.nx)
+    across, up = active[:, :-1] & active[:, 1:], active[:-1, :] & active[1:, :]
+    rows = np.concatenate([number[:, :-1][across], number[:-1, :][up]])
+    cols = np.concatenate([number[:, 1:][across], number[1:, :][up]])
+    graph = sp.coo_matrix((np.ones(len(rows), dtype=np.int8), (rows, cols)), shape=(grid.n_elements,) * 2)
+    # each component is numbered by its lowest element, so the active ones keep that order once renumbered
+    _, component = connected_components(graph, directed=False)
+    labels = np.zeros(grid.n_elements, dtype=np.int64)
+    flat = active.ravel()
+    kinds, order = np.unique(component[flat], return_inverse=True)
+    labels[flat] = order + 1
+    return labels, len(kinds)
+
+
 def check_mechanism(
     grid: Grid, fixed: np.ndarray, active_elements: np.ndarray | None = None, frame: Frame | None = None
 ) -> None:
@@ -100,10 +119,9 @@ def check_mechanism(
     """
     if active_elements is None:
         active_elements = np.ones(grid.n_elements, dtype=bool)
-    labels, n_parts = ndimage.label(np.asarray(active_elements, dtype=bool).reshape(grid.ny, grid.nx))
+    labels, n_parts = element_parts(grid, active_elements)
     if n_parts == 0:
         raise LacunaError("the panel has no material left to analyse.")
-    labels = labels.ravel()
     problems: list[str] = []
     hints: list[str] = []
     for part in range(1, n_parts + 1):

@@ -30,12 +30,19 @@ import math
 
 import numpy as np
 import shapely
-from scipy.optimize import minimize
 from shapely.geometry import LineString, Polygon
 
 from ..errors import LacunaError
 from .measure import principal_axes, second_moments
 from .outline import Draft
+
+
+def minimize(*args, **kwargs):
+    """scipy.optimize.minimize, imported when first used (it adds about 0.2 s to every start, and most jobs
+    never call it: only symmetric seeds and the earlier best-fit shapes do)."""
+    from scipy.optimize import minimize as found
+
+    return found(*args, **kwargs)
 
 # Weight of the area outside the allowed region against the fit error (both as shares of the void's area).
 OUTSIDE_WEIGHT = 4.0

@@ -33,7 +33,6 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 import shapely
-from scipy.optimize import minimize
 from shapely.geometry import LineString, Point, Polygon, box
 
 from ..errors import LacunaError
@@ -41,6 +40,14 @@ from ..model import LineLoad, Panel, PointLoad
 from .fit import MIN_TURN, bore_room, overlay, overlay_error
 from .measure import second_moments
 from .outline import Draft
+
+
+def minimize(*args, **kwargs):
+    """scipy.optimize.minimize, imported when first used (it adds about 0.2 s to every start, and most jobs
+    never call it: only symmetric seeds and the earlier best-fit shapes do)."""
+    from scipy.optimize import minimize as found
+
+    return found(*args, **kwargs)
 
 AXES = ("x", "y")
 AXIS_NAMES = {"x": "the vertical mid-line", "y": "the horizontal mid-line"}
