@@ -15,11 +15,13 @@ When a helper is started:
   under ``if __name__ == "__main__":``; a CAD host's script cannot be assumed to, so the API leaves it off;
 - not with one core, nor with ``LACUNA_THREADS=1`` in the environment (overlap.py), nor inside a daemonic
   process (a Dask worker of ``lacuna batch`` or ``sweep``, which keep the cores busy already), nor where
-  ``sys.executable`` is not a Python interpreter (a frozen program or a host embedding Python).
+  ``sys.executable`` is not a Python interpreter (a frozen program or a host embedding Python);
+- not for a small grid (``pipeline.HELPER_MIN_ELEMENTS``), where its start costs about what it saves.
 
 The helper starts at the beginning of the job, so that its imports (about a second of CPU) run on the second
 core while the optimiser runs on the first; work goes to it only once it answered its first call, so a short job
-never waits for it. It ignores Ctrl-C (the job's own process stops and drops it); it holds BLAS to one thread.
+never waits for it; one still starting when the job is done is stopped. It ignores Ctrl-C (the job's own
+process stops and drops it); it holds BLAS to one thread.
 Any failure in it (a broken process, an answer that cannot be pickled) only means that piece is computed here.
 """
 
@@ -95,11 +97,23 @@ class Helper:
         return self
 
     def __exit__(self, kind, error, trace) -> None:
-        # Waited for only when it is idle and answering; one still starting (a short job) or busy (an error
-        # here) ends by itself once its imports or its piece of work are done.
+        # Waited for when it is answering and the block ended well (it is idle: everything handed over was
+        # collected). One still starting (a short job) or busy (an error here) is stopped: nothing it could still
+        # do is wanted, and the interpreter would otherwise wait for it at exit.
         pool, self._pool = self._pool, None
-        if pool is not None:
-            pool.shutdown(wait=error is None and self._first is not None and self._first.done(), cancel_futures=True)
+        if pool is None:
+            return
+        if error is None and self._first is not None and self._first.done():
+            pool.shutdown(wait=True, cancel_futures=True)
+            return
+        # ProcessPoolExecutor names no public way to stop its workers before Python 3.14's terminate_workers
+        stop = getattr(pool, "terminate_workers", None)
+        if stop is not None:
+            stop()
+            return
+        for process in list((getattr(pool, "_processes", None) or {}).values()):
+            process.terminate()
+        pool.shutdown(wait=False, cancel_futures=True)
 
     @property
     def ready(self) -> bool:

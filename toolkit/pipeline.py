@@ -152,8 +152,9 @@ def optimize_panel(
     """The whole job on ``panel`` with ``job``'s settings and rules. ``on_iteration(index, compliance, volume)``
     after each BESO iteration; ``on_stage(words)`` as each later stage starts (what it does, in words), so that a
     progress display does not stand still on BESO's last line while the voids are fitted and checked. ``helper``:
-    let a second process take part of the fitting where a second core is free (``toolkit.helper``: only for a
-    caller whose main script keeps its work under ``if __name__ == "__main__":``); the layout is the same."""
+    let a second process take part of the fitting where a second core is free and the grid is large enough for it
+    to pay (``HELPER_MIN_ELEMENTS``; ``toolkit.helper``: only for a caller whose main script keeps its work under
+    ``if __name__ == "__main__":``); the layout is the same."""
     tell = on_stage or (lambda words: None)
     rules = job_rules(job)
     settings = job.optimize
@@ -188,7 +189,7 @@ def optimize_panel(
     # The helper process starts now so that its imports run beside the optimiser; it takes part of the fitting,
     # then the limiting rule's refits while the voids are shaped (``early``), and goes after the checks.
     early: dict = {}
-    with Helper(helper, modules=("toolkit.voids.layout",)) as side:
+    with Helper(helper and nx * ny >= HELPER_MIN_ELEMENTS, modules=("toolkit.voids.layout",)) as side:
         solid, beso, problem, freeform, energy, rationalised = _to_voids(
             panel, job, rules, settings, void_region, void_options, shared, side, lap, tell,
             on_iteration=on_iteration, keep_every=keep_every, early=early)
@@ -291,6 +292,14 @@ def timed(stage: str, timings: dict, fn, *args, **kwargs):
         return fn(*args, **kwargs)
     finally:
         timings[stage] = time.perf_counter() - start
+
+
+# The helper process (toolkit/helper.py) only for grids of at least this many elements. Starting it costs this
+# process about 0.2 s and its imports take the second core for a second or two, which a short optimiser run
+# cannot hide: measured 2026-12-02, whole jobs in one invocation, helper on / off: a 40 x 15-element plate 2.6-3.0
+# against 2.5-2.8 s, the demo's 210 x 40 grid 6.2-6.3 against 6.2-6.4 s, the 300 x 100 bench plate 25.1-26.6
+# against 26.6-26.8 s (its void stage 7.8-8.4 against 9.4-9.5 s).
+HELPER_MIN_ELEMENTS = 20_000
 
 
 # Below this share of the freeform layout's removed area the report names the rule that held the layout back.
