@@ -195,10 +195,11 @@ def optimize_panel(
             on_iteration=on_iteration, keep_every=keep_every, early=early)
         made = float(sum(v.area_mm2 for v in rationalised.voids))
         free = float(sum(g.area for g in freeform))
-        # The checks of the made layout need nothing from each other: the limiting rule's refit and the local models
-        # run on the side threads (overlap.py), each on its own copy of the geometry, while this thread makes the two
-        # re-analyses one after the other (one factorisation of the grid in memory at a time, as in the optimiser).
-        # Each stage's own seconds are kept, and "checks" is the wall time of them all.
+        # The checks of the made layout need nothing from each other: the limiting rule's refit (collected from the
+        # helper where it made it) and the local models run on the side threads (overlap.py), each on its own copy
+        # of the geometry, while this thread makes the two re-analyses one after the other (one factorisation of
+        # the grid in memory at a time, as in the optimiser). Each stage's own seconds are kept, and "checks" is the
+        # wall time of them all.
         n = len(rationalised.voids)
         held_back = free > 0 and made < LIMIT_SHARE * free  # the limiting rule is looked for
         tell(f"checking the {n} void{'s' if n != 1 else ''} to make: the panel analysed again, a local model of the "
@@ -251,8 +252,9 @@ def optimize_panel(
 def _to_voids(panel: Panel, job: Job, rules: Rules, settings, void_region, void_options, shared: SharedSolver,
               side: Helper, lap, tell, *, on_iteration, keep_every, early: dict):
     """The stages up to the made voids: the solid analysis, the optimiser, the freeform outlines, the voids.
-    Where the helper process is ready when the first fit is made, it starts the limiting rule's refits, each
-    rule's Future put in ``early`` (the checks take them; they are wasted only when no rule is looked for)."""
+    Where the helper process is ready once the first fit is made (before the shape optimisation), it starts the
+    limiting rule's refits, each rule's Future put in ``early`` (the checks take them; they are wasted only when
+    no rule is looked for)."""
     solid = analyze(panel, shared=shared)
     lap("analysis")
     zones = ZoneSettings(
