@@ -152,3 +152,21 @@ def test_the_limiting_rule_refits_made_in_the_helper_give_the_same_sentence(read
              for early in (there, None, {key: lost for key in there})]
     assert ready_helper.sent == sent + len(there) >= 1
     assert texts == [run.limit] * 3
+
+
+def test_work_the_helper_cannot_take_is_done_here(ready_helper):
+    # An energy field given as a function the helper cannot unpickle (a lambda): each void's candidates fail to
+    # go over and are fitted here; the layout is the one made without the helper.
+    panel = Panel(width_mm=1200.0, height_mm=400.0, thickness_mm=10.0, material=Material(E_MPa=210000.0, nu=0.3),
+                  supports=(Support(((0.0, 0.0), (0.0, 400.0)), "xy"),),
+                  loads=(PointLoad((1200.0, 150.0), (0.0, -20000.0)),), element_size_mm=20.0)
+    freeform = [box(150, 150, 420, 250), box(520, 160, 760, 240), box(860, 170, 1040, 230)]
+    field = lambda p: 1.0 + 3.0 * (1.0 - np.asarray(p)[:, 0] / 1200.0) ** 2  # noqa: E731
+    rules = Rules(min_web_mm=30.0, edge_cover_mm=30.0, min_void_mm=20.0, bearing_clearance_mm=60.0, web_ratio=0.3)
+    opts = VoidOptions(family="polygon", sides=6, snap_mm=0.0)
+    alone = rationalise(panel, freeform, opts, rules, energy=field)
+    sent = ready_helper.sent
+    shared = rationalise(panel, freeform, opts, rules, energy=field, helper=ready_helper)
+    assert ready_helper.sent > sent  # it was offered work, and could not take it
+    assert alone.voids and [(v.outline, v.area_mm2) for v in shared.voids] == [(v.outline, v.area_mm2)
+                                                                              for v in alone.voids]
