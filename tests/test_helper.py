@@ -98,28 +98,31 @@ def ready_helper():
         yield h
 
 
+# A cantilever plate of our own with four freeform voids, and the rules and settings they are fitted under.
+PANEL = Panel(width_mm=1200.0, height_mm=400.0, thickness_mm=10.0, material=Material(E_MPa=210000.0, nu=0.3),
+              supports=(Support(((0.0, 0.0), (0.0, 400.0)), "xy"),),
+              loads=(PointLoad((1200.0, 150.0), (0.0, -20000.0)),), element_size_mm=20.0)
+FREEFORM = [box(150, 150, 420, 250), box(520, 160, 760, 240), box(860, 170, 1040, 230), box(520, 300, 700, 350)]
+RULES = Rules(min_web_mm=30.0, edge_cover_mm=30.0, min_void_mm=20.0, bearing_clearance_mm=60.0, web_ratio=0.3)
+OPTS = VoidOptions(family="polygon", sides=6, snap_mm=0.0)
+
+
+def _layout(res):
+    """What must be the same to the bit: the voids, the notes, the drops and the changes."""
+    return [(v.family, v.outline, v.area_mm2) for v in res.voids], res.notes, res.dropped, res.changes
+
+
 def test_the_helper_process_gives_the_same_layout(ready_helper):
-    # A cantilever plate of our own with four freeform voids and a strain-energy field that rises towards the
-    # support, so that the worth of each layout matters: fitted here alone and with the helper process, the
-    # voids, notes and drops must be the same to the bit.
-    panel = Panel(width_mm=1200.0, height_mm=400.0, thickness_mm=10.0, material=Material(E_MPa=210000.0, nu=0.3),
-                  supports=(Support(((0.0, 0.0), (0.0, 400.0)), "xy"),),
-                  loads=(PointLoad((1200.0, 150.0), (0.0, -20000.0)),), element_size_mm=20.0)
-    freeform = [box(150, 150, 420, 250), box(520, 160, 760, 240), box(860, 170, 1040, 230), box(520, 300, 700, 350)]
-    grid = make_grid(panel.width_mm, panel.height_mm, panel.element_size_mm)
+    # A strain-energy field that rises towards the support, so that the worth of each layout matters: fitted here
+    # alone and with the helper process, the layouts must be the same.
+    grid = make_grid(PANEL.width_mm, PANEL.height_mm, PANEL.element_size_mm)
     x = (np.arange(grid.n_elements) % grid.nx + 0.5) * grid.dx
-    energy = (grid, 1.0 + 3.0 * (1.0 - x / panel.width_mm) ** 2)
-    rules = Rules(min_web_mm=30.0, edge_cover_mm=30.0, min_void_mm=20.0, bearing_clearance_mm=60.0, web_ratio=0.3)
-    opts = VoidOptions(family="polygon", sides=6, snap_mm=0.0)
-    alone = rationalise(panel, freeform, opts, rules, energy=energy)
+    energy = (grid, 1.0 + 3.0 * (1.0 - x / PANEL.width_mm) ** 2)
+    alone = rationalise(PANEL, FREEFORM, OPTS, RULES, energy=energy)
     sent = ready_helper.sent
-    shared = rationalise(panel, freeform, opts, rules, energy=energy, helper=ready_helper)
+    shared = rationalise(PANEL, FREEFORM, OPTS, RULES, energy=energy, helper=ready_helper)
     assert ready_helper.sent >= sent + 2  # the honeycomb over the region and some voids' candidates went there
-
-    def key(res):
-        return [(v.family, v.outline, v.area_mm2) for v in res.voids], res.notes, res.dropped, res.changes
-
-    assert alone.voids and key(shared) == key(alone)
+    assert alone.voids and _layout(shared) == _layout(alone)
 
 
 def test_the_limiting_rule_refits_made_in_the_helper_give_the_same_sentence(ready_helper):
@@ -157,16 +160,9 @@ def test_the_limiting_rule_refits_made_in_the_helper_give_the_same_sentence(read
 def test_work_the_helper_cannot_take_is_done_here(ready_helper):
     # An energy field given as a function the helper cannot unpickle (a lambda): each void's candidates fail to
     # go over and are fitted here; the layout is the one made without the helper.
-    panel = Panel(width_mm=1200.0, height_mm=400.0, thickness_mm=10.0, material=Material(E_MPa=210000.0, nu=0.3),
-                  supports=(Support(((0.0, 0.0), (0.0, 400.0)), "xy"),),
-                  loads=(PointLoad((1200.0, 150.0), (0.0, -20000.0)),), element_size_mm=20.0)
-    freeform = [box(150, 150, 420, 250), box(520, 160, 760, 240), box(860, 170, 1040, 230)]
-    field = lambda p: 1.0 + 3.0 * (1.0 - np.asarray(p)[:, 0] / 1200.0) ** 2  # noqa: E731
-    rules = Rules(min_web_mm=30.0, edge_cover_mm=30.0, min_void_mm=20.0, bearing_clearance_mm=60.0, web_ratio=0.3)
-    opts = VoidOptions(family="polygon", sides=6, snap_mm=0.0)
-    alone = rationalise(panel, freeform, opts, rules, energy=field)
+    field = lambda p: 1.0 + 3.0 * (1.0 - np.asarray(p)[:, 0] / PANEL.width_mm) ** 2  # noqa: E731
+    alone = rationalise(PANEL, FREEFORM, OPTS, RULES, energy=field)
     sent = ready_helper.sent
-    shared = rationalise(panel, freeform, opts, rules, energy=field, helper=ready_helper)
+    shared = rationalise(PANEL, FREEFORM, OPTS, RULES, energy=field, helper=ready_helper)
     assert ready_helper.sent > sent  # it was offered work, and could not take it
-    assert alone.voids and [(v.outline, v.area_mm2) for v in shared.voids] == [(v.outline, v.area_mm2)
-                                                                              for v in alone.voids]
+    assert alone.voids and _layout(shared) == _layout(alone)

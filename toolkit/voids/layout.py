@@ -1084,24 +1084,6 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
         score = bound = _area
     opening_shapes = [o.shape for o in panel.openings]
     families = ("polygon", "slot", "bore") if r.family == "mixed" else (r.family,)
-
-    # The analyses need the grid. The freeform layout's analysis sets the cap and the price the later stages use
-    # (the candidates keep the first price).
-    grid = energy[0] if isinstance(energy, tuple) else None
-    evaluate = cap = None
-    later_score, later_bound = score, bound
-    if not first_fit_only and grid is not None and kept and rho is not None:
-        from .shape import Evaluator
-
-        # A symmetric layout is analysed whole: each seed with its mirror images.
-        evaluate = Evaluator(panel, grid, orbit=mirror.orbit if mirror.axes else None, shared=shared)
-        # The made layout must be no softer than the freeform one it stands for, and the price of stiffness is
-        # where the optimiser stopped: the strain-energy density of the material left round its voids.
-        free_shapes = [v.shape for v in clean(freeform, 0.0)[0]] if mirror.axes else [v.shape for v in kept]
-        cap, e_free = evaluate.shapes(free_shapes)
-        rho = threshold_density(grid, e_free, free_shapes) or rho
-        later_score, later_bound = score.at(rho), bound.at(rho)
-
     options: dict[int, dict[str, list[list[Draft]]] | None] = {}
     jobs: dict[int, tuple] = {}
     shapes = [v.shape for v in kept]
@@ -1156,8 +1138,19 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
         return Rationalised(voids=(), changes=(), dropped=tuple(dropped), fit_errors=(), violations=(),
                             notes=tuple(notes), first_fit_mm2=first_fit_mm2,
                             layouts=tuple((i, f, kind) for i, (f, kind) in kinds.items()))
-    score, bound = later_score, later_bound
-    if evaluate is not None:
+    grid = energy[0] if isinstance(energy, tuple) else None
+    evaluate = cap = None
+    if grid is not None and kept and rho is not None:
+        from .shape import Evaluator
+
+        # A symmetric layout is analysed whole: each seed with its mirror images.
+        evaluate = Evaluator(panel, grid, orbit=mirror.orbit if mirror.axes else None, shared=shared)
+        # The made layout must be no softer than the freeform one it stands for, and the price of stiffness is
+        # where the optimiser stopped: the strain-energy density of the material left round its voids.
+        free_shapes = [v.shape for v in clean(freeform, 0.0)[0]] if mirror.axes else [v.shape for v in kept]
+        cap, e_free = evaluate.shapes(free_shapes)
+        rho = threshold_density(grid, e_free, free_shapes) or rho
+        score, bound = score.at(rho), bound.at(rho)  # the later stages' price
         c_fit, e_fit = evaluate(placed)
         first = (c_fit, e_fit)
         # The honeycomb over the whole region is not laid symmetric: a symmetric layout keeps its own voids.

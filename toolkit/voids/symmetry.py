@@ -37,17 +37,10 @@ from shapely.geometry import LineString, Point, Polygon, box
 
 from ..errors import LacunaError
 from ..model import LineLoad, Panel, PointLoad
-from .fit import MIN_TURN, bore_room, overlay, overlay_error
+from .fit import MIN_TURN, bore_room, minimize, overlay, overlay_error
 from .measure import second_moments
 from .outline import Draft
 
-
-def minimize(*args, **kwargs):
-    """scipy.optimize.minimize, imported when first used (it adds about 0.2 s to every start, and most jobs
-    never call it: only symmetric seeds and the earlier best-fit shapes do)."""
-    from scipy.optimize import minimize as found
-
-    return found(*args, **kwargs)
 
 AXES = ("x", "y")
 AXIS_NAMES = {"x": "the vertical mid-line", "y": "the horizontal mid-line"}
