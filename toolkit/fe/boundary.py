@@ -101,12 +101,14 @@ def element_parts(grid: Grid, active_elements: np.ndarray) -> tuple[np.ndarray, 
     cols = np.concatenate([number[:, 1:][across], number[1:, :][up]])
     graph = sp.coo_matrix((np.ones(len(rows), dtype=np.int8), (rows, cols)), shape=(grid.n_elements,) * 2)
     # each component is numbered by its lowest element, so the active ones keep that order once renumbered
-    _, component = connected_components(graph, directed=False)
-    labels = np.zeros(grid.n_elements, dtype=np.int64)
+    n, component = connected_components(graph, directed=False)
     flat = active.ravel()
-    kinds, order = np.unique(component[flat], return_inverse=True)
-    labels[flat] = order + 1
-    return labels, len(kinds)
+    used = np.zeros(n, dtype=bool)
+    used[component[flat]] = True
+    number_of = np.cumsum(used)  # 1, 2, ... for the components of active elements, in their order
+    labels = np.zeros(grid.n_elements, dtype=np.int64)
+    labels[flat] = number_of[component[flat]]
+    return labels, int(used.sum())
 
 
 def check_mechanism(
