@@ -11,7 +11,8 @@ from toolkit.errors import LacunaError
 from toolkit.fe.assembly import Assembler
 from toolkit.fe.element import q4_stiffness
 from toolkit.fe.grid import Grid, make_grid
-from toolkit.fe.solve import LinearSolver, SharedSolver, nested_dissection, pardiso_available
+from toolkit.fe.solve import (LinearSolver, SharedSolver, _dissection_order, _dissection_order_by_boxes,
+                              nested_dissection, pardiso_available)
 
 
 @pytest.mark.parametrize("shape", [(1, 1), (5, 1), (1, 4), (7, 5)])
@@ -49,6 +50,15 @@ def test_grid_numbering_and_exact_cover():
 def test_nested_dissection_is_a_permutation():
     g = Grid(13, 7, 1.0, 1.0)
     assert np.array_equal(np.sort(nested_dissection(g)), np.arange(g.n_nodes))
+
+
+@pytest.mark.parametrize("nxp,nyp", [(1, 1), (2, 2), (5, 2), (2, 50), (14, 8), (31, 11), (11, 31), (301, 101)])
+@pytest.mark.parametrize("leaf", [1, 2, 4])
+def test_nested_dissection_level_by_level_is_the_order_of_the_boxes(nxp, nyp, leaf):
+    # The order worked out for all nodes at once is the one a loop over the dissection's boxes gives.
+    fast = _dissection_order(nxp, nyp, leaf)
+    assert np.array_equal(fast, _dissection_order_by_boxes(nxp, nyp, leaf))
+    assert not fast.flags.writeable
 
 
 # pypardiso is a dependency where its wheels exist (pyproject.toml: x86-64 Linux and Windows): there a package that
@@ -141,6 +151,25 @@ def test_multifrontal_gives_the_superlu_displacements_on_an_optimiser_like_desig
     U_lu = LinearSolver(K, free, grid=g, backend="superlu").solve(F)
     assert F @ U_mf == pytest.approx(F @ U_lu, rel=1e-9)
     np.testing.assert_allclose(U_mf, U_lu, rtol=0, atol=1e-8 * np.abs(U_lu).max())
+
+
+@pytest.mark.skipif(not PARDISO_PLATFORM, reason="pypardiso is a dependency on x86-64 Linux and Windows only")
+def test_pardiso_refinement_takes_the_residual_of_the_matrix_solved(monkeypatch):
+    # solve() refines on the residual b - A x, A x formed from the upper triangle PARDISO holds (fe/solve.py,
+    # REFINE_ABOVE). Made to refine every time, the answer must stay numpy's dense solution: with PARDISO in the
+    # grid's order, in its own (METIS) and in solve_spd's (minimum degree).
+    import toolkit.fe.solve as fe_solve
+
+    monkeypatch.setattr(fe_solve, "REFINE_ABOVE", 0.0)
+    g, a, ke, fixed, rng, F = _held_at_left(9, 6, seed=5, cases=2)
+    free = ~fixed
+    K = a.matrix(ke, rng.uniform(1e-3, 1.0, g.n_elements))
+    Kff = K.toarray()[np.ix_(free, free)]
+    reference = np.linalg.solve(Kff, F[free])
+    answers = [LinearSolver(K, free, grid=grid, backend="pardiso").solve(F)[free] for grid in (g, None)]
+    answers.append(fe_solve.solve_spd(sp.csc_matrix(Kff), F[free]))
+    for u in answers:
+        np.testing.assert_allclose(u, reference, rtol=1e-9, atol=1e-12 * np.abs(reference).max())
 
 
 def test_matrix_off_the_grid_pattern_goes_to_superlu_or_is_refused(monkeypatch):
