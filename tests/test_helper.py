@@ -166,3 +166,26 @@ def test_work_the_helper_cannot_take_is_done_here(ready_helper):
     shared = rationalise(PANEL, FREEFORM, OPTS, RULES, energy=field, helper=ready_helper)
     assert ready_helper.sent > sent  # it was offered work, and could not take it
     assert alone.voids and _layout(shared) == _layout(alone)
+
+
+def test_local_models_shared_with_the_helper_give_the_same_figures(ready_helper):
+    # The edge stress at each of three made voids of the cantilever plate: the local models computed here one by
+    # one, and shared between this process and the helper (as the pipeline's checks do), give the same figures.
+    from shapely.geometry import Point
+
+    from toolkit.analysis import analyze
+    from toolkit.edge_stress import edge_stresses, edge_stresses_shared
+    from toolkit.model import Void
+
+    from toolkit.pipeline import with_voids
+
+    voids = tuple(Void(f"V{k + 1}", "bore", (x, y), 2 * r, Point(x, y).buffer(r, 32))
+                  for k, (x, y, r) in enumerate([(300, 200, 60), (450, 210, 50), (880, 210, 50)]))
+    solid = analyze(PANEL)
+    final = analyze(with_voids(PANEL, voids), grid=solid.grid)
+    alone = edge_stresses(PANEL, voids, final, solid)
+    sent = ready_helper.sent
+    shared = edge_stresses_shared(PANEL, voids, final, solid, ready_helper)
+    assert ready_helper.sent > sent
+    assert all(a.peak_MPa is not None for a in alone)
+    assert [repr(s) for s in shared] == [repr(a) for a in alone]

@@ -37,6 +37,7 @@ from shapely.geometry import LineString, Point, box
 
 from .fe import tri6
 from .errors import LacunaError
+from .fe.grid import Grid
 from .fe.loads import G_MM_S2
 from .fe.solve import solve_spd
 from .fe.stress import principal_stresses
@@ -257,6 +258,45 @@ def edge_stress_tasks(panel: Panel, voids, final, solid, *, refine: float = 1.0,
         return lambda: void_edge_stress(p, vs[i], vs[:i] + vs[i + 1:], final, solid, refine=refine)
 
     return [task(i) for i in range(len(voids))]
+
+
+@dataclass(frozen=True, eq=False)
+class GridFigures:
+    """What a local model reads of a grid analysis (``analysis.Analysis``): the grid's size, the cases, the
+    displacements, the elements with material and their stresses. A few megabytes to pickle at 300 x 100
+    elements, where the analysis with its grid's cached index arrays is some tens."""
+
+    grid: Grid
+    cases: tuple[str, ...]
+    U: np.ndarray
+    active: np.ndarray
+    stresses: np.ndarray
+
+    @classmethod
+    def of(cls, analysis) -> GridFigures:
+        g = analysis.grid
+        return cls(Grid(g.nx, g.ny, g.dx, g.dy), tuple(analysis.cases), analysis.U, analysis.active,
+                   analysis.stresses)
+
+
+def _edge_stress_of(panel: Panel, voids: tuple, i: int, final, solid, refine: float) -> EdgeStress:
+    """``voids[i]``'s figures, its neighbours the other voids (by position): a module-level function of
+    picklable arguments, for the helper process."""
+    return void_edge_stress(panel, voids[i], voids[:i] + voids[i + 1:], final, solid, refine=refine)
+
+
+def edge_stresses_shared(panel: Panel, voids, final, solid, helper, *, refine: float = 1.0
+                         ) -> tuple[EdgeStress, ...]:
+    """``edge_stresses`` with the voids shared between this thread and the helper process (``helper.share_out``:
+    each takes the next void when it is free, this one from the first, the helper from the last). The figures
+    are the same: each local model is a pure function of the same coordinates and arrays."""
+    from .helper import share_out
+
+    voids = tuple(voids)
+    final, solid = GridFigures.of(final), (GridFigures.of(solid) if solid is not None else None)
+    tasks = {i: (panel, voids, i, final, solid, refine) for i in range(len(voids))}
+    done = share_out(helper, _edge_stress_of, tasks)
+    return tuple(done[i] for i in range(len(voids)))
 
 
 def edge_snapper(void: Void, reach: float):

@@ -16,7 +16,7 @@ import shapely
 from shapely.geometry import Polygon
 
 from .analysis import Analysis, analyze
-from .edge_stress import edge_stress_tasks, edge_violations
+from .edge_stress import edge_stress_tasks, edge_stresses_shared, edge_violations
 from .fe.grid import grid_shape
 from .fe.solve import SharedSolver
 from .jobfile import Job
@@ -189,7 +189,7 @@ def optimize_panel(
     # The helper process starts now so that its imports run beside the optimiser; it takes part of the fitting,
     # then the limiting rule's refits while the voids are shaped (``early``), and goes after the checks.
     early: dict = {}
-    with Helper(helper and nx * ny >= HELPER_MIN_ELEMENTS, modules=("toolkit.voids.layout",)) as side:
+    with Helper(helper and nx * ny >= HELPER_MIN_ELEMENTS, modules=("toolkit.voids.layout", "toolkit.edge_stress")) as side:
         solid, beso, problem, freeform, energy, rationalised = _to_voids(
             panel, job, rules, settings, void_region, void_options, shared, side, lap, tell,
             on_iteration=on_iteration, keep_every=keep_every, early=early)
@@ -219,13 +219,27 @@ def optimize_panel(
             shared.release()
             # The grid cuts the voids by area fraction; the stress at their edges comes from a local model of each.
             started = time.perf_counter()
-            edge_jobs = [work.submit(task) for task in
-                         edge_stress_tasks(panel, rationalised.voids, final, solid, threaded=threaded)]
-            freeform_analysis = timed("freeform re-analysis", timings, analyze,
-                                      with_freeform(panel, freeform, solid.grid), grid=solid.grid, shared=shared)
+            if side.idle and threaded and n >= 2:
+                # The helper process is free (the limiting rule's refits are done): the local models are shared
+                # between it and this thread, and the freeform re-analysis goes to a side thread meanwhile (on its
+                # own copy of the geometry). Two processes on the local models instead of two threads of one,
+                # which the GIL holds back (measured in docs/optimize.md).
+                ff_panel, ff_freeform = own((panel, freeform))
+                freeform_job = work.submit(timed, "freeform re-analysis", timings, analyze,
+                                           with_freeform(ff_panel, ff_freeform, solid.grid), grid=solid.grid,
+                                           shared=shared)
+                edge = edge_stresses_shared(panel, rationalised.voids, final, solid, side)
+                timings["edge stresses"] = time.perf_counter() - started
+                freeform_analysis = freeform_job.result()
+            else:
+                edge_jobs = [work.submit(task) for task in
+                             edge_stress_tasks(panel, rationalised.voids, final, solid, threaded=threaded)]
+                freeform_analysis = timed("freeform re-analysis", timings, analyze,
+                                          with_freeform(panel, freeform, solid.grid), grid=solid.grid,
+                                          shared=shared)
+                edge = tuple(job.result() for job in edge_jobs)
+                timings["edge stresses"] = time.perf_counter() - started
             shared.release()
-            edge = tuple(job.result() for job in edge_jobs)
-            timings["edge stresses"] = time.perf_counter() - started
             limit = limit_job.result() if limit_job is not None else ""
         lap("checks")
     edge_limit = job.rules.max_edge_stress_MPa
