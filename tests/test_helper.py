@@ -189,3 +189,19 @@ def test_local_models_shared_with_the_helper_give_the_same_figures(ready_helper)
     assert ready_helper.sent > sent
     assert all(a.peak_MPa is not None for a in alone)
     assert [repr(s) for s in shared] == [repr(a) for a in alone]
+
+
+def test_the_freeform_re_analysis_made_in_the_helper_is_the_one_made_here(ready_helper):
+    # The pipeline sends the freeform layout's re-analysis to the helper while the voids are shaped: its answer
+    # (with a new grid of the same size) must be the analysis made here, to the bit.
+    from toolkit.analysis import analyze
+    from toolkit.fe.grid import make_grid
+    from toolkit.pipeline import analysis_elsewhere, with_freeform
+
+    grid = make_grid(PANEL.width_mm, PANEL.height_mm, PANEL.element_size_mm)
+    panel = with_freeform(PANEL, FREEFORM, grid)
+    here = analyze(panel, grid)
+    there = ready_helper.submit(analysis_elsewhere, panel, grid.nx, grid.ny, grid.dx, grid.dy).result()
+    assert there.grid == grid and "edof" not in vars(there.grid)  # no cached index arrays came back
+    assert there.compliance_Nmm == here.compliance_Nmm
+    assert np.array_equal(there.U, here.U) and np.array_equal(there.stresses, here.stresses)

@@ -17,7 +17,7 @@ from shapely.geometry import Polygon
 
 from .analysis import Analysis, analyze
 from .edge_stress import edge_stress_tasks, edge_stresses_shared, edge_violations
-from .fe.grid import grid_shape
+from .fe.grid import Grid, grid_shape
 from .fe.solve import SharedSolver
 from .jobfile import Job
 from .limits import check_memory
@@ -187,9 +187,11 @@ def optimize_panel(
     # refactored wherever the system is the same (fe.solve.SharedSolver); dropped before the checks.
     shared = SharedSolver()
     # The helper process starts now so that its imports run beside the optimiser; it takes part of the fitting,
-    # then the limiting rule's refits while the voids are shaped (``early``), and goes after the checks.
+    # then the limiting rule's refits and the freeform re-analysis while the voids are shaped (``early``), then
+    # part of the local models, and goes after the checks.
     early: dict = {}
-    with Helper(helper and nx * ny >= HELPER_MIN_ELEMENTS, modules=("toolkit.voids.layout", "toolkit.edge_stress")) as side:
+    with Helper(helper and nx * ny >= HELPER_MIN_ELEMENTS,
+                modules=("toolkit.voids.layout", "toolkit.edge_stress", "toolkit.pipeline")) as side:
         solid, beso, problem, freeform, energy, rationalised = _to_voids(
             panel, job, rules, settings, void_region, void_options, shared, side, lap, tell,
             on_iteration=on_iteration, keep_every=keep_every, early=early)
@@ -219,26 +221,38 @@ def optimize_panel(
             shared.release()
             # The grid cuts the voids by area fraction; the stress at their edges comes from a local model of each.
             started = time.perf_counter()
+            # The freeform layout's re-analysis was made in the helper while the voids were shaped (``ahead``),
+            # or is made here beside the local models.
+            ahead = early.get(FREEFORM_AHEAD)
+            freeform_analysis = None
             if side.idle and threaded and n >= 2:
-                # The helper process is free (the limiting rule's refits are done): the local models are shared
-                # between it and this thread, and the freeform re-analysis goes to a side thread meanwhile (on its
-                # own copy of the geometry). Two processes on the local models instead of two threads of one,
-                # which the GIL holds back (measured in docs/optimize.md).
-                ff_panel, ff_freeform = own((panel, freeform))
-                freeform_job = work.submit(timed, "freeform re-analysis", timings, analyze,
-                                           with_freeform(ff_panel, ff_freeform, solid.grid), grid=solid.grid,
-                                           shared=shared)
+                # The helper process is free: the local models are shared between it and this thread (two processes
+                # instead of two threads of one, which the GIL holds back: docs/optimize.md), and the freeform
+                # re-analysis, where it is still to make, goes to a side thread meanwhile (its own copy of the
+                # geometry).
+                freeform_job = None
+                if ahead is None:
+                    ff_panel, ff_freeform = own((panel, freeform))
+                    freeform_job = work.submit(timed, "freeform re-analysis", timings, analyze,
+                                               with_freeform(ff_panel, ff_freeform, solid.grid), grid=solid.grid,
+                                               shared=shared)
                 edge = edge_stresses_shared(panel, rationalised.voids, final, solid, side)
                 timings["edge stresses"] = time.perf_counter() - started
-                freeform_analysis = freeform_job.result()
+                if freeform_job is not None:
+                    freeform_analysis = freeform_job.result()
             else:
                 edge_jobs = [work.submit(task) for task in
                              edge_stress_tasks(panel, rationalised.voids, final, solid, threaded=threaded)]
-                freeform_analysis = timed("freeform re-analysis", timings, analyze,
-                                          with_freeform(panel, freeform, solid.grid), grid=solid.grid,
-                                          shared=shared)
+                if ahead is None:
+                    freeform_analysis = timed("freeform re-analysis", timings, analyze,
+                                              with_freeform(panel, freeform, solid.grid), grid=solid.grid,
+                                              shared=shared)
                 edge = tuple(job.result() for job in edge_jobs)
                 timings["edge stresses"] = time.perf_counter() - started
+            if freeform_analysis is None:  # the helper's, or made here where it failed there
+                freeform_analysis = timed("freeform re-analysis", timings, result_or, ahead, analyze,
+                                          with_freeform(panel, freeform, solid.grid), grid=solid.grid,
+                                          shared=shared)
             shared.release()
             limit = limit_job.result() if limit_job is not None else ""
         lap("checks")
@@ -267,8 +281,8 @@ def _to_voids(panel: Panel, job: Job, rules: Rules, settings, void_region, void_
               side: Helper, lap, tell, *, on_iteration, keep_every, early: dict):
     """The stages up to the made voids: the solid analysis, the optimiser, the freeform outlines, the voids.
     Where the helper process is ready once the first fit is made (before the shape optimisation), it starts the
-    limiting rule's refits, each rule's Future put in ``early`` (the checks take them; they are wasted only when
-    no rule is looked for)."""
+    limiting rule's refits, each rule's Future put in ``early`` by its key (the checks take them; they are wasted
+    only when no rule is looked for), and the freeform re-analysis (``early[FREEFORM_AHEAD]``)."""
     solid = analyze(panel, shared=shared)
     lap("analysis")
     zones = ZoneSettings(
@@ -293,6 +307,10 @@ def _to_voids(panel: Panel, job: Job, rules: Rules, settings, void_region, void_
         if side.ready:
             for key, relaxed, _, _ in relaxed_rules(rules):
                 early[key] = side.submit(first_fit_area, panel, list(freeform), void_options, relaxed, energy, layouts)
+            g = solid.grid
+            if g.n_elements <= HELPER_ANALYSIS_MAX_ELEMENTS:
+                early[FREEFORM_AHEAD] = side.submit(analysis_elsewhere, with_freeform(panel, freeform, g), g.nx, g.ny,
+                                                    g.dx, g.dy)
 
     rationalised = rationalise(panel, list(freeform), void_options, rules, energy=energy, shared=shared,
                                helper=side, on_first_fit=refits)
@@ -316,6 +334,21 @@ def timed(stage: str, timings: dict, fn, *args, **kwargs):
 # against 2.5-2.8 s, the demo's 210 x 40 grid 6.2-6.3 against 6.2-6.4 s, the 300 x 100 bench plate 25.1-26.6
 # against 26.6-26.8 s (its void stage 7.8-8.4 against 9.4-9.5 s).
 HELPER_MIN_ELEMENTS = 20_000
+
+
+# The freeform layout's re-analysis needs only the optimiser's outlines: where the helper is ready it is made there
+# while the voids are shaped (``early[FREEFORM_AHEAD]``), for grids of at most this many elements. The helper then
+# holds a factor of the grid beside the job's own, which at 600 x 200 elements is 0.3 GB against the job's 0.9 GB
+# peak; at a million elements it would be gigabytes more, and the re-analysis stays in the checks.
+HELPER_ANALYSIS_MAX_ELEMENTS = 300_000
+FREEFORM_AHEAD = "freeform re-analysis"
+
+
+def analysis_elsewhere(panel: Panel, nx: int, ny: int, dx: float, dy: float) -> Analysis:
+    """``analyze(panel)`` on an nx x ny grid of dx x dy elements, for the helper process: the answer carries a new
+    grid of that size, not the one the analysis filled with its index arrays (tens of megabytes to send back)."""
+    result = analyze(panel, Grid(nx, ny, dx, dy))
+    return dataclasses.replace(result, grid=Grid(nx, ny, dx, dy))
 
 
 # Below this share of the freeform layout's removed area the report names the rule that held the layout back.
