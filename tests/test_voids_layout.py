@@ -463,3 +463,38 @@ def test_a_honeycomb_a_little_too_soft_is_made_smaller_not_thinned():
     assert sum(d.shape().area for d in kept) >= 0.93 * area  # two rounds of 0.98^2 = 0.96 of the area at most
     c, kept, _ = L._within_cap(drafts, evaluate, cap, floor_mm2=0.8 * area)
     assert c > cap and kept == drafts
+
+
+def test_the_web_check_on_packed_members_is_the_check_on_the_list():
+    # Site.clear on the others packed once as arrays (with a void's own mirror images added after them) answers
+    # as on the plain list of members, for voids near and far, with and without a web ratio; a Site's memory of
+    # members is not pickled along with it.
+    import pickle
+
+    from toolkit.voids.layout import Packed, Site
+    from toolkit.voids.outline import Draft
+
+    rng = np.random.default_rng(11)
+    drafts = [Draft(family="bore", centre=(float(x), float(y)), size=float(d), source=k)
+              for k, (x, y, d) in enumerate(zip(rng.uniform(0, 900, 40), rng.uniform(0, 300, 40),
+                                                rng.uniform(20, 80, 40)))]
+    opening = box(400, 120, 460, 180)
+    for ratio in (0.0, 0.5):
+        site = Site(box(0, 0, 900, 300), 15.0, 5.0, web_ratio=ratio, openings=[opening])
+        answers = []
+        for i, d in enumerate(drafts):
+            members = [m for j, e in enumerate(drafts) if j != i for m in site.members(e)]
+            packed = Packed(members + site.openings)
+            # a bore beside this one, 10 mm away (under the least web) for every other void
+            beside = Draft(family="bore", centre=(d.centre[0] + d.size / 2 + 20.0 if i % 2 else 2000.0, d.centre[1]),
+                           size=20.0, source=99)
+            extra = site.members(beside)
+            m = site.members(d)[0]
+            answers.append((site.clear(m, members), site.clear(m, packed), site.clear(m, packed.plus(extra)),
+                            site.clear(m, members + extra)))
+        assert [a[0] for a in answers] == [a[1] for a in answers]
+        assert [a[2] for a in answers] == [a[3] for a in answers]
+        assert any(a[0] for a in answers) and not all(a[0] for a in answers)
+        assert not any(a[2] for a in answers[1::2]) and any(a[2] for a in answers[0::2])
+        assert site.members(drafts[3]) is site.members(drafts[3])
+        assert pickle.loads(pickle.dumps(site))._members == {}

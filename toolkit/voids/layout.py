@@ -232,6 +232,30 @@ def _check_lengths(values, where: str, what: str, example: str) -> None:
 
 # --- the rule context -------------------------------------------------------------------------------------
 
+# Members (``Site.members``) remembered at most, before the memory is emptied and filled again.
+MEMBERS_HELD = 20_000
+
+
+class Packed:
+    """Members (``Site.__init__``) as arrays, made once for the many moved copies of one trial: shapes, extents,
+    centres' x and y, and the radii of the circles round them."""
+
+    def __init__(self, members: list):
+        self.members = members
+        self.shapes = np.empty(len(members), dtype=object)
+        self.shapes[:] = [m[0] for m in members]
+        self.ext, self.x, self.y, self.reach = (np.array([m[k] for m in members], dtype=float) for k in range(1, 5))
+
+    def plus(self, more: list) -> Packed:
+        """These members and ``more`` after them."""
+        if not more:
+            return self
+        extra, out = Packed(list(more)), Packed.__new__(Packed)
+        out.members = self.members + extra.members
+        for name in ("shapes", "ext", "x", "y", "reach"):
+            setattr(out, name, np.concatenate([getattr(self, name), getattr(extra, name)]))
+        return out
+
 
 class Site:
     """Where void material may go and how far apart voids stay: answers "may this void stand here?"."""
@@ -253,14 +277,29 @@ class Site:
         self.openings = [_member_of(o) for o in openings] if web_ratio > 0.0 else []
         # In a symmetric layout every draft stands for itself and its mirror images: each is checked.
         self.mirror = mirror if mirror is not None else Mirror()
+        self._members: dict[int, tuple[Draft, list]] = {}  # members of the drafts asked for, by id (``members``)
+
+    def __getstate__(self) -> dict:
+        state = dict(self.__dict__)
+        state["_members"] = {}  # a cache: not sent along
+        return state
 
     def shapes(self, draft: Draft) -> list:
         """The shapes of ``draft`` and of its mirror images."""
         return [d.shape() for d in self.mirror.orbit(draft)]
 
     def members(self, draft: Draft) -> list[tuple]:
-        """``draft`` and its mirror images as members (see ``__init__``)."""
-        return [(d.shape(), d.extent(), d.centre[0], d.centre[1], d.reach()) for d in self.mirror.orbit(draft)]
+        """``draft`` and its mirror images as members (see ``__init__``), remembered per draft: drafts do not
+        change, and every trial step of every void asks for all the others' (at 600 x 200 elements, 88 voids:
+        361,000 calls, 4 s of mirror images built again)."""
+        held = self._members.get(id(draft))
+        if held is not None and held[0] is draft:
+            return held[1]
+        got = [(d.shape(), d.extent(), d.centre[0], d.centre[1], d.reach()) for d in self.mirror.orbit(draft)]
+        if len(self._members) >= MEMBERS_HELD:
+            self._members.clear()
+        self._members[id(draft)] = (draft, got)  # the draft is held too, so its id is not taken by another
+        return got
 
     def inside(self, shape) -> bool:
         return bool(self.inner.covers(shape))
@@ -268,27 +307,22 @@ class Site:
     def clear(self, member, others) -> bool:
         """At least the web from every other void and opening; with a web ratio, that times the larger one's
         extent (the diameter of its smallest enclosing circle, as rules.check measures it). ``member``: the void
-        to check; ``others``: members. The circles round the voids rule out most pairs; only those whose circles
-        come closer than the web are measured."""
-        others = list(others) + self.openings
-        if not others:
+        to check; ``others``: members, or a ``Packed`` of them (the openings then already in it). The circles
+        round the voids rule out most pairs; only those whose circles come closer than the web are measured."""
+        packed = others if isinstance(others, Packed) else Packed(list(others) + self.openings)
+        if not packed.members:
             return True
         shape, own, cx, cy, radius = member
-        ext = np.array([o[1] for o in others])
-        need = np.full(len(others), self.web)
+        need = np.full(len(packed.members), self.web)
         if self.ratio > 0.0:
-            need = np.maximum(need, self.ratio * np.maximum(ext, own))
+            need = np.maximum(need, self.ratio * np.maximum(packed.ext, own))
         need = need + SAFETY_MM
-        ox = np.array([o[2] for o in others])
-        oy = np.array([o[3] for o in others])
-        orad = np.array([o[4] for o in others])
         # The shapes lie within their circles: they are at least this far apart.
-        apart = np.hypot(ox - cx, oy - cy) - orad - radius
+        apart = np.hypot(packed.x - cx, packed.y - cy) - packed.reach - radius
         close = np.flatnonzero(apart < need)
         if not close.size:
             return True
-        shapes = np.asarray([others[k][0] for k in close], dtype=object)
-        return bool(np.all(shapely.distance(shape, shapes) >= need[close]))
+        return bool(np.all(shapely.distance(shape, packed.shapes[close]) >= need[close]))
 
     def offsets(self, size: float) -> list[tuple[float, float]]:
         """(0, 0), then rings of 8 directions further and further out, nearest first."""
@@ -325,13 +359,14 @@ class Site:
         mid-line only moves along it."""
         if not self.big_enough(trial) or not self.mirror.keeps(trial):
             return None
-        others = [m for j, d in enumerate(state) if j != i and d is not None for m in self.members(d)]
+        others = Packed([m for j, d in enumerate(state) if j != i and d is not None for m in self.members(d)]
+                        + self.openings)
         offsets = self.offsets(trial.size) if move else [(0.0, 0.0)]
         trial.extent(), trial.reach()  # worked out once, carried by every moved copy
         for dx, dy in self.mirror.along(trial, offsets):
             cand = trial.moved(dx, dy) if (dx or dy) else trial
             members = self.members(cand)
-            if all(self.inside(m[0]) for m in members) and all(self.clear(m, others + members[:k])
+            if all(self.inside(m[0]) for m in members) and all(self.clear(m, others.plus(members[:k]))
                                                                for k, m in enumerate(members)):
                 return cand
         return None
