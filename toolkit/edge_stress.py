@@ -255,7 +255,7 @@ def edge_stress_tasks(panel: Panel, voids, final, solid, *, refine: float = 1.0,
     def task(i: int):
         p, vs = own((panel, voids)) if threaded else (panel, voids)
         # neighbours by position, not by id: a layout's ids are not trusted to be unique here
-        return lambda: void_edge_stress(p, vs[i], vs[:i] + vs[i + 1:], final, solid, refine=refine)
+        return lambda: _edge_stress_of(p, vs, i, final, solid, refine)
 
     return [task(i) for i in range(len(voids))]
 

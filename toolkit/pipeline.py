@@ -206,6 +206,11 @@ def optimize_panel(
         held_back = free > 0 and made < LIMIT_SHARE * free  # the limiting rule is looked for
         tell(f"checking the {n} void{'s' if n != 1 else ''} to make: the panel analysed again, a local model of the "
              "edge stress at each void" + (", the rule that held the layout back" if held_back else ""))
+
+        def freeform_here(p: Panel, ff) -> Analysis:
+            """The freeform layout analysed in this process (``p``, ``ff``: the panel and outlines, or copies)."""
+            return analyze(with_freeform(p, ff, solid.grid), grid=solid.grid, shared=shared)
+
         with Overlap() as work:
             threaded = work.threads > 1
             limit_job = None
@@ -232,10 +237,8 @@ def optimize_panel(
                 # geometry).
                 freeform_job = None
                 if ahead is None:
-                    ff_panel, ff_freeform = own((panel, freeform))
-                    freeform_job = work.submit(timed, "freeform re-analysis", timings, analyze,
-                                               with_freeform(ff_panel, ff_freeform, solid.grid), grid=solid.grid,
-                                               shared=shared)
+                    freeform_job = work.submit(timed, "freeform re-analysis", timings, freeform_here,
+                                               *own((panel, freeform)))
                 edge = edge_stresses_shared(panel, rationalised.voids, final, solid, side)
                 timings["edge stresses"] = time.perf_counter() - started
                 if freeform_job is not None:
@@ -244,15 +247,12 @@ def optimize_panel(
                 edge_jobs = [work.submit(task) for task in
                              edge_stress_tasks(panel, rationalised.voids, final, solid, threaded=threaded)]
                 if ahead is None:
-                    freeform_analysis = timed("freeform re-analysis", timings, analyze,
-                                              with_freeform(panel, freeform, solid.grid), grid=solid.grid,
-                                              shared=shared)
+                    freeform_analysis = timed("freeform re-analysis", timings, freeform_here, panel, freeform)
                 edge = tuple(job.result() for job in edge_jobs)
                 timings["edge stresses"] = time.perf_counter() - started
             if freeform_analysis is None:  # the helper's, or made here where it failed there
-                freeform_analysis = timed("freeform re-analysis", timings, result_or, ahead, analyze,
-                                          with_freeform(panel, freeform, solid.grid), grid=solid.grid,
-                                          shared=shared)
+                freeform_analysis = timed("freeform re-analysis", timings, result_or, ahead, freeform_here, panel,
+                                          freeform)
             shared.release()
             limit = limit_job.result() if limit_job is not None else ""
         lap("checks")
