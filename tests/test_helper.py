@@ -147,7 +147,7 @@ def test_the_limiting_rule_refits_made_in_the_helper_give_the_same_sentence(read
     layouts = run.rationalised.layouts
     sent = ready_helper.sent
     there = {key: ready_helper.submit(first_fit_area, panel, freeform, options, relaxed, energy, layouts)
-             for key, relaxed, _, _ in pipeline.relaxed_rules(run.rules)}
+             for key, relaxed, *_ in pipeline.relaxed_rules(run.rules, options)}
     lost: Future = Future()
     lost.set_exception(RuntimeError("the helper process was lost"))
     texts = [pipeline.limiting_rule(panel, freeform, options, run.rules, run.voids, made, free, energy=energy,

@@ -7,9 +7,10 @@ No files here: :func:`optimize_panel` takes model values and returns every figur
 from __future__ import annotations
 
 import dataclasses
+import math
 import time
 from dataclasses import dataclass, field
-from typing import Callable
+from typing import Callable, NamedTuple
 
 import numpy as np
 import shapely
@@ -28,7 +29,7 @@ from .optimize import BesoResult, OptimizeSettings, ZoneSettings, build_problem,
 from .rules.check import impossible_rules
 from .rules.profiles import rules_for
 from .voids.extract import freeform_voids
-from .voids.layout import Rationalised, first_fit_area, rationalise, refuse_impossible
+from .voids.layout import Rationalised, first_fit_area, rationalise, refuse_impossible, resolve_settings
 
 G_M_S2 = 9.81
 
@@ -305,8 +306,9 @@ def _to_voids(panel: Panel, job: Job, rules: Rules, settings, void_region, void_
 
     def refits(layouts: tuple) -> None:
         if side.ready:
-            for key, relaxed, _, _ in relaxed_rules(rules):
-                early[key] = side.submit(first_fit_area, panel, list(freeform), void_options, relaxed, energy, layouts)
+            for trial in relaxed_rules(rules, void_options):
+                early[trial.key] = side.submit(first_fit_area, panel, list(freeform), void_options, trial.rules,
+                                               energy, layouts)
             g = solid.grid
             if g.n_elements <= HELPER_ANALYSIS_MAX_ELEMENTS:
                 early[FREEFORM_AHEAD] = side.submit(analysis_elsewhere, with_freeform(panel, freeform, g), g.nx, g.ny,
@@ -355,28 +357,75 @@ def analysis_elsewhere(panel: Panel, nx: int, ny: int, dx: float, dy: float) -> 
 LIMIT_SHARE = 0.8
 
 
-def relaxed_rules(rules: Rules) -> list[tuple[str, Rules, str, str]]:
-    """The spacing rules a limiting-rule refit may halve: (key, the rules with it halved, its name, the change)
-    for the web ratio and the minimum web where they are set."""
+class Relaxed(NamedTuple):
+    """One rule a limiting-rule refit relaxes: its key, the rules with it relaxed, the rule and the change in
+    words, the job key that sets it and what to weigh before changing it."""
+
+    key: str
+    rules: Rules
+    name: str
+    change: str
+    where: str
+    caution: str
+
+
+# ISO 3 preferred numbers, series R10 (the series most of the profiles' stock lists follow): a stock-size trial adds
+# the first two of it at least STOCK_STEP times the largest stock size held (a size a step up, not one a few per
+# cent larger where a list is not of the series, e.g. 160 mm above a 152 mm auger).
+R10 = (1.0, 1.25, 1.6, 2.0, 2.5, 3.15, 4.0, 5.0, 6.3, 8.0)
+STOCK_STEP = 1.2
+
+
+def larger_stock(largest: float, count: int = 2) -> tuple[float, ...]:
+    """The first ``count`` R10 preferred numbers at least ``STOCK_STEP`` x ``largest`` (mm)."""
+    least = STOCK_STEP * largest * (1.0 - 1e-9)
+    decade = 10.0 ** (math.floor(math.log10(least)) - 1)
+    out: list[float] = []
+    while len(out) < count:
+        out += [round(m * decade, 6) for m in R10 if m * decade >= least][:count - len(out)]
+        decade *= 10.0
+    return tuple(out)
+
+
+def relaxed_rules(rules: Rules, void_options=None) -> list[Relaxed]:
+    """The rules a limiting-rule refit may relax: the web ratio and the minimum web halved where they are set and,
+    given the job's ``void_options``, the stock list of the family's slots or bores with two larger preferred
+    sizes added (the widest slot bounds a slot's width however wide the freeform void is)."""
+    spacing = "the profile's value has its source, check it before changing it"
     trials = []
     if rules.web_ratio:
-        trials.append(("web_ratio", dataclasses.replace(rules, web_ratio=rules.web_ratio / 2.0),
-                       f"the web ratio ({rules.web_ratio:g} x the larger void's size)",
-                       f"a web ratio of {rules.web_ratio / 2.0:g}"))
+        trials.append(Relaxed("web_ratio", dataclasses.replace(rules, web_ratio=rules.web_ratio / 2.0),
+                              f"the web ratio ({rules.web_ratio:g} x the larger void's size)",
+                              f"a web ratio of {rules.web_ratio / 2.0:g}", "[rules] web_ratio", spacing))
     if rules.min_web_mm > 0:
-        trials.append(("min_web", dataclasses.replace(rules, min_web_mm=rules.min_web_mm / 2.0),
-                       f"the minimum web ({rules.min_web_mm:g} mm)",
-                       f"a minimum web of {rules.min_web_mm / 2.0:g} mm"))
+        trials.append(Relaxed("min_web", dataclasses.replace(rules, min_web_mm=rules.min_web_mm / 2.0),
+                              f"the minimum web ({rules.min_web_mm:g} mm)",
+                              f"a minimum web of {rules.min_web_mm / 2.0:g} mm", "[rules] min_web", spacing))
+    if void_options is not None:
+        r = resolve_settings(void_options, rules)
+        for family, stock, key, field_name, what, tool, measure in (
+                ("slot", r.slot_widths_mm, "slot_widths", "slot_widths_mm", "the widest stock slot", "slots", "wide"),
+                ("bore", r.bore_diameters_mm, "bore_diameters", "bore_diameters_mm", "the largest stock bore", "bores",
+                 "across")):
+            if r.family not in (family, "mixed") or not stock:
+                continue
+            more = larger_stock(max(stock))
+            trials.append(Relaxed(key, dataclasses.replace(rules, **{field_name: tuple(stock) + more}),
+                                  f"{what} ({max(stock):g} mm)",
+                                  f"{tool} up to {more[-1]:g} mm {measure} (stock sizes of "
+                                  f"{' and '.join(f'{m:g}' for m in more)} mm added)",
+                                  f"[voids] {key}", "a larger cutter, bit or former must be at hand"))
     return trials
 
 
 def limiting_rule(panel: Panel, freeform, void_options, rules: Rules, made_voids, made_mm2: float,
                   free_mm2: float, *, energy=None, first_fit_mm2: float | None = None, layouts=None,
                   early: dict | None = None) -> str:
-    """Which spacing rule held the made layout short of the freeform one, in words with the figure relaxing it
-    would give: the layout's first fit (voids fitted and placed, no analysis; ``first_fit_mm2`` when the caller's
-    run has it, made with the same ``energy``) is made again with the web ratio halved and, where it sets the
-    web, with the minimum web halved; the larger gain, applied to the made layout, is named. ``layouts``: the
+    """Which rule held the made layout short of the freeform one, in words with the figure relaxing it would
+    give: the layout's first fit (voids fitted and placed, no analysis; ``first_fit_mm2`` when the caller's run
+    has it, made with the same ``energy``) is made again with the web ratio halved, where it sets the web with the
+    minimum web halved, and for slots and bores with two larger stock sizes (``relaxed_rules``); the largest
+    gain, applied to the made layout, is named. ``layouts``: the
     first fit's choice of layout for each freeform void (``Rationalised.layouts``): the refits then fit that
     kind of layout alone for each (the whole void, k pieces, a honeycomb of one pitch) in the wider room the
     relaxed rule leaves, instead of searching again: "the same layout, fitted again, removes X % more". Measured
@@ -387,8 +436,8 @@ def limiting_rule(panel: Panel, freeform, void_options, rules: Rules, made_voids
     # The minimum web is tried only where it, not the web ratio, sets the web of a void of the made layout's
     # middle size (each trial is a fitting run of its own).
     sizes = sorted(2.0 * float(shapely.minimum_bounding_radius(v.shape)) for v in made_voids) or [0.0]
-    trials = [t for t in relaxed_rules(rules)
-              if t[0] != "min_web" or rules.min_web_mm >= rules.web_ratio * sizes[len(sizes) // 2]]
+    trials = [t for t in relaxed_rules(rules, void_options)
+              if t.key != "min_web" or rules.min_web_mm >= rules.web_ratio * sizes[len(sizes) // 2]]
     early = early or {}
 
     def first_fit(r: Rules, key: str = "") -> float:
@@ -396,20 +445,28 @@ def limiting_rule(panel: Panel, freeform, void_options, rules: Rules, made_voids
 
     best = None
     base = (first_fit_mm2 if first_fit_mm2 else first_fit(rules)) if trials else 0.0
-    for key, relaxed, name, change in trials:
-        area = first_fit(relaxed, key)
+    for trial in trials:
+        area = first_fit(trial.rules, trial.key)
         if best is None or area > best[0]:
-            best = (area, key, name, change)
+            best = (area, trial)
     solid = float(panel.solid.area)
     share = 100.0 * made_mm2 / free_mm2
     if best is None or base <= 0 or best[0] <= base * 1.02:
-        return (f"the voids to make keep {share:.0f} % of the freeform saving; fitted again with the web ratio or "
-                "the minimum web halved, the same layout keeps less than 2 % more, so no spacing rule is what holds "
-                "them back: the stock sizes, the least feature and the stiffness of the freeform layout (which the "
-                "voids to make must not fall below) do.")
-    area, key, name, change = best
+        spacing = [t for t in trials if t.key in ("web_ratio", "min_web")]
+        tried = []
+        if spacing or not trials:
+            tried.append(" or ".join({"web_ratio": "the web ratio", "min_web": "the minimum web"}[t.key]
+                                     for t in spacing) + " halved" if spacing else "the spacing rules relaxed")
+        stock = len(spacing) < len(trials)
+        if stock:
+            tried.append("larger stock sizes")
+        return (f"the voids to make keep {share:.0f} % of the freeform saving; fitted again with "
+                f"{', or with '.join(tried)}, the same layout keeps less than 2 % more, so no such rule is what holds "
+                f"them back: {'' if stock else 'the stock sizes, '}the least feature and the stiffness of the freeform "
+                "layout (which the voids to make must not fall below) do.")
+    area, trial = best
     gain = area / base
-    return (f"{name} held the voids to make to {100 * made_mm2 / solid:.1f} % of the panel ({share:.0f} % of the "
-            f"freeform saving of {100 * free_mm2 / solid:.1f} %); with {change} the same layout, fitted again, removes "
-            f"{100 * (gain - 1):.0f} % more, so the panel could lose about {100 * made_mm2 * gain / solid:.1f} % "
-            f"([rules] {key}; the profile's value has its source, check it before changing it).")
+    return (f"{trial.name} held the voids to make to {100 * made_mm2 / solid:.1f} % of the panel ({share:.0f} % of "
+            f"the freeform saving of {100 * free_mm2 / solid:.1f} %); with {trial.change} the same layout, fitted "
+            f"again, removes {100 * (gain - 1):.0f} % more, so the panel could lose about "
+            f"{100 * made_mm2 * gain / solid:.1f} % ({trial.where}; {trial.caution}).")
