@@ -426,6 +426,67 @@ def test_the_limiting_rule_refits_the_chosen_layouts_in_a_fraction_of_the_fits()
     assert texts["again fits"] < texts["search fits"]
 
 
+def test_largest_first_keeps_two_large_voids_where_the_first_fit_keeps_five_small():
+    # Two 250 x 500 freeform voids between three 100 x 100 ones, 50 mm bars between them, a web of half the larger
+    # void's size: the first fit gives every void its share of the bars, so all five stay small; largest first
+    # fits the large ones whole and drops the small ones beside them. Rules measured here with shapely distances
+    # and the smallest enclosing circle, not with the fitting's own checks.
+    from toolkit.rules import check as rule_check
+    from toolkit.voids import layout as L
+    from toolkit.voids.measure import clean
+
+    panel = Panel(width_mm=2000.0, height_mm=600.0, thickness_mm=10.0, material=Material(E_MPa=210000, nu=0.3))
+    rules = Rules(min_web_mm=25, edge_cover_mm=25, min_void_mm=20, web_ratio=0.5)
+    options = VoidOptions(family="polygon", sides=6, snap_mm=0.0)
+    free = [box(300, 250, 400, 350), box(450, 50, 700, 550), box(750, 250, 850, 350), box(900, 50, 1150, 550),
+            box(1200, 250, 1300, 350)]
+    r = L.resolve_settings(options, rules, panel.thickness_mm)
+    allowed = rule_check.impossible_rules(panel, rules)
+    site = L.Site(allowed, r.min_web_mm, r.snap_mm, r.web_ratio, r.min_void_mm, feature_mm=r.least_feature_mm)
+    big, _, dropped = L.largest_first(clean(free, r.min_void_mm)[0], allowed, site, r)
+    shapes = [d.shape() for d in big]
+    area = sum(g.area for g in shapes)
+    first = rationalise(panel, free, options, rules, first_fit_only=True)
+    assert area > 1.3 * first.first_fit_mm2
+    assert sorted(d.source for d in big) == [1, 3] and sorted(s for s, _ in dropped) == [0, 2, 4]
+    inside = shapely.buffer(allowed, 1e-6)
+    sizes = [2.0 * shapely.minimum_bounding_radius(g) for g in shapes]
+    for i, g in enumerate(shapes):
+        assert inside.covers(g)
+        for j in range(i):
+            assert shapely.distance(g, shapes[j]) >= max(25.0, 0.5 * max(sizes[i], sizes[j])) - 1e-6
+    # a refit of a layout made largest first (the limiting rule's) makes it the same way: the same area
+    again = rationalise(panel, free, options, rules, first_fit_only=True, layouts={-1: ("polygon", L.LARGEST_FIRST)})
+    assert again.first_fit_mm2 == pytest.approx(area, rel=1e-12)
+
+
+def test_a_plate_made_largest_first_keeps_more_and_every_rule(monkeypatch):
+    # A 3000 x 1000 steel plate under half-MBB loading (25 mm elements, volume 0.5, hexagons, steel-cut: web ratio
+    # 0.5): its freeform voids are long and the bars between them thin, so the job takes the largest-first fit.
+    # Its layout keeps every rule (the independent check), is no softer than the freeform layout, and removes more
+    # than the same job with the largest-first fit left out.
+    from toolkit import pipeline
+    from toolkit.jobfile import parse_job
+    from toolkit.model import PointLoad
+    from toolkit.voids import layout as L
+
+    panel = Panel(width_mm=3000, height_mm=1000, thickness_mm=10, element_size_mm=25,
+                  material=Material(E_MPa=210000, nu=0.3, density_kg_m3=7850),
+                  supports=(Support(((0, 0), (0, 1000)), "x"), Support(((2950, 0), (3000, 0)), "y")),
+                  loads=(PointLoad((0, 1000), (0.0, -50000.0)),))
+    job = parse_job('[optimize]\nvolume_fraction = 0.5\nmax_iterations = 120\n[voids]\nfamily = "polygon"\n'
+                    'sides = 6\n[rules]\nprofile = "steel-cut"\n')
+    run = pipeline.optimize_panel(panel, job)
+    assert any(n.startswith("the voids are fitted largest first") for n in run.rationalised.notes)
+    assert (-1, "polygon", L.LARGEST_FIRST) in run.rationalised.layouts
+    assert check_layout(panel, run.voids, run.rules) == []
+    assert run.final.compliance_Nmm <= run.freeform_analysis.compliance_Nmm
+    monkeypatch.setattr(L, "largest_first", lambda *args, **kwargs: ([], [], []))
+    shares = pipeline.optimize_panel(panel, job)
+    assert not any("largest first" in n for n in shares.rationalised.notes)
+    assert run.mass_removed_percent > shares.mass_removed_percent
+
+
 def test_stock_trials_add_the_next_preferred_numbers():
     # ISO 3, series R10 (1, 1.25, 1.6, 2, 2.5, 3.15, 4, 5, 6.3, 8 times a power of ten): most profiles' stock lists
     # follow it, so a "larger stock" trial takes the next two of it, a step (1.2 x) or more above the largest held.
