@@ -1171,6 +1171,14 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
     else:
         score = bound = _area
     opening_shapes = [o.shape for o in panel.openings]
+    site = Site(allowed, r.min_web_mm, r.snap_mm, r.web_ratio, r.min_void_mm, openings=opening_shapes, mirror=mirror,
+                feature_mm=r.least_feature_mm)
+    if first_fit_only and (layouts or {}).get(-1, (None, None))[1] == LARGEST_FIRST:
+        # The refit of a layout that was made largest first (below) is that fit alone.
+        big = largest_first(kept, allowed, site, r, opening_shapes, score, bound)[0]
+        return Rationalised(voids=(), changes=(), dropped=tuple(dropped), fit_errors=(), violations=(),
+                            notes=tuple(notes), first_fit_mm2=float(sum(g.area for d in big for g in site.shapes(d))),
+                            layouts=((-1, r.family, LARGEST_FIRST),))
     families = ("polygon", "slot", "bore") if r.family == "mixed" else (r.family,)
     options: dict[int, dict[str, list[list[Draft]]] | None] = {}
     jobs: dict[int, tuple] = {}
@@ -1218,16 +1226,10 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
             kinds[i] = (f, got.kind)
         drafts.extend(got)
 
-    site = Site(allowed, r.min_web_mm, r.snap_mm, r.web_ratio, r.min_void_mm,
-                openings=[o.shape for o in panel.openings], mirror=mirror, feature_mm=r.least_feature_mm)
     placed, change_recs, drop_recs = place(drafts, site, r)
     first_fit_mm2 = float(sum(g.area for d in placed for g in site.shapes(d)))
     # The largest-first fit (below) ranks layouts by the worth the first fit used, before the analyses reprice it.
     first_score, first_bound = score, bound
-    largest = (layouts or {}).get(-1, (None, None))[1] == LARGEST_FIRST
-    if first_fit_only and largest:  # a refit of a layout that was made largest first
-        big = largest_first(kept, allowed, site, r, opening_shapes, first_score, first_bound)[0]
-        first_fit_mm2 = float(sum(g.area for d in big for g in site.shapes(d)))
     if first_fit_only:
         return Rationalised(voids=(), changes=(), dropped=tuple(dropped), fit_errors=(), violations=(),
                             notes=tuple(notes), first_fit_mm2=first_fit_mm2,
