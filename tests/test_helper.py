@@ -205,3 +205,19 @@ def test_the_freeform_re_analysis_made_in_the_helper_is_the_one_made_here(ready_
     assert there.grid == grid and "edof" not in vars(there.grid)  # no cached index arrays came back
     assert there.compliance_Nmm == here.compliance_Nmm
     assert np.array_equal(there.U, here.U) and np.array_equal(there.stresses, here.stresses)
+
+
+def test_the_freeform_re_analysis_goes_to_the_helper_only_where_the_free_memory_holds_it(monkeypatch):
+    # The helper's analysis is a second factor beside the job's own, which the job's memory check did not count:
+    # it is sent only while the memory free then holds an analysis of the grid (limits' estimate).
+    from toolkit import limits
+    from toolkit.fe.grid import Grid
+    from toolkit.pipeline import room_for_analysis_elsewhere
+
+    grid = Grid(300, 100, 10.0, 10.0)
+    need = limits.peak_memory_bytes(300, 100, 10.0, 10.0, stage="analysis")
+    assert 100e6 < need < 1e9
+    monkeypatch.setattr(limits, "available_memory_bytes", lambda: need * 0.99)
+    assert not room_for_analysis_elsewhere(grid)
+    monkeypatch.setattr(limits, "available_memory_bytes", lambda: need * 1.01)
+    assert room_for_analysis_elsewhere(grid)

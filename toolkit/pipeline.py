@@ -310,7 +310,7 @@ def _to_voids(panel: Panel, job: Job, rules: Rules, settings, void_region, void_
                 early[trial.key] = side.submit(first_fit_area, panel, list(freeform), void_options, trial.rules,
                                                energy, layouts)
             g = solid.grid
-            if g.n_elements <= HELPER_ANALYSIS_MAX_ELEMENTS:
+            if g.n_elements <= HELPER_ANALYSIS_MAX_ELEMENTS and room_for_analysis_elsewhere(g):
                 early[FREEFORM_AHEAD] = side.submit(analysis_elsewhere, with_freeform(panel, freeform, g), g.nx, g.ny,
                                                     g.dx, g.dy)
 
@@ -341,9 +341,18 @@ HELPER_MIN_ELEMENTS = 20_000
 # The freeform layout's re-analysis needs only the optimiser's outlines: where the helper is ready it is made there
 # while the voids are shaped (``early[FREEFORM_AHEAD]``), for grids of at most this many elements. The helper then
 # holds a factor of the grid beside the job's own, which at 600 x 200 elements is 0.3 GB against the job's 0.9 GB
-# peak; at a million elements it would be gigabytes more, and the re-analysis stays in the checks.
+# peak; at a million elements it would be gigabytes more, and the re-analysis stays in the checks. It stays there
+# too where the memory free when it would be sent does not hold it (``room_for_analysis_elsewhere``).
 HELPER_ANALYSIS_MAX_ELEMENTS = 300_000
 FREEFORM_AHEAD = "freeform re-analysis"
+
+
+def room_for_analysis_elsewhere(grid: Grid) -> bool:
+    """Whether the memory free now (this process's own already taken) holds the helper's analysis of ``grid``
+    (``limits.peak_memory_bytes``, an analysis; the job's own check counted this process alone)."""
+    from .limits import available_memory_bytes, peak_memory_bytes
+
+    return available_memory_bytes() >= peak_memory_bytes(grid.nx, grid.ny, grid.dx, grid.dy, stage="analysis")
 
 
 def analysis_elsewhere(panel: Panel, nx: int, ny: int, dx: float, dy: float) -> Analysis:
