@@ -50,6 +50,15 @@ def test_shared_work_gives_every_answer_in_the_order_of_the_tasks():
             assert stand_in.sent >= 1  # the helper was given work (and, broken, it was done here instead)
 
 
+def test_a_busy_helper_shares_only_when_the_caller_allows_it():
+    tasks = {f"t{k}": (k,) for k in (5, 3, 9, 1)}
+    busy = _Stand_in()
+    busy.idle = False  # work of the caller's own still queued there
+    assert share_out(busy, _square, tasks) == {k: v[0] ** 2 for k, v in tasks.items()} and busy.sent == 0
+    assert share_out(busy, _square, tasks, busy_ok=True) == {k: v[0] ** 2 for k, v in tasks.items()}
+    assert busy.sent >= 1
+
+
 def test_the_honeycomb_fitted_two_at_a_time_keeps_the_same_voids():
     # lattice_layout with a helper fits the next honeycomb there while it fits one here: the same voids as alone,
     # with the bound (the search stops early) and without it (every honeycomb), and the helper was given work.
@@ -221,3 +230,29 @@ def test_the_freeform_re_analysis_goes_to_the_helper_only_where_the_free_memory_
     assert not room_for_analysis_elsewhere(grid)
     monkeypatch.setattr(limits, "available_memory_bytes", lambda: need * 1.01)
     assert room_for_analysis_elsewhere(grid)
+
+
+def test_a_layout_made_largest_first_in_the_helper_is_the_one_made_here(ready_helper):
+    # A 3000 x 1000 steel plate (25 mm elements, half-MBB loading, hexagons, steel-cut) takes the largest-first fit;
+    # where the helper is ready that fit is made there while this process fits the candidates: the same voids.
+    from dataclasses import replace
+
+    from toolkit import pipeline
+    from toolkit.jobfile import parse_job
+
+    panel = Panel(width_mm=3000, height_mm=1000, thickness_mm=10, element_size_mm=25,
+                  material=Material(E_MPa=210000, nu=0.3, density_kg_m3=7850),
+                  supports=(Support(((0, 0), (0, 1000)), "x"), Support(((2950, 0), (3000, 0)), "y")),
+                  loads=(PointLoad((0, 1000), (0.0, -50000.0)),))
+    job = parse_job('[optimize]\nvolume_fraction = 0.5\nmax_iterations = 120\n[voids]\nfamily = "polygon"\n'
+                    'sides = 6\n[rules]\nprofile = "steel-cut"\n')
+    run = pipeline.optimize_panel(panel, job)
+    options = replace(job.voids, optimize_symmetry=job.optimize.symmetry)
+    energy = (run.solid.grid, pipeline.strain_energy_density(run.solid, panel))
+    alone = rationalise(panel, list(run.freeform), options, run.rules, energy=energy)
+    sent = ready_helper.sent
+    shared = rationalise(panel, list(run.freeform), options, run.rules, energy=energy, helper=ready_helper)
+    assert ready_helper.sent > sent
+    assert any(n.startswith("the voids are fitted largest first") for n in alone.notes)
+    assert [repr(v) for v in shared.voids] == [repr(v) for v in alone.voids]
+    assert shared.notes == alone.notes and shared.layouts == alone.layouts

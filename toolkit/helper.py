@@ -138,13 +138,15 @@ class Helper:
 
 
 def share_out(helper: Helper | None, fn: Callable, tasks: dict[Hashable, tuple],
-              cost: Callable[[Hashable], float] | None = None) -> dict:
+              cost: Callable[[Hashable], float] | None = None, busy_ok: bool = False) -> dict:
     """``{key: fn(*tasks[key])}``, in the order of ``tasks``. With an idle ``helper`` the tasks are shared: this
     process takes them from the costliest down (by ``cost``), the helper from the cheapest up, two at a time in
     flight so that it never waits for the next; a task the helper could not do is done here. ``fn`` must be a
-    module-level function and the tasks picklable."""
+    module-level function and the tasks picklable. ``busy_ok``: share with a ready helper that still has work
+    (given by the caller, who knows it is short): its tasks wait behind that work, and those it has not begun
+    when this process runs out are done here."""
     keys = list(tasks)
-    if helper is None or not helper.idle or len(keys) < 2:
+    if helper is None or not (helper.ready if busy_ok else helper.idle) or len(keys) < 2:
         return {k: fn(*tasks[k]) for k in keys}
     order = sorted(keys, key=lambda k: -cost(k)) if cost is not None else keys
     lock = threading.Lock()

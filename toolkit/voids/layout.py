@@ -1194,8 +1194,18 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
         family, kind = (layouts or {}).get(v.index, (None, None))
         options[v.index] = None  # its place in the order; filled below
         jobs[v.index] = (room, (family,) if kind is not None else families, r, score, bound, kind)
+    # The largest-first fit (below) needs nothing of the candidates: where the helper is ready it is made there
+    # first, then the helper takes its share of the candidates.
+    grid = energy[0] if isinstance(energy, tuple) else None
+    big_ahead = None
+    if (helper is not None and helper.ready and not first_fit_only and not mirror.axes and grid is not None
+            and rho is not None and r.family in ("polygon", "slot") and r.web_ratio > 0.0):
+        try:
+            big_ahead = helper.submit(largest_first, kept, allowed, site, r, opening_shapes, score, bound)
+        except Exception:  # noqa: BLE001 - a broken helper: made here below
+            big_ahead = None
     # Each void's candidates alone, shared with the helper process where there is one (the same answers).
-    options.update(share_out(helper, _void_candidates, jobs,
+    options.update(share_out(helper, _void_candidates, jobs, busy_ok=big_ahead is not None,
                              cost=lambda i: jobs[i][0].region.area if jobs[i][0].region is not None else 0.0))
     best = {i: {f: _choose_layout(layouts, score) for f, layouts in fams.items()} for i, fams in options.items()}
 
@@ -1234,7 +1244,6 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
         return Rationalised(voids=(), changes=(), dropped=tuple(dropped), fit_errors=(), violations=(),
                             notes=tuple(notes), first_fit_mm2=first_fit_mm2,
                             layouts=tuple((i, f, kind) for i, (f, kind) in kinds.items()))
-    grid = energy[0] if isinstance(energy, tuple) else None
     evaluate = cap = None
     if grid is not None and kept and rho is not None:
         from .shape import Evaluator
@@ -1280,8 +1289,8 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
             # Largest first: fewer, larger voids, each keeping the web its size asks (``largest_first``), taken
             # where it removes clearly more (LARGEST_GAIN), no softer than the freeform layout, and costs no more
             # stiffness for it than the shape optimisation's growth may (GROW_RATE).
-            big, big_changes, big_drops = largest_first(kept, allowed, site, r, opening_shapes, first_score,
-                                                        first_bound)
+            big, big_changes, big_drops = result_or(big_ahead, largest_first, kept, allowed, site, r, opening_shapes,
+                                                    first_score, first_bound)
             area_now, area_big = sum(d.shape().area for d in placed), sum(d.shape().area for d in big)
             if big and area_big > LARGEST_GAIN * area_now:
                 c_now = first[0]
