@@ -304,15 +304,17 @@ def _to_voids(panel: Panel, job: Job, rules: Rules, settings, void_region, void_
     tell(f"fitting {kind} to {len(freeform)} freeform void{'s' if len(freeform) != 1 else ''} under "
          + (f"the {job.rules.profile} rules" if job.rules.profile else "the job's rules"))
 
-    def refits(layouts: tuple) -> None:
+    def refits(layouts: tuple, sizes: list) -> None:
+        # The freeform re-analysis first (every job's checks need it), then the refits the limiting rule would
+        # make for a layout of these sizes (a missing one is made in the checks).
         if side.ready:
-            for trial in relaxed_rules(rules, void_options):
-                early[trial.key] = side.submit(first_fit_area, panel, list(freeform), void_options, trial.rules,
-                                               energy, layouts)
             g = solid.grid
             if g.n_elements <= HELPER_ANALYSIS_MAX_ELEMENTS and room_for_analysis_elsewhere(g):
                 early[FREEFORM_AHEAD] = side.submit(analysis_elsewhere, with_freeform(panel, freeform, g), g.nx, g.ny,
                                                     g.dx, g.dy)
+            for trial in limit_trials(rules, void_options, sizes):
+                early[trial.key] = side.submit(first_fit_area, panel, list(freeform), void_options, trial.rules,
+                                               energy, layouts)
 
     rationalised = rationalise(panel, list(freeform), void_options, rules, energy=energy, shared=shared,
                                helper=side, on_first_fit=refits)
@@ -427,6 +429,15 @@ def relaxed_rules(rules: Rules, void_options=None) -> list[Relaxed]:
     return trials
 
 
+def limit_trials(rules: Rules, void_options, sizes) -> list[Relaxed]:
+    """The ``relaxed_rules`` a limiting-rule refit tries for a layout of voids of these ``sizes`` (mm): the minimum
+    web only where it, not the web ratio, sets the web of a void of the middle size (each trial is a fitting run
+    of its own)."""
+    sizes = sorted(sizes) or [0.0]
+    return [t for t in relaxed_rules(rules, void_options)
+            if t.key != "min_web" or rules.min_web_mm >= rules.web_ratio * sizes[len(sizes) // 2]]
+
+
 def limiting_rule(panel: Panel, freeform, void_options, rules: Rules, made_voids, made_mm2: float,
                   free_mm2: float, *, energy=None, first_fit_mm2: float | None = None, layouts=None,
                   early: dict | None = None) -> str:
@@ -442,11 +453,8 @@ def limiting_rule(panel: Panel, freeform, void_options, rules: Rules, made_voids
     the demo 31 % against 23 % (a new search chooses by worth, not by area, so it need not remove more).
     ``early``: {rule key: a Future of its refit's area} started in the helper process while the voids were
     still being shaped (``relaxed_rules``); a refit missing there is made here."""
-    # The minimum web is tried only where it, not the web ratio, sets the web of a void of the made layout's
-    # middle size (each trial is a fitting run of its own).
-    sizes = sorted(2.0 * float(shapely.minimum_bounding_radius(v.shape)) for v in made_voids) or [0.0]
-    trials = [t for t in relaxed_rules(rules, void_options)
-              if t.key != "min_web" or rules.min_web_mm >= rules.web_ratio * sizes[len(sizes) // 2]]
+    trials = limit_trials(rules, void_options, [2.0 * float(shapely.minimum_bounding_radius(v.shape))
+                                                for v in made_voids])
     early = early or {}
 
     def first_fit(r: Rules, key: str = "") -> float:

@@ -1117,7 +1117,7 @@ def _region_for(allowed, mirror: Mirror, fixed, r: Resolved, cache: dict):
 def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, energy=None,
                 allowed=None, shape_steps: int = 4, first_fit_only: bool = False, shared=None,
                 layouts: dict[int, tuple[str, str]] | None = None, helper=None,
-                on_first_fit: Callable[[tuple], None] | None = None) -> Rationalised:
+                on_first_fit: Callable[[tuple, list], None] | None = None) -> Rationalised:
     """Freeform voids (shapely polygons, local mm) -> voids a shop can make, keeping ``rules``.
 
     ``energy``: the solid panel's strain-energy density for the ``mixed`` family, as a function of points or
@@ -1132,7 +1132,8 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
     from another run's ``Rationalised.layouts``: each of those voids is fitted as that kind of layout
     alone (the others get the whole search), so a refit under other rules is a fraction of the search.
     ``helper``: a ``helper.Helper`` whose process takes part of the fitting (the same layout as without it).
-    ``on_first_fit(layouts)``: told the first fit's choice of layout per void (``Rationalised.layouts``) before the
+    ``on_first_fit(layouts, sizes)``: told the first fit's choice of layout per void (``Rationalised.layouts``) and the
+    sizes of its voids (the diameter of the smallest circle round each, mm) before the
     shape optimisation, so that a caller can start work that needs only that (the limiting rule's refits,
     ``first_fit_area``) while the layout is shaped.
     """
@@ -1308,7 +1309,8 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
     for source, reason in drop_recs:
         dropped.append(f"{where(source)}: {reason}; dropped.")
     if on_first_fit is not None:  # now: the helper is free again, and the shaping ahead is mostly analyses here
-        on_first_fit(tuple((i, f, kind) for i, (f, kind) in kinds.items()))
+        on_first_fit(tuple((i, f, kind) for i, (f, kind) in kinds.items()),
+                     [2.0 * float(shapely.minimum_bounding_radius(g)) for d in placed for g in site.shapes(d)])
 
     shaped = None
     if shape_steps and evaluate is not None and placed:
