@@ -597,3 +597,26 @@ def test_the_web_check_on_packed_members_is_the_check_on_the_list():
         assert not any(a[2] for a in answers[1::2]) and any(a[2] for a in answers[0::2])
         assert site.members(drafts[3]) is site.members(drafts[3])
         assert pickle.loads(pickle.dumps(site))._members == {}
+
+
+def test_the_report_says_what_was_tried_when_no_rule_held_the_layout_back(monkeypatch):
+    # Refits that gain nothing (first_fit_area stands in, answering the first fit's own area): the sentence names
+    # what was relaxed, and says so where nothing could be.
+    from toolkit import pipeline
+
+    monkeypatch.setattr(pipeline, "first_fit_area", lambda *args, **kwargs: 1000.0)
+    panel = make_panel()
+    free = [box(100, 100, 300, 300)]
+
+    def sentence(rules, family):
+        return pipeline.limiting_rule(panel, free, VoidOptions(family=family), rules, [], 10.0, 100.0,
+                                      first_fit_mm2=1000.0)
+
+    ratio = sentence(Rules(min_web_mm=25, edge_cover_mm=25, min_void_mm=20, web_ratio=0.5), "polygon")
+    assert "fitted again with the web ratio or the minimum web halved, the same layout keeps less than 2 % more" \
+        in ratio and "the stock sizes, the least feature" in ratio
+    bores = sentence(Rules(min_web_mm=25, edge_cover_mm=25, min_void_mm=20), "bore")
+    assert "fitted again with the minimum web halved, or with larger stock sizes," in bores
+    assert "the stock sizes" not in bores
+    none = sentence(Rules(min_web_mm=0, edge_cover_mm=25, min_void_mm=20), "polygon")
+    assert "no web rule or stock list is set that a refit could relax" in none and "fitted again" not in none

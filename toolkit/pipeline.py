@@ -452,7 +452,7 @@ def limiting_rule(panel: Panel, freeform, void_options, rules: Rules, made_voids
     on the 300 x 100 bench plate, 0.39 s against 1.72 s for a new search, which found 49 % more against 47 %; on
     the demo 31 % against 23 % (a new search chooses by worth, not by area, so it need not remove more).
     ``early``: {rule key: a Future of its refit's area} started in the helper process while the voids were
-    still being shaped (``relaxed_rules``); a refit missing there is made here."""
+    still being shaped (``limit_trials``); a refit missing there is made here."""
     trials = limit_trials(rules, void_options, [2.0 * float(shapely.minimum_bounding_radius(v.shape))
                                                 for v in made_voids])
     early = early or {}
@@ -469,14 +469,14 @@ def limiting_rule(panel: Panel, freeform, void_options, rules: Rules, made_voids
     solid = float(panel.solid.area)
     share = 100.0 * made_mm2 / free_mm2
     if best is None or base <= 0 or best[0] <= base * 1.02:
-        spacing = [t for t in trials if t.key in ("web_ratio", "min_web")]
-        tried = []
-        if spacing or not trials:
-            tried.append(" or ".join({"web_ratio": "the web ratio", "min_web": "the minimum web"}[t.key]
-                                     for t in spacing) + " halved" if spacing else "the spacing rules relaxed")
+        names = {"web_ratio": "the web ratio", "min_web": "the minimum web"}
+        spacing = [names[t.key] for t in trials if t.key in names]
         stock = len(spacing) < len(trials)
-        if stock:
-            tried.append("larger stock sizes")
+        if not trials:
+            return (f"the voids to make keep {share:.0f} % of the freeform saving; no web rule or stock list is set "
+                    "that a refit could relax: the least void, the least feature and the stiffness of the freeform "
+                    "layout (which the voids to make must not fall below) hold them back.")
+        tried = ([" or ".join(spacing) + " halved"] if spacing else []) + (["larger stock sizes"] if stock else [])
         return (f"the voids to make keep {share:.0f} % of the freeform saving; fitted again with "
                 f"{', or with '.join(tried)}, the same layout keeps less than 2 % more, so no such rule is what holds "
                 f"them back: {'' if stock else 'the stock sizes, '}the least feature and the stiffness of the freeform "
