@@ -237,15 +237,10 @@ def test_a_layout_made_largest_first_in_the_helper_is_the_one_made_here(ready_he
     # where the helper is ready that fit is made there while this process fits the candidates: the same voids.
     from dataclasses import replace
 
+    from panels import half_mbb_plate
     from toolkit import pipeline
-    from toolkit.jobfile import parse_job
 
-    panel = Panel(width_mm=3000, height_mm=1000, thickness_mm=10, element_size_mm=25,
-                  material=Material(E_MPa=210000, nu=0.3, density_kg_m3=7850),
-                  supports=(Support(((0, 0), (0, 1000)), "x"), Support(((2950, 0), (3000, 0)), "y")),
-                  loads=(PointLoad((0, 1000), (0.0, -50000.0)),))
-    job = parse_job('[optimize]\nvolume_fraction = 0.5\nmax_iterations = 120\n[voids]\nfamily = "polygon"\n'
-                    'sides = 6\n[rules]\nprofile = "steel-cut"\n')
+    panel, job = half_mbb_plate()
     run = pipeline.optimize_panel(panel, job)
     options = replace(job.voids, optimize_symmetry=job.optimize.symmetry)
     energy = (run.solid.grid, pipeline.strain_energy_density(run.solid, panel))

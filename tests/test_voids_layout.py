@@ -465,17 +465,11 @@ def test_a_plate_made_largest_first_keeps_more_and_every_rule(monkeypatch):
     # 0.5): its freeform voids are long and the bars between them thin, so the job takes the largest-first fit.
     # Its layout keeps every rule (the independent check), is no softer than the freeform layout, and removes more
     # than the same job with the largest-first fit left out.
+    from panels import half_mbb_plate
     from toolkit import pipeline
-    from toolkit.jobfile import parse_job
-    from toolkit.model import PointLoad
     from toolkit.voids import layout as L
 
-    panel = Panel(width_mm=3000, height_mm=1000, thickness_mm=10, element_size_mm=25,
-                  material=Material(E_MPa=210000, nu=0.3, density_kg_m3=7850),
-                  supports=(Support(((0, 0), (0, 1000)), "x"), Support(((2950, 0), (3000, 0)), "y")),
-                  loads=(PointLoad((0, 1000), (0.0, -50000.0)),))
-    job = parse_job('[optimize]\nvolume_fraction = 0.5\nmax_iterations = 120\n[voids]\nfamily = "polygon"\n'
-                    'sides = 6\n[rules]\nprofile = "steel-cut"\n')
+    panel, job = half_mbb_plate()
     run = pipeline.optimize_panel(panel, job)
     assert any(n.startswith("the voids are fitted largest first") for n in run.rationalised.notes)
     assert (-1, "polygon", L.LARGEST_FIRST) in run.rationalised.layouts
