@@ -590,7 +590,9 @@ def test_the_web_check_on_packed_members_is_the_check_on_the_list():
         assert any(a[0] for a in answers) and not all(a[0] for a in answers)
         assert not any(a[2] for a in answers[1::2]) and any(a[2] for a in answers[0::2])
         assert site.members(drafts[3]) is site.members(drafts[3])
-        assert pickle.loads(pickle.dumps(site))._members == {}
+        sent = pickle.loads(pickle.dumps(site))
+        assert sent._members == {}
+        assert shapely.is_prepared(sent.inner)  # its region prepared again where it lands (the helper)
 
 
 def test_the_report_says_what_was_tried_when_no_rule_held_the_layout_back(monkeypatch):

@@ -293,6 +293,12 @@ class Site:
         state["_members"] = {}  # a cache: not sent along
         return state
 
+    def __setstate__(self, state: dict) -> None:
+        # shapely pickles a geometry as its WKB, without GEOS's prepared index: prepared again in the helper
+        self.__dict__.update(state)
+        if not self.inner.is_empty:
+            shapely.prepare(self.inner)
+
     def shapes(self, draft: Draft) -> list:
         """The shapes of ``draft`` and of its mirror images."""
         return [d.shape() for d in self.mirror.orbit(draft)]
