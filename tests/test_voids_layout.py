@@ -460,19 +460,21 @@ def test_largest_first_keeps_two_large_voids_where_the_first_fit_keeps_five_smal
     assert again.first_fit_mm2 == pytest.approx(area, rel=1e-12)
 
 
-def test_a_plate_made_largest_first_keeps_more_and_every_rule(monkeypatch):
-    # A 3000 x 1000 steel plate under half-MBB loading (25 mm elements, volume 0.5, hexagons, steel-cut: web ratio
-    # 0.5): its freeform voids are long and the bars between them thin, so the job takes the largest-first fit.
-    # Its layout keeps every rule (the independent check), is no softer than the freeform layout, and removes more
-    # than the same job with the largest-first fit left out.
+@pytest.mark.parametrize("family", ["polygon", "mixed"])
+def test_a_plate_made_largest_first_keeps_more_and_every_rule(monkeypatch, family):
+    # A 3000 x 1000 steel plate under half-MBB loading (25 mm elements, volume 0.5, hexagons or any family,
+    # steel-cut: web ratio 0.5): its freeform voids are long and the bars between them thin, so the job takes the
+    # largest-first fit. Its layout keeps every rule (the independent check), is no softer than the freeform
+    # layout, and removes more than the same job with the largest-first fit left out.
     from panels import half_mbb_plate
     from toolkit import pipeline
     from toolkit.voids import layout as L
 
     panel, job = half_mbb_plate()
+    job = replace(job, voids=replace(job.voids, family=family))
     run = pipeline.optimize_panel(panel, job)
     assert any(n.startswith("the voids are fitted largest first") for n in run.rationalised.notes)
-    assert (-1, "polygon", L.LARGEST_FIRST) in run.rationalised.layouts
+    assert (-1, family, L.LARGEST_FIRST) in run.rationalised.layouts
     assert check_layout(panel, run.voids, run.rules) == []
     assert run.final.compliance_Nmm <= run.freeform_analysis.compliance_Nmm
     monkeypatch.setattr(L, "largest_first", lambda *args, **kwargs: ([], [], []))

@@ -924,9 +924,11 @@ def largest_first(kept, allowed, site: Site, r: Resolved, openings=(), score=Non
     breaks a rule beside the larger ones), then each void left out fitted again in what the placed voids and their
     webs leave of it. Where the first fit gives every void its share of the bars between them, so that a web
     ratio keeps them all small, this one lets a large void keep the web it asks by giving up a neighbour: on the
-    300 x 100 bench plate 563,000 mm2 against 492,000 (2026-12-03). Returns (drafts, change records, dropped
-    records) as ``place`` does."""
-    fit = _polygon_in if r.family == "polygon" else _slot_in
+    300 x 100 bench plate 563,000 mm2 against 492,000 (2026-12-03). With ``mixed`` each void is fitted whole as an
+    n-gon and the voids left out get the layouts of every family (as many families as ``max_types`` allows).
+    Returns (drafts, change records, dropped records) as ``place`` does."""
+    families = ("polygon", "slot", "bore")[:max(1, r.max_types)] if r.family == "mixed" else (r.family,)
+    fit = _polygon_in if "polygon" in families else _slot_in
     regions, drafts = {}, []
     for v in kept:
         region = largest_part(overlay(shapely.intersection, shapely.buffer(v.shape, ROOM_TOLERANCE_MM), allowed))
@@ -948,7 +950,8 @@ def largest_first(kept, allowed, site: Site, r: Resolved, openings=(), score=Non
         room = Room.bare(region, r, openings)
         room.v = v  # the drafts' source
         if score is not None:
-            layout = _choose_layout(candidates(room, r.family, r, score=score, bound=bound), score)
+            layout = _choose_layout([c for f in families for c in candidates(room, f, r, score=score, bound=bound)],
+                                    score)
         else:
             layout = [d] if (d := fit(room, region, r, v.index, 0)) is not None else []
         for k, d in enumerate(layout):
@@ -1206,7 +1209,7 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
     grid = energy[0] if isinstance(energy, tuple) else None
     big_ahead = None
     if (helper is not None and helper.ready and not first_fit_only and not mirror.axes and grid is not None
-            and rho is not None and r.family in ("polygon", "slot") and r.web_ratio > 0.0):
+            and rho is not None and r.family in ("polygon", "slot", "mixed") and r.web_ratio > 0.0):
         try:
             big_ahead = helper.submit(largest_first, kept, allowed, site, r, opening_shapes, score, bound)
         except Exception:  # noqa: BLE001 - a broken helper: made here below
@@ -1292,7 +1295,7 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
                                  "freeform layout") for d in lattice if d not in other[0]]
                 placed, drop_recs = lattice, other[2]
                 first = (c_grid, e_grid)
-        if not mirror.axes and r.family in ("polygon", "slot") and r.web_ratio > 0.0:
+        if not mirror.axes and r.family in ("polygon", "slot", "mixed") and r.web_ratio > 0.0:
             # Largest first: fewer, larger voids, each keeping the web its size asks (``largest_first``), taken
             # where it removes clearly more (LARGEST_GAIN), no softer than the freeform layout, and costs no more
             # stiffness for it than the shape optimisation's growth may (GROW_RATE).
