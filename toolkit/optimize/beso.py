@@ -162,7 +162,11 @@ def run_beso(
             solver.refactor(K)
         U = solver.solve(F)
         Ue = U[edof]  # (ne, 8, ncases)
-        energy = np.einsum("eic,ij,ejc->ec", Ue, ke, Ue, optimize=True)  # u_e^T k0 u_e per case
+        # u_e^T k0 u_e per case, as one matrix product per case and a row sum (an einsum over the three took 3.5
+        # times as long: 1.4 against 0.4 ms at 300 x 100); the designs are the same to the bit at 300 x 100 and
+        # 600 x 200 (half MBB beam, 2026-12-03)
+        Uc = np.moveaxis(Ue, 2, 0)  # (ncases, ne, 8)
+        energy = np.einsum("cei,cei->ec", Uc @ ke, Uc)
         case_c = np.einsum("dc,dc->c", F, U)
         compliance = float(case_c @ w)
         volume = float(np.count_nonzero(x[design_idx] >= 1.0)) / n_design
