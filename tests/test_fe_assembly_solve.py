@@ -36,6 +36,24 @@ def test_pattern_is_the_same_every_call():
     np.testing.assert_allclose(K2.data, 1e-3 * K1.data, rtol=1e-13, atol=1e-16 * np.abs(K1.data).max())
 
 
+def test_one_assembler_serves_each_element_matrix_it_is_given():
+    # The scatter keeps the entries of the last ke it was given; another ke (another material or thickness) must
+    # refill them, and the first again after it: each matrix as the plain triplet sum, to the bit where the
+    # summation order is the same (an element's entries in rising element order).
+    g = Grid(5, 3, 2.0, 1.5)
+    rng = np.random.default_rng(2)
+    a = Assembler(g)
+    scale = rng.random(g.n_elements)
+    kes = [q4_stiffness(2.0, 1.5, 1000.0, 0.3, 5.0), q4_stiffness(2.0, 1.5, 30000.0, 0.2, 1.0)]
+    for ke in kes + kes[::-1]:
+        K = a.matrix(ke, scale)
+        values = (scale[:, None] * ke.ravel()).ravel()
+        reference = sp.csc_matrix((values, (g.iK, g.jK)), shape=K.shape)
+        reference.sum_duplicates()
+        assert abs(K - reference).max() <= 1e-12 * abs(reference).max()
+    np.testing.assert_array_equal(a.matrix(kes[0]).data, a.matrix(kes[0], np.ones(g.n_elements)).data)
+
+
 def test_grid_numbering_and_exact_cover():
     g = make_grid(3000.0, 600.0, 35.0)
     assert g.nx * g.dx == pytest.approx(3000.0, rel=1e-15) and g.ny * g.dy == pytest.approx(600.0, rel=1e-15)

