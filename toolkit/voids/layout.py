@@ -303,6 +303,10 @@ class Site:
         """The shapes of ``draft`` and of its mirror images."""
         return [d.shape() for d in self.mirror.orbit(draft)]
 
+    def area(self, drafts) -> float:
+        """The area ``drafts`` and their mirror images remove, mm2."""
+        return float(sum(g.area for d in drafts for g in self.shapes(d)))
+
     def members(self, draft: Draft) -> list[tuple]:
         """``draft`` and its mirror images as members (see ``__init__``), remembered per draft: drafts do not
         change, and every trial step of every void asks for all the others' (at 600 x 200 elements, 88 voids:
@@ -1187,7 +1191,7 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
         # The refit of a layout that was made largest first (below) is that fit alone.
         big = largest_first(kept, allowed, site, r, opening_shapes, score, bound)[0]
         return Rationalised(voids=(), changes=(), dropped=tuple(dropped), fit_errors=(), violations=(),
-                            notes=tuple(notes), first_fit_mm2=float(sum(g.area for d in big for g in site.shapes(d))),
+                            notes=tuple(notes), first_fit_mm2=site.area(big),
                             layouts=((-1, r.family, LARGEST_FIRST),))
     families = ("polygon", "slot", "bore") if r.family == "mixed" else (r.family,)
     options: dict[int, dict[str, list[list[Draft]]] | None] = {}
@@ -1207,9 +1211,10 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
     # The largest-first fit (below) needs nothing of the candidates: where the helper is ready it is made there
     # first, then the helper takes its share of the candidates.
     grid = energy[0] if isinstance(energy, tuple) else None
+    largest_wanted = not mirror.axes and r.family in ("polygon", "slot", "mixed") and r.web_ratio > 0.0
     big_ahead = None
-    if (helper is not None and helper.ready and not first_fit_only and not mirror.axes and grid is not None
-            and rho is not None and r.family in ("polygon", "slot", "mixed") and r.web_ratio > 0.0):
+    if (largest_wanted and helper is not None and helper.ready and not first_fit_only and grid is not None
+            and rho is not None):
         try:
             big_ahead = helper.submit(largest_first, kept, allowed, site, r, opening_shapes, score, bound)
         except Exception:  # noqa: BLE001 - a broken helper: made here below
@@ -1247,7 +1252,7 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
         drafts.extend(got)
 
     placed, change_recs, drop_recs = place(drafts, site, r)
-    first_fit_mm2 = float(sum(g.area for d in placed for g in site.shapes(d)))
+    first_fit_mm2 = site.area(placed)
     # The largest-first fit (below) ranks layouts by the worth the first fit used, before the analyses reprice it.
     first_score, first_bound = score, bound
     if first_fit_only:
@@ -1295,7 +1300,7 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
                                  "freeform layout") for d in lattice if d not in other[0]]
                 placed, drop_recs = lattice, other[2]
                 first = (c_grid, e_grid)
-        if not mirror.axes and r.family in ("polygon", "slot", "mixed") and r.web_ratio > 0.0:
+        if largest_wanted:
             # Largest first: fewer, larger voids, each keeping the web its size asks (``largest_first``), taken
             # where it removes clearly more (LARGEST_GAIN), no softer than the freeform layout, and costs no more
             # stiffness for it than the shape optimisation's growth may (GROW_RATE).
@@ -1313,13 +1318,13 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
                                  f"({area_big:.0f} against {area_now:.0f} mm2 removed, no softer than the "
                                  "freeform layout).")
                     placed, change_recs, drop_recs, first = big, big_changes, big_drops, (c_big, e_big)
-                    first_fit_mm2 = float(sum(g.area for d in big for g in site.shapes(d)))
+                    first_fit_mm2 = site.area(big)
                     kinds[-1] = (r.family, LARGEST_FIRST)  # the limiting rule's refits follow it
     for source, reason in drop_recs:
         dropped.append(f"{where(source)}: {reason}; dropped.")
     if on_first_fit is not None:  # now: the helper is free again, and the shaping ahead is mostly analyses here
         on_first_fit(tuple((i, f, kind) for i, (f, kind) in kinds.items()),
-                     [2.0 * float(shapely.minimum_bounding_radius(g)) for d in placed for g in site.shapes(d)])
+                     [_extent(g) for d in placed for g in site.shapes(d)])
 
     shaped = None
     if shape_steps and evaluate is not None and placed:
