@@ -609,8 +609,20 @@ class LinearSolver:
         self.refactor(K)
 
     def refactor(self, K: sp.spmatrix) -> None:
-        """Factorise a new matrix of the same sparsity pattern as the one given at construction."""
+        """Factorise a new matrix of the same sparsity pattern as the one given at construction. A matrix whose
+        values are those of the one factorised last (another array, equal to the bit) keeps that factor: the
+        optimiser's first design is the panel as drawn, which the job's solid analysis has just factorised (one
+        factorisation saved a job, 0.08 s at 300 x 100 elements, seconds at a million)."""
         data = sorted_csc(K).data if sp.issparse(K) else np.asarray(K)
+        last = getattr(self, "_factored", None)
+        # The same array (or a view of it) may have been changed in place since: only another array is compared.
+        if last is not None and not np.may_share_memory(last, data) and np.array_equal(last, data):
+            return
+        self._factored = None  # dropped before the factorisation: the memory of one matrix's values, not two
+        self._factor_data(data)
+        self._factored = data
+
+    def _factor_data(self, data: np.ndarray) -> None:
         if self.backend == "multifrontal":
             with self._one_thread():
                 self._frontal.factor(data)
