@@ -225,6 +225,12 @@ def test_a_schedule_in_metres_keeps_its_unit_and_its_digits(tmp_path):
              if e.dxftype() == "TEXT" and e.dxf.layer == "LACUNA-NOTE"]
     tools = [t for t in notes if "overall" in t]  # the n-gons' tool words: "... routed ..., 0.253 m overall"
     assert tools and not any(re.search(r"\d mm\b", t) for t in tools), tools
+    # The sentences beside the figures too: the rule that held the layout back, the changes and drops, the
+    # notes, and where each rule comes closest.
+    s = json.loads((tmp_path / "out" / "beam-optimize.json").read_text())
+    words = [s["limit"]] + s["changes"] + s["dropped"] + s["notes"] + [m["where"] for m in s["rules"]["margins"]]
+    assert s["changes"] and any(re.search(r"\d m\b", w) for w in words), words
+    assert not any(re.search(r"\d mm\b", w) for w in words), [w for w in words if re.search(r"\d mm\b", w)]
 
 
 def test_a_sheet_in_metres_states_its_lengths_in_metres(tmp_path):

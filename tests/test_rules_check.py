@@ -243,6 +243,11 @@ def test_violation_json_in_drawing_units():
     j = v.to_json(frame)
     assert j["where"] == [1044.5, 2025.0] and j["measured"] == 4.0 and j["required"] == 6.0
     assert set(j) >= {"rule", "where", "measured", "required", "handles"}
+    # the message's lengths too, as the figures beside it
+    worded = Violation("min_web", (445.0, 250.0), 40.0, 60.0, (), ("V1", "V2"),
+                       "the web between V1 and V2 is 40 mm, less than the minimum web 60 mm")
+    assert worded.to_json(frame)["message"] == "the web between V1 and V2 is 4 cm, less than the minimum web 6 cm"
+    assert worded.to_json()["message"] == worded.message
 
 
 def test_bad_voids_are_named():

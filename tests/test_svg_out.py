@@ -402,3 +402,19 @@ def test_no_convergence_line_runs_along_the_frame():
     for e in lines:
         pts = np.array([[float(a) for a in p.split(",")] for p in e.get("points").split()])
         assert pts[:, 1].min() > top + 1.0 and pts[:, 1].max() < bottom - 1.0, e.get("id")
+
+
+def test_lengths_in_sentences_follow_the_drawing_unit():
+    from toolkit.model import lengths_in_unit
+
+    metres = model.Frame(mm_per_unit=1000.0, unit="m")
+    assert lengths_in_unit("with slots up to 315 mm wide (stock sizes of 250 and 315 mm added)", metres) == \
+        "with slots up to 0.315 m wide (stock sizes of 0.25 and 0.315 m added)"
+    assert lengths_in_unit("size 125.0 -> 100 mm; slot 100 x 450.0 mm", metres) == \
+        "size 0.125 -> 0.1 m; slot 0.1 x 0.45 m"
+    # areas, coordinates in brackets and other units are not lengths in mm
+    same = "563525 against 504000 mm2 removed at (1200, 350) mm, compliance 5642 N mm"
+    assert lengths_in_unit(same, metres) == same
+    assert lengths_in_unit("a minimum web of 50 mm", model.Frame()) == "a minimum web of 50 mm"
+    inches = model.Frame(mm_per_unit=25.4, unit="in")
+    assert lengths_in_unit("a minimum web of 50.8 mm", inches) == "a minimum web of 2 in"

@@ -9,6 +9,7 @@ origin) to the local frame and back; only the readers and writers at the edges u
 from __future__ import annotations
 
 import math
+import re
 from dataclasses import dataclass, field
 from typing import Union
 
@@ -62,6 +63,26 @@ class Frame:
 
     def length_to_drawing(self, length_mm: float) -> float:
         return float(length_mm) / self.mm_per_unit
+
+
+# A length in words as the voids stage and the rules write it: a number, or numbers joined by " x ", " -> ",
+# " and " or " to " ("slot 100 x 450.0 mm", "size 125.0 -> 100 mm", "stock sizes of 250 and 315 mm"), then " mm".
+_LENGTHS = re.compile(r"(\d+(?:\.\d+)?(?:(?: x | -> | and | to )\d+(?:\.\d+)?)*) mm\b")
+_NUMBER = re.compile(r"\d+(?:\.\d+)?")
+
+
+def lengths_in_unit(text: str, frame: Frame) -> str:
+    """``text`` with its lengths (written in mm by the voids stage, the rules and the limiting rule) in the
+    drawing's unit, so that a report in metres says "0.282 m overall" and "a minimum web of 0.05 m", like its
+    columns. Areas (mm2) and coordinates in brackets are left as they are."""
+    if frame.unit == "mm" or not text:
+        return text
+
+    def convert(match) -> str:
+        numbers = _NUMBER.sub(lambda n: f"{frame.length_to_drawing(float(n.group())):.4g}", match.group(1))
+        return f"{numbers} {frame.unit}"
+
+    return _LENGTHS.sub(convert, text)
 
 
 @dataclass(frozen=True)

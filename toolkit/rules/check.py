@@ -26,7 +26,7 @@ import shapely
 from shapely.geometry import LineString, Point, Polygon, box
 
 from ..errors import LacunaError
-from ..model import Frame, Panel, PointLoad, Rules, Void
+from ..model import Frame, Panel, PointLoad, Rules, Void, lengths_in_unit
 
 TOLERANCE_MM = 0.01
 
@@ -75,7 +75,7 @@ class Violation:
             "required": round(float(required), 6),
             "handles": list(self.handles),
             "void_ids": list(self.void_ids),
-            "message": self.message,
+            "message": lengths_in_unit(self.message, frame) if frame is not None else self.message,
         }
 
 

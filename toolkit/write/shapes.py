@@ -4,7 +4,6 @@ optimiser's freeform outlines as rings, and the rule-violation markers."""
 from __future__ import annotations
 
 import math
-import re
 from collections.abc import Mapping
 from dataclasses import dataclass
 
@@ -12,7 +11,7 @@ import numpy as np
 from shapely.geometry import MultiPolygon, Polygon
 
 from ..errors import LacunaError
-from ..model import Point, Void
+from ..model import Point, Void, lengths_in_unit
 from .layers import VOID_LAYERS
 
 
@@ -124,12 +123,5 @@ def _two_figures(measured: float, required: float) -> tuple[str, str]:
 
 
 def tool_in_unit(tool: str, frame) -> str:
-    """The schedule's tool words with their lengths (written in mm by the voids stage) in the drawing's unit, so a
-    schedule in metres says "0.282 m overall", like its columns."""
-    if frame.unit == "mm":
-        return tool
-    def convert(match) -> str:
-        value = frame.length_to_drawing(float(match.group(1)))
-        return f"{value:.4g} {frame.unit}"
-
-    return re.sub(r"(\d+(?:\.\d+)?) mm\b", convert, tool)
+    """The schedule's tool words with their lengths in the drawing's unit (``lengths_in_unit``)."""
+    return lengths_in_unit(tool, frame)

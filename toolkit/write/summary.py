@@ -9,7 +9,7 @@ import numpy as np
 
 from ..about import CAUTION, __version__
 from ..edge_stress import edge_json
-from ..model import Drawing, Panel
+from ..model import Drawing, Panel, lengths_in_unit
 from .shapes import tool_in_unit
 
 if TYPE_CHECKING:
@@ -174,7 +174,7 @@ def optimize_summary(run: OptimizeRun, drawing: Drawing | None) -> dict:
         "mass_removed_percent": run.mass_removed_percent,
         "mass_removed_kg": run.mass_removed_kg,
         "capture_percent": run.capture_percent,
-        "limit": run.limit,
+        "limit": lengths_in_unit(run.limit, f),
         "shape_optimisation": _shape_json(run),
         # Each travelling load's stops with the compliance of each in the three analyses (docs/moving-loads.md).
         "moving_loads": travel_summary(panel, {"solid": run.solid, "freeform": run.freeform_analysis,
@@ -199,8 +199,9 @@ def optimize_summary(run: OptimizeRun, drawing: Drawing | None) -> dict:
             "violations": [v.to_json(f) for v in run.rationalised.violations],
             "margins": _margins_json(run),
         },
-        "changes": list(run.rationalised.changes),
-        "dropped": list(run.rationalised.dropped),
+        # Sentences in the drawing's unit, as the figures beside them.
+        "changes": [lengths_in_unit(c, f) for c in run.rationalised.changes],
+        "dropped": [lengths_in_unit(d, f) for d in run.rationalised.dropped],
         "history": {
             "compliance_Nmm": [float(c) for c in beso.compliance_Nmm],
             "volume_fraction": [float(v) for v in beso.volume_fraction],
@@ -208,7 +209,7 @@ def optimize_summary(run: OptimizeRun, drawing: Drawing | None) -> dict:
         "warnings": list((drawing.warnings if drawing else ()) + run.solid.warnings + run.warnings),
         # What the fitting did that is worth knowing but nothing to fix: islands filled, symmetry kept, the
         # honeycomb taken, voids added, a shape stage that kept its input.
-        "notes": list(run.rationalised.notes),
+        "notes": [lengths_in_unit(n, f) for n in run.rationalised.notes],
         "caution": CAUTION,
         "outputs": [],
     }
@@ -225,7 +226,7 @@ def _margins_json(run: OptimizeRun) -> list[dict]:
         return None if x is None else f.length_to_drawing(x)
 
     return [{"rule": m.rule, "required": length(m.required), "measured": length(m.measured),
-             "margin": length(m.margin), "voids": list(m.void_ids), "where": m.text}
+             "margin": length(m.margin), "voids": list(m.void_ids), "where": lengths_in_unit(m.text, f)}
             for m in rule_margins(run.panel, run.voids, run.rules)]
 
 
