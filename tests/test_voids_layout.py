@@ -618,3 +618,17 @@ def test_the_report_says_what_was_tried_when_no_rule_held_the_layout_back(monkey
     assert "the stock sizes" not in bores
     none = sentence(Rules(min_web_mm=0, edge_cover_mm=25, min_void_mm=20), "polygon")
     assert "no web rule or stock list is set that a refit could relax" in none and "fitted again" not in none
+
+
+def test_dropped_voids_are_placed_in_drawing_coordinates():
+    # A panel drawn in metres with its lower-left corner at (12, -3) m: the sentences that drop a freeform void
+    # place it as the drafter reads the drawing, not in the panel's local millimetres.
+    from toolkit.model import Frame
+
+    panel = replace(make_panel(), frame=Frame(origin=(12.0, -3.0), mm_per_unit=1000.0, unit="m"))
+    thin = box(400, 280, 700, 290)             # 10 mm wide: under the least void
+    res = rationalise(panel, [thin, Point(1400, 300).buffer(120)], VoidOptions(family="polygon", sides=6),
+                      Rules(min_web_mm=30, edge_cover_mm=40, min_void_mm=20))
+    said = [d for d in res.dropped if "freeform void #1" in d]
+    assert said and "at (12.55, -2.715) m" in said[0], res.dropped
+    assert not any("(550, 285)" in d for d in res.dropped)

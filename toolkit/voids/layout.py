@@ -36,6 +36,7 @@ import shapely
 from shapely.geometry import Polygon
 
 from ..errors import LacunaError
+from ..fe.boundary import where_text
 from ..helper import result_or, share_out
 from ..model import Panel, Rules, Void
 from ..rules import check as rule_check
@@ -1082,29 +1083,31 @@ def _choose_layout(options: list[list[Draft]], score) -> list[Draft]:
 # --- the whole step ---------------------------------------------------------------------------------------
 
 
-def _seeds(freeform, mirror: Mirror, r: Resolved):
+def _seeds(freeform, mirror: Mirror, r: Resolved, at=None):
     """The freeform voids to fit: as given, or, in a symmetric layout, folded onto the lower-left side.
 
-    Returns the kept voids (``clean``), the mid-lines each stands on (by index), and the notes.
+    Returns the kept voids (``clean``), the mid-lines each stands on (by index), and the notes (points in them
+    in words by ``at``, as ``clean`` takes it).
     """
+    at = at if at is not None else (lambda xy: f"({xy[0]:.0f}, {xy[1]:.0f})")
     if not mirror.axes:
-        kept, notes = clean(freeform, r.min_void_mm)
+        kept, notes = clean(freeform, r.min_void_mm, at=at)
         return kept, {}, notes
-    filled, notes = clean(freeform, 0.0)  # checks the input and fills islands; drops nothing with area
+    filled, notes = clean(freeform, 0.0, at=at)  # checks the input and fills islands; drops nothing with area
     seeds = fold([v.shape for v in filled], mirror)
     if r.family == "polygon" and r.sides % 2 and len(mirror.axes) == 2:
         split = []
         for shape, fixed in seeds:
             if len(fixed) == 2:
                 c = shape.centroid
-                notes.append(f"freeform void at ({c.x:.0f}, {c.y:.0f}) on both mid-lines: a {r.sides}-gon cannot "
+                notes.append(f"freeform void at {at((c.x, c.y))} on both mid-lines: a {r.sides}-gon cannot "
                              "be symmetric about both, so it is made as a pair, one each side of the horizontal "
                              "mid-line.")
                 split.extend((part, ("x",)) for part in split_centre(shape, mirror, r.min_web_mm / 2.0))
             else:
                 split.append((shape, fixed))
         seeds = split
-    kept, more = clean([shape for shape, _ in seeds], r.min_void_mm, where="folded freeform voids")
+    kept, more = clean([shape for shape, _ in seeds], r.min_void_mm, where="folded freeform voids", at=at)
     return kept, {i: fixed for i, (_, fixed) in enumerate(seeds)}, notes + more
 
 
@@ -1157,7 +1160,11 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
     sample, spacing = energy_sampler(energy) if energy is not None else (None, None)
     mirror, notes = layout_mirror(panel, settings, r.snap_mm)
 
-    kept, comp_fixed, clean_notes = _seeds(freeform, mirror, r)
+    def at(xy) -> str:
+        """A local point in words, as the drafter reads it: drawing coordinates and unit."""
+        return where_text(xy, panel.frame)
+
+    kept, comp_fixed, clean_notes = _seeds(freeform, mirror, r, at)
     dropped = [n for n in clean_notes if n.endswith("dropped.")]
     notes += [n for n in clean_notes if not n.endswith("dropped.")]
     tolerance = max(0.5 * r.snap_mm, 0.5)
@@ -1169,7 +1176,7 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
             return "a void of the honeycomb over the region open to voids"
         v = by_source[i]
         twins = " and its mirror image" if mirror.elements(comp_fixed.get(i, ())) else ""
-        return f"freeform void #{i + 1} at ({v.centroid[0]:.0f}, {v.centroid[1]:.0f}){twins}"
+        return f"freeform void #{i + 1} at {at(v.centroid)}{twins}"
 
     # Worth of a layout: the area it removes less what that area costs in stiffness, priced at the rate at which
     # the optimiser itself stopped removing material. The first-order rise of compliance from removing material

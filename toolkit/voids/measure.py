@@ -117,12 +117,15 @@ def measure(polygon: Polygon, index: int = 0) -> FreeformVoid:
                         islands=len(polygon.interiors))
 
 
-def clean(freeform, min_void_mm: float, *, where: str = "freeform voids") -> tuple[list[FreeformVoid], list[str]]:
+def clean(freeform, min_void_mm: float, *, where: str = "freeform voids", at=None
+          ) -> tuple[list[FreeformVoid], list[str]]:
     """Measure every freeform void and drop those narrower than ``min_void_mm``.
 
     ``freeform`` is a sequence of shapely polygons (multi-polygons are split). Returns the kept voids (each
-    with ``index`` = its position in ``freeform``) and one plain sentence per dropped void or filled island.
+    with ``index`` = its position in ``freeform``) and one plain sentence per dropped void or filled island,
+    each placed by ``at(local point)`` (the point in words; by default its local mm, to the millimetre).
     """
+    at = at if at is not None else (lambda xy: f"({xy[0]:.0f}, {xy[1]:.0f})")
     if not (isinstance(min_void_mm, (int, float)) and math.isfinite(min_void_mm) and min_void_mm >= 0.0):
         raise LacunaError(f"the smallest void size must be a length of zero or more, got {min_void_mm!r}.",
                           where="[rules] min_void", hint="Give min_void as a length, e.g. 20.")
@@ -143,11 +146,11 @@ def clean(freeform, min_void_mm: float, *, where: str = "freeform voids") -> tup
         for part in parts:
             m = measure(part, i)
             if m.width_mm < min_void_mm:
-                notes.append(f"freeform void #{i + 1} at ({m.centroid[0]:.0f}, {m.centroid[1]:.0f}): "
+                notes.append(f"freeform void #{i + 1} at {at(m.centroid)}: "
                              f"{m.width_mm:.1f} mm wide, under the smallest void size {min_void_mm:g} mm; dropped.")
                 continue
             if m.islands:
-                notes.append(f"freeform void #{i + 1} at ({m.centroid[0]:.0f}, {m.centroid[1]:.0f}): "
+                notes.append(f"freeform void #{i + 1} at {at(m.centroid)}: "
                              f"{m.islands} solid island(s) inside it filled; the outer outline is fitted.")
             kept.append(m)
     return kept, notes
