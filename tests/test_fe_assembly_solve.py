@@ -278,25 +278,31 @@ def test_a_shared_solver_refactors_only_for_the_same_system_and_solves_as_a_new_
 
 @pytest.mark.parametrize("backend", BACKENDS)
 def test_a_refactor_with_the_values_just_factorised_keeps_the_factor(backend, monkeypatch):
-    # The optimiser's first design is the panel as drawn, which the solid analysis has just factorised: the same
-    # values in another array keep the factor; other values, or the same array changed in place, are factorised.
+    # The optimiser's first design is the panel as drawn, which the solid analysis has just factorised: the first
+    # refactor given the same values in another array keeps the factor; other values, the same array changed in
+    # place, and any later refactor are factorised (the values are held until the first refactor only).
     g, a, ke, fixed, rng, F = _held_at_left(9, 5, seed=11, cases=1)
     F[fixed] = 0
     scale = rng.uniform(1e-3, 1.0, g.n_elements)
-    solver = LinearSolver(a.matrix(ke, scale), ~fixed, grid=g, backend=backend)
-    U = solver.solve(F)
     made = []
     real = LinearSolver._factor_data
     monkeypatch.setattr(LinearSolver, "_factor_data", lambda self, data: made.append(1) or real(self, data))
-    solver.refactor(a.matrix(ke, scale.copy()))  # another array, the same values
-    assert made == [] and np.array_equal(solver.solve(F), U)
-    other = scale[::-1].copy()
-    K = a.matrix(ke, other)
-    solver.refactor(K)
+    solver = LinearSolver(a.matrix(ke, scale), ~fixed, grid=g, backend=backend)
+    U = solver.solve(F)
     assert made == [1]
-    want = np.linalg.solve(K.toarray()[np.ix_(~fixed, ~fixed)], F[~fixed])
-    np.testing.assert_allclose(solver.solve(F)[~fixed], want, rtol=1e-9, atol=1e-12)
-    K.data *= 2.0  # the array factorised last, changed in place: factorised again
+    solver.refactor(a.matrix(ke, scale.copy()))  # another array, the same values
+    assert made == [1] and np.array_equal(solver.solve(F), U)
+    K = a.matrix(ke, scale[::-1].copy())
     solver.refactor(K)
     assert made == [1, 1]
-    np.testing.assert_allclose(solver.solve(F)[~fixed], 0.5 * want, rtol=1e-9, atol=1e-12)
+    want = np.linalg.solve(K.toarray()[np.ix_(~fixed, ~fixed)], F[~fixed])
+    np.testing.assert_allclose(solver.solve(F)[~fixed], want, rtol=1e-9, atol=1e-12)
+    solver.refactor(a.matrix(ke, scale))  # the values it was made with, after another refactor: factorised
+    assert made == [1, 1, 1] and np.array_equal(solver.solve(F), U)
+    # the array the solver was made with, changed in place: factorised again
+    K = a.matrix(ke, scale)
+    other = LinearSolver(K, ~fixed, grid=g, backend=backend)
+    K.data *= 2.0
+    other.refactor(K)
+    assert made == [1, 1, 1, 1, 1]
+    np.testing.assert_allclose(other.solve(F), 0.5 * U, rtol=1e-9, atol=1e-12)

@@ -574,7 +574,7 @@ class LinearSolver:
             else:
                 self._one_thread = BlasOneThread()
                 self.backend = "multifrontal"
-                self.refactor(K)
+                self._made(K)
                 return
         if backend in ("auto", "multifrontal"):
             backend = "pardiso" if pardiso_available() else "superlu"
@@ -606,21 +606,26 @@ class LinearSolver:
         self._indices = sub.indices
         self._indptr = sub.indptr
         self._lu = None
-        self.refactor(K)
+        self._made(K)
 
     def refactor(self, K: sp.spmatrix) -> None:
-        """Factorise a new matrix of the same sparsity pattern as the one given at construction. A matrix whose
-        values are those of the one factorised last (another array, equal to the bit) keeps that factor: the
+        """Factorise a new matrix of the same sparsity pattern as the one given at construction. The first refactor
+        given the values the solver was made with (another array, equal to the bit) keeps that factor: the
         optimiser's first design is the panel as drawn, which the job's solid analysis has just factorised (one
-        factorisation saved a job, 0.08 s at 300 x 100 elements, seconds at a million)."""
+        factorisation saved a job, 0.08 s at 300 x 100 elements, seconds at a million). Those values are held
+        until the first refactor only: at a million elements they are 0.29 GB."""
         data = sorted_csc(K).data if sp.issparse(K) else np.asarray(K)
-        last = getattr(self, "_factored", None)
+        self._made_with, first = None, getattr(self, "_made_with", None)
         # The same array (or a view of it) may have been changed in place since: only another array is compared.
-        if last is not None and not np.may_share_memory(last, data) and np.array_equal(last, data):
+        if first is not None and not np.may_share_memory(first, data) and np.array_equal(first, data):
             return
-        self._factored = None  # dropped before the factorisation: the memory of one matrix's values, not two
         self._factor_data(data)
-        self._factored = data
+
+    def _made(self, K: sp.spmatrix) -> None:
+        """The factorisation at construction; its values are held for the first ``refactor``."""
+        data = sorted_csc(K).data if sp.issparse(K) else np.asarray(K)
+        self._factor_data(data)
+        self._made_with = data
 
     def _factor_data(self, data: np.ndarray) -> None:
         if self.backend == "multifrontal":
