@@ -306,3 +306,56 @@ def test_a_refactor_with_the_values_just_factorised_keeps_the_factor(backend, mo
     other.refactor(K)
     assert made == [1, 1, 1, 1, 1]
     np.testing.assert_allclose(other.solve(F), 0.5 * U, rtol=1e-9, atol=1e-12)
+
+
+@pytest.mark.skipif(not PARDISO_PLATFORM, reason="pypardiso is a dependency on x86-64 Linux and Windows only")
+def test_a_two_thread_pardiso_solver_is_its_own_and_repeats_to_the_bit():
+    # The optimiser factorises large grids on a PARDISO solver made for two MKL threads (optimize/beso.py). PARDISO
+    # plans its factorisation for the threads its analysis ran on (a two-thread analysis factorised on one thread
+    # crashed), so the shared solver is never refactored across thread counts; the two-thread solution is the same
+    # bits every time (a design repeats exactly) and, on a system of solid and part-solid elements, one thread's
+    # to round-off (numpy's dense solve is the reference for both).
+    g, a, ke, fixed, rng, F = _held_at_left(60, 30, seed=5, cases=2)
+    F[fixed] = 0
+    K = a.matrix(ke, rng.uniform(0.05, 1.0, g.n_elements))
+    shared = SharedSolver("pardiso")
+    one = shared.factor(K, ~fixed, g)
+    two = shared.factor(K, ~fixed, g, threads=2)
+    assert two is not one and (one.threads, two.threads) == (1, 2) and shared.built == 2
+    U2 = two.solve(F)
+    assert np.array_equal(U2, LinearSolver(K, ~fixed, grid=g, backend="pardiso", threads=2).solve(F))
+    want = np.linalg.solve(K.toarray()[np.ix_(~fixed, ~fixed)], F[~fixed])
+    np.testing.assert_allclose(U2[~fixed], want, rtol=1e-9, atol=1e-12)
+    np.testing.assert_allclose(U2, one.solve(F), rtol=1e-12, atol=1e-12 * np.abs(U2).max())
+    K2 = a.matrix(ke, rng.uniform(0.05, 1.0, g.n_elements))
+    assert shared.factor(K2, ~fixed, g, threads=2) is two and shared.refactored == 1
+    back = shared.factor(K2, ~fixed, g)  # the next stage, on one thread: a solver of its own again
+    assert back is not two and back.threads == 1 and shared.built == 3
+    np.testing.assert_allclose(back.solve(F), two.solve(F), rtol=1e-12, atol=1e-12 * np.abs(U2).max())
+
+
+@pytest.mark.skipif(not PARDISO_PLATFORM, reason="pypardiso is a dependency on x86-64 Linux and Windows only")
+def test_the_optimiser_runs_on_two_threads_from_its_size_on(monkeypatch):
+    # From TWO_THREADS_FROM elements the optimiser makes its own two-thread solver and hands the job's solver back
+    # to the next stage on one; a half-MBB beam of 60 x 20 elements, lowered below the size, comes out as on one.
+    from toolkit.optimize import beso
+    from toolkit.optimize.problem import Problem
+    from toolkit.optimize.settings import OptimizeSettings
+
+    g = Grid(60, 20, 1.0, 1.0)
+    left = np.arange(g.ny + 1) * (g.nx + 1)
+    F = np.zeros((g.n_dofs, 1))
+    F[2 * (g.ny * (g.nx + 1)) + 1, 0] = -1.0
+    problem = Problem(grid=g, ke=q4_stiffness(1.0, 1.0, 1.0, 0.3, 1.0), fractions=np.ones(g.n_elements),
+                      fixed=np.concatenate([2 * left, [2 * g.nx + 1]]), loads=F, weights=np.ones(1),
+                      design=np.ones(g.n_elements, bool))
+    settings = OptimizeSettings(volume_fraction=0.5, max_iterations=200)
+    runs = {}
+    for frm in (10**9, g.n_elements):
+        monkeypatch.setattr(beso, "TWO_THREADS_FROM", frm)
+        shared = SharedSolver()  # "auto", as the optimiser's: PARDISO where it loads
+        runs[frm] = beso.run_beso(problem, settings, shared=shared)
+        assert shared.solver.threads == (2 if frm == g.n_elements else 1)
+    one, two = runs[10**9], runs[g.n_elements]
+    assert np.array_equal(one.densities, two.densities)
+    np.testing.assert_allclose(two.compliance_Nmm, one.compliance_Nmm, rtol=1e-9)

@@ -402,12 +402,17 @@ class _Pardiso:
     symbolic analysis (fill-reducing order) once, every refactor numeric only (phase 22), solves by
     substitution (phase 33). pypardiso's own ``factorize`` redoes the analysis and keeps a copy of the matrix to
     compare at every solve; the numeric phase alone is about four times cheaper than our multifrontal code at
-    300 x 100 and 600 x 200 elements (docs/dependencies.md). Run on one thread, as the multifrontal code, so a
-    design comes out the same on any machine."""
+    300 x 100 and 600 x 200 elements (docs/dependencies.md). Run on one thread, as the multifrontal code, unless
+    made for another fixed count (``threads``, for the solver's whole life: PARDISO's analysis plans the
+    factorisation for the threads it ran on; a solver analysed on two threads and factorised on one crashed the
+    process, one analysed on one is no faster on two). A fixed count, not the machine's cores, so a design comes
+    out the same on any machine: on two threads the same solution to the bit run after run (measured)."""
 
-    def __init__(self, ordered: bool = False, order: str = "metis"):
+    def __init__(self, ordered: bool = False, order: str = "metis", threads: int = 1):
         """``ordered``: the matrix comes already in a fill-reducing order (the grid's nested dissection), used as
-        it is; otherwise PARDISO finds one: ``order`` "metis" (nested dissection) or "minimum degree"."""
+        it is; otherwise PARDISO finds one: ``order`` "metis" (nested dissection) or "minimum degree".
+        ``threads``: MKL threads for every phase of this solver."""
+        self.threads = max(1, int(threads))
         import pypardiso
         from pypardiso.pardiso_wrapper import PyPardisoError
 
@@ -440,7 +445,8 @@ class _Pardiso:
         self._A: sp.csr_matrix | None = None
 
     def _one_thread(self):
-        return self._controller.limit(limits=1, user_api="blas")
+        """MKL on this solver's threads (one, unless it was made for more)."""
+        return self._controller.limit(limits=self.threads, user_api="blas")
 
     def _release(self) -> None:
         """Free MKL's memory for this solver (factor and analysis); the next ``factor`` analyses again."""
@@ -544,7 +550,8 @@ class LinearSolver:
       "multifrontal" with a grid of at least ``MULTIFRONTAL_MIN_DOFS`` dofs, else "superlu".
     """
 
-    def __init__(self, K: sp.spmatrix, free: np.ndarray, grid: Grid | None = None, backend: str = "auto"):
+    def __init__(self, K: sp.spmatrix, free: np.ndarray, grid: Grid | None = None, backend: str = "auto",
+                 threads: int = 1):
         if backend not in ("auto", "multifrontal", "superlu", "pardiso"):
             raise ValueError(f"unknown solver backend {backend!r}")
         if backend == "multifrontal" and grid is None:
@@ -558,6 +565,8 @@ class LinearSolver:
         if free_idx.size == 0:
             raise LacunaError("every degree of freedom is held by a support: there is nothing to solve.")
         self.n = n
+        # MKL threads of a PARDISO solver, fixed for its life (``_Pardiso``); the other backends run on one
+        self.threads = 1
         # what a refactor must keep: the pattern and the free dofs (SharedSolver compares them)
         self.free_idx = np.sort(free_idx)
         self.pattern = (K.indptr, K.indices)
@@ -600,7 +609,8 @@ class LinearSolver:
             # PARDISO's symmetric positive definite mode reads the upper triangle row by row: that is the CSC
             # lower triangle read as CSR (K is symmetric), so no transpose is needed.
             sub = sp.tril(sub, format="csc")
-            self._pardiso = _Pardiso(ordered=grid is not None)
+            self.threads = max(1, int(threads))
+            self._pardiso = _Pardiso(ordered=grid is not None, threads=self.threads)
         sub.sort_indices()
         self._take = sub.data.astype(np.int64) - 1
         self._indices = sub.indices
@@ -702,20 +712,23 @@ class SharedSolver:
             held = self._assembler = Assembler(grid)
         return held
 
-    def factor(self, K: sp.spmatrix, free: np.ndarray, grid: Grid | None = None) -> LinearSolver:
-        """A solver holding the factorisation of ``K`` on the ``free`` dofs (bool mask or dof numbers)."""
+    def factor(self, K: sp.spmatrix, free: np.ndarray, grid: Grid | None = None, threads: int = 1) -> LinearSolver:
+        """A solver holding the factorisation of ``K`` on the ``free`` dofs (bool mask or dof numbers), on
+        ``threads`` MKL threads (PARDISO; the held solver is refactored only when made for as many)."""
         K = sorted_csc(K)
         free = np.asarray(free)
         free_idx = np.flatnonzero(free) if free.dtype == bool else np.sort(np.asarray(free, dtype=np.int64))
         old = self.solver
+        wanted = max(1, int(threads))
         if (old is not None and grid is not None and old.n == K.shape[0] and np.array_equal(old.free_idx, free_idx)
-                and np.array_equal(old.pattern[0], K.indptr) and np.array_equal(old.pattern[1], K.indices)):
+                and np.array_equal(old.pattern[0], K.indptr) and np.array_equal(old.pattern[1], K.indices)
+                and old.threads == (wanted if old.backend == "pardiso" else 1)):
             old.refactor(K)
             self.refactored += 1
             return old
         self.solver = None  # the old factor goes before the new one is made
         old = None
-        self.solver = LinearSolver(K, free_idx, grid=grid, backend=self.backend)
+        self.solver = LinearSolver(K, free_idx, grid=grid, backend=self.backend, threads=wanted)
         self.built += 1
         return self.solver
 
