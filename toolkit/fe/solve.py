@@ -341,6 +341,11 @@ def sorted_csc(K: sp.spmatrix) -> sp.csc_matrix:
     return K if K.has_sorted_indices else K.sorted_indices()
 
 
+def _values(K) -> np.ndarray:
+    """The values of K (sparse: in sorted CSC order) or K itself as an array of them."""
+    return sorted_csc(K).data if sp.issparse(K) else np.asarray(K)
+
+
 def pardiso_available() -> bool:
     """True where the optional MKL PARDISO binding (package pypardiso, x86_64 only) loads."""
     try:
@@ -625,8 +630,8 @@ class LinearSolver:
         factorisation saved a job, 0.07 s at 300 x 100 elements, 7 s at a million). Those values are held until
         the first refactor only: at a million elements they are 0.29 GB, held through the optimiser's set-up,
         where the job's peak falls (6.21 -> 6.49 GB measured; the 10 minutes there are the tighter target)."""
-        data = sorted_csc(K).data if sp.issparse(K) else np.asarray(K)
-        self._made_with, first = None, getattr(self, "_made_with", None)
+        data = _values(K)
+        self._made_with, first = None, self._made_with
         # The same array (or a view of it) may have been changed in place since: only another array is compared.
         if first is not None and not np.may_share_memory(first, data) and np.array_equal(first, data):
             return
@@ -634,7 +639,7 @@ class LinearSolver:
 
     def _made(self, K: sp.spmatrix) -> None:
         """The factorisation at construction; its values are held for the first ``refactor``."""
-        data = sorted_csc(K).data if sp.issparse(K) else np.asarray(K)
+        data = _values(K)
         self._factor_data(data)
         self._made_with = data
 

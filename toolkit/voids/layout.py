@@ -1083,13 +1083,12 @@ def _choose_layout(options: list[list[Draft]], score) -> list[Draft]:
 # --- the whole step ---------------------------------------------------------------------------------------
 
 
-def _seeds(freeform, mirror: Mirror, r: Resolved, at=None):
+def _seeds(freeform, mirror: Mirror, r: Resolved, at: Callable[[tuple], str]):
     """The freeform voids to fit: as given, or, in a symmetric layout, folded onto the lower-left side.
 
     Returns the kept voids (``clean``), the mid-lines each stands on (by index), and the notes (points in them
     in words by ``at``, as ``clean`` takes it).
     """
-    at = at if at is not None else (lambda xy: f"({xy[0]:.0f}, {xy[1]:.0f})")
     if not mirror.axes:
         kept, notes = clean(freeform, r.min_void_mm, at=at)
         return kept, {}, notes

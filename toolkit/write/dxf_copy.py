@@ -25,13 +25,12 @@ from ezdxf.document import Drawing as DxfDocument
 from ezdxf.lldxf import const, validator
 
 from ..errors import LacunaError
-from ..model import Frame, Void
+from ..model import Frame, Void, lengths_in_unit
 from ..units import mm_per
 from .dxf_file import dxf_version_code, serialise
 from .layers import CENTRE, CHECK, DASH_MM, DASHED, DIM, FREEFORM, GAP_MM, LOOKS, NOTE, OUR_LAYERS, VOID_LAYERS
 from .ordinates import decimals, ordinate_features, ordinate_text, spread
-from .shapes import (Marker, as_marker, check_void, freeform_rings, schedule_decimals, short_number,
-                     tool_in_unit)
+from .shapes import Marker, as_marker, check_void, freeform_rings, schedule_decimals, short_number
 
 
 @dataclass
@@ -412,7 +411,7 @@ def _schedule_rows(voids: list[Void], frame: Frame) -> list[list[str]]:
         cx, cy = frame.to_drawing(np.asarray(v.centre, dtype=float))
         rows.append([
             v.id, v.family, f"{cx:.{d}f}", f"{cy:.{d}f}", short_number(frame.length_to_drawing(v.size_mm)),
-            tool_in_unit(v.tool, frame) if v.tool else "-", short_number(v.area_mm2 / frame.mm_per_unit ** 2),
+            lengths_in_unit(v.tool, frame) if v.tool else "-", short_number(v.area_mm2 / frame.mm_per_unit ** 2),
         ])
     return rows
 

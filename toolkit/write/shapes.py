@@ -11,7 +11,7 @@ import numpy as np
 from shapely.geometry import MultiPolygon, Polygon
 
 from ..errors import LacunaError
-from ..model import Point, Void, lengths_in_unit
+from ..model import Point, Void
 from .layers import VOID_LAYERS
 
 
@@ -120,8 +120,3 @@ def _two_figures(measured: float, required: float) -> tuple[str, str]:
         if a != b:
             break
     return a, b
-
-
-def tool_in_unit(tool: str, frame) -> str:
-    """The schedule's tool words with their lengths in the drawing's unit (``lengths_in_unit``)."""
-    return lengths_in_unit(tool, frame)

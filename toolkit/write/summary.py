@@ -10,7 +10,6 @@ import numpy as np
 from ..about import CAUTION, __version__
 from ..edge_stress import edge_json
 from ..model import Drawing, Panel, lengths_in_unit
-from .shapes import tool_in_unit
 
 if TYPE_CHECKING:
     from ..analysis import Analysis
@@ -88,7 +87,7 @@ def _void_json(panel: Panel, void) -> dict:
         "length": f.length_to_drawing(void.length_mm),
         "angle_deg": (void.angle_deg + f.angle_deg) % (360.0 / void.sides if void.regular else 360.0),
         "area": void.area_mm2 / f.mm_per_unit**2,
-        "tool": tool_in_unit(void.tool, f),
+        "tool": lengths_in_unit(void.tool, f),
     }
     if void.family == "polygon":
         out["regular"] = bool(void.regular)
