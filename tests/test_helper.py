@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import time
 from concurrent.futures import Future
+from dataclasses import replace
 
 import numpy as np
 import pytest
@@ -221,7 +222,7 @@ def test_the_freeform_re_analysis_goes_to_the_helper_only_where_the_free_memory_
     # it is sent only while the memory free then holds an analysis of the grid (limits' estimate).
     from toolkit import limits
     from toolkit.fe.grid import Grid
-    from toolkit.pipeline import room_for_analysis_elsewhere
+    from toolkit.helper import room_for_analysis_elsewhere
 
     grid = Grid(300, 100, 10.0, 10.0)
     need = limits.peak_memory_bytes(300, 100, 10.0, 10.0, stage="analysis")
@@ -251,3 +252,74 @@ def test_a_layout_made_largest_first_in_the_helper_is_the_one_made_here(ready_he
     assert any(n.startswith("the voids are fitted largest first") for n in alone.notes)
     assert [repr(v) for v in shared.voids] == [repr(v) for v in alone.voids]
     assert shared.notes == alone.notes and shared.layouts == alone.layouts
+
+
+def _honeycomb_cases():
+    """Two jobs of our own whose honeycomb over the region is laid and analysed: a glulam beam with bores, where it
+    is taken (tests/test_voids_layout.py), and the half-MBB steel plate with hexagons, where it is not."""
+    from panels import half_mbb_plate
+    from test_voids_layout import _glulam_case
+    from toolkit import pipeline
+
+    for panel, job in (_glulam_case("bore"), half_mbb_plate()):
+        run = pipeline.optimize_panel(panel, job)
+        options = replace(job.voids, optimize_symmetry=job.optimize.symmetry)
+        yield run, panel, options, (run.solid.grid, pipeline.strain_energy_density(run.solid, panel))
+
+
+@pytest.mark.parametrize("process", [True, False], ids=["helper process", "stand-in"])
+def test_the_honeycomb_weighed_in_the_helper_gives_the_layout_made_here(process, request, monkeypatch):
+    # The honeycomb over the region is laid, placed and cut down to the stiffness cap in the helper while this
+    # process shapes the first fit as if it were not taken; where it is taken that work is done again from it.
+    # Either way the layout, the notes and the analyses counted are those of the run without a helper.
+    helper = request.getfixturevalue("ready_helper") if process else _Stand_in()
+    sent = []
+    submit = helper.submit
+
+    def recording(fn, *args):
+        future = submit(fn, *args)
+        sent.append((fn.__name__, future))
+        return future
+
+    monkeypatch.setattr(helper, "submit", recording)
+    taken = []
+    for run, panel, options, energy in _honeycomb_cases():
+        alone = rationalise(panel, list(run.freeform), options, run.rules, energy=energy)
+        sent.clear()
+        shared = rationalise(panel, list(run.freeform), options, run.rules, energy=energy, helper=helper)
+        weighed = [f.result() for name, f in sent if name == "honeycomb_elsewhere"]
+        assert len(weighed) == 1 and weighed[0][1] is not None and weighed[0][2] >= 1  # analysed there
+        assert [repr(v) for v in shared.voids] == [repr(v) for v in alone.voids]
+        assert shared.notes == alone.notes and shared.layouts == alone.layouts
+        assert shared.shape.analyses == alone.shape.analyses
+        assert shared.shape.compliance_Nmm == alone.shape.compliance_Nmm
+        taken.append(any(n.startswith("the voids are laid as a honeycomb") for n in alone.notes))
+    assert taken == [True, False]  # both paths were taken
+
+
+def test_the_evaluator_made_ahead_in_the_helper_serves_the_honeycomb_and_answers_as_a_new_one(monkeypatch):
+    # While the optimiser runs, the helper makes the voids' stage's second Evaluator (layout.warm_evaluator); the
+    # honeycomb weighed there then uses it, its analyses refactors of its solver: the layout of the run without a
+    # helper. Made for another panel it is not used.
+    from toolkit.voids import layout as L
+    from toolkit.voids import shape as S
+
+    run, panel, options, energy = next(_honeycomb_cases())
+    alone = rationalise(panel, list(run.freeform), options, run.rules, energy=energy)
+    made = []
+    init = S.Evaluator.__init__
+
+    def counting(self, *args, **kwargs):
+        made.append(1)
+        init(self, *args, **kwargs)
+
+    monkeypatch.setattr(S.Evaluator, "__init__", counting)
+    g = energy[0]
+    for other, used in ((None, True), (10.0, False)):
+        target = panel if other is None else replace(panel, thickness_mm=other)
+        assert L.warm_evaluator(target, g.nx, g.ny, g.dx, g.dy, "auto") and len(L._WARM) == 1
+        made.clear()
+        shared = rationalise(panel, list(run.freeform), options, run.rules, energy=energy, helper=_Stand_in())
+        assert not L._WARM  # taken, or dropped when made for another panel
+        assert len(made) == (1 if used else 2)  # the job's own Evaluator, and the helper's where not made ahead
+        assert [repr(v) for v in shared.voids] == [repr(v) for v in alone.voids] and shared.notes == alone.notes

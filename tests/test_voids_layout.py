@@ -264,12 +264,11 @@ def test_mixed_picks_the_family_that_removes_idle_material():
     assert res.voids and hot(res.voids) < hot(plain.voids)
 
 
-def _glulam_beam(family: str):
+def _glulam_case(family: str):
     """The whole job on a glulam beam of our own: 3000 x 600 x 100 mm, pin + roller, 6 kN/m on top, timber-bored
-    with a 60 mm web and edge cover, voids of ``family``; a 50 mm grid keeps it to a second or two."""
+    with a 60 mm web and edge cover, voids of ``family``: (panel, job)."""
     from toolkit.jobfile import parse_job
     from toolkit.model import LineLoad
-    from toolkit.pipeline import optimize_panel
 
     panel = Panel(width_mm=3000, height_mm=600, thickness_mm=100, element_size_mm=50,
                   material=Material(E_MPa=11000, nu=0.3),
@@ -278,7 +277,14 @@ def _glulam_beam(family: str):
     job = parse_job(f'units = "mm"\n[optimize]\nvolume_fraction = 0.5\nfilter_radius = 150\n[voids]\n'
                     f'family = "{family}"\n[rules]\nprofile = "timber-bored"\nmin_web = 60\nedge_cover = 60\n'
                     'bearing_clearance = 150\n')
-    return optimize_panel(panel, job)
+    return panel, job
+
+
+def _glulam_beam(family: str):
+    """The whole job on the glulam beam of ``_glulam_case``; a 50 mm grid keeps it to a second or two."""
+    from toolkit.pipeline import optimize_panel
+
+    return optimize_panel(*_glulam_case(family))
 
 
 def test_every_void_gets_its_own_id_when_a_honeycomb_layout_is_filled_further():

@@ -23,13 +23,15 @@ from .fe.solve import SharedSolver
 from .jobfile import Job
 from .limits import check_memory
 from .model import Panel, Region, Rules, Void
-from .helper import Helper, result_or
+from .helper import Helper, analysis_fits_elsewhere, result_or
 from .overlap import Overlap, own
 from .optimize import BesoResult, OptimizeSettings, ZoneSettings, build_problem, run_beso
+from .optimize.beso import TWO_THREADS_FROM
 from .rules.check import impossible_rules
 from .rules.profiles import rules_for
 from .voids.extract import freeform_voids
-from .voids.layout import Rationalised, first_fit_area, rationalise, refuse_impossible, resolve_settings
+from .voids.layout import (Rationalised, first_fit_area, rationalise, refuse_impossible, resolve_settings,
+                           warm_evaluator)
 
 G_M_S2 = 9.81
 
@@ -293,7 +295,24 @@ def _to_voids(panel: Panel, job: Job, rules: Rules, settings, void_region, void_
         void_region=void_region,
     )
     problem = build_problem(panel, zones)
-    beso = run_beso(problem, settings, on_iteration=on_iteration, keep_every=keep_every, shared=shared)
+    warm = []
+
+    def iteration(it: int, compliance: float, volume: float) -> None:
+        # Once the helper answers (its imports done), it makes the voids' stage's second Evaluator while its core
+        # is idle (``voids.layout.warm_evaluator``), where an analysis fits there; not where the optimiser runs on
+        # two threads (it would take the second core from it).
+        if not warm and side.ready:
+            g = solid.grid
+            warm.append(g.n_elements < TWO_THREADS_FROM and analysis_fits_elsewhere(g))
+            if warm[0]:
+                try:
+                    side.submit(warm_evaluator, panel, g.nx, g.ny, g.dx, g.dy, shared.backend)
+                except Exception:  # noqa: BLE001 - a broken helper: the voids' stage makes its own
+                    pass
+        if on_iteration is not None:
+            on_iteration(it, compliance, volume)
+
+    beso = run_beso(problem, settings, on_iteration=iteration, keep_every=keep_every, shared=shared)
     lap("optimisation")
     openings = shapely.union_all([o.shape for o in panel.openings]) if panel.openings else None
     freeform = tuple(freeform_voids(problem.grid, beso.densities, exclude=openings))
@@ -309,7 +328,7 @@ def _to_voids(panel: Panel, job: Job, rules: Rules, settings, void_region, void_
         # make for a layout of these sizes (a missing one is made in the checks).
         if side.ready:
             g = solid.grid
-            if g.n_elements <= HELPER_ANALYSIS_MAX_ELEMENTS and room_for_analysis_elsewhere(g):
+            if FREEFORM_AHEAD not in early and analysis_fits_elsewhere(g):
                 early[FREEFORM_AHEAD] = side.submit(analysis_elsewhere, with_freeform(panel, freeform, g), g.nx, g.ny,
                                                     g.dx, g.dy)
             for trial in limit_trials(rules, void_options, sizes):
@@ -340,21 +359,10 @@ def timed(stage: str, timings: dict, fn, *args, **kwargs):
 HELPER_MIN_ELEMENTS = 20_000
 
 
-# The freeform layout's re-analysis needs only the optimiser's outlines: where the helper is ready it is made there
-# while the voids are shaped (``early[FREEFORM_AHEAD]``), for grids of at most this many elements. The helper then
-# holds a factor of the grid beside the job's own, which at 600 x 200 elements is 0.3 GB against the job's 0.9 GB
-# peak; at a million elements it would be gigabytes more, and the re-analysis stays in the checks. It stays there
-# too where the memory free when it would be sent does not hold it (``room_for_analysis_elsewhere``).
-HELPER_ANALYSIS_MAX_ELEMENTS = 300_000
+# The freeform layout's re-analysis needs only the optimiser's outlines: where the helper is ready and an analysis
+# fits there (``helper.analysis_fits_elsewhere``) it is made there while the voids are shaped
+# (``early[FREEFORM_AHEAD]``); elsewhere it stays in the checks.
 FREEFORM_AHEAD = "freeform re-analysis"
-
-
-def room_for_analysis_elsewhere(grid: Grid) -> bool:
-    """Whether the memory free now (this process's own already taken) holds the helper's analysis of ``grid``
-    (``limits.peak_memory_bytes``, an analysis; the job's own check counted this process alone)."""
-    from .limits import available_memory_bytes, peak_memory_bytes
-
-    return available_memory_bytes() >= peak_memory_bytes(grid.nx, grid.ny, grid.dx, grid.dy, stage="analysis")
 
 
 def analysis_elsewhere(panel: Panel, nx: int, ny: int, dx: float, dy: float) -> Analysis:

@@ -27,7 +27,9 @@ Ids are "V1", "V2", ... in order of the final centres, left to right and, for eq
 
 from __future__ import annotations
 
+import hashlib
 import math
+import pickle
 from dataclasses import dataclass, replace
 from typing import Callable
 
@@ -37,7 +39,7 @@ from shapely.geometry import Polygon
 
 from ..errors import LacunaError
 from ..fe.boundary import where_text
-from ..helper import result_or, share_out
+from ..helper import analysis_fits_elsewhere, result_or, share_out
 from ..model import Panel, Rules, Void
 from ..rules import check as rule_check
 from .cover import (hex_cells, hull_ngon, inscribed_circle, inscribed_slot, largest_part, major_axis_deg,
@@ -1080,6 +1082,114 @@ def _choose_layout(options: list[list[Draft]], score) -> list[Draft]:
     return max(options, key=lambda ds: (score(_removed(ds)), -len(ds)))
 
 
+@dataclass
+class _Stage:
+    """A layout the last stages start from: its drafts, change and drop records, (compliance, element energies)
+    where analysed, and the notes that came with it."""
+
+    placed: list
+    change_recs: list
+    drop_recs: list
+    first: tuple | None
+    notes: tuple = ()
+
+
+@dataclass
+class _Done:
+    """What the last stages made of a ``_Stage`` (``rationalise``'s ``finish``)."""
+
+    placed: list
+    change_recs: list
+    notes: list
+    dropped: list
+    kinds: dict
+    first_fit_mm2: float
+    shaped: object
+
+
+def honeycomb_within_cap(allowed, families, r: Resolved, score, bound, openings, site: Site, evaluate, cap: float,
+                         c_fit: float, area_fit: float, helper=None):
+    """The honeycomb over the region open to voids (``_lattice_of``), placed, and where it could be taken (it
+    removes clearly more than the first fit, LATTICE_GAIN, or the first fit is softer than ``cap``) cut down to
+    the cap: (``place``'s answer or None, ``_within_cap``'s answer or None where it was not analysed)."""
+    grid_drafts = _lattice_of(allowed, families, r, score, openings=openings, bound=bound, helper=helper)
+    other = place(grid_drafts, site, r) if grid_drafts else None
+    if other is None or not other[0] or not (
+            c_fit > cap or sum(d.shape().area for d in other[0]) > LATTICE_GAIN * area_fit):
+        return other, None
+    return other, _within_cap(other[0], evaluate, cap, floor_mm2=LATTICE_GAIN * area_fit if c_fit <= cap else 0.0,
+                              fits=lambda t, i, s: site.fits(t, i, s, move=False))
+
+
+# In the helper process: the Evaluator made ahead for a job (``warm_evaluator``), by the digest of what it was made
+# from; one at a time.
+_WARM: dict = {}
+
+
+def _warm_key(panel: Panel, nx: int, ny: int, dx: float, dy: float, backend: str) -> str:
+    return hashlib.sha256(pickle.dumps((panel, nx, ny, dx, dy, backend))).hexdigest()
+
+
+def warm_evaluator(panel: Panel, nx: int, ny: int, dx: float, dy: float, backend: str) -> bool:
+    """Made in the helper process while the optimiser runs (its core is idle then): the Evaluator of the panel as
+    drawn, its solver analysed and factorised, kept for ``honeycomb_elsewhere`` (whose analyses are then refactors:
+    its set-up, 0.8 s of the helper's at 300 x 100 elements, is off the job's path)."""
+    from ..fe.grid import Grid
+    from ..fe.solve import SharedSolver
+    from .shape import Evaluator
+
+    _WARM.clear()
+    evaluate = Evaluator(panel, Grid(nx, ny, dx, dy), shared=SharedSolver(backend))
+    evaluate.shapes([])
+    evaluate.analyses = 0
+    _WARM[_warm_key(panel, nx, ny, dx, dy, backend)] = evaluate
+    return True
+
+
+def honeycomb_elsewhere(panel: Panel, nx: int, ny: int, dx: float, dy: float, backend: str, *args):
+    """``honeycomb_within_cap(*args)`` analysed on a solver of its own (the helper process runs it; on the one
+    ``warm_evaluator`` made where it did): its answer and the analyses it made. A solver's factor of a matrix is
+    the same to the bit whether made for it or refactored from another of the same pattern."""
+    from ..fe.grid import Grid
+    from ..fe.solve import SharedSolver
+    from .shape import Evaluator
+
+    evaluate = _WARM.pop(_warm_key(panel, nx, ny, dx, dy, backend), None)
+    _WARM.clear()
+    if evaluate is None:
+        evaluate = Evaluator(panel, Grid(nx, ny, dx, dy), shared=SharedSolver(backend))
+    other, within = honeycomb_within_cap(*args[:7], evaluate, *args[7:])
+    evaluate.shared.release()
+    return other, within, evaluate.analyses
+
+
+def _honeycomb_here(evaluate, args):
+    """``honeycomb_elsewhere``'s answer made in this process, on the job's ``evaluate``."""
+    before = evaluate.analyses
+    other, within = honeycomb_within_cap(*args[:7], evaluate, *args[7:])
+    return other, within, evaluate.analyses - before
+
+
+def _with_honeycomb(fitted: _Stage, honey, cap: float, c_fit: float, area_fit: float) -> _Stage | None:
+    """The honeycomb's stage where it is taken instead of the first fit ``fitted``, else None. The optimiser's own
+    topology is kept unless the honeycomb removes clearly more (LATTICE_GAIN) or the first fit is too soft."""
+    other, within = honey
+    if within is None:
+        return None
+    c_grid, lattice, e_grid = within
+    area_grid = sum(d.shape().area for d in lattice)
+    if not (c_grid <= cap and (c_fit > cap or area_grid > LATTICE_GAIN * area_fit)):
+        return None
+    note = (f"the voids are laid as a honeycomb over the region open to voids: under the web the rules ask it keeps "
+            f"more of the saving than voids fitted one by one to the optimiser's freeform voids ({area_grid:.0f} "
+            f"against {area_fit:.0f} mm2 removed, no softer than the freeform layout).")
+    keys = {(d.source, d.part): d for d in lattice}
+    change_recs = [c for c in other[1] if (c[0].source, c[0].part) in keys]
+    change_recs += [(d, f"made smaller, {_describe(d)}", "so that the honeycomb is no softer than the freeform "
+                     "layout") for d in lattice if d not in other[0]]
+    return _Stage(lattice, change_recs, other[2], (c_grid, e_grid), (note,))
+
+
 # --- the whole step ---------------------------------------------------------------------------------------
 
 
@@ -1146,11 +1256,13 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
     (``fe.solve.SharedSolver``), refactored where it fits. ``layouts``: {freeform void: (family, layout kind)},
     from another run's ``Rationalised.layouts``: each of those voids is fitted as that kind of layout
     alone (the others get the whole search), so a refit under other rules is a fraction of the search.
-    ``helper``: a ``helper.Helper`` whose process takes part of the fitting (the same layout as without it).
+    ``helper``: a ``helper.Helper`` whose process takes part of the fitting, and weighs the honeycomb over the
+    region (analyses on a solver of its own) while this process shapes the first fit (the same layout as without it).
     ``on_first_fit(layouts, sizes)``: told the first fit's choice of layout per void (``Rationalised.layouts``) and the
     sizes of its voids (the diameter of the smallest circle round each, mm) before the
     shape optimisation, so that a caller can start work that needs only that (the limiting rule's refits,
-    ``first_fit_area``) while the layout is shaped.
+    ``first_fit_area``) while the layout is shaped; told again, with the honeycomb's, where the honeycomb weighed in
+    the helper process is taken after all (the layout is then shaped again from it).
     """
     r = resolve_settings(settings, rules, panel.thickness_mm)
     region = rule_check.impossible_rules(panel, rules)  # raises, in words, when no void fits at all
@@ -1265,48 +1377,13 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
         return Rationalised(voids=(), changes=(), dropped=tuple(dropped), fit_errors=(), violations=(),
                             notes=tuple(notes), first_fit_mm2=first_fit_mm2,
                             layouts=tuple((i, f, kind) for i, (f, kind) in kinds.items()))
-    evaluate = cap = None
-    if grid is not None and kept and rho is not None:
-        from .shape import Evaluator
 
-        # A symmetric layout is analysed whole: each seed with its mirror images.
-        evaluate = Evaluator(panel, grid, orbit=mirror.orbit if mirror.axes else None, shared=shared)
-        # The made layout must be no softer than the freeform one it stands for, and the price of stiffness is
-        # where the optimiser stopped: the strain-energy density of the material left round its voids.
-        free_shapes = [v.shape for v in clean(freeform, 0.0)[0]] if mirror.axes else [v.shape for v in kept]
-        cap, e_free = evaluate.shapes(free_shapes)
-        rho = threshold_density(grid, e_free, free_shapes) or rho
-        score, bound = score.at(rho), bound.at(rho)  # the later stages' price
-        c_fit, e_fit = evaluate(placed)
-        first = (c_fit, e_fit)
-        # The honeycomb over the whole region is not laid symmetric: a symmetric layout keeps its own voids.
-        # ``mixed``: the families the fitted voids chose (all three when none was), one family per honeycomb.
-        lattice_families = (sorted({d.family for d in placed}) or list(families)[: r.max_types]) \
-            if r.family == "mixed" else [r.family]
-        grid_drafts = [] if mirror.axes else _lattice_of(allowed, lattice_families, r, score, openings=opening_shapes,
-                                                         bound=bound, helper=helper)
-        other = place(grid_drafts, site, r) if grid_drafts else None
-        area_fit = sum(d.shape().area for d in placed)
-        # The honeycomb is analysed only when it could be taken: it removes clearly more, or the fit is too soft.
-        if other is not None and other[0] and (
-                c_fit > cap or sum(d.shape().area for d in other[0]) > LATTICE_GAIN * area_fit):
-            c_grid, lattice, e_grid = _within_cap(other[0], evaluate, cap,
-                                                  floor_mm2=LATTICE_GAIN * area_fit if c_fit <= cap else 0.0,
-                                                  fits=lambda t, i, s: site.fits(t, i, s, move=False))
-            area_grid = sum(d.shape().area for d in lattice)
-            # The optimiser's own topology is kept unless the honeycomb removes clearly more (LATTICE_GAIN).
-            if c_grid <= cap and (c_fit > cap or area_grid > LATTICE_GAIN * area_fit):
-                notes.append(f"the voids are laid as a honeycomb over the region open to voids: under the web the "
-                             f"rules ask it keeps more of the saving than voids fitted one by one to the "
-                             f"optimiser's freeform voids ({area_grid:.0f} against {area_fit:.0f} mm2 removed, "
-                             "no softer than the freeform layout).")
-                keys = {(d.source, d.part): d for d in lattice}
-                change_recs = [c for c in other[1] if (c[0].source, c[0].part) in keys]
-                change_recs += [(d, f"made smaller, {_describe(d)}", "so that the honeycomb is no softer than the "
-                                 "freeform layout") for d in lattice if d not in other[0]]
-                placed, drop_recs = lattice, other[2]
-                first = (c_grid, e_grid)
-        if largest_wanted:
+    def finish(start: _Stage, evaluate, cap, free_shapes) -> _Done:
+        """From a first fit (or the honeycomb taken instead): the largest-first fit where it removes more, the
+        shape optimisation and the fill; nothing of the enclosing run changed but the helper's work handed on."""
+        placed, change_recs, drop_recs, first = start.placed, start.change_recs, start.drop_recs, start.first
+        notes_now, kinds_now, fit_mm2 = list(start.notes), dict(kinds), first_fit_mm2
+        if evaluate is not None and largest_wanted:
             # Largest first: fewer, larger voids, each keeping the web its size asks (``largest_first``), taken
             # where it removes clearly more (LARGEST_GAIN), no softer than the freeform layout, and costs no more
             # stiffness for it than the shape optimisation's growth may (GROW_RATE).
@@ -1319,36 +1396,88 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
                 worth_it = area_now <= 0.0 or \
                     (area_big - area_now) / area_now >= GROW_RATE * max(c_big - c_now, 0.0) / c_now
                 if c_big <= cap and worth_it:
-                    notes.append(f"the voids are fitted largest first, each keeping the web its size asks: fewer, "
-                                 f"larger voids keep more of the saving than every freeform void kept small "
-                                 f"({area_big:.0f} against {area_now:.0f} mm2 removed, no softer than the "
-                                 "freeform layout).")
+                    notes_now.append(f"the voids are fitted largest first, each keeping the web its size asks: "
+                                     f"fewer, larger voids keep more of the saving than every freeform void kept "
+                                     f"small ({area_big:.0f} against {area_now:.0f} mm2 removed, no softer than the "
+                                     "freeform layout).")
                     placed, change_recs, drop_recs, first = big, big_changes, big_drops, (c_big, e_big)
-                    first_fit_mm2 = site.area(big)
-                    kinds[-1] = (r.family, LARGEST_FIRST)  # the limiting rule's refits follow it
-    for source, reason in drop_recs:
-        dropped.append(f"{where(source)}: {reason}; dropped.")
-    if on_first_fit is not None:  # now: the helper is free again, and the shaping ahead is mostly analyses here
-        on_first_fit(tuple((i, f, kind) for i, (f, kind) in kinds.items()),
-                     [_extent(g) for d in placed for g in site.shapes(d)])
+                    fit_mm2 = site.area(big)
+                    kinds_now[-1] = (r.family, LARGEST_FIRST)  # the limiting rule's refits follow it
+        dropped_now = [f"{where(source)}: {reason}; dropped." for source, reason in drop_recs]
+        # now: the shaping ahead is mostly analyses here, and the helper takes this work after the honeycomb
+        if on_first_fit is not None:
+            on_first_fit(tuple((i, f, kind) for i, (f, kind) in kinds_now.items()),
+                         [_extent(g) for d in placed for g in site.shapes(d)])
+        shaped = None
+        if shape_steps and evaluate is not None and placed:
+            from .shape import optimise
 
-    shaped = None
-    if shape_steps and evaluate is not None and placed:
-        from .shape import optimise
+            def keeps(t, i, s):
+                return site.fits(t, i, s, move=False)
 
-        def keeps(t, i, s):
-            return site.fits(t, i, s, move=False)
+            shaped = optimise(placed, evaluate, keeps, rho=rho, target_area_mm2=sum(g.area for g in free_shapes),
+                              feature_mm=r.least_feature_mm, step_mm=max(grid.dx, grid.dy), steps=shape_steps,
+                              cap_Nmm=cap, first=first)
+            notes_now += list(shaped.notes)
+            placed = list(shaped.drafts)
+            if not mirror.axes:
+                placed, filled = _fill(placed, allowed, site, r, score, evaluate, cap, opening_shapes, bound, helper)
+                if filled:
+                    notes_now.append(f"{filled} more void(s) placed in the room the layout left, where the material "
+                                     "works least, the panel staying no softer than the freeform layout.")
+        return _Done(placed, change_recs, notes_now, dropped_now, kinds_now, fit_mm2, shaped)
 
-        shaped = optimise(placed, evaluate, keeps, rho=rho, target_area_mm2=sum(g.area for g in free_shapes),
-                          feature_mm=r.least_feature_mm, step_mm=max(grid.dx, grid.dy), steps=shape_steps,
-                          cap_Nmm=cap, first=first)
-        notes += list(shaped.notes)
-        placed = list(shaped.drafts)
-        if not mirror.axes:
-            placed, filled = _fill(placed, allowed, site, r, score, evaluate, cap, opening_shapes, bound, helper)
-            if filled:
-                notes.append(f"{filled} more void(s) placed in the room the layout left, where the material works "
-                             "least, the panel staying no softer than the freeform layout.")
+    if grid is not None and kept and rho is not None:
+        from .shape import Evaluator
+
+        # A symmetric layout is analysed whole: each seed with its mirror images.
+        evaluate = Evaluator(panel, grid, orbit=mirror.orbit if mirror.axes else None, shared=shared)
+        # The made layout must be no softer than the freeform one it stands for, and the price of stiffness is
+        # where the optimiser stopped: the strain-energy density of the material left round its voids.
+        free_shapes = [v.shape for v in clean(freeform, 0.0)[0]] if mirror.axes else [v.shape for v in kept]
+        cap, e_free = evaluate.shapes(free_shapes)
+        rho = threshold_density(grid, e_free, free_shapes) or rho
+        score, bound = score.at(rho), bound.at(rho)  # the later stages' price
+        c_fit, e_fit = evaluate(placed)
+        area_fit = sum(d.shape().area for d in placed)
+        fitted = _Stage(placed, change_recs, drop_recs, (c_fit, e_fit))
+        # The honeycomb over the whole region is not laid symmetric: a symmetric layout keeps its own voids.
+        # ``mixed``: the families the fitted voids chose (all three when none was), one family per honeycomb.
+        lattice_families = (sorted({d.family for d in placed}) or list(families)[: r.max_types]) \
+            if r.family == "mixed" else [r.family]
+        honey_args = (allowed, lattice_families, r, score, bound, opening_shapes, site, cap, c_fit, area_fit)
+        honey_ahead = None
+        if not mirror.axes and helper is not None and helper.ready and analysis_fits_elsewhere(grid):
+            # Laid, placed and cut down to the cap in the helper process while this one finishes the first fit's
+            # layout as if the honeycomb were not taken (what it usually is not); where it is, that work is done
+            # again from the honeycomb: the same layout as in sequence either way.
+            try:
+                honey_ahead = helper.submit(honeycomb_elsewhere, panel, grid.nx, grid.ny, grid.dx, grid.dy,
+                                            evaluate.shared.backend, *honey_args)
+            except Exception:  # noqa: BLE001 - a broken helper: made here below
+                honey_ahead = None
+        analyses_before = evaluate.analyses
+        if honey_ahead is None:
+            honey = honeycomb_within_cap(*honey_args[:-3], evaluate, *honey_args[-3:], helper=helper) \
+                if not mirror.axes else (None, None)
+            start = _with_honeycomb(fitted, honey, cap, c_fit, area_fit) or fitted
+            done = finish(start, evaluate, cap, free_shapes)
+        else:
+            done = finish(fitted, evaluate, cap, free_shapes)
+            honey = result_or(honey_ahead, _honeycomb_here, evaluate, honey_args)
+            honey, honey_analyses = honey[:2], honey[2]
+            taken = _with_honeycomb(fitted, honey, cap, c_fit, area_fit)
+            if taken is not None:  # redone from the honeycomb, the analyses counted as in sequence
+                evaluate.analyses = analyses_before + honey_analyses
+                done = finish(taken, evaluate, cap, free_shapes)
+            elif done.shaped is not None:
+                done = replace(done, shaped=replace(done.shaped, analyses=done.shaped.analyses + honey_analyses))
+    else:
+        done = finish(_Stage(placed, change_recs, drop_recs, None), None, None, [])
+    placed, change_recs, shaped = done.placed, done.change_recs, done.shaped
+    notes += done.notes
+    dropped += done.dropped
+    kinds, first_fit_mm2 = done.kinds, done.first_fit_mm2
 
     stock = {"bore": r.bore_diameters_mm, "slot": r.slot_widths_mm}
     before = list(placed)
