@@ -264,14 +264,22 @@ def carve(region, pts: np.ndarray, rounds: int = 8) -> np.ndarray | None:
     directions = _FAN
     boundary = region.boundary
     for _ in range(rounds):
+        q_area = Q.area
         outside = shapely.difference(Q, region)
-        if outside.is_empty or outside.area <= 1e-6 * Q.area:
+        if outside.is_empty or outside.area <= 1e-6 * q_area:
             break
         # the largest piece (equal ones told apart by where they stand), its ring from its lowest-left corner:
         # neither may follow where GEOS happened to start a ring
-        piece = max(shapely.get_parts(outside), key=lambda g: (round(g.area / Q.area, 9), _place(g.centroid.coords[0])))
+        parts = shapely.get_parts(outside)
+        if len(parts) == 1:
+            piece = parts[0]
+        else:
+            areas = shapely.area(parts).tolist()
+            centres = shapely.get_coordinates(shapely.centroid(parts))
+            piece = parts[max(range(len(parts)), key=lambda j: (round(areas[j] / q_area, 9), _place(centres[j])))]
         corners = shapely.get_coordinates(piece)[:-1]
-        corners = np.roll(corners, -min(range(len(corners)), key=lambda j: _place(corners[j])), axis=0)
+        at = [(round(x, 3), round(y, 3)) for x, y in corners.tolist()]  # _place of each corner
+        corners = np.roll(corners, -min(range(len(at)), key=at.__getitem__), axis=0)
         # The cut goes through a point where the region's edge enters the polygon: corners of the outside piece
         # on the region's boundary (at most CUT_CORNERS, evenly taken).
         on_edge = corners[shapely.dwithin(boundary, shapely.points(corners), 1e-6 * math.sqrt(Q.area))]
