@@ -351,6 +351,7 @@ def test_the_optimiser_runs_on_two_threads_from_its_size_on(monkeypatch):
                       design=np.ones(g.n_elements, bool))
     settings = OptimizeSettings(volume_fraction=0.5, max_iterations=200)
     runs = {}
+    monkeypatch.setattr(beso, "side_threads", lambda: 2)  # two threads allowed, whatever this machine has
     for frm in (10**9, g.n_elements):
         monkeypatch.setattr(beso, "TWO_THREADS_FROM", frm)
         shared = SharedSolver()  # "auto", as the optimiser's: PARDISO where it loads
@@ -359,3 +360,21 @@ def test_the_optimiser_runs_on_two_threads_from_its_size_on(monkeypatch):
     one, two = runs[10**9], runs[g.n_elements]
     assert np.array_equal(one.densities, two.densities)
     np.testing.assert_allclose(two.compliance_Nmm, one.compliance_Nmm, rtol=1e-9)
+    # One thread allowed (one core, or LACUNA_THREADS=1): one thread at any size.
+    monkeypatch.setattr(beso, "side_threads", lambda: 1)
+    shared = SharedSolver()
+    beso.run_beso(problem, settings, shared=shared)
+    assert shared.solver.threads == 1
+
+
+def test_the_optimiser_takes_one_thread_where_lacuna_threads_says_one(monkeypatch):
+    # A host that keeps lacuna on its calling thread, and every Dask worker of `lacuna batch`, set LACUNA_THREADS=1:
+    # the optimiser's solver then keeps to one MKL thread at every size.
+    from toolkit.optimize import beso
+    from toolkit.overlap import side_threads
+
+    monkeypatch.setenv("LACUNA_THREADS", "1")
+    assert beso.optimiser_threads(10**7) == 1 and beso.optimiser_threads(100) == 1
+    monkeypatch.setenv("LACUNA_THREADS", "2")
+    assert beso.optimiser_threads(100) == 1
+    assert beso.optimiser_threads(10**7) == (2 if side_threads() >= 2 else 1)

@@ -26,7 +26,7 @@ from .model import Panel, Region, Rules, Void
 from .helper import Helper, analysis_fits_elsewhere, result_or
 from .overlap import Overlap, own
 from .optimize import BesoResult, OptimizeSettings, ZoneSettings, build_problem, run_beso
-from .optimize.beso import TWO_THREADS_FROM
+from .optimize.beso import optimiser_threads
 from .rules.check import impossible_rules
 from .rules.profiles import rules_for
 from .voids.extract import freeform_voids
@@ -303,7 +303,7 @@ def _to_voids(panel: Panel, job: Job, rules: Rules, settings, void_region, void_
         # two threads (it would take the second core from it).
         if not warm and side.ready:
             g = solid.grid
-            warm.append(g.n_elements < TWO_THREADS_FROM and analysis_fits_elsewhere(g))
+            warm.append(optimiser_threads(g.n_elements) == 1 and analysis_fits_elsewhere(g))
             if warm[0]:
                 try:
                     side.submit(warm_evaluator, panel, g.nx, g.ny, g.dx, g.dy, shared.backend)

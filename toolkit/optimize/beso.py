@@ -30,6 +30,7 @@ import numpy as np
 
 from ..errors import LacunaError
 from ..fe.solve import SharedSolver
+from ..overlap import side_threads
 from .filters import SensitivityFilter
 from .problem import Problem, check_problem
 from .settings import OptimizeSettings
@@ -43,8 +44,16 @@ from .update import has_converged, next_volume, update_design
 # bit; no faster at 300 x 100, so smaller grids (every test's) keep the job's one-thread solver. Two threads are
 # not one to the bit in general (5e-7 apart where void elements carry random loads), so a design above this size
 # may differ in its last digits from one made on one thread. The job's helper process is idle while the optimiser
-# runs; the stages after it go back to one thread (another solver).
+# runs; the stages after it go back to one thread (another solver). Not where the process may take one thread
+# only (one core, or ``LACUNA_THREADS=1``: a host that keeps lacuna on its calling thread, a Dask worker of
+# ``lacuna batch``, which takes a core per panel): there a large design may differ in its last digits from the one
+# ``lacuna optimize`` makes on the same machine.
 TWO_THREADS_FROM = 100_000
+
+
+def optimiser_threads(n_elements: int) -> int:
+    """MKL threads of the optimiser's solver for a grid of ``n_elements`` (see ``TWO_THREADS_FROM``)."""
+    return 2 if n_elements >= TWO_THREADS_FROM and side_threads() >= 2 else 1
 
 
 @dataclass(frozen=True, eq=False)
@@ -167,7 +176,7 @@ def run_beso(
     for it in range(settings.max_iterations):
         K = assembler.matrix(ke, base * x**p)
         if solver is None:
-            solver = shared.factor(K, free, g, threads=2 if g.n_elements >= TWO_THREADS_FROM else 1)
+            solver = shared.factor(K, free, g, threads=optimiser_threads(g.n_elements))
         else:
             solver.refactor(K)
         U = solver.solve(F)
