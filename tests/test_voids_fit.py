@@ -113,3 +113,17 @@ def test_bad_sides_names_the_key():
     with pytest.raises(LacunaError) as err:
         fit_polygon(Point(0, 0).buffer(10), 13)
     assert err.value.where == "[voids] sides" and err.value.hint
+
+
+def test_a_slot_without_travel_is_scheduled_as_a_round_hole():
+    # A slot as long as it is wide is a round hole: the schedule's tool text says so instead of "50 mm, 50 mm long".
+    from toolkit.voids.outline import Draft
+
+    tools = ("cut", "cut slot", "cut hole")
+    plunged = Draft(family="slot", centre=(100.0, 80.0), size=50.0, length=50.0, angle_deg=117.8, source=0,
+                    tools=tools)
+    routed = Draft(family="slot", centre=(100.0, 80.0), size=50.0, length=75.0, angle_deg=117.8, source=1,
+                   tools=tools)
+    assert plunged.void("V1").tool == "cut slot 50 mm, as long as it is wide (a round hole)"
+    assert routed.void("V2").tool == "cut slot 50 mm, 75 mm long"
+    assert plunged.void("V1").shape.area == pytest.approx(math.pi * 25.0**2, rel=2e-3)

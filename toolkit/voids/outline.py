@@ -189,9 +189,12 @@ class Draft:
                         outline=outline, sides=n, length_mm=extent, angle_deg=angle, tool=tool,
                         corners=corners, regular=self.regular)
         if self.family == "slot":
+            # A slot no longer than it is wide (to the half millimetre its length is written to) has no travel:
+            # the cutter or former makes a round hole, and the schedule says so rather than "50 mm, 50 mm long".
+            travel = f"{self.length:.0f} mm long" if self.length - self.size >= 0.5 else \
+                "as long as it is wide (a round hole)"
             return Void(id=id, family="slot", centre=self.centre, size_mm=self.size, shape=shape, outline=outline,
-                        length_mm=self.length, angle_deg=self.angle_deg,
-                        tool=f"{slot_tool} {self.size:g} mm, {self.length:.0f} mm long")
+                        length_mm=self.length, angle_deg=self.angle_deg, tool=f"{slot_tool} {self.size:g} mm, {travel}")
         return Void(id=id, family="bore", centre=self.centre, size_mm=self.size, shape=shape, outline=(),
                     tool=f"{bore_tool} {self.size:g} mm")
 
