@@ -192,3 +192,32 @@ def test_a_growth_step_is_kept_only_when_its_material_is_worth_its_stiffness():
     # either side of the threshold: 10 % more compliance asks for 1 % more material
     assert _worth_growing(before, 24463.3 * 1.1, 1976002.5 * 1.0101)
     assert not _worth_growing(before, 24463.3 * 1.1, 1976002.5 * 1.0099)
+
+
+def test_the_voids_stage_analyses_on_the_optimisers_threads_only_where_the_helper_weighs_nothing(monkeypatch):
+    # Above the size the helper process analyses (helper.ANALYSIS_MAX_ELEMENTS) the voids' stage takes the
+    # optimiser's MKL threads (two on large grids) and refactors its solver; at or below it one thread, as the
+    # honeycomb weighed in the helper is, so both give the same bits; one wherever the process may take one.
+    from toolkit.fe.solve import SharedSolver, pardiso_available
+    from toolkit.optimize import beso
+    from toolkit.voids import layout as L
+
+    monkeypatch.setattr(beso, "side_threads", lambda: 2)
+    assert L.analysis_threads(L.ANALYSIS_MAX_ELEMENTS) == 1
+    assert L.analysis_threads(L.ANALYSIS_MAX_ELEMENTS + 1) == beso.optimiser_threads(L.ANALYSIS_MAX_ELEMENTS + 1) == 2
+    monkeypatch.setattr(beso, "side_threads", lambda: 1)
+    assert L.analysis_threads(10**7) == 1
+    if not pardiso_available():
+        return
+    # The Evaluator asks the job's solver for its threads: the optimiser's two-thread solver is refactored.
+    grid = make_grid(PANEL.width_mm, PANEL.height_mm, PANEL.element_size_mm)
+    shared = SharedSolver()
+    one = Evaluator(PANEL, grid, shared=shared)
+    c1, _ = one([DRAFTS["bore"]])
+    held = one.solver
+    two = Evaluator(PANEL, grid, shared=shared, threads=2)
+    c2, _ = two([DRAFTS["bore"]])
+    assert two.solver.threads == 2 and shared.built == 2
+    again = Evaluator(PANEL, grid, shared=shared, threads=2)
+    assert again([DRAFTS["slot"]])[0] > 0 and again.solver is two.solver and shared.built == 2
+    assert held.threads == 1 and c2 == pytest.approx(c1, rel=1e-10)

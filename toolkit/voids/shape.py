@@ -69,10 +69,12 @@ _H = 1e-4
 class Evaluator:
     """Compliance and element energies of the panel with a layout of drafts cut out, on one grid."""
 
-    def __init__(self, panel: Panel, grid, orbit: Callable | None = None, shared: SharedSolver | None = None):
+    def __init__(self, panel: Panel, grid, orbit: Callable | None = None, shared: SharedSolver | None = None,
+                 threads: int = 1):
         """``shared``: the job's solver (``fe.solve.SharedSolver``), refactored for the first analysis where it
-        fits (the optimiser's, on the same grid and supports)."""
+        fits (the optimiser's, on the same grid and supports, made for as many MKL ``threads``)."""
         self.panel, self.grid = panel, grid
+        self.threads = threads
         self.shared = shared if shared is not None else SharedSolver()
         # A symmetric layout is given by its seeds: ``orbit(draft)`` lists a seed and its mirror images.
         self.orbit = orbit if orbit is not None else (lambda d: [d])
@@ -98,7 +100,7 @@ class Evaluator:
         f = self.fractions(shapes)
         K = self.assembler.matrix(self.ke, np.maximum(f, EMPTY_SHARE))
         if self.solver is None:
-            self.solver = self.shared.factor(K, ~self.fixed, self.grid)
+            self.solver = self.shared.factor(K, ~self.fixed, self.grid, threads=self.threads)
         else:
             self.solver.refactor(K)
         U = self.solver.solve(self.F)
