@@ -325,7 +325,10 @@ def _to_voids(panel: Panel, job: Job, rules: Rules, settings, void_region, void_
 
     def refits(layouts: tuple, sizes: list) -> None:
         # The freeform re-analysis first (every job's checks need it), then the refits the limiting rule would
-        # make for a layout of these sizes (a missing one is made in the checks).
+        # make for a layout of these sizes (a missing one is made in the checks). Told again (the honeycomb weighed
+        # in the helper was taken after all), the refits sent before are for another layout: dropped.
+        for key in [k for k in early if k != FREEFORM_AHEAD]:
+            early.pop(key).cancel()
         if side.ready:
             g = solid.grid
             if FREEFORM_AHEAD not in early and analysis_fits_elsewhere(g):
