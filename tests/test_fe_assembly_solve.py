@@ -378,3 +378,29 @@ def test_the_optimiser_takes_one_thread_where_lacuna_threads_says_one(monkeypatc
     monkeypatch.setenv("LACUNA_THREADS", "2")
     assert beso.optimiser_threads(100) == 1
     assert beso.optimiser_threads(10**7) == (2 if side_threads() >= 2 else 1)
+
+
+@pytest.mark.skipif(not PARDISO_PLATFORM, reason="pypardiso is a dependency on x86-64 Linux and Windows only")
+def test_the_solid_analysis_is_made_on_the_optimisers_threads_and_its_solver_refactored(monkeypatch):
+    # On grids where the optimiser takes two MKL threads the job's solid analysis is made on two as well, so that the
+    # optimiser refactors its solver (its first design is the panel as drawn) instead of analysing the matrix again.
+    from panels import half_mbb_plate
+    from toolkit import pipeline
+    from toolkit.optimize import beso
+
+    monkeypatch.setattr(beso, "side_threads", lambda: 2)
+    monkeypatch.setattr(beso, "TWO_THREADS_FROM", 1)  # every grid "large"
+    calls = []
+    factor = SharedSolver.factor
+
+    def recording(self, K, free, grid=None, threads=1):
+        solver = factor(self, K, free, grid, threads=threads)
+        calls.append((threads, self.built))
+        return solver
+
+    monkeypatch.setattr(SharedSolver, "factor", recording)
+    panel, job = half_mbb_plate(element_mm=50.0)
+    run = pipeline.optimize_panel(panel, job)
+    assert calls[0] == (2, 1)  # the solid analysis, on two threads
+    assert calls[1] == (2, 1)  # the optimiser: the same solver, refactored
+    assert run.voids

@@ -54,9 +54,11 @@ class Analysis:
         return int(self.active.sum())
 
 
-def analyze(panel: Panel, grid: Grid | None = None, *, shared: SharedSolver | None = None) -> Analysis:
+def analyze(panel: Panel, grid: Grid | None = None, *, shared: SharedSolver | None = None,
+            threads: int = 1) -> Analysis:
     """Solve the panel as drawn (openings cut exactly from the grid) for every load case. ``shared``: the
-    job's solver, refactored where it fits this system (``fe.solve.SharedSolver``)."""
+    job's solver, refactored where it fits this system (``fe.solve.SharedSolver``), made for ``threads`` MKL
+    threads (PARDISO; the optimiser's count where it is to refactor this solver next)."""
     grid = grid or grid_within_memory(panel.width_mm, panel.height_mm, panel.element_size_mm)
     solid = panel.solid
     fractions = solid_fractions(grid, solid)
@@ -73,7 +75,7 @@ def analyze(panel: Panel, grid: Grid | None = None, *, shared: SharedSolver | No
     K = shared.assembler(grid).matrix(ke, scale)
     # Nodes touching only empty elements carry no stiffness; they are left out of the system.
     free = ~fixed & np.repeat(active_nodes, 2)
-    U = shared.factor(K, free, grid).solve(F)
+    U = shared.factor(K, free, grid, threads=threads).solve(F)
 
     cases = panel.cases
     weights = np.array([panel.case_weight(c) for c in cases])

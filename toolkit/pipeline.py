@@ -286,7 +286,10 @@ def _to_voids(panel: Panel, job: Job, rules: Rules, settings, void_region, void_
     Where the helper process is ready once the first fit is made (before the shape optimisation), it starts the
     limiting rule's refits, each rule's Future put in ``early`` by its key (the checks take them; they are wasted
     only when no rule is looked for), and the freeform re-analysis (``early[FREEFORM_AHEAD]``)."""
-    solid = analyze(panel, shared=shared)
+    # On the optimiser's MKL threads (two on large grids): it refactors this solver, its first design being the
+    # panel as drawn, instead of analysing the matrix again on its own.
+    solid = analyze(panel, shared=shared, threads=optimiser_threads(math.prod(grid_shape(
+        panel.width_mm, panel.height_mm, panel.element_size_mm))))
     lap("analysis")
     zones = ZoneSettings(
         edge_cover_mm=rules.edge_cover_mm,
