@@ -323,3 +323,36 @@ def test_the_evaluator_made_ahead_in_the_helper_serves_the_honeycomb_and_answers
         assert not L._WARM  # taken, or dropped when made for another panel
         assert len(made) == (1 if used else 2)  # the job's own Evaluator, and the helper's where not made ahead
         assert [repr(v) for v in shared.voids] == [repr(v) for v in alone.voids] and shared.notes == alone.notes
+
+
+def test_a_job_whose_honeycomb_is_taken_after_the_helper_weighed_it_is_the_job_made_alone(monkeypatch):
+    # The whole job with the helper on the glulam beam at 8 mm elements (28,125: the helper starts), n-gons: the
+    # honeycomb weighed there is taken, so the layout is shaped again from it, and the limiting rule's refits sent
+    # for the first try are dropped and sent again for the honeycomb's. Voids, notes and the limiting rule's
+    # sentence are those of the job made without the helper.
+    if may_start():
+        pytest.skip(f"no helper process on this machine: {may_start()}")
+    from test_voids_layout import _glulam_case
+    from toolkit import pipeline
+
+    panel, job = _glulam_case("polygon")
+    panel = replace(panel, element_size_mm=8.0)
+    alone = pipeline.optimize_panel(panel, job)
+    sent = []
+    submit = Helper.submit
+
+    def recording(self, fn, *args, **kwargs):
+        sent.append(fn.__name__)
+        return submit(self, fn, *args, **kwargs)
+
+    monkeypatch.setattr(Helper, "submit", recording)
+    asked = []  # the limiting rule's trials worked out: at each first fit the helper is told of, and in the checks
+    trials = pipeline.limit_trials
+    monkeypatch.setattr(pipeline, "limit_trials", lambda *a: asked.append(1) or trials(*a))
+    shared = pipeline.optimize_panel(panel, job, helper=True)
+    assert any(n.startswith("the voids are laid as a honeycomb") for n in alone.rationalised.notes)
+    assert "honeycomb_elsewhere" in sent and "first_fit_area" in sent
+    assert len(asked) == 3  # told twice: the first fit, then the honeycomb taken after all; then the checks
+    assert [repr(v) for v in shared.voids] == [repr(v) for v in alone.voids]
+    assert shared.rationalised.notes == alone.rationalised.notes and shared.limit == alone.limit
+    assert shared.rationalised.shape == alone.rationalised.shape
