@@ -638,3 +638,78 @@ def test_dropped_voids_are_placed_in_drawing_coordinates():
     said = [d for d in res.dropped if "freeform void #1" in d]
     assert said and "at (12.55, -2.715) m" in said[0], res.dropped
     assert not any("(550, 285)" in d for d in res.dropped)
+
+
+def _slots_and_bores(count: int, seed: int):
+    """Slots and bores of our own at random places, sizes and directions."""
+    from toolkit.voids.outline import Draft
+
+    rng = np.random.default_rng(seed)
+    out = []
+    for k in range(count):
+        size = float(rng.choice([20.0, 40.0, 65.0]))
+        centre = (float(rng.uniform(0, 600)), float(rng.uniform(0, 300)))
+        if k % 3 == 2:
+            out.append(Draft(family="bore", centre=centre, size=size, source=k))
+        else:
+            out.append(Draft(family="slot", centre=centre, size=size, length=size * float(rng.uniform(1.0, 5.0)),
+                             angle_deg=float(rng.uniform(0, 180)), source=k))
+    return out
+
+
+def test_a_slot_or_bore_outline_lies_between_the_stadiums_of_its_radii():
+    # Draft.radii: the drawn outline (arcs flattened to chords) holds the stadium of the inner radius round its core
+    # and lies within the one of the outer radius, the two a hair apart (the chords' sagittas).
+    from shapely.geometry import LineString, Point
+
+    for d in _slots_and_bores(30, 3):
+        ax, ay, bx, by = d.core()
+        inner, outer = d.radii()
+        core = LineString([(ax, ay), (bx, by)]) if (ax, ay) != (bx, by) else Point(ax, ay)
+        assert 0.0 < inner <= outer <= 0.5 * d.size * (1 + 1e-12) and outer - inner < 0.01 * d.size
+        ring = d.shape().exterior
+        assert d.shape().covers(core) and float(shapely.distance(core, ring)) >= inner * (1 - 1e-12)
+        assert float(np.max(shapely.distance(core, shapely.points(shapely.get_coordinates(ring))))) <= outer * (1 + 1e-12)
+        moved = d.moved(13.7, -4.2)  # carried by a moved copy
+        assert moved.radii() == (inner, outer) and moved.core() == pytest.approx((ax + 13.7, ay - 4.2, bx + 13.7, by - 4.2))
+
+
+def test_the_web_check_between_slots_and_bores_is_the_exact_distances():
+    # Site.clear decides a slot or bore pair by its cores' distance and the radii, and measures the drawn outlines
+    # only when the web falls within a hair of that band: the answer must be the exact distance's, also for webs
+    # set a ten-thousandth of a millimetre either side of a pair's exact distance.
+    from toolkit.voids.layout import SAFETY_MM, Site
+
+    drafts = _slots_and_bores(24, 7)
+    region = box(-500, -500, 1200, 900)
+    checked = 0
+    for i, a in enumerate(drafts):
+        for b in drafts[i + 1:]:
+            exact = float(shapely.distance(a.shape(), b.shape()))
+            for web in (5.0, 40.0, exact - SAFETY_MM - 1e-4, exact - SAFETY_MM + 1e-4, exact - SAFETY_MM - 0.02,
+                        exact - SAFETY_MM + 0.02):
+                if web <= 0.0:
+                    continue
+                site = Site(region, web, 5.0)
+                got = site.clear(site.members(a)[0], site.members(b))
+                assert got == (exact >= web + SAFETY_MM), (a, b, web, exact)
+                checked += 1
+    assert checked > 1000
+
+
+def test_segment_distances_are_shapelys():
+    # Random segments, points among them, crossing, touching and on one line: the distances shapely measures.
+    from shapely.geometry import LineString, Point
+
+    from toolkit.voids.outline import segment_distances
+
+    rng = np.random.default_rng(9)
+    cases = [((0, 0, 10, 0), (5, -3, 5, 3)), ((0, 0, 10, 0), (10, 0, 12, 4)), ((0, 0, 10, 0), (12, 0, 20, 0)),
+             ((0, 0, 10, 0), (4, 0, 20, 0)), ((1, 1, 1, 1), (4, 5, 4, 5)), ((1, 1, 1, 1), (0, 0, 2, 2)),
+             ((0, 0, 10, 0), (3, 2, 3, 2))]
+    cases += [(tuple(rng.uniform(-5, 5, 4)), tuple(rng.uniform(-5, 5, 4))) for _ in range(200)]
+    for s1, s2 in cases:
+        def geom(s):
+            return Point(s[:2]) if s[:2] == s[2:] else LineString([s[:2], s[2:]])
+        got = float(segment_distances(*s1, *(np.array([v]) for v in s2))[0])
+        assert got == pytest.approx(geom(s1).distance(geom(s2)), abs=1e-12), (s1, s2)

@@ -47,7 +47,7 @@ from .cover import (hex_cells, hull_ngon, inscribed_circle, inscribed_slot, larg
                     packed_bores, regular_corners, regular_ngon, slot_rows, split)
 from .fit import fit_error, fit_polygon, fit_slot, overlay
 from .measure import FreeformVoid, clean, inscribed_width
-from .outline import Draft
+from .outline import Draft, segment_distances
 from .shape import GROW_RATE, shape_ok
 from .settings import CORNERS, FAMILIES, VoidOptions
 from .standardise import snap_centres, standardise_sizes
@@ -245,19 +245,26 @@ def _check_lengths(values, where: str, what: str, example: str) -> None:
 
 # --- the rule context -------------------------------------------------------------------------------------
 
+# A bound of two voids' distance must clear the web by this much (mm) to stand for the exact distance: far above
+# the rounding of either, far below any web.
+CORE_MARGIN_MM = 1e-6
 # Members (``Site.members``) remembered at most, before the memory is emptied and filled again.
 MEMBERS_HELD = 20_000
 
 
+_PACKED = ("ext", "x", "y", "reach", "ax", "ay", "bx", "by", "inner", "outer")
+
+
 class Packed:
     """Members (``Site.__init__``) as arrays, made once for the many moved copies of one trial: shapes, extents,
-    centres' x and y, and the radii of the circles round them."""
+    centres' x and y, the radii of the circles round them, and their cores (``Draft.core``, ``Draft.radii``)."""
 
     def __init__(self, members: list):
         self.members = members
         self.shapes = np.empty(len(members), dtype=object)
         self.shapes[:] = [m[0] for m in members]
-        self.ext, self.x, self.y, self.reach = (np.array([m[k] for m in members], dtype=float) for k in range(1, 5))
+        for k, name in enumerate(_PACKED, 1):
+            setattr(self, name, np.array([m[k] for m in members], dtype=float))
 
     def plus(self, more: list) -> Packed:
         """These members and ``more`` after them."""
@@ -265,7 +272,7 @@ class Packed:
             return self
         extra, out = Packed(list(more)), Packed.__new__(Packed)
         out.members = self.members + extra.members
-        for name in ("shapes", "ext", "x", "y", "reach"):
+        for name in ("shapes",) + _PACKED:
             setattr(out, name, np.concatenate([getattr(self, name), getattr(extra, name)]))
         return out
 
@@ -286,7 +293,8 @@ class Site:
         self.step = move_step_mm
         # The allowed region already keeps min_web from the openings; a web ratio also ties that web to the
         # larger of the void and the opening, which only a per-void test can say. Each other void or opening is
-        # a member: (shape, extent, centre x, centre y, radius of a circle about the centre holding it).
+        # a member: (shape, extent, centre x, centre y, radius of a circle about the centre holding it, then its
+        # core segment's ends and its inner and outer radii about it: ``Draft.core``, ``Draft.radii``).
         self.openings = [_member_of(o) for o in openings] if web_ratio > 0.0 else []
         # In a symmetric layout every draft stands for itself and its mirror images: each is checked.
         self.mirror = mirror if mirror is not None else Mirror()
@@ -318,7 +326,8 @@ class Site:
         held = self._members.get(id(draft))
         if held is not None and held[0] is draft:
             return held[1]
-        got = [(d.shape(), d.extent(), d.centre[0], d.centre[1], d.reach()) for d in self.mirror.orbit(draft)]
+        got = [(d.shape(), d.extent(), d.centre[0], d.centre[1], d.reach()) + d.core() + d.radii()
+               for d in self.mirror.orbit(draft)]
         if len(self._members) >= MEMBERS_HELD:
             self._members.clear()
         self._members[id(draft)] = (draft, got)  # the draft is held too, so its id is not taken by another
@@ -335,7 +344,7 @@ class Site:
         packed = others if isinstance(others, Packed) else Packed(list(others) + self.openings)
         if not packed.members:
             return True
-        shape, own, cx, cy, radius = member
+        shape, own, cx, cy, radius, ax, ay, bx, by, inner, outer = member
         need = np.full(len(packed.members), self.web)
         if self.ratio > 0.0:
             need = np.maximum(need, self.ratio * np.maximum(packed.ext, own))
@@ -345,6 +354,20 @@ class Site:
         close = np.flatnonzero(apart < need)
         if not close.size:
             return True
+        if inner >= 0.0 or (packed.inner[close] >= 0.0).any():
+            # Slots and bores: the distance of two drawn outlines lies between their cores' distance less the
+            # outer radii and less the inner ones (``Draft.radii``; a polygon or opening has the lower bound alone),
+            # a band some hundredths of a millimetre wide. Only a pair whose band holds the web (to CORE_MARGIN_MM)
+            # is measured exactly, so the answer is the exact test's; the flattened arcs make that test costly.
+            cores = segment_distances(ax, ay, bx, by, packed.ax[close], packed.ay[close], packed.bx[close],
+                                      packed.by[close])
+            upper = np.where((inner >= 0.0) & (packed.inner[close] >= 0.0), cores - inner - packed.inner[close],
+                             np.inf)
+            if np.any(upper < need[close] - CORE_MARGIN_MM):
+                return False
+            close = close[cores - outer - packed.outer[close] < need[close] + CORE_MARGIN_MM]
+            if not close.size:
+                return True
         return bool(np.all(shapely.distance(shape, packed.shapes[close]) >= need[close]))
 
     def offsets(self, size: float) -> list[tuple[float, float]]:
@@ -571,7 +594,8 @@ def _member_of(shape) -> tuple:
     circle = shapely.minimum_bounding_circle(shape)
     centre = circle.centroid
     radius = float(shapely.minimum_bounding_radius(shape))
-    return (shape, 2.0 * radius, centre.x, centre.y, radius * (1.0 + 1e-9) + 1e-9)
+    reach = radius * (1.0 + 1e-9) + 1e-9
+    return (shape, 2.0 * radius, centre.x, centre.y, reach, centre.x, centre.y, centre.x, centre.y, -1.0, reach)
 
 
 class Room:

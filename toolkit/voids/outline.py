@@ -154,6 +154,33 @@ class Draft:
             object.__setattr__(self, "_reach", got)
         return got
 
+    def core(self) -> tuple[float, float, float, float]:
+        """The segment (ax, ay, bx, by) a slot's outline is drawn round (a bore's, a polygon's: its centre twice)."""
+        cx, cy = self.centre
+        if self.family == "slot":
+            half = max(self.length - self.size, 0.0) / 2.0
+            a = math.radians(self.angle_deg)
+            ux, uy = half * math.cos(a), half * math.sin(a)
+            return cx - ux, cy - uy, cx + ux, cy + uy
+        return cx, cy, cx, cy
+
+    def radii(self) -> tuple[float, float]:
+        """(inner, outer) about ``core``: a slot's or bore's drawn outline holds every point within ``inner`` of
+        its core and lies within ``outer`` of it (its arcs are drawn as chords, a little inside the true ones);
+        inner is -1 for a polygon (no such bound kept). Worked out once per draft, carried by moved copies."""
+        got = self.__dict__.get("_radii")
+        if got is None:
+            if self.family in ("slot", "bore"):
+                ax, ay, bx, by = self.core()
+                xy = shapely.get_coordinates(self.shape())
+                outer = float(np.max(point_segment_distances(xy[:, 0], xy[:, 1], ax, ay, bx, by)))
+                inner = float(np.min(segment_distances(ax, ay, bx, by, xy[:-1, 0], xy[:-1, 1], xy[1:, 0], xy[1:, 1])))
+                got = (inner, outer)
+            else:
+                got = (-1.0, self.reach())
+            object.__setattr__(self, "_radii", got)
+        return got
+
     def shape(self) -> Polygon:
         """The flattened outline as a shapely polygon, built once per draft (drafts are immutable; the fitting
         and shape optimisation ask for the same draft's shape many times)."""
@@ -199,11 +226,36 @@ class Draft:
                     tool=f"{bore_tool} {self.size:g} mm")
 
 
+def point_segment_distances(px, py, ax, ay, bx, by):
+    """Distance from each point (px, py) to the segment(s) (ax, ay)-(bx, by); numpy broadcasting throughout."""
+    vx, vy = np.subtract(bx, ax), np.subtract(by, ay)
+    length2 = vx * vx + vy * vy
+    with np.errstate(invalid="ignore", divide="ignore"):
+        t = np.where(length2 > 0.0, ((px - ax) * vx + (py - ay) * vy) / length2, 0.0)
+    t = np.clip(t, 0.0, 1.0)
+    return np.hypot(px - (ax + t * vx), py - (ay + t * vy))
+
+
+def segment_distances(ax, ay, bx, by, cx, cy, dx, dy):
+    """Distance between the segments (ax, ay)-(bx, by) and (cx, cy)-(dx, dy), broadcast (a segment may be a point).
+    Where they cross properly it is 0; everywhere else the least distance of an end to the other segment (an end
+    on the other segment, as where they touch or overlap on one line, gives 0 there)."""
+    ends = np.minimum.reduce([point_segment_distances(ax, ay, cx, cy, dx, dy),
+                              point_segment_distances(bx, by, cx, cy, dx, dy),
+                              point_segment_distances(cx, cy, ax, ay, bx, by),
+                              point_segment_distances(dx, dy, ax, ay, bx, by)])
+    o1 = (bx - ax) * (cy - ay) - (by - ay) * (cx - ax)
+    o2 = (bx - ax) * (dy - ay) - (by - ay) * (dx - ax)
+    o3 = (dx - cx) * (ay - cy) - (dy - cy) * (ax - cx)
+    o4 = (dx - cx) * (by - cy) - (dy - cy) * (bx - cx)
+    return np.where((o1 * o2 < 0.0) & (o3 * o4 < 0.0), 0.0, ends)
+
+
 def _carry(source: Draft, target: Draft, move, turn: bool = False) -> None:
     """Hand ``source``'s kept extent and reach to ``target`` (a moved or mirrored copy: both unchanged), and its
     shape with its coordinates mapped by ``move`` (no re-flattening of the arcs); ``turn``: the map is a mirror,
     so the outline is turned back counter-clockwise."""
-    for key in ("_extent", "_reach"):
+    for key in ("_extent", "_reach", "_radii"):
         if key in source.__dict__:
             object.__setattr__(target, key, source.__dict__[key])
     shape = source.__dict__.get("_shape")
