@@ -674,11 +674,16 @@ def test_a_slot_or_bore_outline_lies_between_the_stadiums_of_its_radii():
         assert moved.radii() == (inner, outer) and moved.core() == pytest.approx((ax + 13.7, ay - 4.2, bx + 13.7, by - 4.2))
 
 
-def test_the_web_check_between_slots_and_bores_is_the_exact_distances():
+@pytest.mark.parametrize("few", [12, 0], ids=["plain floats", "arrays"])
+def test_the_web_check_between_slots_and_bores_is_the_exact_distances(few, monkeypatch):
     # Site.clear decides a slot or bore pair by its cores' distance and the radii, and measures the drawn outlines
     # only when the web falls within a hair of that band: the answer must be the exact distance's, also for webs
-    # set a ten-thousandth of a millimetre either side of a pair's exact distance.
+    # set a ten-thousandth of a millimetre either side of a pair's exact distance; the cores' distances worked in
+    # plain floats (a few pairs) or as arrays.
+    from toolkit.voids import layout
     from toolkit.voids.layout import SAFETY_MM, Site
+
+    monkeypatch.setattr(layout, "FEW_PAIRS", few)
 
     drafts = _slots_and_bores(24, 7)
     region = box(-500, -500, 1200, 900)
@@ -695,6 +700,14 @@ def test_the_web_check_between_slots_and_bores_is_the_exact_distances():
                 assert got == (exact >= web + SAFETY_MM), (a, b, web, exact)
                 checked += 1
     assert checked > 1000
+    # Against many at once (their cores' distances then worked as arrays): clear only if clear of every one.
+    for i, a in enumerate(drafts):
+        others = [m for b in drafts if b is not a for m in Site(region, 1.0, 5.0).members(b)]
+        least = min(float(shapely.distance(a.shape(), m[0])) for m in others)
+        for web in (least - SAFETY_MM - 1e-4, least - SAFETY_MM + 1e-4):
+            if web > 0.0:
+                site = Site(region, web, 5.0)
+                assert site.clear(site.members(a)[0], others) == (least >= web + SAFETY_MM)
 
 
 def test_segment_distances_are_shapelys():

@@ -47,7 +47,7 @@ from .cover import (hex_cells, hull_ngon, inscribed_circle, inscribed_slot, larg
                     packed_bores, regular_corners, regular_ngon, slot_rows, split)
 from .fit import fit_error, fit_polygon, fit_slot, overlay
 from .measure import FreeformVoid, clean, inscribed_width
-from .outline import Draft, segment_distances
+from .outline import Draft, segment_distance, segment_distances
 from .shape import GROW_RATE, shape_ok
 from .settings import CORNERS, FAMILIES, VoidOptions
 from .standardise import snap_centres, standardise_sizes
@@ -248,6 +248,8 @@ def _check_lengths(values, where: str, what: str, example: str) -> None:
 # A bound of two voids' distance must clear the web by this much (mm) to stand for the exact distance: far above
 # the rounding of either, far below any web.
 CORE_MARGIN_MM = 1e-6
+# Up to this many pairs, their cores' distances are worked in plain floats rather than as arrays.
+FEW_PAIRS = 12
 # Members (``Site.members``) remembered at most, before the memory is emptied and filled again.
 MEMBERS_HELD = 20_000
 
@@ -359,8 +361,12 @@ class Site:
             # outer radii and less the inner ones (``Draft.radii``; a polygon or opening has the lower bound alone),
             # a band some hundredths of a millimetre wide. Only a pair whose band holds the web (to CORE_MARGIN_MM)
             # is measured exactly, so the answer is the exact test's; the flattened arcs make that test costly.
-            cores = segment_distances(ax, ay, bx, by, packed.ax[close], packed.ay[close], packed.bx[close],
-                                      packed.by[close])
+            if close.size <= FEW_PAIRS:
+                cores = np.array([segment_distance(ax, ay, bx, by, packed.ax[j], packed.ay[j], packed.bx[j],
+                                                   packed.by[j]) for j in close.tolist()])
+            else:
+                cores = segment_distances(ax, ay, bx, by, packed.ax[close], packed.ay[close], packed.bx[close],
+                                          packed.by[close])
             upper = np.where((inner >= 0.0) & (packed.inner[close] >= 0.0), cores - inner - packed.inner[close],
                              np.inf)
             if np.any(upper < need[close] - CORE_MARGIN_MM):

@@ -251,6 +251,25 @@ def segment_distances(ax, ay, bx, by, cx, cy, dx, dy):
     return np.where((o1 * o2 < 0.0) & (o3 * o4 < 0.0), 0.0, ends)
 
 
+def _point_segment(px: float, py: float, ax: float, ay: float, bx: float, by: float) -> float:
+    vx, vy = bx - ax, by - ay
+    length2 = vx * vx + vy * vy
+    t = min(max(((px - ax) * vx + (py - ay) * vy) / length2, 0.0), 1.0) if length2 > 0.0 else 0.0
+    return math.hypot(px - (ax + t * vx), py - (ay + t * vy))
+
+
+def segment_distance(ax: float, ay: float, bx: float, by: float, cx: float, cy: float, dx: float, dy: float) -> float:
+    """``segment_distances`` for one pair, in plain floats (a few pairs at a time cost less so than as arrays)."""
+    o1 = (bx - ax) * (cy - ay) - (by - ay) * (cx - ax)
+    o2 = (bx - ax) * (dy - ay) - (by - ay) * (dx - ax)
+    o3 = (dx - cx) * (ay - cy) - (dy - cy) * (ax - cx)
+    o4 = (dx - cx) * (by - cy) - (dy - cy) * (bx - cx)
+    if o1 * o2 < 0.0 and o3 * o4 < 0.0:
+        return 0.0
+    return min(_point_segment(ax, ay, cx, cy, dx, dy), _point_segment(bx, by, cx, cy, dx, dy),
+               _point_segment(cx, cy, ax, ay, bx, by), _point_segment(dx, dy, ax, ay, bx, by))
+
+
 def _carry(source: Draft, target: Draft, move, turn: bool = False) -> None:
     """Hand ``source``'s kept extent and reach to ``target`` (a moved or mirrored copy: both unchanged), and its
     shape with its coordinates mapped by ``move`` (no re-flattening of the arcs); ``turn``: the map is a mirror,
