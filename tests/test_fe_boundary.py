@@ -123,3 +123,61 @@ def test_the_parts_of_the_panel_are_those_scipy_ndimage_labels():
         expected, n = ndimage.label(active.reshape(ny, nx))
         labels, parts = element_parts(Grid(nx, ny, 1.0, 1.0), active)
         assert parts == n and np.array_equal(labels, expected.ravel())
+
+
+def _held_by_every_node(grid, supports, solid, active_nodes):
+    """The nodes each support holds, measured from every usable node with GEOS (the search before its numpy
+    bound): the reference for ``fixed_dofs``."""
+    import shapely
+    from shapely.geometry import LineString, Point
+
+    usable = np.flatnonzero(active_nodes)
+    points = shapely.points(grid.node_xy[usable])
+    band = 0.5 * min(grid.dx, grid.dy) * (1.0 + 1e-9)
+    fixed = np.zeros(grid.n_dofs, dtype=bool)
+    for s in supports:
+        if s.is_point:
+            nodes = usable[[int(np.argmin(shapely.distance(points, Point(s.points[0]))))]]
+        else:
+            segment = LineString(s.points)
+            near = shapely.distance(points, segment) <= band
+            nodes = usable[near] if near.any() else \
+                usable[[int(np.argmin(shapely.distance(points, segment.interpolate(0.5, True))))]]
+        fixed[2 * nodes] |= "x" in s.fix
+        fixed[2 * nodes + 1] |= "y" in s.fix
+    return fixed
+
+
+def test_nodes_held_are_those_measured_from_every_node():
+    # Points anywhere on the material (on nodes, half-way between them, on an opening's edge) and segments along
+    # the outline and the opening's edges, off the node lines by less than half an element: the numpy bound
+    # before GEOS's distances leaves the same nodes held as measuring every node.
+    from toolkit.fe.fractions import solid_fractions
+
+    grid = Grid(24, 10, 25.0, 25.0)
+    solid = box(0.0, 0.0, 600.0, 250.0).difference(box(200.0, 75.0, 350.0, 175.0))
+    active_nodes = grid.active_nodes(solid_fractions(grid, solid) > 1e-6)
+    rng = np.random.default_rng(7)
+    cases = [Support(((x, y),), fix) for x, y in [(0.0, 0.0), (12.5, 0.0), (600.0, 250.0), (200.0, 75.0),
+                                                 (275.0, 175.0), (212.5, 112.5), (350.0, 120.0)]
+             for fix in ("xy", "y")]
+    for _ in range(40):
+        x = float(rng.uniform(0.0, 600.0))
+        cases.append(Support(((x, float(rng.choice([0.0, 250.0]))),), "xy"))
+        a, b = sorted(rng.uniform(0.0, 600.0, 2))
+        y = float(rng.choice([0.0, 250.0])) + float(rng.uniform(-12.0, 12.0)) * (rng.random() < 0.3)
+        y = min(max(y, 0.0), 250.0)
+        cases.append(Support(((a, y), (b, y)), "x"))
+        c, d = sorted(rng.uniform(75.0, 175.0, 2))
+        cases.append(Support(((float(rng.choice([200.0, 350.0])), c), (200.0 if rng.random() < 0.5 else 350.0, d)),
+                             "xy"))
+    checked = 0
+    for support in cases:
+        try:
+            got = fixed_dofs(grid, (support,), solid=solid, active_nodes=active_nodes)
+        except LacunaError:
+            continue  # off the outline: refused before any node is looked for
+        want = _held_by_every_node(grid, (support,), solid, active_nodes)
+        assert np.array_equal(got, want), support
+        checked += 1
+    assert checked > 60

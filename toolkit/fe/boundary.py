@@ -52,7 +52,7 @@ def fixed_dofs(
     usable = np.flatnonzero(active_nodes) if active_nodes is not None else np.arange(grid.n_nodes)
     if usable.size == 0:
         raise LacunaError("the panel has no material on the grid to support.")
-    node_points = shapely.points(grid.node_xy[usable])
+    xy = grid.node_xy[usable]
     fixed = np.zeros(grid.n_dofs, dtype=bool)
     for support in supports:
         name = _support_name(support, frame)
@@ -65,7 +65,7 @@ def fixed_dofs(
                     where=name,
                     hint="Move the point onto the panel's material, on its outline where it bears.",
                 )
-            nodes = usable[[int(np.argmin(shapely.distance(node_points, p)))]]
+            nodes = usable[[_nearest(xy, p)]]
         else:
             segment = LineString(support.points)
             if segment.length == 0:
@@ -79,16 +79,40 @@ def fixed_dofs(
                     where=name,
                     hint="Draw the support along an edge of the panel or of an opening, or use a point support.",
                 )
-            near = shapely.distance(node_points, segment) <= band
-            if near.any():
+            near = _within(xy, segment, band)
+            if near.size:
                 nodes = usable[near]
             else:
-                nodes = usable[[int(np.argmin(shapely.distance(node_points, segment.interpolate(0.5, True))))]]
+                nodes = usable[[_nearest(xy, segment.interpolate(0.5, True))]]
         if "x" in support.fix:
             fixed[2 * nodes] = True
         if "y" in support.fix:
             fixed[2 * nodes + 1] = True
     return fixed
+
+
+# Node searches measure with GEOS (shapely) as before, but only on the nodes a numpy bound leaves in: every node of
+# a 300 x 100 grid made into a point and measured cost 30-80 ms a support. The bound keeps a margin far above the
+# round-off of either distance, so the nodes found are the same.
+_MARGIN = 1e-9
+
+
+def _within(xy: np.ndarray, segment: LineString, band: float) -> np.ndarray:
+    """Indices (ascending) of the points ``xy`` within ``band`` of ``segment``."""
+    (x0, y0), (x1, y1) = segment.coords[0], segment.coords[-1]
+    pad = band * (1.0 + _MARGIN) + _MARGIN
+    box = ((xy[:, 0] >= min(x0, x1) - pad) & (xy[:, 0] <= max(x0, x1) + pad)
+           & (xy[:, 1] >= min(y0, y1) - pad) & (xy[:, 1] <= max(y0, y1) + pad))
+    near = np.flatnonzero(box)
+    return near[shapely.distance(shapely.points(xy[near]), segment) <= band]
+
+
+def _nearest(xy: np.ndarray, p: Point) -> int:
+    """Index of the point of ``xy`` nearest ``p`` (the first of equals), as GEOS measures."""
+    d2 = np.sum((xy - np.array(p.coords[0])) ** 2, axis=1)
+    least = float(np.sqrt(d2.min()))
+    near = np.flatnonzero(np.sqrt(d2) <= least * (1.0 + _MARGIN) + _MARGIN)
+    return int(near[np.argmin(shapely.distance(shapely.points(xy[near]), p))])
 
 
 def element_parts(grid: Grid, active_elements: np.ndarray) -> tuple[np.ndarray, int]:
