@@ -255,10 +255,14 @@ def test_a_shared_solver_refactors_only_for_the_same_system_and_solves_as_a_new_
     again = shared.factor(K, np.flatnonzero(~fixed), g)  # the same free dofs given as numbers
     assert again is first and (shared.built, shared.refactored) == (1, 1)
     assert np.array_equal(again.solve(F), LinearSolver(K, ~fixed, grid=g, backend=backend).solve(F))
-    # one more dof held: another system, a new solver
+    # one more dof held: another system; PARDISO refactors within the solver's dofs (test below), the others
+    # make a new solver
     held = fixed.copy()
     held[-1] = True
     other = shared.factor(K, ~held, g)
+    if backend == "pardiso":
+        assert other is first and (shared.built, shared.refactored) == (1, 2)
+        other = shared.factor(K, ~held, g, threads=2)  # another thread count: a new solver
     assert other is not first and shared.built == 2 and shared.solver is other
     # another pattern, the same dof count and free dofs (a grid of the other proportions): a new solver as well
     base = shared.factor(K, ~fixed, g)
@@ -276,6 +280,45 @@ def test_a_shared_solver_refactors_only_for_the_same_system_and_solves_as_a_new_
     assert shared.assembler(g2) is not pattern
 
 
+@pytest.mark.skipif(not pardiso_available(), reason="PARDISO does not load here")
+def test_a_system_on_fewer_dofs_refactors_the_solver_within_its_dofs():
+    # A layout with voids on the optimiser's grid: nodes only void elements touch are left out of its system (zero
+    # rows in K), and a support may hold a node the solver had free (rows that are not zero). The solver refactors
+    # with those dofs decoupled: the answer is a new solver's on the fewer dofs to round-off, zero at the dofs left
+    # out; given its own dofs again it is its own to the bit.
+    g, a, ke, fixed, rng, F = _held_at_left(14, 7, seed=5, cases=2)
+    F[fixed] = 0
+    shared = SharedSolver("pardiso")
+    full = a.matrix(ke, rng.uniform(0.2, 1.0, g.n_elements))
+    solver = shared.factor(full, ~fixed, g)
+    U_full = solver.solve(F)
+    scale = rng.uniform(0.2, 1.0, g.n_elements)
+    void = (np.arange(2, 5)[:, None] * g.nx + np.arange(4, 9)[None, :]).ravel()  # rows 2-4, columns 4-8
+    scale[void] = 0.0  # a void: the nodes inside it touch no material
+    K = a.matrix(ke, scale)
+    active = g.active_nodes(scale > 0)
+    assert (~active).sum() == 8  # the 4 x 2 nodes inside it
+    held = fixed.copy()
+    held[2 * (g.nx + 1) * g.ny + 2 * g.nx + 1] = True  # a corner held in y as well: its row is not zero
+    free = ~held & np.repeat(active, 2)
+    F2 = np.where(free[:, None], F, 0.0)
+    assert shared.factor(K, free, g) is solver and (shared.built, shared.refactored) == (1, 1)
+    U = solver.solve(F2)
+    want = LinearSolver(K, free, grid=g, backend="pardiso").solve(F2)
+    assert np.all(U[~free] == 0.0)
+    np.testing.assert_allclose(U, want, rtol=0, atol=1e-12 * np.abs(want).max())
+    # loads on dofs left out are not the system's: those dofs stay at zero, the others as before
+    loaded = solver.solve(np.where(free[:, None], F, 1.0))
+    assert np.all(loaded[~free] == 0.0) and np.array_equal(loaded, U)
+    # back on its own dofs: the same bits as before
+    assert shared.factor(full, ~fixed, g) is solver
+    assert np.array_equal(solver.solve(F), U_full)
+    # dofs it never had free (a support released): not within, a new solver
+    more = ~fixed.copy()
+    more[0] = True
+    assert shared.factor(full, more, g) is not solver and shared.built == 2
+
+
 @pytest.mark.parametrize("backend", BACKENDS)
 def test_a_refactor_with_the_values_just_factorised_keeps_the_factor(backend, monkeypatch):
     # The optimiser's first design is the panel as drawn, which the solid analysis has just factorised: the first
@@ -286,7 +329,7 @@ def test_a_refactor_with_the_values_just_factorised_keeps_the_factor(backend, mo
     scale = rng.uniform(1e-3, 1.0, g.n_elements)
     made = []
     real = LinearSolver._factor_data
-    monkeypatch.setattr(LinearSolver, "_factor_data", lambda self, data: made.append(1) or real(self, data))
+    monkeypatch.setattr(LinearSolver, "_factor_data", lambda self, *a: made.append(1) or real(self, *a))
     solver = LinearSolver(a.matrix(ke, scale), ~fixed, grid=g, backend=backend)
     U = solver.solve(F)
     assert made == [1]

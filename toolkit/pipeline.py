@@ -30,8 +30,8 @@ from .optimize.beso import optimiser_threads
 from .rules.check import impossible_rules
 from .rules.profiles import rules_for
 from .voids.extract import freeform_voids
-from .voids.layout import (Rationalised, first_fit_area, rationalise, refuse_impossible, resolve_settings,
-                           warm_evaluator)
+from .voids.layout import (Rationalised, analysis_threads, first_fit_area, rationalise, refuse_impossible,
+                           resolve_settings, warm_evaluator)
 
 G_M_S2 = 9.81
 
@@ -210,9 +210,14 @@ def optimize_panel(
         tell(f"checking the {n} void{'s' if n != 1 else ''} to make: the panel analysed again, a local model of the "
              "edge stress at each void" + (", the rule that held the layout back" if held_back else ""))
 
+        # The re-analyses refactor the voids' stage's solver (on its threads), leaving out the dofs of nodes only
+        # void elements touch (``fe.solve.LinearSolver.within``), instead of analysing a new system: 0.09 against
+        # 0.2 s at 300 x 100 elements.
+        threads = analysis_threads(solid.grid.n_elements)
+
         def freeform_here(p: Panel, ff) -> Analysis:
             """The freeform layout analysed in this process (``p``, ``ff``: the panel and outlines, or copies)."""
-            return analyze(with_freeform(p, ff, solid.grid), grid=solid.grid, shared=shared)
+            return analyze(with_freeform(p, ff, solid.grid), grid=solid.grid, shared=shared, threads=threads)
 
         with Overlap() as work:
             threaded = work.threads > 1
@@ -225,8 +230,7 @@ def optimize_panel(
                                         first_fit_mm2=rationalised.first_fit_mm2, layouts=rationalised.layouts,
                                         early=early)
             final = timed("re-analysis", timings, analyze, with_voids(panel, rationalised.voids), grid=solid.grid,
-                          shared=shared)
-            shared.release()
+                          shared=shared, threads=threads)
             # The grid cuts the voids by area fraction; the stress at their edges comes from a local model of each.
             started = time.perf_counter()
             # The freeform layout's re-analysis was made in the helper while the voids were shaped (``ahead``),
@@ -239,9 +243,11 @@ def optimize_panel(
                 # re-analysis, where it is still to make, goes to a side thread meanwhile (its own copy of the
                 # geometry).
                 freeform_job = None
-                if ahead is None:
+                if ahead is None:  # the job's solver goes with it to the side thread (this one does not use it)
                     freeform_job = work.submit(timed, "freeform re-analysis", timings, freeform_here,
                                                *own((panel, freeform)))
+                else:
+                    shared.release()
                 edge = edge_stresses_shared(panel, rationalised.voids, final, solid, side)
                 timings["edge stresses"] = time.perf_counter() - started
                 if freeform_job is not None:
@@ -251,6 +257,7 @@ def optimize_panel(
                              edge_stress_tasks(panel, rationalised.voids, final, solid, threaded=threaded)]
                 if ahead is None:
                     freeform_analysis = timed("freeform re-analysis", timings, freeform_here, panel, freeform)
+                shared.release()
                 edge = tuple(job.result() for job in edge_jobs)
                 timings["edge stresses"] = time.perf_counter() - started
             if freeform_analysis is None:  # the helper's, or made here where it failed there
