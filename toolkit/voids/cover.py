@@ -481,38 +481,38 @@ CHORD_TIE = 1e-7
 def _chords_wanted(region, centre, U, V, offsets, half) -> np.ndarray:
     """(directions, lines) mask of the chords GEOS must cut: in each direction, those whose longest inside span
     (numpy, by parity of the crossings of the region's edges) is within ``CHORD_TIE`` of the direction's longest,
-    and any chord passing within round-off of a corner of the region, where parity may miscount."""
+    and any chord passing within round-off of a corner of the region, where parity may miscount. All directions
+    at once: (directions, lines, edges) arrays of a few tens of thousands of entries."""
     rings = [np.asarray(ring.coords) for g in shapely.get_parts(region) for ring in (g.exterior, *g.interiors)]
     a = np.vstack([r[:-1] for r in rings]) - centre  # each edge from a to b (closed rings: last = first)
     b = np.vstack([r[1:] for r in rings]) - centre
     nd, nl = offsets.shape
-    wanted = np.zeros((nd, nl), dtype=bool)
     scale = 2.0 * half
-    for d in range(nd):
-        sa = (a @ V[d])[None, :] - offsets[d][:, None]  # (lines, edges): signed distance of each edge's ends
-        sb = (b @ V[d])[None, :] - offsets[d][:, None]
-        near = np.abs(sa) <= 1e-9 * scale
-        doubtful = near.any(axis=1)
-        line, edge = np.nonzero((sa > 0) != (sb > 0))
-        ua, ub = a[edge] @ U[d], b[edge] @ U[d]
-        w = sa[line, edge] / (sa[line, edge] - sb[line, edge])
-        at = ua + w * (ub - ua)
-        order = np.lexsort((at, line))
-        line, at = line[order], at[order]
-        count = np.bincount(line, minlength=nl)
-        doubtful |= count % 2 == 1
-        # consecutive crossings of a chord pair up: (1st, 2nd), (3rd, 4th), ...
-        first = np.r_[0, np.cumsum(count)[:-1]]
-        rank = np.arange(len(line)) - first[line]
-        starts = np.flatnonzero(rank % 2 == 0)
-        starts = starts[starts + 1 < len(line)]
-        starts = starts[line[starts] == line[starts + 1]]
-        longest = np.zeros(nl)
-        np.maximum.at(longest, line[starts], at[starts + 1] - at[starts])
-        # the longest of the chords counted surely (a doubtful one's miscount must not raise the bar)
-        sure = np.where(doubtful, 0.0, longest)
-        wanted[d] = doubtful | ((sure > 0) & (sure >= sure.max() - CHORD_TIE * scale))
-    return wanted
+    # signed distance of each edge's ends from each chord line: (directions, lines, edges)
+    sa = (a @ V.T).T[:, None, :] - offsets[:, :, None]
+    sb = (b @ V.T).T[:, None, :] - offsets[:, :, None]
+    doubtful = (np.abs(sa) <= 1e-9 * scale).any(axis=2).ravel()
+    d, line, edge = np.nonzero((sa > 0) != (sb > 0))
+    chord = d * nl + line
+    ua, ub = np.einsum("ek,ek->e", a[edge], U[d]), np.einsum("ek,ek->e", b[edge], U[d])
+    w = sa[d, line, edge] / (sa[d, line, edge] - sb[d, line, edge])
+    at = ua + w * (ub - ua)
+    order = np.lexsort((at, chord))
+    chord, at = chord[order], at[order]
+    count = np.bincount(chord, minlength=nd * nl)
+    doubtful |= count % 2 == 1
+    # consecutive crossings of a chord pair up: (1st, 2nd), (3rd, 4th), ...
+    first = np.r_[0, np.cumsum(count)[:-1]]
+    rank = np.arange(len(chord)) - first[chord]
+    starts = np.flatnonzero(rank % 2 == 0)
+    starts = starts[starts + 1 < len(chord)]
+    starts = starts[chord[starts] == chord[starts + 1]]
+    longest = np.zeros(nd * nl)
+    np.maximum.at(longest, chord[starts], at[starts + 1] - at[starts])
+    # the longest of the chords counted surely (a doubtful one's miscount must not raise the bar)
+    sure = np.where(doubtful, 0.0, longest).reshape(nd, nl)
+    bar = sure.max(axis=1, keepdims=True) - CHORD_TIE * scale
+    return doubtful.reshape(nd, nl) | ((sure > 0) & (sure >= bar))
 
 
 def inscribed_slot(region, widths, angle_deg: float | None = None, fan_deg=(0.0, -8.0, 8.0, -16.0, 16.0)):
