@@ -23,7 +23,7 @@ from .fe.solve import SharedSolver
 from .jobfile import Job
 from .limits import check_memory
 from .model import Panel, Region, Rules, Void
-from .helper import Helper, analysis_fits_elsewhere, result_or
+from .helper import ANALYSIS_MAX_ELEMENTS, Helper, analysis_fits_elsewhere, result_or
 from .overlap import Overlap, own
 from .optimize import BesoResult, OptimizeSettings, ZoneSettings, build_problem, run_beso
 from .optimize.beso import optimiser_threads
@@ -212,11 +212,17 @@ def optimize_panel(
 
         # The re-analyses refactor the voids' stage's solver (on its threads), leaving out the dofs of nodes only
         # void elements touch (``fe.solve.LinearSolver.within``), instead of analysing a new system: 0.09 against
-        # 0.2 s at 300 x 100 elements.
+        # 0.2 s at 300 x 100 elements, 9 against 12 s at a million. Not the freeform layout's on a grid the helper
+        # may analyse (``helper.ANALYSIS_MAX_ELEMENTS``): the helper makes it on a new solver, so it is made on one
+        # here too, and the figures are the same to the bit wherever it was made (a refactor within another
+        # solver's dofs gave the new solver's bits in every case measured, but nothing makes it so).
         threads = analysis_threads(solid.grid.n_elements)
+        helper_may_analyse = solid.grid.n_elements <= ANALYSIS_MAX_ELEMENTS
 
         def freeform_here(p: Panel, ff) -> Analysis:
             """The freeform layout analysed in this process (``p``, ``ff``: the panel and outlines, or copies)."""
+            if helper_may_analyse:
+                shared.release()
             return analyze(with_freeform(p, ff, solid.grid), grid=solid.grid, shared=shared, threads=threads)
 
         with Overlap() as work:
