@@ -711,10 +711,11 @@ def test_the_web_check_between_slots_and_bores_is_the_exact_distances(few, monke
 
 
 def test_segment_distances_are_shapelys():
-    # Random segments, points among them, crossing, touching and on one line: the distances shapely measures.
+    # Random segments, points among them, crossing, touching and on one line: the distances shapely measures, by
+    # the array form and by the one-pair form.
     from shapely.geometry import LineString, Point
 
-    from toolkit.voids.outline import segment_distances
+    from toolkit.voids.outline import segment_distance, segment_distances
 
     rng = np.random.default_rng(9)
     cases = [((0, 0, 10, 0), (5, -3, 5, 3)), ((0, 0, 10, 0), (10, 0, 12, 4)), ((0, 0, 10, 0), (12, 0, 20, 0)),
@@ -726,3 +727,6 @@ def test_segment_distances_are_shapelys():
             return Point(s[:2]) if s[:2] == s[2:] else LineString([s[:2], s[2:]])
         got = float(segment_distances(*s1, *(np.array([v]) for v in s2))[0])
         assert got == pytest.approx(geom(s1).distance(geom(s2)), abs=1e-12), (s1, s2)
+        # the one-pair form in plain floats (Site.clear's few pairs): the same distance
+        one = segment_distance(*(float(v) for v in s1), *(float(v) for v in s2))
+        assert isinstance(one, float) and one == pytest.approx(got, abs=1e-12), (s1, s2)

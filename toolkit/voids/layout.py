@@ -1174,30 +1174,31 @@ def warm_evaluator(panel: Panel, nx: int, ny: int, dx: float, dy: float, backend
     """Made in the helper process while the optimiser runs (its core is idle then): the Evaluator of the panel as
     drawn, its solver analysed and factorised, kept for ``honeycomb_elsewhere`` (whose analyses are then refactors:
     its set-up, 0.8 s of the helper's at 300 x 100 elements, is off the job's path)."""
-    from ..fe.grid import Grid
-    from ..fe.solve import SharedSolver
-    from .shape import Evaluator
-
     _WARM.clear()
-    evaluate = Evaluator(panel, Grid(nx, ny, dx, dy), shared=SharedSolver(backend))
+    evaluate = _helper_evaluator(panel, nx, ny, dx, dy, backend)
     evaluate.shapes([])
     evaluate.analyses = 0
     _WARM[_warm_key(panel, nx, ny, dx, dy, backend)] = evaluate
     return True
 
 
-def honeycomb_elsewhere(panel: Panel, nx: int, ny: int, dx: float, dy: float, backend: str, *args):
-    """``honeycomb_within_cap(*args)`` analysed on a solver of its own (the helper process runs it; on the one
-    ``warm_evaluator`` made where it did): its answer and the analyses it made. A solver's factor of a matrix is
-    the same to the bit whether made for it or refactored from another of the same pattern."""
+def _helper_evaluator(panel: Panel, nx: int, ny: int, dx: float, dy: float, backend: str):
+    """The helper process's Evaluator of the panel as drawn on an nx x ny grid, on a solver of its own."""
     from ..fe.grid import Grid
     from ..fe.solve import SharedSolver
     from .shape import Evaluator
 
+    return Evaluator(panel, Grid(nx, ny, dx, dy), shared=SharedSolver(backend))
+
+
+def honeycomb_elsewhere(panel: Panel, nx: int, ny: int, dx: float, dy: float, backend: str, *args):
+    """``honeycomb_within_cap(*args)`` analysed on a solver of its own (the helper process runs it; on the one
+    ``warm_evaluator`` made where it did): its answer and the analyses it made. A solver's factor of a matrix is
+    the same to the bit whether made for it or refactored from another of the same pattern."""
     evaluate = _WARM.pop(_warm_key(panel, nx, ny, dx, dy, backend), None)
     _WARM.clear()
     if evaluate is None:
-        evaluate = Evaluator(panel, Grid(nx, ny, dx, dy), shared=SharedSolver(backend))
+        evaluate = _helper_evaluator(panel, nx, ny, dx, dy, backend)
     other, within = honeycomb_within_cap(*args[:7], evaluate, *args[7:])
     evaluate.shared.release()
     return other, within, evaluate.analyses
