@@ -74,7 +74,9 @@ def _optimize_lines(s: dict) -> list[str]:
     edged = [v for v in s["voids"] if v.get("peak_stress_MPa") is not None]
     if edged:
         top = max(edged, key=lambda v: v["peak_stress_MPa"])
-        kt = f", Kt {top['kt']:.2f}" if top.get("kt") is not None else ""
+        # the nominal beside Kt: a large Kt over a small nominal stress is a void where little was carried
+        kt = (f", nominal {top['nominal_stress_MPa']:.3g} MPa, Kt {top['kt']:.2f}"
+              if top.get("kt") is not None and top.get("nominal_stress_MPa") is not None else "")
         lines.append(f"  largest edge stress   {top['peak_stress_MPa']:.4g} MPa at {top['id']} "
                      f"({top['peak_stress_sense']}{kt}; local models of the voids)")
     for t in s.get("moving_loads", []):
