@@ -432,7 +432,7 @@ def longest_chords(region, angles_deg, lines: int = 24):
     """Longest segment inside ``region`` along each direction of ``angles_deg``, found on ``lines`` parallel chord
     lines across it: per direction (length, a, b), or None where no chord meets the region. GEOS cuts the chords
     that may hold the longest segment; the others are ruled out first by their inside spans worked out in numpy
-    (``_chord_spans``), so the answer is GEOS's for all of them (a slot's buffered core of some hundreds of
+    (``_chords_wanted``), so the answer is GEOS's for all of them (a slot's buffered core of some hundreds of
     corners: 120 chords cut in one intersection cost about 2 ms)."""
     angles = np.radians(np.atleast_1d(np.asarray(angles_deg, dtype=float)))
     x0, y0, x1, y1 = region.bounds
