@@ -221,8 +221,6 @@ def optimize_panel(
 
         def freeform_here(p: Panel, ff) -> Analysis:
             """The freeform layout analysed in this process (``p``, ``ff``: the panel and outlines, or copies)."""
-            if helper_may_analyse:
-                shared.release()
             return analyze(with_freeform(p, ff, solid.grid), grid=solid.grid, shared=shared, threads=threads)
 
         with Overlap() as work:
@@ -237,11 +235,14 @@ def optimize_panel(
                                         early=early)
             final = timed("re-analysis", timings, analyze, with_voids(panel, rationalised.voids), grid=solid.grid,
                           shared=shared, threads=threads)
+            # The freeform layout's re-analysis was made in the helper while the voids were shaped (``ahead``),
+            # or is made here beside the local models: within the job's solver only on a grid the helper does not
+            # analyse, else on a new solver, so the job's goes now where nothing here refactors it again.
+            ahead = early.get(FREEFORM_AHEAD)
+            if ahead is not None or helper_may_analyse:
+                shared.release()
             # The grid cuts the voids by area fraction; the stress at their edges comes from a local model of each.
             started = time.perf_counter()
-            # The freeform layout's re-analysis was made in the helper while the voids were shaped (``ahead``),
-            # or is made here beside the local models.
-            ahead = early.get(FREEFORM_AHEAD)
             freeform_analysis = None
             if side.idle and threaded and n >= 2:
                 # The helper process is free: the local models are shared between it and this thread (two processes
@@ -252,8 +253,6 @@ def optimize_panel(
                 if ahead is None:  # the job's solver goes with it to the side thread (this one does not use it)
                     freeform_job = work.submit(timed, "freeform re-analysis", timings, freeform_here,
                                                *own((panel, freeform)))
-                else:
-                    shared.release()
                 edge = edge_stresses_shared(panel, rationalised.voids, final, solid, side)
                 timings["edge stresses"] = time.perf_counter() - started
                 if freeform_job is not None:
