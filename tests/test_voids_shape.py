@@ -68,6 +68,36 @@ def test_parameter_gradient_matches_finite_differences(name):
     assert np.linalg.norm(gc - fd) <= 1e-4 * np.linalg.norm(fd), (gc, fd)
 
 
+@pytest.mark.parametrize("name", ["regular hexagon", "slot"])
+@pytest.mark.parametrize("stage", [1, 2])
+def test_a_step_moves_the_outline_the_same_whatever_units_its_numbers_are_in(name, stage):
+    """A step is steepest in the outline's own measure (vertex travel), so the same step of the outline comes out
+    when a number is counted in other units (a turn in degrees instead of radians, a length in cm): the chain
+    rule scales that number's gradient and Jacobian column, and the step in it, and nothing else. A plain
+    gradient step is not: it would mostly turn a long slot (the longest lever) instead of growing it."""
+    from toolkit.voids.shape import _direction
+
+    grid = make_grid(PANEL.width_mm, PANEL.height_mm, PANEL.element_size_mm)
+    evaluate = Evaluator(PANEL, grid)
+    d = DRAFTS[name]
+    _, energy = evaluate([d])
+    ((gc, ga, J),) = gradients(grid, energy, [d])
+    rho = 0.5 * float(np.max(energy))
+    units = np.array([1.0, 1.0, 1.0, 1.0])
+    units[2 if d.family == "slot" else 3] = math.pi / 180.0  # the turn in degrees
+    units[3 if d.family == "slot" else 2] = 10.0  # the length or radius in cm
+    # p = units * q: dC/dq = units * dC/dp, dv/dq = J * units
+    step = _direction(stage, (gc, ga, J), rho)
+    scaled = _direction(stage, (gc * units, ga * units, J * units), rho)
+    moved, moved_scaled = J @ step, (J * units) @ scaled
+    assert np.allclose(moved_scaled, moved, rtol=0, atol=1e-6 * np.max(np.abs(moved))), (moved, moved_scaled)
+    # and a step is one of gain: down the compliance at the same area (stage 1), up the worth (stage 2)
+    if stage == 1:
+        assert float(gc @ step) < 0.0 and abs(float(ga @ step)) <= 1e-9 * np.linalg.norm(ga) * np.linalg.norm(step)
+    else:
+        assert float((ga - gc / (2.0 * rho)) @ step) > 0.0
+
+
 def test_the_evaluator_cuts_the_voids_exactly():
     # Its fractions (each void's area taken off the cells under it) against shapely's cut of the whole panel
     # (toolkit.fe.fractions): the same areas, to rounding.

@@ -301,13 +301,30 @@ def _area_of(drafts, orbit: Callable | None = None) -> float:
 def _direction(stage: int, g, rho: float) -> np.ndarray | None:
     """A void's step direction in its parameters, scaled so that its furthest outline vertex travels 1 mm per unit
     (None when it does not move): stage 1, minus the compliance gradient with the area gradient's part taken out;
-    stage 2, grad A - grad C / (2 rho)."""
+    stage 2, grad A - grad C / (2 rho).
+
+    Steepest in the outline's own measure: the parameters are of unlike kinds (a slot's turn in radians beside
+    its length in mm, a regular n-gon's turn beside its radius), so a step in the plain gradient's direction is
+    mostly whichever number has the longest lever, a long slot's turn. The gradient is taken in the metric
+    M = J^T J of the outline's vertex moves (a Gauss-Newton step): the direction of most gain per squared
+    millimetre of vertex travel."""
     gc, ga, J = g
+    M = J.T @ J
+    M = M + (1e-9 * float(np.trace(M)) / len(M) + 1e-300) * np.eye(len(M))
+    try:
+        solve = np.linalg.cholesky(M)
+    except np.linalg.LinAlgError:
+        return None
+
+    def natural(v):
+        return np.linalg.solve(solve.T, np.linalg.solve(solve, v))
+
+    nc, na = natural(gc), natural(ga)
     if stage == 1:
-        aa = float(ga @ ga)
-        d = -(gc - (gc @ ga) / aa * ga) if aa > 0 else -gc
+        aa = float(ga @ na)
+        d = -(nc - (ga @ nc) / aa * na) if aa > 0 else -nc
     else:
-        d = ga - gc / (2.0 * rho)
+        d = na - nc / (2.0 * rho)
     travel = np.max(np.linalg.norm((J @ d).reshape(-1, 2), axis=1)) if d.any() else 0.0
     return d / travel if travel > 0 else None
 
