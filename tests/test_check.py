@@ -219,6 +219,35 @@ def test_markers_of_an_earlier_check_are_refused_or_replaced(tmp_path):
     assert len(out.modelspace().query('*[layer=="LACUNA-VOID-BORE"]')) == 5  # the voids stay
 
 
+def test_a_circle_on_the_slot_layer_is_a_slot_as_long_as_it_is_wide(tmp_path):
+    """The pipeline writes a slot whose length has shrunk to its width as a circle on the slot layer, and schedules
+    it as "as long as it is wide (a round hole)": read back, it is that slot, its diameter one of the slot widths
+    (precast-formed: 100 mm is a former width and no pipe diameter). On the bore layer the same circle is a bore of
+    no stock diameter; a circle on the slot layer of no slot width is a slot of no stock width."""
+    doc = ezdxf.readfile(FIX / "clean.dxf")
+    clean = check_drawing(FIX / "clean.dxf", JOB)
+    assert clean.violations == ()
+    # 4000 x 1200 panel, its voids between x = 550 and 2600 mm, a KEEP zone at x 2800 - 3000, an opening at
+    # x 3200 - 3400, y 400 - 800 mm, supports along the foot: (3600, 900) is more than a web from all of them
+    spot = tuple(clean.panel.frame.to_drawing((3600.0, 900.0)))
+    cases = {"slot-100": ("LACUNA-VOID-SLOT", 100.0, ()), "bore-100": ("LACUNA-VOID-BORE", 100.0, ("stock_size",)),
+             "slot-110": ("LACUNA-VOID-SLOT", 110.0, ("stock_size",))}
+    for name, (layer, diameter, rules) in cases.items():
+        doc = ezdxf.readfile(FIX / "clean.dxf")
+        msp = doc.modelspace()
+        msp.add_circle(spot, diameter / 2.0, dxfattribs={"layer": layer})
+        path = tmp_path / f"{name}.dxf"
+        doc.saveas(path)
+        got = check_drawing(path, JOB)
+        added = [v for v in got.voids if math.dist(v.centre, (3600.0, 900.0)) < 1e-6]
+        assert len(added) == 1
+        assert added[0].family == ("slot" if layer.endswith("SLOT") else "bore")
+        if added[0].family == "slot":
+            assert added[0].length_mm == pytest.approx(diameter)
+        assert tuple(sorted({v.rule for v in got.violations})) == rules, (name, got.violations)
+        assert not any("drawn as a bore" in n for n in got.summary["warnings"])
+
+
 def test_the_fixtures_are_what_the_generator_writes(tmp_path):
     handles = MAKE.main(tmp_path)
     assert handles == HANDLES

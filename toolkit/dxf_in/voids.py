@@ -58,7 +58,8 @@ def read_voids(doc: DxfDocument, frame: Frame, layers: Sequence[str] | None = No
     """The voids drawn on ``layers`` (default :data:`VOID_LAYERS`) of ``doc``'s model space, in local mm.
 
     ``frame`` is the panel's (``Drawing.frame``); ``path`` names the drawing in messages. Notes on what was
-    assumed (a bore drawn on the slot layer, a named layer that holds nothing) are appended to ``warnings``.
+    assumed (a polygon drawn on the slot layer, a named layer that holds nothing) are appended to ``warnings``. A
+    circle on the slot layer is a slot as long as it is wide.
     Open pieces on a layer are joined end to end within ``join_tolerance_mm``, as for openings.
     """
     names = list(dict.fromkeys(VOID_LAYERS if layers is None else layers))
@@ -87,9 +88,14 @@ def read_voids(doc: DxfDocument, frame: Frame, layers: Sequence[str] | None = No
         for handle, polys in hatches.items():
             voids += _hatch_voids(handle, polys, layer)
     _unique_ids(voids)
-    for v in voids:
+    for k, v in enumerate(voids):
         expected = LAYER_FAMILY.get(v.layer.upper())
-        if expected and expected != v.family:
+        if expected == "slot" and v.family == "bore":
+            # A stadium whose straight sides have shrunk to nothing is a circle: on the slot layer, a slot as long
+            # as it is wide (the round hole a slot's cutter or former makes, as the schedule words it), its width
+            # checked against the slot widths.
+            voids[k] = replace(v, family="slot", length_mm=v.size_mm, angle_deg=0.0)
+        elif expected and expected != v.family:
             notes.append(f"{r.where(v.layer, [f'handle {v.handle}'])}: drawn as a {v.family} on the {expected} "
                          f"layer; checked as a {v.family}.")
     return voids
