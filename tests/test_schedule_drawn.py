@@ -244,3 +244,29 @@ def test_timber_beam_bores_schedule_is_what_is_drawn(tmp_path):
     schedule, drawn = _run(tmp_path, BEAM.format(family="bore"), size=(2500, 600))
     _check_schedule(schedule, drawn, "timber-bored")
     _check_cli(drawn, "timber-bored", tmp_path)
+
+
+def test_slots_in_metres_with_a_round_one_are_what_is_drawn(tmp_path):
+    """The sample panel in metres (tests/drawings.py "m", the job of tests/same_outputs.py) gives steel-cut slots, one
+    of them as long as it is wide: written as a circle on the slot layer, scheduled as that slot (its two ends
+    one point), and read back by `lacuna check` as a slot of a stock width, not as a bore of no stock diameter."""
+    from drawings import sample_drawing
+    from same_outputs import METRES_JOB
+
+    dxf = sample_drawing(tmp_path, "m")
+    (tmp_path / "job.toml").write_text(METRES_JOB)
+    optimize_file(dxf, tmp_path / "job.toml", out_dir=tmp_path / "out")
+    schedule = json.loads((tmp_path / "out" / f"{dxf.stem}-schedule.json").read_text())
+    drawn = tmp_path / "out" / f"{dxf.stem}-lacuna.dxf"
+    assert schedule["units"] == "m"
+    round_ones = [v for v in schedule["voids"] if v["family"] == "slot" and np.allclose(*v["ends"], atol=1e-12)]
+    assert round_ones and all("as long as it is wide" in v["tool"] for v in round_ones)
+    _check_schedule(schedule, drawn, "steel-cut")
+    result = CliRunner().invoke(main, ["check", str(drawn), "--profile", "steel-cut", "--json", "--out",
+                                       str(tmp_path / "check")])
+    assert result.exit_code == 0, result.output
+    checked = json.loads(result.stdout)
+    assert checked["violations"] == [] and not any("drawn as a" in w for w in checked["warnings"])
+    for v in round_ones:
+        (read,) = [w for w in checked["voids"] if np.allclose(w["centre"], v["centre"], atol=1e-9)]
+        assert read["family"] == "slot", read
