@@ -1,8 +1,9 @@
 """The whole rationalising step: rules kept (proved twice), sides, stock sizes, types, ids, changes."""
 
 import math
-
+import tempfile
 from dataclasses import replace
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -730,3 +731,48 @@ def test_segment_distances_are_shapelys():
         # the one-pair form in plain floats (Site.clear's few pairs): the same distance
         one = segment_distance(*(float(v) for v in s1), *(float(v) for v in s2))
         assert isinstance(one, float) and one == pytest.approx(got, abs=1e-12), (s1, s2)
+
+
+def test_mixed_keeps_about_what_the_best_single_family_keeps():
+    # The example beam loaded at 0.7 of its span, under the precast-formed rules. Picked at the optimiser's own
+    # price of stiffness, mixed took slots and bores for two of the n-gons' voids and kept 68.8 % of the saving
+    # against the n-gons' 86.4 %, with stiffness to spare (11,774 against a cap of 12,566 N mm); picked at
+    # MIXED_PRICE it keeps 86.3 % (2026-12-03).
+    from toolkit.api import optimize_file
+
+    examples = Path(__file__).resolve().parents[1] / "fixtures" / "examples"
+    drawing = examples / "beam-load-at-0.7.dxf"
+    text = (examples / "beam-load-at-0.7.toml").read_text(encoding="utf-8")
+    text = text.split("[voids]")[0] + '[voids]\nfamily = "{family}"\nsnap = 5\n[rules]\nprofile = "precast-formed"\n'
+    kept = {}
+    with tempfile.TemporaryDirectory() as tmp:
+        for family in ("polygon", "slot", "bore", "mixed"):
+            job = Path(tmp) / f"{family}.toml"
+            job.write_text(text.replace("{family}", family), encoding="utf-8")
+            run = optimize_file(drawing, job, out_dir=Path(tmp) / family).run
+            assert run.final.compliance_Nmm <= run.freeform_analysis.compliance_Nmm * (1 + 1e-9)
+            kept[family] = run.capture_percent
+    assert kept["mixed"] >= 0.95 * max(kept[f] for f in ("polygon", "slot", "bore")), kept
+
+
+def test_after_the_fill_the_layout_is_shaped_and_grown_again(tmp_path):
+    # The sample panel in metres with steel-cut slots (tests/same_outputs.py): the fill adds a void in the room the
+    # grown layout left, with stiffness to spare under the freeform layout's; shaping the whole layout again from
+    # there grows it (2026-12-03: 99,786 -> 102,419 mm2, 72 -> 74 % of the saving kept), no softer than the
+    # freeform layout.
+    import re
+
+    from drawings import sample_drawing
+    from same_outputs import METRES_JOB
+    from toolkit.api import optimize_file
+
+    dxf = sample_drawing(tmp_path, "m")
+    (tmp_path / "job.toml").write_text(METRES_JOB)
+    run = optimize_file(dxf, tmp_path / "job.toml", out_dir=tmp_path / "out").run
+    notes = run.rationalised.notes
+    assert any("more void(s) placed in the room the layout left" in n for n in notes), notes
+    (again,) = [n for n in notes if "shaped and grown again" in n]
+    grown, before = (float(x) for x in re.findall(r"(\d+) against (\d+) mm2", again)[0])
+    assert grown > before
+    assert run.final.compliance_Nmm <= run.freeform_analysis.compliance_Nmm
+    assert not run.rationalised.violations
