@@ -567,6 +567,32 @@ def test_a_honeycomb_a_little_too_soft_is_made_smaller_not_thinned():
     assert c > cap and kept == drafts
 
 
+def test_a_honeycomb_cut_down_to_the_cap_keeps_stock_sizes():
+    # Made smaller to meet the cap, a bore takes the next stock diameter down and a slot first gets shorter at its
+    # stock width, then the next stock width down; an n-gon is scaled. A bore scaled by 0.98 a round had left
+    # the demo lintel's honeycomb of bores (steel-cut, mixed) at 470.6 and 376.5 mm, sizes no shop stocks, which
+    # the proof then listed as violations (2026-12-03).
+    from types import SimpleNamespace
+
+    from toolkit.voids import layout as L
+    from toolkit.voids.outline import Draft
+
+    r = SimpleNamespace(bore_diameters_mm=(20.0, 40.0, 80.0, 150.0), slot_widths_mm=(20.0, 50.0, 100.0),
+                        min_void_mm=30.0)
+    bore = Draft(family="bore", centre=(0.0, 0.0), size=150.0, source=-1)
+    assert L._a_size_smaller(bore, r).size == 80.0
+    assert L._a_size_smaller(bore.scaled(40.0), r) is None  # 20 mm is under the least void
+    slot = Draft(family="slot", centre=(0.0, 0.0), size=100.0, length=300.0, angle_deg=0.0, source=-1)
+    shorter = L._a_size_smaller(slot, r)
+    assert (shorter.size, shorter.length) == (100.0, pytest.approx(0.98 * 300.0))
+    round_one = slot.with_length(100.0)
+    narrower = L._a_size_smaller(round_one, r)
+    assert narrower.size == 50.0 and narrower.length >= narrower.size
+    square = Draft(family="polygon", centre=(0.0, 0.0), size=100.0, source=-1,
+                   corners=((50.0, 0.0), (0.0, 50.0), (-50.0, 0.0), (0.0, -50.0)), regular=True)
+    assert L._a_size_smaller(square, r).size == pytest.approx(98.0)
+
+
 def test_the_web_check_on_packed_members_is_the_check_on_the_list():
     # Site.clear on the others packed once as arrays (with a void's own mirror images added after them) answers
     # as on the plain list of members, for voids near and far, with and without a web ratio; a Site's memory of
@@ -776,3 +802,25 @@ def test_after_the_fill_the_layout_is_shaped_and_grown_again(tmp_path):
     assert grown > before
     assert run.final.compliance_Nmm <= run.freeform_analysis.compliance_Nmm
     assert not run.rationalised.violations
+
+
+def test_standard_sizes_that_would_make_the_panel_softer_fall_back_to_the_sizes_all_keep(monkeypatch):
+    # The glulam beam's bores. Stand-in for a group size that grows small members: the sizes keeping most
+    # material come back three times as large (softer than the freeform layout by far); the layout must then take
+    # the sizes every member keeps (asked for with most_material=False), here the drafts as they were.
+    import toolkit.voids.layout as layout
+
+    calls = []
+
+    def standardise(drafts, max_types, snap, stock, smallest, fits, most_material=True):
+        calls.append(most_material)
+        if most_material:
+            return [d.scaled(3.0 * d.size) for d in drafts], []
+        return list(drafts), []
+
+    monkeypatch.setattr(layout, "standardise_sizes", standardise)
+    run = _glulam_beam("bore")
+    assert calls == [True, False]
+    sizes = {v.size_mm for v in run.voids}
+    assert sizes and sizes <= set(run.rules.bore_diameters_mm)  # stock sizes: not the tripled ones
+    assert run.final.compliance_Nmm <= run.freeform_analysis.compliance_Nmm

@@ -251,3 +251,16 @@ def test_the_voids_stage_analyses_on_the_optimisers_threads_only_where_the_helpe
     again = Evaluator(PANEL, grid, shared=shared, threads=2)
     assert again([DRAFTS["slot"]])[0] > 0 and again.solver is two.solver and shared.built == 2
     assert held.threads == 1 and c2 == pytest.approx(c1, rel=1e-10)
+
+
+def test_a_regular_ngon_stepped_through_zero_size_is_no_shape():
+    # A step that takes a regular n-gon's circumradius below zero draws the same corners turned half a turn, so
+    # every corner measure passes; its size is negative and no group of sizes can hold it (the demo lintel with
+    # regular squares failed at the standard sizes with it, 2026-12-03). It is refused like any broken shape.
+    from toolkit.voids.shape import shape_ok
+
+    d = DRAFTS["regular hexagon"]
+    p = params(d)
+    flipped = with_params(d, p * np.array([1.0, 1.0, -1.0, 1.0]))
+    assert flipped.size < 0 and flipped.shape().area == pytest.approx(d.shape().area)
+    assert shape_ok(d, 5.0) and not shape_ok(flipped, 5.0)

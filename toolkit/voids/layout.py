@@ -1076,14 +1076,27 @@ def threshold_density(grid, energy: np.ndarray, voids, band: float = 2.0) -> flo
     return float(np.median(energy[near])) / (2.0 * grid.element_area)
 
 
+def _a_size_smaller(d: Draft, r: Resolved) -> Draft | None:
+    """``d`` a step smaller, in sizes a shop stocks: an n-gon ``CAP_SHRINK`` of its size; a bore the next stock
+    diameter down; a slot ``CAP_SHRINK`` of its length at its stock width, or the next stock width down once it is
+    no longer than wide. None: no smaller one of at least the least void size."""
+    if d.family == "polygon":
+        return d.scaled(CAP_SHRINK * d.size)
+    if d.family == "slot" and d.length > d.size + 1e-9:
+        return d.with_length(max(d.size, CAP_SHRINK * d.length))
+    stock = r.bore_diameters_mm if d.family == "bore" else r.slot_widths_mm
+    below = [s for s in stock if r.min_void_mm - 1e-9 <= s < d.size - 1e-9]
+    return d.scaled(max(below)) if below else None
+
+
 def _within_cap(drafts: list[Draft], evaluate, cap: float, rounds: int = 5, keep: int = 0, floor_mm2: float = 0.0,
-                fits=None) -> tuple[float, list[Draft], np.ndarray]:
+                fits=None, smaller=None) -> tuple[float, list[Draft], np.ndarray]:
     """``drafts`` less the voids that cost most stiffness for their area, a fifth at a time, until the compliance is
     at most ``cap``: (compliance, drafts left, their element energies). The first ``keep`` drafts are not dropped.
     The caller needs no layout removing less than ``floor_mm2``: where dropping would go below it, the voids are
-    made smaller instead (``CAP_SHRINK`` of their size a round, each only where ``fits(trial, i, state)``, the
-    rules, allow; without ``fits`` none is), and where that cannot go on either the compliance returned is the
-    last one analysed, above the cap."""
+    made smaller instead (``smaller(draft)`` a round, by default ``CAP_SHRINK`` of its size; each only where
+    ``fits(trial, i, state)``, the rules, allow; without ``fits`` none is), and where that cannot go on either the
+    compliance returned is the last one analysed, above the cap."""
     state = list(drafts)
     c, energy = evaluate(state)
     for _ in range(rounds):
@@ -1099,14 +1112,14 @@ def _within_cap(drafts: list[Draft], evaluate, cap: float, rounds: int = 5, keep
         fewer = [d for k, d in enumerate(state) if k < keep or k not in worst]
         if sum(d.shape().area for d in fewer) < floor_mm2:
             # A honeycomb a little too soft: every void a little smaller rather than a fifth of them gone.
-            smaller = list(state)
+            shrunk = list(state)
             for k in range(keep, len(state)):
-                t = state[k].scaled(CAP_SHRINK * state[k].size)
-                if fits is not None and fits(t, k, smaller) is not None:
-                    smaller[k] = t
-            if smaller == state or sum(d.shape().area for d in smaller) < floor_mm2:
+                t = smaller(state[k]) if smaller is not None else state[k].scaled(CAP_SHRINK * state[k].size)
+                if t is not None and fits is not None and fits(t, k, shrunk) is not None:
+                    shrunk[k] = t
+            if shrunk == state or sum(d.shape().area for d in shrunk) < floor_mm2:
                 break
-            fewer = smaller
+            fewer = shrunk
         state = fewer
         c, energy = evaluate(state)
     return c, state, energy
@@ -1168,7 +1181,8 @@ def honeycomb_within_cap(allowed, families, r: Resolved, score, bound, openings,
             c_fit > cap or sum(d.shape().area for d in other[0]) > LATTICE_GAIN * area_fit):
         return other, None
     return other, _within_cap(other[0], evaluate, cap, floor_mm2=LATTICE_GAIN * area_fit if c_fit <= cap else 0.0,
-                              fits=lambda t, i, s: site.fits(t, i, s, move=False))
+                              fits=lambda t, i, s: site.fits(t, i, s, move=False),
+                              smaller=lambda d: _a_size_smaller(d, r))
 
 
 # In the helper process: the Evaluator made ahead for a job (``warm_evaluator``), by the digest of what it was made
@@ -1493,6 +1507,7 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
                                          f"{again.area_mm2[0]:.0f} mm2 removed, no softer than the freeform layout.")
         return _Done(placed, change_recs, notes_now, dropped_now, kinds_now, fit_mm2, shaped)
 
+    analysed = None  # (evaluator, cap) where the layout is analysed
     if grid is not None and kept and rho is not None:
         from .shape import Evaluator
 
@@ -1503,6 +1518,7 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
         # where the optimiser stopped: the strain-energy density of the material left round its voids.
         free_shapes = [v.shape for v in clean(freeform, 0.0)[0]] if mirror.axes else [v.shape for v in kept]
         cap, e_free = evaluate.shapes(free_shapes)
+        analysed = (evaluate, cap)
         rho = threshold_density(grid, e_free, free_shapes) or rho
         score, bound = score.at(rho), bound.at(rho)  # the later stages' price
         c_fit, e_fit = evaluate(placed)
@@ -1549,6 +1565,13 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
     stock = {"bore": r.bore_diameters_mm, "slot": r.slot_widths_mm}
     before = list(placed)
     placed, size_recs = standardise_sizes(placed, r.max_types, r.snap_mm, stock, r.min_void_mm, site.fits)
+    if analysed is not None and any(new is not None and new.size > old.size + 1e-9 for old, new in zip(before, placed)):
+        # A group's size keeping most material may grow its small members more than the size they all keep
+        # would: where that makes the panel softer than the freeform layout, the sizes they all keep instead.
+        evaluate, cap = analysed
+        if evaluate([d for d in placed if d is not None])[0] > cap:
+            placed, size_recs = standardise_sizes(before, r.max_types, r.snap_mm, stock, r.min_void_mm, site.fits,
+                                                  most_material=False)
     placed, snap_recs = snap_centres(
         placed, r.snap_mm, lambda t, i, s: site.fits(t, i, s, move=False) if shape_ok(t, r.least_feature_mm) else None,
         origin=mirror.origin)

@@ -260,8 +260,11 @@ def gradients(grid, energy: np.ndarray, drafts, orbit: Callable | None = None
 
 
 def shape_ok(d: Draft, feature: float) -> bool:
-    """Whether the draft is still a shape the shop can make: a convex n-gon with sides of at least ``feature``
-    and corners neither flat nor sharp; a slot at least as long as it is wide."""
+    """Whether the draft is still a shape the shop can make: of a size above zero; a convex n-gon with sides of
+    at least ``feature`` and corners neither flat nor sharp; a slot at least as long as it is wide."""
+    if not d.size > 0.0:
+        # a step through zero: a regular n-gon of negative circumradius draws the same corners turned half a turn
+        return False
     if d.family == "polygon":
         pts = d.sharp
         x, y = pts[:, 0], pts[:, 1]

@@ -4,11 +4,13 @@ Sizes are grouped by optimal one-dimensional k-means: the sorted sizes are split
 of squared deviations from each run's mean is least, found exactly by dynamic programming over split points
 (the method of Wang & Song 2011, "Ckmeans.1d.dp", The R Journal 3(2):29-33; written here, O(k n^2)).
 
-Each group then takes one size. The largest candidate from the group's median down to its smallest member is
-taken for which every member still keeps the rules (the caller's ``fits`` decides, and may move a member a
-little). The group's smallest size always works at the members' own places: every family's shape at a
-smaller size about the same centre lies inside the larger one (convex polygon scaled about its centroid,
-circle, stadium of the same length and a narrower width), so nothing gets closer to anything.
+Each group then takes one size: of the candidates from the group's median down to its smallest member, the one
+at which the members that still keep the rules (the caller's ``fits`` decides, and may move a member a little)
+remove most material; a member that keeps no rule at that size is dropped. The search stops at the first size
+every member keeps (a smaller one keeps less of each). The group's smallest size always works at the members'
+own places: every family's shape at a smaller size about the same centre lies inside the larger one (convex
+polygon scaled about its centroid, circle, stadium of the same length and a narrower width), so nothing gets
+closer to anything.
 Sizes snap *down* to the grid for the same reason. Bores and slots keep stock sizes: their candidates are
 the stock sizes in the group's range.
 """
@@ -121,13 +123,15 @@ def size_candidates(values: Sequence[float], family: str, snap: float, stock: Se
 
 
 def standardise_sizes(drafts: list[Draft], max_types: int, snap: float, stock: dict[str, Sequence[float]],
-                      smallest: float, fits: Callable[[Draft, int, list[Draft]], Draft | None]
-                      ) -> tuple[list[Draft], list[tuple[int, str, str]]]:
+                      smallest: float, fits: Callable[[Draft, int, list[Draft]], Draft | None],
+                      most_material: bool = True) -> tuple[list[Draft], list[tuple[int, str, str]]]:
     """Give the drafts at most ``max_types`` sizes, snapped down to the ``snap`` grid where the rules allow.
 
     ``fits(trial, i, state)`` returns the trial (or a moved copy) if draft i may become ``trial`` beside the
     other drafts in ``state``, else None. Returns the new drafts (same order; None for a draft dropped because
-    it fits at none of its group's sizes) and change records (index, what, why).
+    it fits at none of its group's sizes) and change records (index, what, why). ``most_material``: each group's
+    size is the one keeping most material (module text); False: the largest size every member keeps where there
+    is one (the group's small members grow less).
     """
     state = list(drafts)
     changes: list[tuple[int, str, str]] = []
@@ -144,7 +148,7 @@ def standardise_sizes(drafts: list[Draft], max_types: int, snap: float, stock: d
         for g in sorted(set(labels.tolist()), reverse=True):
             members = [i for i, lab in zip(idx, labels) if lab == g]
             values = [state[i].size for i in members]
-            best = None  # (members that fit, trial state) of the best size so far
+            best = None  # (members that fit, trial state, size, area kept) of the best size so far
             for size in size_candidates(values, family, snap, stock.get(family, ()), smallest):
                 trial_state = list(state)
                 failed = []
@@ -159,13 +163,16 @@ def standardise_sizes(drafts: list[Draft], max_types: int, snap: float, stock: d
                         trial_state[i] = None
                     else:
                         trial_state[i] = placed
-                if best is None or len(failed) < len(best[0]):
-                    best = (failed, trial_state, size)
+                kept = sum(trial_state[i].shape().area for i in members if trial_state[i] is not None)
+                # The size keeping most material wins (a small member the size does not fit is dropped rather
+                # than every large one shrunk to the smallest's size); among equal ones, the larger size.
+                if best is None or (kept > best[3] * (1.0 + 1e-9) if most_material else len(failed) < len(best[0])):
+                    best = (failed, trial_state, size, kept)
                 if not failed:
-                    break
+                    break  # every member kept: a smaller size keeps less of each
             # A member that can take none of the group's sizes (a thin polygon scaled down to the group's
             # size may fall under the least void size) is dropped rather than given a size of its own.
-            failed, trial_state, size = best
+            failed, trial_state, size, _ = best
             for i in members:
                 old, new = state[i], trial_state[i]
                 if new is None:
