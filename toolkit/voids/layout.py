@@ -1030,7 +1030,7 @@ def _fill(placed: list[Draft], allowed, site: Site, r: Resolved, score, evaluate
     costing most stiffness dropped until the panel is no softer than ``cap``. Returns the drafts, how many
     were added and, where some were, the analysis of the drafts returned (compliance, element energies)."""
     if not placed:
-        return placed, 0
+        return placed, 0, None
     grown = [shapely.buffer(d.shape(), r.web(d.extent())) for d in placed]
     room = overlay(shapely.difference, allowed, shapely.union_all(grown))
     # ``mixed``: a honeycomb of one of the families the layout already uses (max_types counts families).
