@@ -446,15 +446,20 @@ class Site:
                 + (" or to its own mirror image" if pair else ""))
 
 
+def _stock_below(d: Draft, r: Resolved) -> list[float]:
+    """The stock bore diameters or slot widths under a bore's or slot's size, of at least the least void, largest
+    first."""
+    stock = r.bore_diameters_mm if d.family == "bore" else r.slot_widths_mm
+    return [s for s in sorted(stock, reverse=True) if r.min_void_mm <= s < d.size]
+
+
 def _smaller(d: Draft, r: Resolved) -> list[Draft]:
     """The draft and ever smaller versions of it, for a void that does not fit where it is."""
     if d.family == "bore":
-        return [d] + [d.scaled(s) for s in sorted(r.bore_diameters_mm, reverse=True)
-                      if r.min_void_mm <= s < d.size]
+        return [d] + [d.scaled(s) for s in _stock_below(d, r)]
     if d.family == "slot":
         shorter = [d.with_length(d.length * f) for f in SHRINK_STEPS[1:] if d.length * f >= d.size]
-        narrower = [d.scaled(s).with_length(d.length) for s in sorted(r.slot_widths_mm, reverse=True)
-                    if r.min_void_mm <= s < d.size]
+        narrower = [d.scaled(s).with_length(d.length) for s in _stock_below(d, r)]
         return [d] + shorter + narrower
     return [d.scaled(d.size * f) for f in SHRINK_STEPS]
 
@@ -1084,9 +1089,8 @@ def _a_size_smaller(d: Draft, r: Resolved) -> Draft | None:
         return d.scaled(CAP_SHRINK * d.size)
     if d.family == "slot" and d.length > d.size + 1e-9:
         return d.with_length(max(d.size, CAP_SHRINK * d.length))
-    stock = r.bore_diameters_mm if d.family == "bore" else r.slot_widths_mm
-    below = [s for s in stock if r.min_void_mm - 1e-9 <= s < d.size - 1e-9]
-    return d.scaled(max(below)) if below else None
+    below = _stock_below(d, r)
+    return d.scaled(below[0]) if below else None
 
 
 def _within_cap(drafts: list[Draft], evaluate, cap: float, rounds: int = 5, keep: int = 0, floor_mm2: float = 0.0,
@@ -1483,9 +1487,12 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
             def keeps(t, i, s):
                 return site.fits(t, i, s, move=False)
 
-            shaped = optimise(placed, evaluate, keeps, rho=rho, target_area_mm2=sum(g.area for g in free_shapes),
-                              feature_mm=r.least_feature_mm, step_mm=max(grid.dx, grid.dy), steps=shape_steps,
-                              cap_Nmm=cap, first=first)
+            def shaped_from(drafts, analysis):
+                return optimise(drafts, evaluate, keeps, rho=rho, target_area_mm2=sum(g.area for g in free_shapes),
+                                feature_mm=r.least_feature_mm, step_mm=max(grid.dx, grid.dy), steps=shape_steps,
+                                cap_Nmm=cap, first=analysis)
+
+            shaped = shaped_from(placed, first)
             notes_now += list(shaped.notes)
             placed = list(shaped.drafts)
             if not mirror.axes:
@@ -1497,9 +1504,7 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
                     # The new voids are fitted to their cells and the voids grown before them stopped where the
                     # cap or a rule held them; the cap often leaves stiffness to spend, so the whole layout is shaped
                     # again from the fill's analysis (``optimise`` never returns a worse layout).
-                    again = optimise(placed, evaluate, keeps, rho=rho, target_area_mm2=sum(g.area for g in free_shapes),
-                                     feature_mm=r.least_feature_mm, step_mm=max(grid.dx, grid.dy), steps=shape_steps,
-                                     cap_Nmm=cap, first=filled_at)
+                    again = shaped_from(placed, filled_at)
                     shaped = replace(shaped, analyses=again.analyses)
                     placed = list(again.drafts)  # the same, or stiffer at the same material, or grown under the cap
                     if again.area_mm2[-1] > again.area_mm2[0]:
@@ -1564,14 +1569,18 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
 
     stock = {"bore": r.bore_diameters_mm, "slot": r.slot_widths_mm}
     before = list(placed)
-    placed, size_recs = standardise_sizes(placed, r.max_types, r.snap_mm, stock, r.min_void_mm, site.fits)
+
+    def standard(most_material: bool):
+        return standardise_sizes(before, r.max_types, r.snap_mm, stock, r.min_void_mm, site.fits,
+                                 most_material=most_material)
+
+    placed, size_recs = standard(True)
     if analysed is not None and any(new is not None and new.size > old.size + 1e-9 for old, new in zip(before, placed)):
         # A group's size keeping most material may grow its small members more than the size they all keep
         # would: where that makes the panel softer than the freeform layout, the sizes they all keep instead.
         evaluate, cap = analysed
         if evaluate([d for d in placed if d is not None])[0] > cap:
-            placed, size_recs = standardise_sizes(before, r.max_types, r.snap_mm, stock, r.min_void_mm, site.fits,
-                                                  most_material=False)
+            placed, size_recs = standard(False)
     placed, snap_recs = snap_centres(
         placed, r.snap_mm, lambda t, i, s: site.fits(t, i, s, move=False) if shape_ok(t, r.least_feature_mm) else None,
         origin=mirror.origin)

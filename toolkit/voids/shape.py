@@ -315,12 +315,12 @@ def _direction(stage: int, g, rho: float) -> np.ndarray | None:
     M = J.T @ J
     M = M + (1e-9 * float(np.trace(M)) / len(M) + 1e-300) * np.eye(len(M))
     try:
-        solve = np.linalg.cholesky(M)
+        chol = np.linalg.cholesky(M)
     except np.linalg.LinAlgError:
         return None
 
     def natural(v):
-        return np.linalg.solve(solve.T, np.linalg.solve(solve, v))
+        return np.linalg.solve(chol.T, np.linalg.solve(chol, v))
 
     nc, na = natural(gc), natural(ga)
     if stage == 1:
