@@ -222,8 +222,9 @@ def test_markers_of_an_earlier_check_are_refused_or_replaced(tmp_path):
 def test_a_circle_on_the_slot_layer_is_a_slot_as_long_as_it_is_wide(tmp_path):
     """The pipeline writes a slot whose length has shrunk to its width as a circle on the slot layer, and schedules
     it as "as long as it is wide (a round hole)": read back, it is that slot, its diameter one of the slot widths
-    (precast-formed: 100 mm is a former width and no pipe diameter). On the bore layer the same circle is a bore of
-    no stock diameter; a circle on the slot layer of no slot width is a slot of no stock width."""
+    (precast-formed.toml, "common practice, no source": 100 mm is a former width and no pipe diameter). On the
+    bore layer the same circle is a bore of no stock diameter; a circle on the slot layer of no slot width is a
+    slot of no stock width."""
     doc = ezdxf.readfile(FIX / "clean.dxf")
     clean = check_drawing(FIX / "clean.dxf", JOB)
     assert clean.violations == ()
