@@ -231,6 +231,16 @@ def test_a_schedule_in_metres_keeps_its_unit_and_its_digits(tmp_path):
     words = [s["limit"]] + s["changes"] + s["dropped"] + s["notes"] + [m["where"] for m in s["rules"]["margins"]]
     assert s["changes"] and any(re.search(r"\d m\b", w) for w in words), words
     assert not any(re.search(r"\d mm\b", w) for w in words), [w for w in words if re.search(r"\d mm\b", w)]
+    assert not any(re.search(r"\d mm2\b", w) for w in words), [w for w in words if re.search(r"\d mm2\b", w)]
+    # The report's void table gives the centres to a tenth of a millimetre (four decimals of a metre), as the
+    # schedule's own figures round to.
+    report = (tmp_path / "out" / "beam-report.md").read_text()
+    table = [line.split("|") for line in report.splitlines() if re.match(r"\| V\d+ \| (polygon|slot|bore) \|", line)]
+    assert table and len(table) == len(rows)
+    for cells, row in zip(table, rows):
+        x, y = cells[3].strip(), cells[4].strip()
+        assert re.fullmatch(r"\d+\.\d{4}", x) and re.fullmatch(r"\d+\.\d{4}", y), cells
+        assert abs(float(x) - float(row["centre_x_m"])) <= 5e-5 and abs(float(y) - float(row["centre_y_m"])) <= 5e-5
 
 
 def test_a_sheet_in_metres_states_its_lengths_in_metres(tmp_path):

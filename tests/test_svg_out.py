@@ -412,9 +412,11 @@ def test_lengths_in_sentences_follow_the_drawing_unit():
         "with slots up to 0.315 m wide (stock sizes of 0.25 and 0.315 m added)"
     assert lengths_in_unit("size 125.0 -> 100 mm; slot 100 x 450.0 mm", metres) == \
         "size 0.125 -> 0.1 m; slot 0.1 x 0.45 m"
-    # areas, coordinates in brackets and other units are not lengths in mm
-    same = "563525 against 504000 mm2 removed at (1200, 350) mm, compliance 5642 N mm"
-    assert lengths_in_unit(same, metres) == same
+    # areas follow the unit squared; coordinates in brackets and other units are not lengths in mm
+    assert lengths_in_unit("563525 against 504000 mm2 removed at (1200, 350) mm, compliance 5642 N mm", metres) == \
+        "0.5635 against 0.504 m2 removed at (1200, 350) mm, compliance 5642 N mm"
+    assert lengths_in_unit("an area of 645.16 mm2", model.Frame(mm_per_unit=25.4, unit="in")) == \
+        "an area of 1 in2"
     assert lengths_in_unit("a minimum web of 50 mm", model.Frame()) == "a minimum web of 50 mm"
     inches = model.Frame(mm_per_unit=25.4, unit="in")
     assert lengths_in_unit("a minimum web of 50.8 mm", inches) == "a minimum web of 2 in"

@@ -69,12 +69,15 @@ class Frame:
 # " and " or " to " ("slot 100 x 450.0 mm", "size 125.0 -> 100 mm", "stock sizes of 250 and 315 mm"), then " mm".
 _LENGTHS = re.compile(r"(\d+(?:\.\d+)?(?:(?: x | -> | and | to )\d+(?:\.\d+)?)*) mm\b")
 _NUMBER = re.compile(r"\d+(?:\.\d+)?")
+# An area in words as the voids stage writes it: a number, or numbers joined by " against " or " -> ", then " mm2"
+# ("593202 against 584216 mm2 removed").
+_AREAS = re.compile(r"(\d+(?:\.\d+)?(?:(?: against | -> | and | to )\d+(?:\.\d+)?)*) mm2\b")
 
 
 def lengths_in_unit(text: str, frame: Frame) -> str:
-    """``text`` with its lengths (written in mm by the voids stage, the rules and the limiting rule) in the
-    drawing's unit, so that a report in metres says "0.282 m overall" and "a minimum web of 0.05 m", like its
-    columns. Areas (mm2) and coordinates in brackets are left as they are."""
+    """``text`` with its lengths and areas (written in mm and mm2 by the voids stage, the rules and the limiting
+    rule) in the drawing's unit, so that a report in metres says "0.282 m overall", "a minimum web of 0.05 m" and
+    "0.5932 against 0.5842 m2 removed", like its columns. Coordinates in brackets are left as they are."""
     if frame.unit == "mm" or not text:
         return text
 
@@ -82,7 +85,12 @@ def lengths_in_unit(text: str, frame: Frame) -> str:
         numbers = _NUMBER.sub(lambda n: f"{frame.length_to_drawing(float(n.group())):.4g}", match.group(1))
         return f"{numbers} {frame.unit}"
 
-    return _LENGTHS.sub(convert, text)
+    def convert_area(match) -> str:
+        per = frame.mm_per_unit ** 2
+        numbers = _NUMBER.sub(lambda n: f"{float(n.group()) / per:.4g}", match.group(1))
+        return f"{numbers} {frame.unit}2"
+
+    return _LENGTHS.sub(convert, _AREAS.sub(convert_area, text))
 
 
 @dataclass(frozen=True)

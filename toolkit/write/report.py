@@ -11,6 +11,16 @@ def _num(value, digits: int = 4) -> str:
     return f"{value:.{digits}g}"
 
 
+# Decimals of a length or coordinate in the report's tables: a tenth of a millimetre in every unit (the schedule
+# CSV carries the full figures).
+_REPORT_DECIMALS = {"mm": 1, "cm": 2, "m": 4, "in": 3, "ft": 4}
+
+
+def _len(value: float, unit: str) -> str:
+    """A length or coordinate in the drawing's ``unit``, to about a tenth of a millimetre."""
+    return f"{value:.{_REPORT_DECIMALS.get(unit, 4)}f}"
+
+
 def _limit_and_shape(s: dict) -> list[str]:
     """What held the layout back, and the shape optimisation's before and after."""
     out = []
@@ -51,8 +61,9 @@ def _travel_lines(s: dict) -> list[str]:
             "|---|---:|---:|---:|---:|---:|",
         ]
         for k, p in enumerate(t["positions"], 1):
-            out.append(f"| {k} | {p['at'][0]:.1f} | {p['at'][1]:.1f} | {_num(p['compliance_solid_Nmm'], 6)} | "
-                       f"{_num(p['compliance_freeform_Nmm'], 6)} | {_num(p['compliance_rationalized_Nmm'], 6)} |")
+            out.append(f"| {k} | {_len(p['at'][0], unit)} | {_len(p['at'][1], unit)} | "
+                       f"{_num(p['compliance_solid_Nmm'], 6)} | {_num(p['compliance_freeform_Nmm'], 6)} | "
+                       f"{_num(p['compliance_rationalized_Nmm'], 6)} |")
         out.append(f"| largest | | | {_num(t['compliance_solid_max_Nmm'], 6)} | "
                    f"{_num(t['compliance_freeform_max_Nmm'], 6)} | {_num(t['compliance_rationalized_max_Nmm'], 6)} |")
         out.append("")
@@ -93,10 +104,10 @@ def _edge_section(s: dict) -> list[str]:
         at = v.get("peak_stress_at")
         sense = {"tension": " (t)", "compression": " (c)"}.get(v.get("peak_stress_sense", ""), "")
         note = " ".join(filter(None, [v.get("edge_note", ""), web["note"] if web else ""]))
-        web_text = f"{web['width']:.1f} to {web['to']}" if web else "–"
+        web_text = f"{_len(web['width'], unit)} to {web['to']}" if web else "–"
         out.append(
             f"| {v['id']} | {_num(peak)}{sense if peak is not None else ''} | "
-            f"{f'{at[0]:.1f}, {at[1]:.1f}' if at else '–'} | {v.get('peak_stress_case') or '–'} | "
+            f"{f'{_len(at[0], unit)}, {_len(at[1], unit)}' if at else '–'} | {v.get('peak_stress_case') or '–'} | "
             f"{_num(v.get('nominal_stress_MPa'))} | {_num(v.get('kt'), 3)} | "
             f"{web_text} | "
             f"{_num(web['mean_stress_MPa'] if web else None)} | {note} |"
@@ -163,7 +174,7 @@ def report_markdown(summary: dict, *, result_svg: str, convergence_svg: str, sch
         "|---|---|---:|---:|---:|---:|---:|---|",
     ]
     for v in s["voids"]:
-        lines.append(f"| {v['id']} | {v['family']} | {v['centre'][0]:.1f} | {v['centre'][1]:.1f} | "
+        lines.append(f"| {v['id']} | {v['family']} | {_len(v['centre'][0], unit)} | {_len(v['centre'][1], unit)} | "
                      f"{v['sides'] or ''} | {v['size']:.4g} | {v['area']:.6g} | {v['tool']} |")
     if not s["voids"]:
         lines.append("| – | no void could be made under the rules | | | | | | |")
@@ -212,7 +223,7 @@ def report_markdown(summary: dict, *, result_svg: str, convergence_svg: str, sch
     if rules["violations"]:
         lines.append(f"**{len(rules['violations'])} rule violations remain** — the layout is not ready to make:")
         lines.append("")
-        lines += [f"- {v['rule']} at ({v['where'][0]:.1f}, {v['where'][1]:.1f}): {v['message']}"
+        lines += [f"- {v['rule']} at ({_len(v['where'][0], unit)}, {_len(v['where'][1], unit)}): {v['message']}"
                   for v in rules["violations"]]
     else:
         lines.append("Every rule was checked on the final geometry with exact distances: no violation.")
