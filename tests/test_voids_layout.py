@@ -808,21 +808,22 @@ def test_after_the_fill_the_layout_is_shaped_and_grown_again(tmp_path):
 
 def test_standard_sizes_that_would_make_the_panel_softer_fall_back_to_the_sizes_all_keep(monkeypatch):
     # The glulam beam's bores. Stand-in for a group size that grows small members: the sizes keeping most
-    # material come back three times as large (softer than the freeform layout by far); the layout must then take
-    # the sizes every member keeps (asked for with most_material=False), here the drafts as they were.
+    # material, tried up to the group's largest member and then up to its median, come back three times as large
+    # (softer than the freeform layout by far); the layout must then take the sizes every member keeps (asked for
+    # with most_material=False), here the drafts as they were.
     import toolkit.voids.layout as layout
 
     calls = []
 
-    def standardise(drafts, max_types, snap, stock, smallest, fits, most_material=True):
-        calls.append(most_material)
+    def standardise(drafts, max_types, snap, stock, smallest, fits, most_material=True, upward=False):
+        calls.append((most_material, upward))
         if most_material:
             return [d.scaled(3.0 * d.size) for d in drafts], []
         return list(drafts), []
 
     monkeypatch.setattr(layout, "standardise_sizes", standardise)
     run = _glulam_beam("bore")
-    assert calls == [True, False]
+    assert calls == [(True, True), (True, False), (False, False)]
     sizes = {v.size_mm for v in run.voids}
     assert sizes and sizes <= set(run.rules.bore_diameters_mm)  # stock sizes: not the tripled ones
     assert run.final.compliance_Nmm <= run.freeform_analysis.compliance_Nmm

@@ -49,6 +49,9 @@ def test_snap_down_and_candidates():
     assert size_candidates([81, 88, 96], "polygon", 5, (), 20) == [85, 80, 81]
     # stock sizes stay stock sizes
     assert size_candidates([40, 50, 65], "bore", 5, (32, 40, 50, 65), 20) == [50, 40]
+    # upward: from the largest member down
+    assert size_candidates([81, 88, 96], "polygon", 5, (), 20, upward=True) == [95, 90, 85, 80, 81]
+    assert size_candidates([40, 50, 65], "bore", 5, (32, 40, 50, 65), 20, upward=True) == [65, 50, 40]
 
 
 def test_types_are_shared_where_they_help_most():
@@ -82,3 +85,30 @@ def test_a_group_takes_the_size_that_keeps_most_material():
     # keeping most material grows a small member so far that the panel would be softer than the freeform one)
     out, _ = standardise_sizes(drafts, 1, 5.0, {"bore": (40.0, 80.0, 150.0)}, 30.0, fits, most_material=False)
     assert [d.size for d in out] == [40.0] * 10
+
+
+def test_a_slot_keeps_its_length_at_another_width():
+    # Two slots of our own, one size allowed: the 250 x 2150 slot takes the group's 200 mm width and keeps its
+    # length (a narrower stadium of the same length about the same axis lies inside the wider one), losing a
+    # fifth of its width's material, not a fifth of its length too.
+    from toolkit.voids.outline import Draft
+    from toolkit.voids.standardise import standardise_sizes
+
+    long = Draft(family="slot", centre=(0.0, 0.0), size=250.0, length=2150.0, angle_deg=90.0, source=0)
+    short = Draft(family="slot", centre=(2000.0, 0.0), size=200.0, length=300.0, angle_deg=90.0, source=1)
+
+    def fits(trial, i, state):  # the short slot's place holds nothing wider than 200 mm
+        return trial if (i != 1 or trial.size <= 200.0 + 1e-9) else None
+
+    out, _ = standardise_sizes([long, short], 1, 5.0, {"slot": (150.0, 200.0, 250.0)}, 50.0, fits,
+                               most_material=False)
+    assert out[0].size == 200.0 and out[0].length == 2150.0
+    # inside the wider one but for the chords its arcs are drawn with (a tenth of a millimetre here)
+    assert out[0].shape().within(long.shape().buffer(0.1))
+    # upward, the group may take its largest member's width where that keeps most material: the short slot
+    # cannot take 250 mm and is dropped; the long one keeps its 250 mm
+    out, changes = standardise_sizes([long, short], 1, 5.0, {"slot": (150.0, 200.0, 250.0)}, 50.0, fits,
+                                     upward=True)
+    assert out[0].size == 250.0 and out[0].length == 2150.0 and out[1] is None
+    assert changes == [(1, "dropped", "it keeps no rule at the group size 250 mm, and at most 1 void sizes are "
+                                      "allowed")]

@@ -68,6 +68,9 @@ ROOM_TOLERANCE_MM = 0.5
 SETTLE_ROUNDS = 4
 # A sound fit whose size is within this share of the size its room was made for is kept without refitting.
 SETTLE_TOLERANCE = 0.02
+# The regrowth after the fill is told in the notes when it removes at least this share more (a growth of a
+# fraction of a mm2 read "756142 against 756142 mm2").
+GROWN_NOTE = 1e-4
 # Relative tolerance of the largest-inscribed-circle searches that only choose among candidates (the proof and
 # the placing step measure finely).
 FIT_RTOL = 5e-3
@@ -1507,7 +1510,7 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
                     again = shaped_from(placed, filled_at)
                     shaped = replace(shaped, analyses=again.analyses)
                     placed = list(again.drafts)  # the same, or stiffer at the same material, or grown under the cap
-                    if again.area_mm2[-1] > again.area_mm2[0]:
+                    if again.area_mm2[-1] > again.area_mm2[0] * (1.0 + GROWN_NOTE):  # else no growth to speak of
                         notes_now.append(f"the layout with them shaped and grown again: {again.area_mm2[-1]:.0f} against "
                                          f"{again.area_mm2[0]:.0f} mm2 removed, no softer than the freeform layout.")
         return _Done(placed, change_recs, notes_now, dropped_now, kinds_now, fit_mm2, shaped)
@@ -1570,17 +1573,19 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
     stock = {"bore": r.bore_diameters_mm, "slot": r.slot_widths_mm}
     before = list(placed)
 
-    def standard(most_material: bool):
+    def standard(most_material: bool, upward: bool = False):
         return standardise_sizes(before, r.max_types, r.snap_mm, stock, r.min_void_mm, site.fits,
-                                 most_material=most_material)
+                                 most_material=most_material, upward=upward)
 
-    placed, size_recs = standard(True)
-    if analysed is not None and any(new is not None and new.size > old.size + 1e-9 for old, new in zip(before, placed)):
-        # A group's size keeping most material may grow its small members more than the size they all keep
-        # would: where that makes the panel softer than the freeform layout, the sizes they all keep instead.
-        evaluate, cap = analysed
-        if evaluate([d for d in placed if d is not None])[0] > cap:
-            placed, size_recs = standard(False)
+    # A group's size keeping most material, tried up to its largest member, then up to its median, may grow its
+    # small members; where that makes the panel softer than the freeform layout, the next of these is taken,
+    # and last the sizes they all keep (which grow nothing the median does not).
+    for most_material, upward in ((True, True), (True, False), (False, False)):
+        placed, size_recs = standard(most_material, upward)
+        grew = any(new is not None and new.size > old.size + 1e-9 for old, new in zip(before, placed))
+        if not most_material or not grew or analysed is None or \
+                analysed[0]([d for d in placed if d is not None])[0] <= analysed[1]:
+            break
     placed, snap_recs = snap_centres(
         placed, r.snap_mm, lambda t, i, s: site.fits(t, i, s, move=False) if shape_ok(t, r.least_feature_mm) else None,
         origin=mirror.origin)

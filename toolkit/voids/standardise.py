@@ -97,9 +97,10 @@ def share_types(sizes_by_family: dict[str, list[float]], max_types: int) -> dict
 
 
 def size_candidates(values: Sequence[float], family: str, snap: float, stock: Sequence[float],
-                    smallest: float) -> list[float]:
-    """Sizes to try for one group, largest first, ending with one that always keeps the rules."""
-    lo, mid = min(values), float(np.median(values))
+                    smallest: float, upward: bool = False) -> list[float]:
+    """Sizes to try for one group, largest first, ending with one that always keeps the rules: from the group's
+    median down, or with ``upward`` from its largest member down."""
+    lo, mid = min(values), float(max(values) if upward else np.median(values))
     if family in ("bore", "slot"):
         # Stock sizes only; the smallest member is a stock size itself.
         return sorted({d for d in stock if lo - 1e-9 <= d <= mid + 1e-9} | {lo}, reverse=True)
@@ -124,14 +125,17 @@ def size_candidates(values: Sequence[float], family: str, snap: float, stock: Se
 
 def standardise_sizes(drafts: list[Draft], max_types: int, snap: float, stock: dict[str, Sequence[float]],
                       smallest: float, fits: Callable[[Draft, int, list[Draft]], Draft | None],
-                      most_material: bool = True) -> tuple[list[Draft], list[tuple[int, str, str]]]:
+                      most_material: bool = True, upward: bool = False
+                      ) -> tuple[list[Draft], list[tuple[int, str, str]]]:
     """Give the drafts at most ``max_types`` sizes, snapped down to the ``snap`` grid where the rules allow.
 
     ``fits(trial, i, state)`` returns the trial (or a moved copy) if draft i may become ``trial`` beside the
     other drafts in ``state``, else None. Returns the new drafts (same order; None for a draft dropped because
     it fits at none of its group's sizes) and change records (index, what, why). ``most_material``: each group's
     size is the one keeping most material (module text); False: the largest size every member keeps where there
-    is one (the group's small members grow less).
+    is one (the group's small members grow less). ``upward``: the sizes tried reach the group's largest member,
+    not its median (``size_candidates``), so small members may grow where the rules leave them room; the caller
+    checks the stiffness of what grew.
     """
     state = list(drafts)
     changes: list[tuple[int, str, str]] = []
@@ -149,14 +153,16 @@ def standardise_sizes(drafts: list[Draft], max_types: int, snap: float, stock: d
             members = [i for i, lab in zip(idx, labels) if lab == g]
             values = [state[i].size for i in members]
             best = None  # (members that fit, trial state, size, area kept) of the best size so far
-            for size in size_candidates(values, family, snap, stock.get(family, ()), smallest):
+            for size in size_candidates(values, family, snap, stock.get(family, ()), smallest, upward):
                 trial_state = list(state)
                 failed = []
                 for i in members:
                     d = state[i]
                     trial = d.scaled(size) if abs(size - d.size) > 1e-9 else d
                     if family == "slot":
-                        trial = trial.with_length(snap_down(trial.length, snap))
+                        # A slot keeps its length at another width (a narrower stadium of the same length about
+                        # the same axis lies inside the wider one; its extent, which a web ratio reads, is the same).
+                        trial = trial.with_length(snap_down(d.length, snap))
                     placed = fits(trial, i, trial_state)
                     if placed is None:
                         failed.append(i)
