@@ -653,6 +653,30 @@ def test_the_report_says_what_was_tried_when_no_rule_held_the_layout_back(monkey
     assert "no web rule or stock list is set that a refit could relax" in none and "fitted again" not in none
 
 
+def test_a_least_void_that_drops_narrow_freeform_voids_is_named_with_the_figure_halving_it_gives(monkeypatch):
+    # Freeform voids 60 and 100 mm wide beside a 300 mm one, a least void of 1.5 x the 100 mm thickness (150 mm)
+    # and no web ratio: the refit with the least void halved (a stand-in answering twice the area where it is)
+    # is the one named, with the thickness behind it and where it is set. Where every freeform void is wide
+    # enough, the least void is not tried (a refit costs a fitting run).
+    from toolkit import pipeline
+
+    def refit(panel, freeform, options, rules, *args, **kwargs):
+        return 2000.0 if pipeline.least_void_size(rules, panel.thickness_mm) < 150.0 else 1000.0
+
+    monkeypatch.setattr(pipeline, "first_fit_area", refit)
+    panel = replace(make_panel(), thickness_mm=100.0)
+    rules = Rules(min_web_mm=25, edge_cover_mm=25, min_void_mm=20, min_void_per_thickness=1.5)
+    narrow = [box(100, 100, 400, 400), box(500, 100, 560, 400), box(700, 100, 800, 400)]
+    said = pipeline.limiting_rule(panel, narrow, VoidOptions(family="polygon"), rules, [], 10.0, 100.0,
+                                  first_fit_mm2=1000.0)
+    assert said.startswith("the least void size (150 mm: 1.5 x the 100 mm thickness) held the voids to make"), said
+    assert "with a least void size of 75 mm the same layout, fitted again, removes 100 % more" in said
+    assert "the profile" in said and "min_void_per_thickness" in said
+    wide = pipeline.limiting_rule(panel, narrow[:1], VoidOptions(family="polygon"), rules, [], 10.0, 100.0,
+                                  first_fit_mm2=1000.0)
+    assert "least void" not in wide.split(":")[0] and "the minimum web halved" in wide, wide
+
+
 def test_dropped_voids_are_placed_in_drawing_coordinates():
     # A panel drawn in metres with its lower-left corner at (12, -3) m: the sentences that drop a freeform void
     # place it as the drafter reads the drawing, not in the panel's local millimetres.

@@ -27,11 +27,12 @@ from .helper import ANALYSIS_MAX_ELEMENTS, Helper, analysis_fits_elsewhere, resu
 from .overlap import Overlap, own
 from .optimize import BesoResult, OptimizeSettings, ZoneSettings, build_problem, run_beso
 from .optimize.beso import optimiser_threads
-from .rules.check import impossible_rules
+from .rules.check import impossible_rules, least_void_size
 from .rules.profiles import rules_for
 from .voids.extract import freeform_voids
-from .voids.layout import (Rationalised, analysis_threads, first_fit_area, rationalise, refuse_impossible,
-                           resolve_settings, warm_evaluator)
+from .voids.layout import (FIT_RTOL, Rationalised, analysis_threads, first_fit_area, rationalise,
+                           refuse_impossible, resolve_settings, warm_evaluator)
+from .voids.measure import inscribed_width
 
 G_M_S2 = 9.81
 
@@ -349,7 +350,7 @@ def _to_voids(panel: Panel, job: Job, rules: Rules, settings, void_region, void_
             if FREEFORM_AHEAD not in early and analysis_fits_elsewhere(g):
                 early[FREEFORM_AHEAD] = side.submit(analysis_elsewhere, with_freeform(panel, freeform, g), g.nx, g.ny,
                                                     g.dx, g.dy)
-            for trial in limit_trials(rules, void_options, sizes):
+            for trial in limit_trials(rules, void_options, sizes, panel, freeform):
                 early[trial.key] = side.submit(first_fit_area, panel, list(freeform), void_options, trial.rules,
                                                energy, layouts)
 
@@ -424,12 +425,27 @@ def larger_stock(largest: float, count: int = 2) -> tuple[float, ...]:
     return tuple(out)
 
 
-def relaxed_rules(rules: Rules, void_options=None) -> list[Relaxed]:
-    """The rules a limiting-rule refit may relax: the web ratio and the minimum web halved where they are set and,
-    given the job's ``void_options``, the stock list of the family's slots or bores with two larger preferred
-    sizes added (the widest slot bounds a slot's width however wide the freeform void is)."""
+def relaxed_rules(rules: Rules, void_options=None, *, thickness_mm: float = 0.0, narrow: bool = False
+                  ) -> list[Relaxed]:
+    """The rules a limiting-rule refit may relax: the web ratio and the minimum web halved where they are set;
+    with ``narrow`` (some freeform void is narrower than the least void size in force for a panel
+    ``thickness_mm`` thick), the least void size halved; and, given the job's ``void_options``, the stock list of
+    the family's slots or bores with two larger preferred sizes added (the widest slot bounds a slot's width
+    however wide the freeform void is)."""
     spacing = "the profile's value has its source, check it before changing it"
     trials = []
+    least = least_void_size(rules, thickness_mm)
+    if narrow and least > 0:
+        per_t = float(rules.min_void_per_thickness or 0.0)
+        by_thickness = per_t * thickness_mm > rules.min_void_mm
+        trials.append(Relaxed(
+            "min_void", dataclasses.replace(rules, min_void_mm=rules.min_void_mm / 2.0,
+                                            min_void_per_thickness=per_t / 2.0),
+            f"the least void size ({least:g} mm" + (f": {per_t:g} x the {thickness_mm:g} mm thickness)"
+                                                    if by_thickness else ")"),
+            f"a least void size of {least / 2.0:g} mm",
+            f"the profile {rules.profile}'s min_void_per_thickness" if by_thickness else "[rules] min_void",
+            "smaller voids are harder to make cleanly; " + spacing))
     if rules.web_ratio:
         trials.append(Relaxed("web_ratio", dataclasses.replace(rules, web_ratio=rules.web_ratio / 2.0),
                               f"the web ratio ({rules.web_ratio:g} x the larger void's size)",
@@ -455,12 +471,16 @@ def relaxed_rules(rules: Rules, void_options=None) -> list[Relaxed]:
     return trials
 
 
-def limit_trials(rules: Rules, void_options, sizes) -> list[Relaxed]:
+def limit_trials(rules: Rules, void_options, sizes, panel: Panel | None = None, freeform=()) -> list[Relaxed]:
     """The ``relaxed_rules`` a limiting-rule refit tries for a layout of voids of these ``sizes`` (mm): the minimum
-    web only where it, not the web ratio, sets the web of a void of the middle size (each trial is a fitting run
-    of its own)."""
+    web only where it, not the web ratio, sets the web of a void of the middle size; the least void size only
+    where some of the ``freeform`` voids of ``panel`` are narrower than it (each trial is a fitting run of its
+    own)."""
     sizes = sorted(sizes) or [0.0]
-    return [t for t in relaxed_rules(rules, void_options)
+    thickness = panel.thickness_mm if panel is not None else 0.0
+    least = least_void_size(rules, thickness)
+    narrow = least > 0 and any(inscribed_width(g, FIT_RTOL) < least for g in freeform)
+    return [t for t in relaxed_rules(rules, void_options, thickness_mm=thickness, narrow=narrow)
             if t.key != "min_web" or rules.min_web_mm >= rules.web_ratio * sizes[len(sizes) // 2]]
 
 
@@ -480,7 +500,7 @@ def limiting_rule(panel: Panel, freeform, void_options, rules: Rules, made_voids
     ``early``: {rule key: a Future of its refit's area} started in the helper process while the voids were
     still being shaped (``limit_trials``); a refit missing there is made here."""
     trials = limit_trials(rules, void_options, [2.0 * float(shapely.minimum_bounding_radius(v.shape))
-                                                for v in made_voids])
+                                                for v in made_voids], panel, freeform)
     early = early or {}
 
     def first_fit(r: Rules, key: str = "") -> float:
@@ -495,7 +515,7 @@ def limiting_rule(panel: Panel, freeform, void_options, rules: Rules, made_voids
     solid = float(panel.solid.area)
     share = 100.0 * made_mm2 / free_mm2
     if best is None or base <= 0 or best[0] <= base * 1.02:
-        names = {"web_ratio": "the web ratio", "min_web": "the minimum web"}
+        names = {"web_ratio": "the web ratio", "min_web": "the minimum web", "min_void": "the least void size"}
         spacing = [names[t.key] for t in trials if t.key in names]
         stock = len(spacing) < len(trials)
         if not trials:
