@@ -425,27 +425,30 @@ def larger_stock(largest: float, count: int = 2) -> tuple[float, ...]:
     return tuple(out)
 
 
-def relaxed_rules(rules: Rules, void_options=None, *, thickness_mm: float = 0.0, narrow: bool = False
+def relaxed_rules(rules: Rules, void_options=None, *, thickness_mm: float = 0.0, narrow_mm: float = 0.0
                   ) -> list[Relaxed]:
     """The rules a limiting-rule refit may relax: the web ratio and the minimum web halved where they are set;
-    with ``narrow`` (some freeform void is narrower than the least void size in force for a panel
-    ``thickness_mm`` thick), the least void size halved; and, given the job's ``void_options``, the stock list of
-    the family's slots or bores with two larger preferred sizes added (the widest slot bounds a slot's width
-    however wide the freeform void is)."""
+    where some freeform void is narrower than the least void size in force for a panel ``thickness_mm`` thick
+    (``narrow_mm``: the widest of those, the diameter of its largest inscribed circle), the least void size halved,
+    or brought to 0.8 of that width where halving would still leave it out; and, given the job's
+    ``void_options``, the stock list of the family's slots or bores with two larger preferred sizes added (the
+    widest slot bounds a slot's width however wide the freeform void is)."""
     spacing = "the profile's value has its source, check it before changing it"
     trials = []
     least = least_void_size(rules, thickness_mm)
-    if narrow and least > 0:
+    if narrow_mm > 0 and least > 0:
         per_t = float(rules.min_void_per_thickness or 0.0)
         by_thickness = per_t * thickness_mm > rules.min_void_mm
-        trials.append(Relaxed(
-            "min_void", dataclasses.replace(rules, min_void_mm=rules.min_void_mm / 2.0,
-                                            min_void_per_thickness=per_t / 2.0),
-            f"the least void size ({least:g} mm" + (f": {per_t:g} x the {thickness_mm:g} mm thickness)"
-                                                    if by_thickness else ")"),
-            f"a least void size of {least / 2.0:g} mm",
-            f"the profile {rules.profile}'s min_void_per_thickness" if by_thickness else "[rules] min_void",
-            "smaller voids are harder to make cleanly; " + spacing))
+        less = min(least / 2.0, math.floor(0.8 * narrow_mm))
+        if less > 0:
+            trials.append(Relaxed(
+                "min_void", dataclasses.replace(rules, min_void_mm=min(rules.min_void_mm, less),
+                                                min_void_per_thickness=per_t * less / least),
+                f"the least void size ({least:g} mm" + (f": {per_t:g} x the {thickness_mm:g} mm thickness)"
+                                                        if by_thickness else ")"),
+                f"a least void size of {less:g} mm",
+                f"the profile {rules.profile}'s min_void_per_thickness" if by_thickness else "[rules] min_void",
+                "smaller voids are harder to make cleanly; " + spacing))
     if rules.web_ratio:
         trials.append(Relaxed("web_ratio", dataclasses.replace(rules, web_ratio=rules.web_ratio / 2.0),
                               f"the web ratio ({rules.web_ratio:g} x the larger void's size)",
@@ -479,8 +482,9 @@ def limit_trials(rules: Rules, void_options, sizes, panel: Panel | None = None, 
     sizes = sorted(sizes) or [0.0]
     thickness = panel.thickness_mm if panel is not None else 0.0
     least = least_void_size(rules, thickness)
-    narrow = least > 0 and any(inscribed_width(g, FIT_RTOL) < least for g in freeform)
-    return [t for t in relaxed_rules(rules, void_options, thickness_mm=thickness, narrow=narrow)
+    widths = [inscribed_width(g, FIT_RTOL) for g in freeform] if least > 0 else []
+    narrow = max([w for w in widths if w < least], default=0.0)
+    return [t for t in relaxed_rules(rules, void_options, thickness_mm=thickness, narrow_mm=narrow)
             if t.key != "min_web" or rules.min_web_mm >= rules.web_ratio * sizes[len(sizes) // 2]]
 
 
@@ -514,6 +518,12 @@ def limiting_rule(panel: Panel, freeform, void_options, rules: Rules, made_voids
             best = (area, trial)
     solid = float(panel.solid.area)
     share = 100.0 * made_mm2 / free_mm2
+    if best is not None and base <= 0 < best[0]:
+        area, trial = best
+        return (f"{trial.name} left no void to make (the freeform layout removed {100 * free_mm2 / solid:.1f} % of "
+                f"the panel); with {trial.change} the freeform voids, fitted again, remove about "
+                f"{100 * area / solid:.1f} % of it before the voids are shaped and checked ({trial.where}; "
+                f"{trial.caution}).")
     if best is None or base <= 0 or best[0] <= base * 1.02:
         names = {"web_ratio": "the web ratio", "min_web": "the minimum web", "min_void": "the least void size"}
         spacing = [names[t.key] for t in trials if t.key in names]
