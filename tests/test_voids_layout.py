@@ -213,6 +213,29 @@ def test_impossible_rules_said_plainly():
     assert "no void can be placed" in str(err.value) and "edge_cover" in err.value.where
 
 
+def test_stock_under_the_least_void_is_refused_naming_the_list_and_the_thickness_behind_the_least_void():
+    # A 200 mm thick panel under a profile whose least void is 1.5 thicknesses (300 mm) and whose widest slot is
+    # 200 mm: refused before any work, naming whose list it is, its sizes, why the least void is 300 mm and the
+    # smallest change. With the job's own list the sentence says so; a thin panel (least void 20 mm) passes.
+    from toolkit.voids.layout import refuse_impossible
+
+    rules = Rules(profile="steel-cut", min_web_mm=25, edge_cover_mm=25, min_void_mm=20, min_void_per_thickness=1.5,
+                  slot_widths_mm=(40.0, 100.0, 200.0), sources=(("slot_widths", "common practice, no source"),))
+    thick = replace(make_panel(w=3000.0, h=1500.0), thickness_mm=200.0)
+    with pytest.raises(LacunaError) as err:
+        refuse_impossible(thick, VoidOptions(family="slot"), rules)
+    assert str(err.value).startswith(
+        "[voids] slot_widths: no void can be made: every slot width in the steel-cut profile's list (40, 100, 200 mm) "
+        "is under the least void of 300 mm (1.5 x the 200 mm thickness, the steel-cut profile's "
+        "min_void_per_thickness)"), str(err.value)
+    assert err.value.where == "[voids] slot_widths"
+    assert "at least 300 mm in [voids] slot_widths" in err.value.hint
+    with pytest.raises(LacunaError) as err:
+        refuse_impossible(thick, VoidOptions(family="slot"), replace(rules, sources=(("slot_widths", "job file"),)))
+    assert "every slot width in the job's list (40, 100, 200 mm)" in str(err.value)
+    refuse_impossible(replace(thick, thickness_mm=10.0), VoidOptions(family="slot"), rules)  # 20 mm least void
+
+
 @pytest.mark.parametrize("key, opts", [
     ("[voids] family", VoidOptions(family="hexagon")),
     ("[voids] sides", VoidOptions(sides=2)),

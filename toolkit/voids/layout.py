@@ -43,6 +43,7 @@ from ..helper import ANALYSIS_MAX_ELEMENTS, analysis_fits_elsewhere, result_or, 
 from ..model import Panel, Rules, Void
 from ..optimize.beso import optimiser_threads
 from ..rules import check as rule_check
+from ..rules.profiles import JOB_SOURCE
 from .cover import (hex_cells, hull_ngon, inscribed_circle, inscribed_slot, largest_part, major_axis_deg,
                     packed_bores, regular_corners, regular_ngon, slot_rows, split)
 from .fit import fit_error, fit_polygon, fit_slot, overlay
@@ -225,14 +226,25 @@ def refuse_impossible(panel: Panel, settings: VoidOptions, rules: Rules, region=
     # A regular n-gon with sides of the least feature has an inscribed circle of feature / tan(pi / n) across.
     ngon = max(r.min_void_mm, r.least_feature_mm / math.tan(math.pi / r.sides))
     problems = []
+    # Why the least void is what it is: a profile's multiple of the thickness where that is larger than min_void.
+    per_t = float(rules.min_void_per_thickness or 0.0)
+    why_least = (f" ({per_t:g} x the {panel.thickness_mm:g} mm thickness, the {rules.profile} profile's "
+                 "min_void_per_thickness)" if per_t * panel.thickness_mm > rules.min_void_mm else "")
     for family, stock, key, noun, ask in (("bore", r.bore_diameters_mm, "bore_diameters", "smallest bore", "a bore"),
                                           ("slot", r.slot_widths_mm, "slot_widths", "narrowest slot", "a slot width")):
         if r.family not in (family, "mixed"):
             continue
         usable = [d for d in stock if d >= r.min_void_mm]
         if not usable:
-            problems.append((f"every {key.replace('_', ' ')[:-1]} listed is under the least void of "
-                             f"{r.min_void_mm:g} mm", f"[voids] {key}", f"List {ask} of at least {r.min_void_mm:g} mm."))
+            # The list is the rules' (the profile's, or the job's own where it gave one), else the job's [voids] one.
+            given = rules.source(key) == JOB_SOURCE or not getattr(rules, f"{key}_mm")
+            listed = "the job's list" if given else f"the {rules.profile} profile's list"
+            sizes = ", ".join(f"{d:g}" for d in stock)
+            problems.append((f"every {key.replace('_', ' ')[:-1]} in {listed} ({sizes} mm) is under the least void "
+                             f"of {r.min_void_mm:g} mm{why_least}", f"[voids] {key}",
+                             f"List {ask} of at least {r.min_void_mm:g} mm in [voids] {key}"
+                             + (", or choose a profile whose least void suits a panel this thick." if why_least
+                                else ".")))
         elif min(usable) > room:
             problems.append((f"{where_room}, and the {noun} listed is {min(usable):g} mm", f"[voids] {key}",
                              f"Add {ask} of at most {math.floor(room):g} mm."))
