@@ -236,6 +236,24 @@ def test_stock_under_the_least_void_is_refused_naming_the_list_and_the_thickness
     refuse_impossible(replace(thick, thickness_mm=10.0), VoidOptions(family="slot"), rules)  # 20 mm least void
 
 
+def test_stock_or_sides_too_large_for_the_room_the_rules_leave_are_refused():
+    # Edge covers of 250 mm on a 600 mm deep panel leave a band 100 mm deep: the job's bores of 150 and 200 mm,
+    # or 12-gons with sides of at least 80 mm (298 mm across their flats), cannot be made there.
+    from toolkit.voids.layout import refuse_impossible
+
+    rules = Rules(min_web_mm=25, edge_cover_mm=250, min_void_mm=20, least_feature_mm=80.0)
+    panel = make_panel()
+    with pytest.raises(LacunaError) as err:
+        refuse_impossible(panel, VoidOptions(family="bore", bore_diameters_mm=(150.0, 200.0)), rules)
+    assert "is 100 mm across, and the smallest bore in the job's list is 150 mm" in str(err.value)
+    assert err.value.where == "[voids] bore_diameters" and "of at most 100 mm" in err.value.hint
+    with pytest.raises(LacunaError) as err:
+        refuse_impossible(panel, VoidOptions(family="polygon", sides=12), rules)
+    assert "the smallest 12-gon with sides of the least feature 80 mm is 299 mm across its flats" in str(err.value)
+    assert err.value.where == "[voids] sides" and "fewer sides" in err.value.hint
+    refuse_impossible(panel, VoidOptions(family="bore", bore_diameters_mm=(50.0, 150.0)), rules)  # 50 mm fits
+
+
 @pytest.mark.parametrize("key, opts", [
     ("[voids] family", VoidOptions(family="hexagon")),
     ("[voids] sides", VoidOptions(sides=2)),

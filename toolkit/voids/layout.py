@@ -235,10 +235,10 @@ def refuse_impossible(panel: Panel, settings: VoidOptions, rules: Rules, region=
         if r.family not in (family, "mixed"):
             continue
         usable = [d for d in stock if d >= r.min_void_mm]
+        # The list is the rules' (the profile's, or the job's own where it gave one), else the job's [voids] one.
+        given = rules.source(key) == JOB_SOURCE or not getattr(rules, f"{key}_mm")
+        listed = "the job's list" if given else f"the {rules.profile} profile's list"
         if not usable:
-            # The list is the rules' (the profile's, or the job's own where it gave one), else the job's [voids] one.
-            given = rules.source(key) == JOB_SOURCE or not getattr(rules, f"{key}_mm")
-            listed = "the job's list" if given else f"the {rules.profile} profile's list"
             sizes = ", ".join(f"{d:g}" for d in stock)
             problems.append((f"every {key.replace('_', ' ')[:-1]} in {listed} ({sizes} mm) is under the least void "
                              f"of {r.min_void_mm:g} mm{why_least}", f"[voids] {key}",
@@ -246,8 +246,8 @@ def refuse_impossible(panel: Panel, settings: VoidOptions, rules: Rules, region=
                              + (", or choose a profile whose least void suits a panel this thick." if why_least
                                 else ".")))
         elif min(usable) > room:
-            problems.append((f"{where_room}, and the {noun} listed is {min(usable):g} mm", f"[voids] {key}",
-                             f"Add {ask} of at most {math.floor(room):g} mm."))
+            problems.append((f"{where_room}, and the {noun} in {listed} is {min(usable):g} mm", f"[voids] {key}",
+                             f"Add {ask} of at most {math.floor(room):g} mm to [voids] {key}."))
     if r.family in ("polygon", "mixed") and ngon > room:
         problems.append((f"{where_room}, and the smallest {r.sides}-gon with sides of the least feature "
                          f"{r.least_feature_mm:g} mm is {ngon:.0f} mm across its flats",
