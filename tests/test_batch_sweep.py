@@ -324,3 +324,21 @@ def test_the_local_cluster_runs_each_job_on_one_thread():
     with dask_client(workers=1) as client:
         seen = client.run(lambda: (os.environ.get(THREADS_ENV), side_threads()))
     assert list(seen.values()) == [("1", 1)]
+
+
+def test_sweep_plot_labels_its_points_to_three_figures():
+    # A sweep 0.9:0.4:4 runs at 0.9, 0.7333..., 0.5666..., 0.4: the labels read as the printed table does (0.733,
+    # 0.567), the markers keep the exact fraction for a script to read. Figures of our own.
+    from toolkit.write.tradeoff_plot import tradeoff_svg
+
+    rows = [{"profile": "timber-bored", "volume_fraction": v, "made_mass_kg": m, "compliance_Nmm": c,
+             "max_deflection_mm": d, "knee": False}
+            for v, m, c, d in ((0.9, 53.5, 10643.0, 0.36), (0.9 - 0.5 / 3, 50.0, 11063.0, 0.38),
+                               (0.9 - 1.0 / 3, 48.3, 12186.0, 0.42), (0.4, 48.0, 12280.0, 0.43))]
+    root = ET.fromstring(tradeoff_svg(rows, title="our own sweep"))
+    labels = {"".join(t.itertext()) for g in root.iter(f"{SVG}g") if (g.get("id") or "") == "compliance-1"
+              for t in g.iter(f"{SVG}text")}
+    assert labels == {"0.9", "0.733", "0.567", "0.4"}
+    marked = sorted(float(m.get("data-volume-fraction")) for g in root.iter(f"{SVG}g")
+                    if g.get("id") == "compliance-1" for m in g if m.get("data-volume-fraction"))
+    assert marked == pytest.approx([0.4, 0.9 - 1.0 / 3, 0.9 - 0.5 / 3, 0.9], rel=1e-5)

@@ -108,7 +108,8 @@ def tradeoff_svg(rows, *, title: str, mass_unit: str = "kg") -> str:
             for r, (x, y) in zip(mine, pts):
                 g.add(_marker(dwg, shape, x, y, 0.9, fill=ink, stroke="none",
                               **{"data-volume-fraction": f"{r['volume_fraction']:g}"}))
-                text(g, f"{r['volume_fraction']:g}", (x + 1.6, y - 1.4), 2.0, fill=ink)
+                # three figures, as the printed table gives them (0.9:0.4:4 runs 0.7333..., labelled 0.733)
+                text(g, f"{float(r['volume_fraction']):.3g}", (x + 1.6, y - 1.4), 2.0, fill=ink)
                 if r.get("knee"):
                     g.add(dwg.circle(center=(fmt(x, 3), fmt(y, 3)), r="1.8", fill="none", stroke=INK,
                                      stroke_width="0.35", id=f"{name}-knee-{i + 1}",
