@@ -832,18 +832,27 @@ def test_segment_distances_are_shapelys():
         assert isinstance(one, float) and one == pytest.approx(got, abs=1e-12), (s1, s2)
 
 
-def test_mixed_keeps_about_what_the_best_single_family_keeps():
+@pytest.mark.parametrize("example, voids, share", [
     # The example beam loaded at 0.7 of its span, under the precast-formed rules, where the n-gons alone keep most
     # of the saving (86.4 %, against slots 66.5 % and bores 57.3 %). Picked at the optimiser's own price of
     # stiffness, mixed took slots and bores for two of the n-gons' voids and kept 68.8 %, with stiffness to spare
     # (11,774 against a cap of 12,566 N mm); picked at MIXED_PRICE it keeps 86.3 % (2026-12-03).
+    ("beam-load-at-0.7", "snap = 5", 0.95),
+    # The example wall leaf with regular squares under the same rules: at the first fit slots removed more than the
+    # squares (21.0 against 19.5 % of the panel), but the squares grow in the shape optimisation where stock slots
+    # cannot: mixed kept 41.6 % of the saving against the squares' 67.0 % until it made the voids as n-gons alone
+    # too and took what removes more (_mixed_or_ngons, 2026-12-03).
+    ("wall-leaf-on-two-bearings", "sides = 4\nregular = true", 0.99),
+])
+def test_mixed_keeps_about_what_the_best_single_family_keeps(example, voids, share):
     from toolkit import pipeline
     from toolkit.inputs import load_panel
 
     examples = Path(__file__).resolve().parents[1] / "fixtures" / "examples"
-    drawing = examples / "beam-load-at-0.7.dxf"
-    text = (examples / "beam-load-at-0.7.toml").read_text(encoding="utf-8")
-    text = text.split("[voids]")[0] + '[voids]\nfamily = "{family}"\nsnap = 5\n[rules]\nprofile = "precast-formed"\n'
+    drawing = examples / f"{example}.dxf"
+    text = (examples / f"{example}.toml").read_text(encoding="utf-8")
+    text = text.split("[voids]")[0] + ('[voids]\nfamily = "{family}"\n' + voids
+                                       + '\n[rules]\nprofile = "precast-formed"\n')
     kept = {}
     with tempfile.TemporaryDirectory() as tmp:
         for family in ("polygon", "mixed"):
@@ -853,7 +862,7 @@ def test_mixed_keeps_about_what_the_best_single_family_keeps():
             run = pipeline.optimize_panel(panel, job)
             assert run.final.compliance_Nmm <= run.freeform_analysis.compliance_Nmm * (1 + 1e-9)
             kept[family] = run.capture_percent
-    assert kept["mixed"] >= 0.95 * kept["polygon"], kept
+    assert kept["mixed"] >= share * kept["polygon"], kept
 
 
 def test_after_the_fill_the_layout_is_shaped_and_grown_again(tmp_path):
