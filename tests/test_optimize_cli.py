@@ -252,3 +252,27 @@ def test_a_sheet_in_metres_states_its_lengths_in_metres(tmp_path):
     assert "lengths in m;" in svg
     assert re.search(r'data-length="[\d.]+ m"', svg)
     assert "thickness 0.09 m" in svg and "4.8 \u00d7 0.6 m" in svg
+
+
+def test_a_grid_too_coarse_for_any_void_says_which_element_size_would_do(tmp_path):
+    # A beam of our own 2.4 m long and 0.3 m deep, drawn in metres, meshed at 0.1 m: three elements deep. The
+    # optimiser empties elements one wide, which outline no void; the run says why nothing was made and which
+    # element size would give voids room to take shape (the depth over 20), in the drawing's unit.
+    doc = ezdxf.new("R2013")
+    doc.header["$INSUNITS"] = 6
+    doc.modelspace().add_lwpolyline([(0, 0), (2.4, 0), (2.4, 0.3), (0, 0.3)], close=True,
+                                    dxfattribs={"layer": "PANEL"})
+    doc.saveas(tmp_path / "coarse.dxf")
+    (tmp_path / "coarse.toml").write_text(
+        'units = "m"\n[panel]\nthickness = 0.02\nelement_size = 0.1\n[material]\nE_MPa = 30000\nnu = 0.2\n'
+        '[[support]]\nfrom = [0, 0]\nto = [0.1, 0]\n[[support]]\nfrom = [2.3, 0]\nto = [2.4, 0]\nfix = "y"\n'
+        '[[load]]\nfrom = [0, 0.3]\nto = [2.4, 0.3]\nwy_kN_m = -20\n[optimize]\nvolume_fraction = 0.7\n'
+        '[voids]\nfamily = "polygon"\n[rules]\nprofile = "timber-bored"\n')
+    result = CliRunner().invoke(main, ["optimize", str(tmp_path / "coarse.dxf"), "--job", str(tmp_path / "coarse.toml"),
+                                       "--out", str(tmp_path / "out"), "--json"])
+    assert result.exit_code == 0, result.output
+    s = json.loads(result.stdout)
+    assert s["freeform_voids"] == 0 and not s["voids"]
+    said = [w for w in s["warnings"] if "left no void wider than the grid resolves" in w]
+    assert said and "3 elements across the panel's 0.3 m" in said[0], s["warnings"]
+    assert "element_size to at most 0.015 m (20 elements across it)" in said[0]

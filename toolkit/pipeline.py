@@ -35,6 +35,8 @@ from .voids.layout import (FIT_RTOL, Rationalised, analysis_threads, first_fit_a
 from .voids.measure import inscribed_width
 
 G_M_S2 = 9.81
+# Elements across the panel's shorter side that a warning asks for when the grid was too coarse for any void.
+FINE_ACROSS = 20
 
 
 @dataclass(frozen=True, eq=False)
@@ -286,6 +288,16 @@ def optimize_panel(
         )
     if not rationalised.voids:
         warnings.append("no void could be made under the rules: the panel is left solid.")
+    emptied = 1.0 - float(beso.volume_fraction[-1]) if len(beso.volume_fraction) else 0.0
+    if not freeform and emptied > 0.01:
+        # Elements emptied one or two wide (a grid a few elements deep) outline no void the fitting can take.
+        g = solid.grid
+        depth, across = min((panel.height_mm, g.ny), (panel.width_mm, g.nx))
+        warnings.append(
+            f"the optimiser emptied {100 * emptied:.0f} % of the design region's elements but left no void wider "
+            f"than the grid resolves: {across} elements across the panel's {depth:g} mm. Set [panel] element_size "
+            f"to at most {depth / FINE_ACROSS:.3g} mm ({FINE_ACROSS} elements across it) for voids to take shape."
+        )
     return OptimizeRun(
         panel=panel, rules=rules, settings=settings, solid=solid, beso=beso, freeform=freeform,
         rationalised=rationalised, final=final, freeform_analysis=freeform_analysis, warnings=tuple(warnings),

@@ -205,7 +205,9 @@ def optimize_summary(run: OptimizeRun, drawing: Drawing | None) -> dict:
             "compliance_Nmm": [float(c) for c in beso.compliance_Nmm],
             "volume_fraction": [float(v) for v in beso.volume_fraction],
         },
-        "warnings": list((drawing.warnings if drawing else ()) + run.solid.warnings + run.warnings),
+        # the drawing's own warnings quote it as it is; the run's are sentences in the drawing's unit too
+        "warnings": list(drawing.warnings if drawing else ()) + [lengths_in_unit(w, f)
+                                                                 for w in run.solid.warnings + run.warnings],
         # What the fitting did that is worth knowing but nothing to fix: islands filled, symmetry kept, the
         # honeycomb taken, voids added, a shape stage that kept its input.
         "notes": [lengths_in_unit(n, f) for n in run.rationalised.notes],
