@@ -193,6 +193,19 @@ def test_checking_a_result_drawing_writes_beside_it_not_into_a_doubled_folder(tm
     assert (result.parent / f"{src.stem}-lacuna-check.json").exists()
 
 
+def _optimize_in_metres(folder, stem: str, width: float, depth: float, job: str, *options: str):
+    """``lacuna optimize`` on a rectangle ``width`` x ``depth`` drawn in metres on PANEL, with the job text ``job``;
+    the outputs in ``folder``/out."""
+    doc = ezdxf.new("R2013")
+    doc.header["$INSUNITS"] = 6
+    doc.modelspace().add_lwpolyline([(0, 0), (width, 0), (width, depth), (0, depth)], close=True,
+                                    dxfattribs={"layer": "PANEL"})
+    doc.saveas(folder / f"{stem}.dxf")
+    (folder / f"{stem}.toml").write_text(job)
+    return CliRunner().invoke(main, ["optimize", str(folder / f"{stem}.dxf"), "--job", str(folder / f"{stem}.toml"),
+                                     "--out", str(folder / "out"), *options])
+
+
 def test_a_schedule_in_metres_keeps_its_unit_and_its_digits(tmp_path):
     # A beam of our own drawn and described in metres: every length of the schedule in metres to a thousandth of
     # a millimetre (six decimals), areas without an exponent, and the tool words' lengths in metres too.
@@ -200,18 +213,12 @@ def test_a_schedule_in_metres_keeps_its_unit_and_its_digits(tmp_path):
     import io
     import re
 
-    doc = ezdxf.new("R2013")
-    doc.header["$INSUNITS"] = 6
-    doc.modelspace().add_lwpolyline([(0, 0), (4.8, 0), (4.8, 0.6), (0, 0.6)], close=True,
-                                    dxfattribs={"layer": "PANEL"})
-    doc.saveas(tmp_path / "beam.dxf")
-    (tmp_path / "beam.toml").write_text(
+    result = _optimize_in_metres(
+        tmp_path, "beam", 4.8, 0.6,
         'units = "m"\n[panel]\nthickness = 0.09\nelement_size = 0.04\n[material]\nE_MPa = 11500\nnu = 0.3\n'
         'density_kg_m3 = 450\n[[support]]\nfrom = [0, 0]\nto = [0.1, 0]\n[[support]]\nfrom = [4.7, 0]\n'
         'to = [4.8, 0]\nfix = "y"\n[[load]]\nfrom = [0, 0.6]\nto = [4.8, 0.6]\nwy_kN_m = -8\n[optimize]\n'
         'volume_fraction = 0.6\n[voids]\nfamily = "polygon"\nsides = 6\n[rules]\nprofile = "timber-bored"\n')
-    result = CliRunner().invoke(main, ["optimize", str(tmp_path / "beam.dxf"), "--job", str(tmp_path / "beam.toml"),
-                                       "--out", str(tmp_path / "out")])
     assert result.exit_code == 0, result.output
     rows = list(csv.DictReader(io.StringIO((tmp_path / "out" / "beam-schedule.csv").read_text())))
     assert rows
@@ -258,18 +265,12 @@ def test_a_grid_too_coarse_for_any_void_says_which_element_size_would_do(tmp_pat
     # A beam of our own 2.4 m long and 0.3 m deep, drawn in metres, meshed at 0.1 m: three elements deep. The
     # optimiser empties elements one wide, which outline no void; the run says why nothing was made and which
     # element size would give voids room to take shape (the depth over 20), in the drawing's unit.
-    doc = ezdxf.new("R2013")
-    doc.header["$INSUNITS"] = 6
-    doc.modelspace().add_lwpolyline([(0, 0), (2.4, 0), (2.4, 0.3), (0, 0.3)], close=True,
-                                    dxfattribs={"layer": "PANEL"})
-    doc.saveas(tmp_path / "coarse.dxf")
-    (tmp_path / "coarse.toml").write_text(
+    result = _optimize_in_metres(
+        tmp_path, "coarse", 2.4, 0.3,
         'units = "m"\n[panel]\nthickness = 0.02\nelement_size = 0.1\n[material]\nE_MPa = 30000\nnu = 0.2\n'
         '[[support]]\nfrom = [0, 0]\nto = [0.1, 0]\n[[support]]\nfrom = [2.3, 0]\nto = [2.4, 0]\nfix = "y"\n'
         '[[load]]\nfrom = [0, 0.3]\nto = [2.4, 0.3]\nwy_kN_m = -20\n[optimize]\nvolume_fraction = 0.7\n'
-        '[voids]\nfamily = "polygon"\n[rules]\nprofile = "timber-bored"\n')
-    result = CliRunner().invoke(main, ["optimize", str(tmp_path / "coarse.dxf"), "--job", str(tmp_path / "coarse.toml"),
-                                       "--out", str(tmp_path / "out"), "--json"])
+        '[voids]\nfamily = "polygon"\n[rules]\nprofile = "timber-bored"\n', "--json")
     assert result.exit_code == 0, result.output
     s = json.loads(result.stdout)
     assert s["freeform_voids"] == 0 and not s["voids"]
