@@ -1618,7 +1618,7 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
                 done = finish(taken, evaluate, cap, free_shapes)
             elif done.shaped is not None:
                 done = replace(done, shaped=replace(done.shaped, analyses=done.shaped.analyses + honey_analyses))
-        if r.family == "mixed" and not mirror.axes:
+        if r.family == "mixed":
             done = _mixed_or_ngons(done, chosen, best, site, r, evaluate, cap, free_shapes, finish, on_first_fit)
     else:
         done = finish(_Stage(placed, change_recs, drop_recs, None), None, None, [])
