@@ -91,6 +91,11 @@ class BesoResult:
         return float(self.compliance_Nmm[-1])
 
 
+def sensitivity_filter(problem: Problem, settings: OptimizeSettings) -> SensitivityFilter:
+    """The filter ``run_beso`` uses on ``problem`` with ``settings``, built ahead (``run_beso``'s ``filt``)."""
+    return SensitivityFilter(problem.grid, filter_radius(problem, settings))
+
+
 def filter_radius(problem: Problem, settings: OptimizeSettings) -> float:
     """The filter radius in mm: the setting, or three element sizes; LacunaError below one element."""
     g = problem.grid
@@ -114,6 +119,7 @@ def run_beso(
     keep_every: int = 0,
     backend: str = "auto",
     shared: SharedSolver | None = None,
+    filt: SensitivityFilter | None = None,
 ) -> BesoResult:
     """Optimise ``problem`` by soft-kill BESO; see the module docstring for the method.
 
@@ -121,7 +127,8 @@ def run_beso(
     bars). ``keep_every`` > 0 keeps a copy of the densities every that many iterations, and of the last.
     ``backend`` chooses the sparse solver (:class:`~toolkit.fe.solve.LinearSolver`; "auto" takes the fastest
     one installed). ``shared``: the job's solver (``fe.solve.SharedSolver`` of the same backend), refactored
-    where it fits: the design is the same.
+    where it fits: the design is the same. ``filt``: the sensitivity filter of ``problem``'s grid at
+    ``filter_radius(problem, settings)``, where the caller built it ahead (``sensitivity_filter``).
     """
     check_problem(problem)
     g = problem.grid
@@ -143,7 +150,7 @@ def run_beso(
     keep_every = int(keep_every)
 
     # --- built once ---
-    filt = SensitivityFilter(g, radius)
+    filt = filt if filt is not None else SensitivityFilter(g, radius)
     orbit_all = symmetry_orbits(g, settings.symmetry)
     design_idx = np.flatnonzero(design)
     _, orbit = np.unique(orbit_all[design_idx], return_inverse=True)
