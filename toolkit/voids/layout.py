@@ -1174,7 +1174,8 @@ class _Stage:
     drop_recs: list
     first: tuple | None
     notes: tuple = ()
-    # another first fit's choice of layout per void and its area (``mixed``'s n-gons alone); None: the run's own
+    # another first fit's choice of layout per void and its area (``mixed``'s n-gons, ``_mixed_or_ngons``); None:
+    # the run's own
     kinds: dict | None = None
     first_fit_mm2: float | None = None
 
@@ -1281,7 +1282,8 @@ def _with_honeycomb(fitted: _Stage, honey, cap: float, c_fit: float, area_fit: f
 def _mixed_or_ngons(done: _Done, chosen: dict, best: dict, site: Site, r: Resolved, evaluate, cap: float,
                     free_shapes, finish, on_first_fit) -> _Done:
     """``mixed``: the layout ``done`` made from the first fit's choice of family per void, or the same voids made
-    as n-gons alone where that removes more once both are shaped, grown and filled. The choice is made at the first
+    as n-gons wherever an n-gon fits (the others as chosen) where that removes more once both are shaped, grown and
+    filled. The choice is made at the first
     fit, where a slot or a bore may remove more than an n-gon, but an n-gon's corners can then move and grow where
     a stock slot or bore cannot: measured 2026-12-03, a wall leaf of the examples with regular squares under the
     precast rules removed 24.7 % of the panel as mixed against 30.2 % as n-gons alone. One more first fit and its
@@ -1302,7 +1304,8 @@ def _mixed_or_ngons(done: _Done, chosen: dict, best: dict, site: Site, r: Resolv
     other = finish(start, evaluate, cap, free_shapes)
     ours, theirs = site.area(done.placed), site.area(other.placed)
     if theirs > ours * (1.0 + 1e-9):
-        note = (f"the voids made as n-gons alone remove more than with the family chosen per void at the first fit "
+        note = (f"the voids made as n-gons wherever one fits remove more than with the family chosen per void at the "
+                f"first fit "
                 f"({theirs:.0f} against {ours:.0f} mm2 once shaped and grown, both no softer than the freeform "
                 "layout): taken.")
         return replace(other, notes=other.notes + [note], shaped=replace(other.shaped, analyses=evaluate.analyses)
