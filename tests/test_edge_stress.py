@@ -496,6 +496,22 @@ def test_check_reads_a_rounded_polygon_as_the_optimiser_makes_it(tmp_path):
     assert "sharp" not in drawn["edge_note"]
 
 
+def test_a_chamfered_void_is_told_its_corners_are_sharp_and_which_easing_gives_a_figure():
+    """A square void with 10 mm chamfers in the strip: a chamfer leaves two sharp corners where it cuts one, so the
+    figure has no finite limit and the note says so and names the radius; with 10 mm radii, no such note."""
+    square = np.array([[560, 160], [640, 160], [640, 240], [560, 240]], float)
+    notes = {}
+    for easing in ("chamfer", "radius"):
+        outline = eased_outline(square, easing, 10.0)
+        made = Void(id="Q", family="polygon", centre=(600.0, 200.0), size_mm=80 * math.sqrt(2),
+                    shape=outline_polygon(outline), outline=outline, sides=4)
+        (r,) = whole_path(strip_panel(20.0), [made])
+        notes[easing] = r.note
+    assert "a chamfer leaves two where it cuts one" in notes["chamfer"]
+    assert '[voids] corner = "radius"' in notes["chamfer"]
+    assert "sharp" not in notes["radius"]
+
+
 # --- random layouts: a figure or a reason, never a crash --------------------------------------------------------
 
 from hypothesis import HealthCheck, given, settings  # noqa: E402

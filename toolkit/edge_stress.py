@@ -560,9 +560,9 @@ def _local_model(panel: Panel, void: Void, others, final, solid, refine: float) 
     webs = tuple(_web(mesh, U, mat, name, shape, other, c) for name, other in neighbours)
     note = ""
     if sharp:
-        note = (f"sharp corners: in elasticity the stress at a sharp corner has no finite peak; the figure is the "
-                f"local model's with elements of {h_edge / CORNER_SHRINK:.2g} mm at the corner and grows as they "
-                "shrink (ease the corners: [voids] corner).")
+        note = (f"sharp corners (a chamfer leaves two where it cuts one): in elasticity the stress at a sharp corner "
+                f"has no finite peak; the figure is the local model's with elements of {h_edge / CORNER_SHRINK:.2g} mm "
+                'at the corner and grows as they shrink (a radius gives a finite one: [voids] corner = "radius").')
     if nominal_c is not None and kt is None:
         note = (note + " " if note else "") + (f"the solid panel is hardly stressed at this void (nominal stress "
                                                f"under {KT_FLOOR:.0%} of the peak): no Kt.")
