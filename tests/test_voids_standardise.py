@@ -112,3 +112,19 @@ def test_a_slot_keeps_its_length_at_another_width():
     assert out[0].size == 250.0 and out[0].length == 2150.0 and out[1] is None
     assert changes == [(1, "dropped", "it keeps no rule at the group size 250 mm, and at most 1 void sizes are "
                                       "allowed")]
+
+
+def test_a_held_group_grows_no_member():
+    # Bores of our own, 40, 50 and 65 mm, one size allowed, room everywhere: the sizes all keep give the group its
+    # median (50 mm: the 40 mm bore grows); held, the group takes its smallest member's size and nothing grows.
+    from toolkit.voids.outline import Draft
+    from toolkit.voids.standardise import size_groups, standardise_sizes
+
+    drafts = [Draft(family="bore", centre=(300.0 * k, 0.0), size=s, source=k) for k, s in enumerate((40.0, 50.0, 65.0))]
+    assert size_groups(drafts, 1) == {("bore", 0): [0, 1, 2]}
+    stock = {"bore": (32.0, 40.0, 50.0, 65.0)}
+    out, _ = standardise_sizes(drafts, 1, 5.0, stock, 20.0, lambda t, i, s: t, most_material=False)
+    assert [d.size for d in out] == [50.0] * 3
+    out, _ = standardise_sizes(drafts, 1, 5.0, stock, 20.0, lambda t, i, s: t, most_material=False,
+                               held=[("bore", 0)])
+    assert [d.size for d in out] == [40.0] * 3

@@ -18,7 +18,7 @@ the stock sizes in the group's range.
 from __future__ import annotations
 
 import math
-from typing import Callable, Sequence
+from typing import Callable, Collection, Sequence
 
 import numpy as np
 
@@ -97,10 +97,13 @@ def share_types(sizes_by_family: dict[str, list[float]], max_types: int) -> dict
 
 
 def size_candidates(values: Sequence[float], family: str, snap: float, stock: Sequence[float],
-                    smallest: float, upward: bool = False) -> list[float]:
+                    smallest: float, upward: bool = False, grow: bool = True) -> list[float]:
     """Sizes to try for one group, largest first, ending with one that always keeps the rules: from the group's
-    median down, or with ``upward`` from its largest member down."""
+    median down, or with ``upward`` from its largest member down; without ``grow``, only sizes no member grows to
+    (the smallest member's, snapped down where that keeps the least void)."""
     lo, mid = min(values), float(max(values) if upward else np.median(values))
+    if not grow:
+        mid = lo
     if family in ("bore", "slot"):
         # Stock sizes only; the smallest member is a stock size itself.
         return sorted({d for d in stock if lo - 1e-9 <= d <= mid + 1e-9} | {lo}, reverse=True)
@@ -123,10 +126,28 @@ def size_candidates(values: Sequence[float], family: str, snap: float, stock: Se
     return seen
 
 
+def size_groups(drafts: list[Draft], max_types: int) -> dict[tuple[str, int], list[int]]:
+    """The groups ``standardise_sizes`` gives one size each: {(family, group number): indices into ``drafts``}, the
+    groups of a family numbered from its smallest sizes up; irregular n-gons are in none."""
+    by_family: dict[str, list[int]] = {}
+    for i, d in enumerate(drafts):
+        if d.family == "polygon" and not d.regular:
+            continue  # each irregular n-gon is cut to its own corners: its size is no tool or former to stock
+        by_family.setdefault(d.family, []).append(i)
+    share = share_types({f: [drafts[i].size for i in idx] for f, idx in by_family.items()}, max_types)
+    groups: dict[tuple[str, int], list[int]] = {}
+    for family in sorted(by_family):
+        idx = by_family[family]
+        labels, _ = cluster_1d([drafts[i].size for i in idx], share[family])
+        for g in sorted(set(labels.tolist()), reverse=True):
+            groups[(family, g)] = [i for i, lab in zip(idx, labels) if lab == g]
+    return groups
+
+
 def standardise_sizes(drafts: list[Draft], max_types: int, snap: float, stock: dict[str, Sequence[float]],
                       smallest: float, fits: Callable[[Draft, int, list[Draft]], Draft | None],
-                      most_material: bool = True, upward: bool = False
-                      ) -> tuple[list[Draft], list[tuple[int, str, str]]]:
+                      most_material: bool = True, upward: bool = False, grow: bool = True,
+                      held: Collection[tuple[str, int]] = ()) -> tuple[list[Draft], list[tuple[int, str, str]]]:
     """Give the drafts at most ``max_types`` sizes, snapped down to the ``snap`` grid where the rules allow.
 
     ``fits(trial, i, state)`` returns the trial (or a moved copy) if draft i may become ``trial`` beside the
@@ -135,63 +156,55 @@ def standardise_sizes(drafts: list[Draft], max_types: int, snap: float, stock: d
     size is the one keeping most material (module text); False: the largest size every member keeps where there
     is one (the group's small members grow less). ``upward``: the sizes tried reach the group's largest member,
     not its median (``size_candidates``), so small members may grow where the rules leave them room; the caller
-    checks the stiffness of what grew.
+    checks the stiffness of what grew. ``grow`` False: no member grows (each group takes its smallest member's
+    size), so the layout is no softer than the one given; ``held``: the groups (keys of ``size_groups``) where
+    no member grows, the others as asked.
     """
     state = list(drafts)
     changes: list[tuple[int, str, str]] = []
-    by_family: dict[str, list[int]] = {}
-    for i, d in enumerate(state):
-        if d.family == "polygon" and not d.regular:
-            continue  # each irregular n-gon is cut to its own corners: its size is no tool or former to stock
-        by_family.setdefault(d.family, []).append(i)
-    share = share_types({f: [state[i].size for i in idx] for f, idx in by_family.items()}, max_types)
-    for family in sorted(by_family):
-        idx = by_family[family]
-        sizes = [state[i].size for i in idx]
-        labels, _ = cluster_1d(sizes, share[family])
-        for g in sorted(set(labels.tolist()), reverse=True):
-            members = [i for i, lab in zip(idx, labels) if lab == g]
-            values = [state[i].size for i in members]
-            best = None  # (members that fit, trial state, size, area kept) of the best size so far
-            for size in size_candidates(values, family, snap, stock.get(family, ()), smallest, upward):
-                trial_state = list(state)
-                failed = []
-                for i in members:
-                    d = state[i]
-                    trial = d.scaled(size) if abs(size - d.size) > 1e-9 else d
-                    if family == "slot":
-                        # A slot keeps its length at another width (a narrower stadium of the same length about
-                        # the same axis lies inside the wider one; its extent, which a web ratio reads, is the same).
-                        trial = trial.with_length(snap_down(d.length, snap))
-                    placed = fits(trial, i, trial_state)
-                    if placed is None:
-                        failed.append(i)
-                        trial_state[i] = None
-                    else:
-                        trial_state[i] = placed
-                kept = sum(trial_state[i].shape().area for i in members if trial_state[i] is not None)
-                # The size keeping most material wins (a small member the size does not fit is dropped rather
-                # than every large one shrunk to the smallest's size); among equal ones, the larger size.
-                if best is None or (kept > best[3] * (1.0 + 1e-9) if most_material else len(failed) < len(best[0])):
-                    best = (failed, trial_state, size, kept)
-                if not failed:
-                    break  # every member kept: a smaller size keeps less of each
-            # A member that can take none of the group's sizes (a thin polygon scaled down to the group's
-            # size may fall under the least void size) is dropped rather than given a size of its own.
-            failed, trial_state, size, _ = best
+    for (family, g), members in size_groups(state, max_types).items():
+        values = [state[i].size for i in members]
+        best = None  # (members that fit, trial state, size, area kept) of the best size so far
+        for size in size_candidates(values, family, snap, stock.get(family, ()), smallest, upward,
+                                    grow and (family, g) not in held):
+            trial_state = list(state)
+            failed = []
             for i in members:
-                old, new = state[i], trial_state[i]
-                if new is None:
-                    changes.append((i, "dropped", f"it keeps no rule at the group size {size:g} mm, and at most "
-                                                  f"{max_types} void sizes are allowed"))
-                    continue
-                if abs(old.size - new.size) > 1e-9:
-                    changes.append((i, f"size {old.size:.1f} -> {new.size:g} mm",
-                                    f"one of at most {max_types} void sizes"))
-                if math.dist(old.centre, new.centre) > 1e-6:
-                    changes.append((i, f"moved {math.dist(old.centre, new.centre):.1f} mm",
-                                    "to keep the rules at the standard size"))
-            state = trial_state
+                d = state[i]
+                trial = d.scaled(size) if abs(size - d.size) > 1e-9 else d
+                if family == "slot":
+                    # A slot keeps its length at another width (a narrower stadium of the same length about
+                    # the same axis lies inside the wider one; its extent, which a web ratio reads, is the same).
+                    trial = trial.with_length(snap_down(d.length, snap))
+                placed = fits(trial, i, trial_state)
+                if placed is None:
+                    failed.append(i)
+                    trial_state[i] = None
+                else:
+                    trial_state[i] = placed
+            kept = sum(trial_state[i].shape().area for i in members if trial_state[i] is not None)
+            # The size keeping most material wins (a small member the size does not fit is dropped rather
+            # than every large one shrunk to the smallest's size); among equal ones, the larger size.
+            if best is None or (kept > best[3] * (1.0 + 1e-9) if most_material else len(failed) < len(best[0])):
+                best = (failed, trial_state, size, kept)
+            if not failed:
+                break  # every member kept: a smaller size keeps less of each
+        # A member that can take none of the group's sizes (a thin polygon scaled down to the group's
+        # size may fall under the least void size) is dropped rather than given a size of its own.
+        failed, trial_state, size, _ = best
+        for i in members:
+            old, new = state[i], trial_state[i]
+            if new is None:
+                changes.append((i, "dropped", f"it keeps no rule at the group size {size:g} mm, and at most "
+                                              f"{max_types} void sizes are allowed"))
+                continue
+            if abs(old.size - new.size) > 1e-9:
+                changes.append((i, f"size {old.size:.1f} -> {new.size:g} mm",
+                                f"one of at most {max_types} void sizes"))
+            if math.dist(old.centre, new.centre) > 1e-6:
+                changes.append((i, f"moved {math.dist(old.centre, new.centre):.1f} mm",
+                                "to keep the rules at the standard size"))
+        state = trial_state
     return state, changes
 
 
