@@ -209,11 +209,14 @@ def standardise_sizes(drafts: list[Draft], max_types: int, snap: float, stock: d
 
 
 def snap_centres(drafts: list[Draft], snap: float, fits: Callable[[Draft, int, list[Draft]], Draft | None],
-                 origin: tuple[float, float] = (0.0, 0.0)) -> tuple[list[Draft], list[tuple[int, str, str]]]:
+                 origin: tuple[float, float] = (0.0, 0.0), inward_only: bool = False
+                 ) -> tuple[list[Draft], list[tuple[int, str, str]]]:
     """Move every centre to the nearest point of the ``snap`` grid where the rules allow (else leave it).
 
     The grid runs through ``origin``: the panel's corner, or a mid-line the layout is symmetric about (a grid
-    through the mirror line is its own mirror image, so mirror pairs both land on it).
+    through the mirror line is its own mirror image, so mirror pairs both land on it). An irregular n-gon's
+    corners snap instead, to the nearest grid points, else towards its centre; with ``inward_only``, towards its
+    centre alone.
     """
     state = list(drafts)
     changes: list[tuple[int, str, str]] = []
@@ -226,7 +229,7 @@ def snap_centres(drafts: list[Draft], snap: float, fits: Callable[[Draft, int, l
         if d.family == "polygon" and not d.regular:
             # The nearest grid points first (the shape keeps its size); where that breaks a rule, towards the centre.
             placed = None
-            for inward in (False, True):
+            for inward in ((True,) if inward_only else (False, True)):
                 trial = d.corners_snapped(snap, origin, inward=inward)
                 placed = fits(trial, i, state) if trial is not None else None
                 if placed is not None:
