@@ -1279,6 +1279,27 @@ def _with_honeycomb(fitted: _Stage, honey, cap: float, c_fit: float, area_fit: f
     return _Stage(lattice, change_recs, other[2], (c_grid, e_grid), (note,))
 
 
+def _chosen_drafts(chosen: dict, best: dict) -> tuple[list[Draft], dict[int, tuple[str, str]], list[int]]:
+    """The drafts of each void's layout in the family ``chosen`` for it (None: none), from ``best`` ({void: {family:
+    layout}}): (drafts, {void: (family, layout kind)}, the voids with nothing)."""
+    drafts: list[Draft] = []
+    kinds: dict[int, tuple[str, str]] = {}
+    missing = []
+    for i, f in chosen.items():
+        got = best[i].get(f, []) if f else []
+        if not got:
+            missing.append(i)
+        elif isinstance(got, Layout):
+            kinds[i] = (f, got.kind)
+        drafts.extend(got)
+    return drafts, kinds, missing
+
+
+def _stock(r: Resolved) -> dict[str, tuple[float, ...]]:
+    """The stock sizes the standard sizes keep to: {family: sizes}."""
+    return {"bore": r.bore_diameters_mm, "slot": r.slot_widths_mm}
+
+
 def _mixed_or_ngons(done: _Done, chosen: dict, best: dict, site: Site, r: Resolved, evaluate, cap: float,
                     free_shapes, finish, on_first_fit) -> _Done:
     """``mixed``: the layout ``done`` made from the first fit's choice of family per void, or the same voids made
@@ -1291,12 +1312,7 @@ def _mixed_or_ngons(done: _Done, chosen: dict, best: dict, site: Site, r: Resolv
     alt = {i: ("polygon" if best[i].get("polygon") else f) for i, f in chosen.items()}
     if alt == chosen:
         return done
-    drafts, kinds = [], {}
-    for i, f in alt.items():
-        got = best[i].get(f, []) if f else []
-        if isinstance(got, Layout) and got:
-            kinds[i] = (f, got.kind)
-        drafts.extend(got)
+    drafts, kinds, _ = _chosen_drafts(alt, best)
     placed, change_recs, drop_recs = place(drafts, site, r)
     if not placed:
         return done
@@ -1310,8 +1326,7 @@ def _mixed_or_ngons(done: _Done, chosen: dict, best: dict, site: Site, r: Resolv
         # examples (2026-12-03): compared before the standard sizes, the central-load beam under precast-formed kept
         # 23.47 % against its n-gons' 23.66 %; compared after them with sizes up to the median only, the cantilever
         # plate lost 0.57 %; as here, 23.66 % and no loss.
-        stock = {"bore": r.bore_diameters_mm, "slot": r.slot_widths_mm}
-        sized, _ = standardise_sizes(list(drafts), r.max_types, r.snap_mm, stock, r.min_void_mm, site.fits,
+        sized, _ = standardise_sizes(list(drafts), r.max_types, r.snap_mm, _stock(r), r.min_void_mm, site.fits,
                                      upward=True)
         return site.area([d for d in sized if d is not None])
 
@@ -1501,15 +1516,8 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
             for i, fits in best.items():
                 if chosen[i] not in keep:
                     chosen[i] = pick({f: fits[f] for f in keep})
-    drafts: list[Draft] = []
-    kinds: dict[int, tuple[str, str]] = {}
-    for i, f in chosen.items():
-        got = best[i].get(f, []) if f else []
-        if not got:
-            dropped.append(f"{where(i)}: no {r.family} void of the stock sizes fits in it; dropped.")
-        elif isinstance(got, Layout):
-            kinds[i] = (f, got.kind)
-        drafts.extend(got)
+    drafts, kinds, missing = _chosen_drafts(chosen, best)
+    dropped += [f"{where(i)}: no {r.family} void of the stock sizes fits in it; dropped." for i in missing]
 
     placed, change_recs, drop_recs = place(drafts, site, r)
     first_fit_mm2 = site.area(placed)
@@ -1642,11 +1650,10 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
     dropped += done.dropped
     kinds, first_fit_mm2 = done.kinds, done.first_fit_mm2
 
-    stock = {"bore": r.bore_diameters_mm, "slot": r.slot_widths_mm}
     before = list(placed)
 
     def standard(most_material: bool, upward: bool = False, held=()):
-        return standardise_sizes(before, r.max_types, r.snap_mm, stock, r.min_void_mm, site.fits,
+        return standardise_sizes(before, r.max_types, r.snap_mm, _stock(r), r.min_void_mm, site.fits,
                                  most_material=most_material, upward=upward, held=held)
 
     def grown(sized) -> dict:
@@ -1655,6 +1662,10 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
                          if sized[i] is not None and sized[i].size > before[i].size + 1e-9)
                 for key, members in groups.items()}
 
+    def softer(drafts) -> bool:
+        """Whether the panel with ``drafts`` cut is softer than the freeform layout (False where not analysed)."""
+        return analysed is not None and analysed[0]([d for d in drafts if d is not None])[0] > analysed[1]
+
     # A group's size keeping most material, tried up to its largest member, then up to its median, may grow its
     # small members, and so may the largest size they all keep; where that makes the panel softer than the
     # freeform layout, the next of these is taken, and last the groups that grew most are held to their smallest
@@ -1662,18 +1673,18 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
     # shaped). Measured 2026-12-03: a 6 m spandrel of our own under mixed with regular pentagons took the sizes all
     # keep unchecked and was 0.12 % softer than its freeform layout.
     groups = size_groups(before, r.max_types)
-    tries = [(True, True, ()), (True, False, ()), (False, False, ())]
-    k = 0
-    while k < len(tries):
-        most_material, upward, held = tries[k]
-        placed, size_recs = standard(most_material, upward, held)
-        gains = grown(placed)
-        if not any(gains.values()) or analysed is None or \
-                analysed[0]([d for d in placed if d is not None])[0] <= analysed[1]:
+    for most_material, upward in ((True, True), (True, False), (False, False)):
+        placed, size_recs = standard(most_material, upward)
+        if not any(grown(placed).values()) or not softer(placed):
             break
-        if k == len(tries) - 1:  # the sizes all keep, too soft: hold the group that grew most as well
-            tries.append((False, False, tuple(held) + (max(gains, key=lambda g: (gains[g], g)),)))
-        k += 1
+    else:  # the sizes all keep, too soft: hold the group that grew most, then the next, until none is
+        held: tuple = ()
+        while True:
+            gains = grown(placed)
+            held += (max(gains, key=lambda g: (gains[g], g)),)
+            placed, size_recs = standard(False, False, held)
+            if not any(grown(placed).values()) or not softer(placed):
+                break
     unsnapped = list(placed)
 
     def snapped(inward_only: bool = False):
@@ -1686,14 +1697,12 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
     # their centres only, and where that is still softer the layout stays as shaped, unsnapped. Measured 2026-12-03:
     # a 6 m timber beam of our own, its three n-gons snapped, 296.475 against the freeform layout's 296.442 N mm.
     placed, snap_recs = snapped()
-    if analysed is not None and placed != unsnapped:
-        evaluate, cap = analysed
-        if evaluate([d for d in placed if d is not None])[0] > cap:
-            placed, snap_recs = snapped(inward_only=True)
-            if evaluate([d for d in placed if d is not None])[0] > cap:
-                placed = unsnapped
-                snap_recs = [(i, "not snapped to the grid", f"the {r.snap_mm:g} mm grid would make the panel softer "
-                              "than the freeform layout") for i, d in enumerate(unsnapped) if d is not None]
+    if placed != unsnapped and softer(placed):
+        placed, snap_recs = snapped(inward_only=True)
+        if softer(placed):
+            placed = unsnapped
+            snap_recs = [(i, "not snapped to the grid", f"the {r.snap_mm:g} mm grid would make the panel softer "
+                          "than the freeform layout") for i, d in enumerate(unsnapped) if d is not None]
     # Change records point at drafts; follow each to the final draft of the same void.
     final_of = {(d.source, d.part): d for d in placed if d is not None}
     records = [((d.source, d.part), what, why) for d, what, why in change_recs]
