@@ -301,6 +301,39 @@ def test_the_honeycomb_weighed_in_the_helper_gives_the_layout_made_here(process,
     assert taken == [True, False]  # both paths were taken
 
 
+def test_a_honeycomb_taken_stops_the_first_fits_finishing_at_its_next_analysis(monkeypatch):
+    # The glulam beam's honeycomb is taken: once the helper's answer is in, the first fit's layout (shaped as if it
+    # were not) stops at its next analysis instead of being finished and thrown away; the layout is the one made
+    # without a helper.
+    from toolkit.voids import layout as L
+    from toolkit.voids import shape as S
+
+    run, panel, options, energy = next(_honeycomb_cases())
+    alone = rationalise(panel, list(run.freeform), options, run.rules, energy=energy)
+    stopped, analyses = [], []
+    made = L._superseded_by
+
+    def spying(*args):
+        check = made(*args)
+
+        def spied():
+            try:
+                check()
+            except L._Superseded:
+                stopped.append(len(analyses))
+                raise
+
+        return spied
+
+    shapes = S.Evaluator.shapes
+    monkeypatch.setattr(L, "_superseded_by", spying)
+    monkeypatch.setattr(S.Evaluator, "shapes", lambda self, s: analyses.append(1) or shapes(self, s))
+    shared = rationalise(panel, list(run.freeform), options, run.rules, energy=energy, helper=_Stand_in())
+    assert len(stopped) == 1  # the stand-in answers at once: stopped at the first analysis of the finishing
+    assert [repr(v) for v in shared.voids] == [repr(v) for v in alone.voids] and shared.notes == alone.notes
+    assert shared.shape.analyses == alone.shape.analyses
+
+
 def test_the_evaluator_made_ahead_in_the_helper_serves_the_honeycomb_and_answers_as_a_new_one(monkeypatch):
     # While the optimiser runs, the helper makes the voids' stage's second Evaluator (layout.warm_evaluator); the
     # honeycomb weighed there then uses it, its analyses refactors of its solver: the layout of the run without a
