@@ -652,6 +652,37 @@ def test_a_honeycomb_a_little_too_soft_is_made_smaller_not_thinned():
     assert c > cap and kept == drafts
 
 
+def test_a_honeycomb_no_round_can_bring_within_the_cap_is_not_made_smaller_round_by_round():
+    """Four square voids whose panel is far softer than the cap, none of which may be dropped (the floor): every
+    round would make them smaller, and even all of them made smaller as many times as rounds are left is softer
+    than the cap, so the rounds are not analysed (two analyses, not six) and the answer is above the cap, as the
+    rounds would have ended. Where that bound is within the cap the rounds go on as before. Stand-in panel: the
+    compliance rises with the area cut (1 N mm per mm2 over 10,000)."""
+    from types import SimpleNamespace
+
+    from toolkit.voids import layout as L
+    from toolkit.voids.outline import Draft
+
+    corners = ((50.0, 50.0), (-50.0, 50.0), (-50.0, -50.0), (50.0, -50.0))
+    drafts = [Draft(family="polygon", centre=(200.0 + 300.0 * k, 200.0), size=2.0 * math.hypot(50, 50), source=-1,
+                    part=k, corners=corners) for k in range(4)]
+    analysed = []
+
+    def evaluate(state):
+        analysed.append(sum(d.shape().area for d in state))
+        return 10_000.0 + analysed[-1], np.zeros(100)
+
+    evaluate.grid = SimpleNamespace(nx=10, ny=10, dx=100.0, dy=100.0)
+    area = sum(d.shape().area for d in drafts)
+    for share, analyses, within in ((0.5, 2, False), (0.9, 5, True)):
+        analysed.clear()
+        cap = 10_000.0 + share * area
+        c, kept, _ = L._within_cap(drafts, evaluate, cap, floor_mm2=0.8 * area, fits=lambda t, i, s: t)
+        assert len(analysed) == analyses and (c <= cap) is within and len(kept) == 4
+        # the bound: every void 0.98 of its size five times over, a little over 0.98^10 of the area
+        assert analysed[1] == pytest.approx(0.98 ** 10 * area, rel=2e-3)
+
+
 def test_a_honeycomb_cut_down_to_the_cap_keeps_stock_sizes():
     # Made smaller to meet the cap, a bore takes the next stock diameter down and a slot first gets shorter at its
     # stock width, then the next stock width down; an n-gon is scaled. A bore scaled by 0.98 a round had left

@@ -1118,7 +1118,8 @@ def _within_cap(drafts: list[Draft], evaluate, cap: float, rounds: int = 5, keep
     compliance returned is the last one analysed, above the cap."""
     state = list(drafts)
     c, energy = evaluate(state)
-    for _ in range(rounds):
+    bounded = False
+    for done in range(rounds):
         if c <= cap or len(state) <= keep:
             break
         grid = evaluate.grid
@@ -1131,6 +1132,17 @@ def _within_cap(drafts: list[Draft], evaluate, cap: float, rounds: int = 5, keep
         fewer = [d for k, d in enumerate(state) if k < keep or k not in worst]
         if sum(d.shape().area for d in fewer) < floor_mm2:
             # A honeycomb a little too soft: every void a little smaller rather than a fifth of them gone.
+            left = rounds - done
+            if not bounded and left >= 3:
+                # Once here every later round makes voids smaller (a dropped one would leave less than the floor),
+                # each inside its former self, so no round can go below the compliance of every void made smaller
+                # as many times as rounds are left, the rules aside (less material removed, a stiffer panel: the
+                # loads do not change). Where even that is softer than the cap, the rounds are not made (the
+                # steel bench plate's honeycomb: 289,000 against 193,000 N mm, four analyses saved).
+                bounded = True
+                least = [_smallest(d, smaller, left) if k >= keep else d for k, d in enumerate(state)]
+                if evaluate(least)[0] > cap:
+                    break
             shrunk = list(state)
             for k in range(keep, len(state)):
                 t = smaller(state[k]) if smaller is not None else state[k].scaled(CAP_SHRINK * state[k].size)
@@ -1142,6 +1154,17 @@ def _within_cap(drafts: list[Draft], evaluate, cap: float, rounds: int = 5, keep
         state = fewer
         c, energy = evaluate(state)
     return c, state, energy
+
+
+def _smallest(d: Draft, smaller, times: int) -> Draft:
+    """``d`` made smaller ``times`` times as ``_within_cap`` makes it (``smaller``, by default ``CAP_SHRINK`` of its
+    size a time), or as far as it goes."""
+    for _ in range(times):
+        t = smaller(d) if smaller is not None else d.scaled(CAP_SHRINK * d.size)
+        if t is None:
+            break
+        d = t
+    return d
 
 
 def _removed(drafts: list[Draft]):
