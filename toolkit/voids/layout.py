@@ -86,6 +86,11 @@ LARGEST_FIRST = "largest first"
 # panel in metres of tests/same_outputs.py, 0.7 % more at the first fit, ended with 5.2 % of the panel removed
 # against 5.5 %; the 300 x 100 bench plate, 14 % more, with 19.5 % against 16.5 %.
 LARGEST_GAIN = 1.1
+# The honeycombs over the region open to voids (``lattice_layout``): sizes as shares of the region's depth. The
+# large ones let a deep beam under a web ratio keep a few voids as deep as it allows; the finer ones, weighed on
+# their own (``honeycomb_within_cap``), follow a wide plate's load paths.
+LATTICE_SCALES = (1.0, 0.8, 0.6, 0.45)
+LATTICE_FINE = (0.3, 0.2)
 # A honeycomb a little softer than the freeform layout has its voids made this much smaller per round
 # (``_within_cap``), rather than a fifth of them dropped.
 CAP_SHRINK = 0.98
@@ -904,10 +909,11 @@ def candidates(room: Room, family: str, r: Resolved, *, trials: int = 2, score=N
 
 
 def lattice_layout(allowed, family: str, r: Resolved, score, *, source: int = -1, openings=(), bound=None,
-                   helper=None) -> list[Draft]:
+                   helper=None, scales: tuple[float, ...] = LATTICE_SCALES) -> list[Draft]:
     """A layout laid over the whole region open to voids, ignoring the freeform voids: a honeycomb of voids of one
     size with the web the rules ask between them (a row where the region is one void deep), each cell keeping
-    its void only where the material it removes is worth it (``score`` above zero). Where the rules tie the web
+    its void only where the material it removes is worth it (``score`` above zero). The sizes tried are ``scales``
+    of the region's depth (its largest inscribed circle's diameter). Where the rules tie the web
     to the void's size, few large voids in a row can beat the optimiser's many small ones; the caller compares.
 
     With ``bound`` (an upper bound of the worth of anything fitted inside a region, as ``candidates`` takes it)
@@ -919,7 +925,7 @@ def lattice_layout(allowed, family: str, r: Resolved, score, *, source: int = -1
     if region is None:
         return []
     depth = inscribed_width(region)
-    sizes = sorted({min(depth, s) for s in (depth, 0.8 * depth, 0.6 * depth, 0.45 * depth)}, reverse=True)
+    sizes = sorted({min(depth, f * depth) for f in scales}, reverse=True)
     combs = []  # (cells: (piece, centre, radius) each) per size and offset, in the plain order
     centre_y = inscribed_circle(region)[0][1]
     for size in sizes:
@@ -1032,11 +1038,13 @@ def largest_first(kept, allowed, site: Site, r: Resolved, openings=(), score=Non
     return placed, changes, [(source, why) for source, why in dropped if source not in have]
 
 
-def _lattice_of(allowed, families, r: Resolved, score, *, openings=(), bound=None, helper=None) -> list[Draft]:
+def _lattice_of(allowed, families, r: Resolved, score, *, openings=(), bound=None, helper=None,
+                scales: tuple[float, ...] = LATTICE_SCALES) -> list[Draft]:
     """The honeycomb over ``allowed`` (``lattice_layout``) of most worth among ``families``, one family each."""
     best: tuple[float, list[Draft]] = (0.0, [])
     for family in families:
-        got = lattice_layout(allowed, family, r, score, source=-1, openings=openings, bound=bound, helper=helper)
+        got = lattice_layout(allowed, family, r, score, source=-1, openings=openings, bound=bound, helper=helper,
+                             scales=scales)
         worth = sum(score(d.shape()) for d in got)
         if worth > best[0]:
             best = (worth, got)
@@ -1221,15 +1229,27 @@ def honeycomb_within_cap(allowed, families, r: Resolved, score, bound, openings,
                          c_fit: float, area_fit: float, helper=None):
     """The honeycomb over the region open to voids (``_lattice_of``), placed, and where it could be taken (it
     removes clearly more than the first fit, LATTICE_GAIN, or the first fit is softer than ``cap``) cut down to
-    the cap: (``place``'s answer or None, ``_within_cap``'s answer or None where it was not analysed)."""
-    grid_drafts = _lattice_of(allowed, families, r, score, openings=openings, bound=bound, helper=helper)
-    other = place(grid_drafts, site, r) if grid_drafts else None
-    if other is None or not other[0] or not (
-            c_fit > cap or sum(d.shape().area for d in other[0]) > LATTICE_GAIN * area_fit):
-        return other, None
-    return other, _within_cap(other[0], evaluate, cap, floor_mm2=LATTICE_GAIN * area_fit if c_fit <= cap else 0.0,
-                              fits=lambda t, i, s: site.fits(t, i, s, move=False),
-                              smaller=lambda d: _a_size_smaller(d, r))
+    the cap: (``place``'s answer or None, ``_within_cap``'s answer or None where it was not analysed, and the same
+    pair for the finer honeycomb or None).
+
+    The worth that chooses among the honeycombs of the sizes tried is first order (the solid panel's energy under
+    each cell): it favours large cells, and a cell as deep as the region cuts through load paths the analysis then
+    finds. So the finer honeycomb (``LATTICE_FINE``) is weighed on its own too; whether it is taken is settled once
+    it is shaped and grown (``_or_finer``): it ends at the cap where the first fit still has room to grow."""
+    answers = []
+    for scales in (LATTICE_SCALES, LATTICE_FINE):
+        grid_drafts = _lattice_of(allowed, families, r, score, openings=openings, bound=bound, helper=helper,
+                                  scales=scales)
+        other = place(grid_drafts, site, r) if grid_drafts else None
+        within = None
+        if other is not None and other[0] and (
+                c_fit > cap or sum(d.shape().area for d in other[0]) > LATTICE_GAIN * area_fit):
+            within = _within_cap(other[0], evaluate, cap,
+                                 floor_mm2=LATTICE_GAIN * area_fit if c_fit <= cap else 0.0,
+                                 fits=lambda t, i, s: site.fits(t, i, s, move=False),
+                                 smaller=lambda d: _a_size_smaller(d, r))
+        answers.append((other, within))
+    return answers[0][0], answers[0][1], answers[1]
 
 
 # In the helper process: the Evaluator made ahead for a job (``warm_evaluator``), by the digest of what it was made
@@ -1270,9 +1290,9 @@ def honeycomb_elsewhere(panel: Panel, nx: int, ny: int, dx: float, dy: float, ba
     _WARM.clear()
     if evaluate is None:
         evaluate = _helper_evaluator(panel, nx, ny, dx, dy, backend)
-    other, within = honeycomb_within_cap(*args[:7], evaluate, *args[7:])
+    other, within, finer = honeycomb_within_cap(*args[:7], evaluate, *args[7:])
     evaluate.shared.release()
-    return other, within, evaluate.analyses
+    return other, within, finer, evaluate.analyses
 
 
 class _Superseded(Exception):
@@ -1298,8 +1318,8 @@ def _superseded_by(future, fitted: _Stage, cap: float, c_fit: float, area_fit: f
 def _honeycomb_here(evaluate, args):
     """``honeycomb_elsewhere``'s answer made in this process, on the job's ``evaluate``."""
     before = evaluate.analyses
-    other, within = honeycomb_within_cap(*args[:7], evaluate, *args[7:])
-    return other, within, evaluate.analyses - before
+    other, within, finer = honeycomb_within_cap(*args[:7], evaluate, *args[7:])
+    return other, within, finer, evaluate.analyses - before
 
 
 def _with_honeycomb(fitted: _Stage, honey, cap: float, c_fit: float, area_fit: float) -> _Stage | None:
@@ -1361,22 +1381,42 @@ def _mixed_or_ngons(done: _Done, chosen: dict, best: dict, site: Site, r: Resolv
         return done
     start = _Stage(placed, change_recs, drop_recs, evaluate(placed), kinds=kinds, first_fit_mm2=site.area(placed))
     other = finish(start, evaluate, cap, free_shapes)
+    return _removing_more(done, other, site, r, evaluate, on_first_fit,
+                          "the voids made as n-gons wherever one fits remove more than with the family chosen per void "
+                          "at the first fit")
 
-    def standard_area(drafts) -> float:
-        # What a layout keeps once given standard sizes (the first sizes the layout tries, up to each group's largest
-        # member; without the analysis that may step them back), as the mixed layout's slots and bores lose more
-        # there than n-gons cut to their own corners, which keep theirs. Measured on the 13 mixed runs of the
-        # examples (2026-12-03): compared before the standard sizes, the central-load beam under precast-formed kept
-        # 23.47 % against its n-gons' 23.66 %; compared after them with sizes up to the median only, the cantilever
-        # plate lost 0.57 %; as here, 23.66 % and no loss.
-        sized, _ = standardise_sizes(list(drafts), r.max_types, r.snap_mm, _stock(r), r.min_void_mm, site.fits,
-                                     upward=True)
-        return site.area([d for d in sized if d is not None])
 
-    ours, theirs = standard_area(done.placed), standard_area(other.placed)
+def _or_finer(done: _Done, start: _Stage, site: Site, r: Resolved, evaluate, cap: float, free_shapes, finish,
+              on_first_fit) -> _Done:
+    """The layout ``done``, or the finer honeycomb's (``start``, ``honeycomb_within_cap``) where it removes more
+    once both are shaped, grown, filled and given standard sizes. Taken at the cut-down, where it removes more than
+    the first fit, it lost on two beams of the examples with bores under the steel-cut rules (the first fit, stiffer
+    there, grew further: 22.5 against 20.2 % of the panel, 2026-12-03)."""
+    other = finish(start, evaluate, cap, free_shapes)
+    return _removing_more(done, other, site, r, evaluate, on_first_fit,
+                          "the finer honeycomb over the region open to voids removes more than the layout otherwise "
+                          "made")
+
+
+def _standard_area(drafts, site: Site, r: Resolved) -> float:
+    """What a layout keeps once given standard sizes (the first sizes the layout tries, up to each group's largest
+    member; without the analysis that may step them back), as slots and bores lose more there than n-gons cut to
+    their own corners, which keep theirs. Measured on the 13 mixed runs of the examples (2026-12-03): compared
+    before the standard sizes, the central-load beam under precast-formed kept 23.47 % against its n-gons'
+    23.66 %; compared after them with sizes up to the median only, the cantilever plate lost 0.57 %; as here,
+    23.66 % and no loss."""
+    sized, _ = standardise_sizes(list(drafts), r.max_types, r.snap_mm, _stock(r), r.min_void_mm, site.fits,
+                                 upward=True)
+    return site.area([d for d in sized if d is not None])
+
+
+def _removing_more(done: _Done, other: _Done, site: Site, r: Resolved, evaluate, on_first_fit, what: str) -> _Done:
+    """Of two finished layouts, ``other`` where it removes more once given standard sizes (``_standard_area``; a note
+    beginning with ``what`` says so), else ``done`` (the caller's limiting rule told of it again); the analyses
+    counted are all the stage made."""
+    ours, theirs = _standard_area(done.placed, site, r), _standard_area(other.placed, site, r)
     if theirs > ours * (1.0 + 1e-9):
-        note = (f"the voids made as n-gons wherever one fits remove more than with the family chosen per void at the "
-                f"first fit ({theirs:.0f} against {ours:.0f} mm2 once shaped, grown and given standard sizes, both no "
+        note = (f"{what} ({theirs:.0f} against {ours:.0f} mm2 once shaped, grown and given standard sizes, both no "
                 "softer than the freeform layout): taken.")
         return replace(other, notes=other.notes + [note], shaped=replace(other.shaped, analyses=evaluate.analyses)
                        if other.shaped is not None else None)
@@ -1671,7 +1711,8 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
         analyses_before = evaluate.analyses
         if honey_ahead is None:
             honey = honeycomb_within_cap(*honey_args[:-3], evaluate, *honey_args[-3:], helper=helper) \
-                if not mirror.axes else (None, None)
+                if not mirror.axes else (None, None, None)
+            honey, finer = honey[:2], honey[2]
             start = _with_honeycomb(fitted, honey, cap, c_fit, area_fit) or fitted
             done = finish(start, evaluate, cap, free_shapes)
         else:
@@ -1684,16 +1725,23 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
                 done = None
             finally:
                 evaluate.before = None
+            counted = evaluate.analyses
             honey = result_or(honey_ahead, _honeycomb_here, evaluate, honey_args)
-            honey, honey_analyses = honey[:2], honey[2]
+            honey, finer, honey_analyses = honey[:2], honey[2], honey[3]
+            elsewhere = honey_analyses - (evaluate.analyses - counted)  # none where the helper failed
             taken = _with_honeycomb(fitted, honey, cap, c_fit, area_fit)
             if taken is not None:  # redone from the honeycomb, the analyses counted as in sequence
                 evaluate.analyses = analyses_before + honey_analyses
                 done = finish(taken, evaluate, cap, free_shapes)
             elif done is None:  # cannot be: it stopped only for a honeycomb taken
                 raise AssertionError("the first fit's layout was left unfinished for a honeycomb not taken")
-            elif done.shaped is not None:
-                done = replace(done, shaped=replace(done.shaped, analyses=done.shaped.analyses + honey_analyses))
+            else:  # the helper's analyses counted as in sequence, where they come first
+                evaluate.analyses += elsewhere
+                if done.shaped is not None:
+                    done = replace(done, shaped=replace(done.shaped, analyses=done.shaped.analyses + honey_analyses))
+        finer_start = _with_honeycomb(fitted, finer, cap, c_fit, area_fit) if finer is not None else None
+        if finer_start is not None:
+            done = _or_finer(done, finer_start, site, r, evaluate, cap, free_shapes, finish, on_first_fit)
         if r.family == "mixed":
             done = _mixed_or_ngons(done, chosen, best, site, r, evaluate, cap, free_shapes, finish, on_first_fit)
     else:
