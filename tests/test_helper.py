@@ -294,7 +294,7 @@ def test_the_honeycomb_weighed_in_the_helper_gives_the_layout_made_here(process,
         weighed = [f for name, f in sent if name == "honeycomb_elsewhere"]
         assert len(weighed) == 1
         if process != "broken":
-            assert weighed[0].result()[1] is not None and weighed[0].result()[3] >= 1  # analysed there
+            assert weighed[0].result()[0][1] is not None and weighed[0].result()[2] >= 1  # analysed there
         assert [repr(v) for v in shared.voids] == [repr(v) for v in alone.voids]
         assert shared.notes == alone.notes and shared.layouts == alone.layouts
         assert shared.shape.analyses == alone.shape.analyses

@@ -28,7 +28,7 @@ from .helper import ANALYSIS_MAX_ELEMENTS, Helper, analysis_fits_elsewhere, resu
 from .overlap import Overlap, own, side_threads
 from .optimize import BesoResult, OptimizeSettings, ZoneSettings, build_problem, run_beso
 from .optimize.beso import optimiser_threads, sensitivity_filter
-from .rules.check import impossible_rules, least_void_size
+from .rules.check import impossible_rules, least_void_by_thickness, least_void_size
 from .rules.profiles import rules_for
 from .voids.extract import freeform_voids
 from .voids.layout import (FIT_RTOL, Rationalised, analysis_threads, first_fit_area, rationalise,
@@ -469,7 +469,7 @@ def relaxed_rules(rules: Rules, void_options=None, *, thickness_mm: float = 0.0,
     least = least_void_size(rules, thickness_mm)
     if narrow_mm > 0 and least > 0:
         per_t = float(rules.min_void_per_thickness or 0.0)
-        by_thickness = per_t * thickness_mm > rules.min_void_mm
+        by_thickness = least_void_by_thickness(rules, thickness_mm)
         less = min(least / 2.0, math.floor(0.8 * narrow_mm))
         if less > 0:
             trials.append(Relaxed(

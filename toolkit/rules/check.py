@@ -113,6 +113,12 @@ def least_void_size(rules: Rules, thickness_mm: float) -> float:
     return max(rules.min_void_mm, per_t * thickness_mm)
 
 
+def least_void_by_thickness(rules: Rules, thickness_mm: float) -> bool:
+    """Whether the profile's multiple of the thickness, not min_void, sets the least void size."""
+    _, per_t, _ = _extras(rules)
+    return per_t * thickness_mm > rules.min_void_mm
+
+
 def _depth_axis(panel: Panel) -> int:
     """The axis across the panel's depth: y unless the panel is taller than it is long."""
     return 1 if panel.height_mm <= panel.width_mm else 0

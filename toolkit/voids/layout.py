@@ -232,9 +232,9 @@ def refuse_impossible(panel: Panel, settings: VoidOptions, rules: Rules, region=
     ngon = max(r.min_void_mm, r.least_feature_mm / math.tan(math.pi / r.sides))
     problems = []
     # Why the least void is what it is: a profile's multiple of the thickness where that is larger than min_void.
-    per_t = float(rules.min_void_per_thickness or 0.0)
-    why_least = (f" ({per_t:g} x the {panel.thickness_mm:g} mm thickness, the {rules.profile} profile's "
-                 "min_void_per_thickness)" if per_t * panel.thickness_mm > rules.min_void_mm else "")
+    why_least = (f" ({float(rules.min_void_per_thickness):g} x the {panel.thickness_mm:g} mm thickness, the "
+                 f"{rules.profile} profile's min_void_per_thickness)"
+                 if rule_check.least_void_by_thickness(rules, panel.thickness_mm) else "")
     for family, stock, key, noun, ask in (("bore", r.bore_diameters_mm, "bore_diameters", "smallest bore", "a bore"),
                                           ("slot", r.slot_widths_mm, "slot_widths", "narrowest slot", "a slot width")):
         if r.family not in (family, "mixed"):
@@ -1124,6 +1124,9 @@ def _within_cap(drafts: list[Draft], evaluate, cap: float, rounds: int = 5, keep
     made smaller instead (``smaller(draft)`` a round, by default ``CAP_SHRINK`` of its size; each only where
     ``fits(trial, i, state)``, the rules, allow; without ``fits`` none is), and where that cannot go on either the
     compliance returned is the last one analysed, above the cap."""
+    if smaller is None:
+        def smaller(d: Draft) -> Draft:
+            return d.scaled(CAP_SHRINK * d.size)
     state = list(drafts)
     c, energy = evaluate(state)
     bounded = False
@@ -1153,7 +1156,7 @@ def _within_cap(drafts: list[Draft], evaluate, cap: float, rounds: int = 5, keep
                     break
             shrunk = list(state)
             for k in range(keep, len(state)):
-                t = smaller(state[k]) if smaller is not None else state[k].scaled(CAP_SHRINK * state[k].size)
+                t = smaller(state[k])
                 if t is not None and fits is not None and fits(t, k, shrunk) is not None:
                     shrunk[k] = t
             if shrunk == state or sum(d.shape().area for d in shrunk) < floor_mm2:
@@ -1164,11 +1167,10 @@ def _within_cap(drafts: list[Draft], evaluate, cap: float, rounds: int = 5, keep
     return c, state, energy
 
 
-def _smallest(d: Draft, smaller, times: int) -> Draft:
-    """``d`` made smaller ``times`` times as ``_within_cap`` makes it (``smaller``, by default ``CAP_SHRINK`` of its
-    size a time), or as far as it goes."""
+def _smallest(d: Draft, smaller: Callable[[Draft], Draft | None], times: int) -> Draft:
+    """``d`` made ``smaller`` ``times`` times, or as far as it goes (``smaller`` answers None)."""
     for _ in range(times):
-        t = smaller(d) if smaller is not None else d.scaled(CAP_SHRINK * d.size)
+        t = smaller(d)
         if t is None:
             break
         d = t
@@ -1229,8 +1231,8 @@ def honeycomb_within_cap(allowed, families, r: Resolved, score, bound, openings,
                          c_fit: float, area_fit: float, helper=None):
     """The honeycomb over the region open to voids (``_lattice_of``), placed, and where it could be taken (it
     removes clearly more than the first fit, LATTICE_GAIN, or the first fit is softer than ``cap``) cut down to
-    the cap: (``place``'s answer or None, ``_within_cap``'s answer or None where it was not analysed, and the same
-    pair for the finer honeycomb or None).
+    the cap: (``place``'s answer or None, ``_within_cap``'s answer or None where it was not analysed), and the
+    same pair for the finer honeycomb.
 
     The worth that chooses among the honeycombs of the sizes tried is first order (the solid panel's energy under
     each cell): it favours large cells, and a cell as deep as the region cuts through load paths the analysis then
@@ -1249,7 +1251,7 @@ def honeycomb_within_cap(allowed, families, r: Resolved, score, bound, openings,
                                  fits=lambda t, i, s: site.fits(t, i, s, move=False),
                                  smaller=lambda d: _a_size_smaller(d, r))
         answers.append((other, within))
-    return answers[0][0], answers[0][1], answers[1]
+    return answers[0], answers[1]
 
 
 # In the helper process: the Evaluator made ahead for a job (``warm_evaluator``), by the digest of what it was made
@@ -1290,9 +1292,9 @@ def honeycomb_elsewhere(panel: Panel, nx: int, ny: int, dx: float, dy: float, ba
     _WARM.clear()
     if evaluate is None:
         evaluate = _helper_evaluator(panel, nx, ny, dx, dy, backend)
-    other, within, finer = honeycomb_within_cap(*args[:7], evaluate, *args[7:])
+    honey, finer = honeycomb_within_cap(*args[:7], evaluate, *args[7:])
     evaluate.shared.release()
-    return other, within, finer, evaluate.analyses
+    return honey, finer, evaluate.analyses
 
 
 class _Superseded(Exception):
@@ -1308,7 +1310,7 @@ def _superseded_by(future, fitted: _Stage, cap: float, c_fit: float, area_fit: f
     def check() -> None:
         if not decided and future.done():
             decided.append(not future.cancelled() and future.exception() is None
-                           and _with_honeycomb(fitted, future.result()[:2], cap, c_fit, area_fit) is not None)
+                           and _with_honeycomb(fitted, future.result()[0], cap, c_fit, area_fit) is not None)
         if decided and decided[0]:
             raise _Superseded
 
@@ -1318,8 +1320,8 @@ def _superseded_by(future, fitted: _Stage, cap: float, c_fit: float, area_fit: f
 def _honeycomb_here(evaluate, args):
     """``honeycomb_elsewhere``'s answer made in this process, on the job's ``evaluate``."""
     before = evaluate.analyses
-    other, within, finer = honeycomb_within_cap(*args[:7], evaluate, *args[7:])
-    return other, within, finer, evaluate.analyses - before
+    honey, finer = honeycomb_within_cap(*args[:7], evaluate, *args[7:])
+    return honey, finer, evaluate.analyses - before
 
 
 def _with_honeycomb(fitted: _Stage, honey, cap: float, c_fit: float, area_fit: float) -> _Stage | None:
@@ -1710,9 +1712,8 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
                 honey_ahead = None
         analyses_before = evaluate.analyses
         if honey_ahead is None:
-            honey = honeycomb_within_cap(*honey_args[:-3], evaluate, *honey_args[-3:], helper=helper) \
-                if not mirror.axes else (None, None, None)
-            honey, finer = honey[:2], honey[2]
+            honey, finer = honeycomb_within_cap(*honey_args[:-3], evaluate, *honey_args[-3:], helper=helper) \
+                if not mirror.axes else ((None, None), None)
             start = _with_honeycomb(fitted, honey, cap, c_fit, area_fit) or fitted
             done = finish(start, evaluate, cap, free_shapes)
         else:
@@ -1725,18 +1726,17 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
                 done = None
             finally:
                 evaluate.before = None
-            counted = evaluate.analyses
-            honey = result_or(honey_ahead, _honeycomb_here, evaluate, honey_args)
-            honey, finer, honey_analyses = honey[:2], honey[2], honey[3]
-            elsewhere = honey_analyses - (evaluate.analyses - counted)  # none where the helper failed
+            finishing = evaluate.analyses - analyses_before  # the first fit's, as far as it went
+            honey, finer, honey_analyses = result_or(honey_ahead, _honeycomb_here, evaluate, honey_args)
             taken = _with_honeycomb(fitted, honey, cap, c_fit, area_fit)
-            if taken is not None:  # redone from the honeycomb, the analyses counted as in sequence
+            # The analyses counted as in sequence, the honeycomb's first.
+            if taken is not None:  # redone from the honeycomb
                 evaluate.analyses = analyses_before + honey_analyses
                 done = finish(taken, evaluate, cap, free_shapes)
             elif done is None:  # cannot be: it stopped only for a honeycomb taken
                 raise AssertionError("the first fit's layout was left unfinished for a honeycomb not taken")
-            else:  # the helper's analyses counted as in sequence, where they come first
-                evaluate.analyses += elsewhere
+            else:
+                evaluate.analyses = analyses_before + honey_analyses + finishing
                 if done.shaped is not None:
                     done = replace(done, shaped=replace(done.shaped, analyses=done.shaped.analyses + honey_analyses))
         finer_start = _with_honeycomb(fitted, finer, cap, c_fit, area_fit) if finer is not None else None
