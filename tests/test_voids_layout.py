@@ -708,7 +708,8 @@ def test_a_honeycomb_no_round_can_bring_within_the_cap_is_not_made_smaller_round
         cap = 10_000.0 + share * area
         c, kept, _ = L._within_cap(drafts, evaluate, cap, floor_mm2=0.8 * area, fits=lambda t, i, s: t)
         assert len(analysed) == analyses and (c <= cap) is within and len(kept) == 4
-        # the bound: every void 0.98 of its size five times over, a little over 0.98^10 of the area
+        # the bound: every void 0.98 of its size (CAP_SHRINK, a house choice, no source) five times over, a little
+        # over 0.98^10 of the area; the stand-in panel and its cap shares are our own test scenario
         assert analysed[1] == pytest.approx(0.98 ** 10 * area, rel=2e-3)
 
 
