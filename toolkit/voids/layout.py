@@ -282,6 +282,8 @@ CORE_MARGIN_MM = 1e-6
 FEW_PAIRS = 12
 # Members (``Site.members``) remembered at most, before the memory is emptied and filled again.
 MEMBERS_HELD = 20_000
+# The others of a state beside one void (``Site.others``) remembered at most.
+OTHERS_HELD = 64
 
 
 _PACKED = ("ext", "x", "y", "reach", "ax", "ay", "bx", "by", "inner", "outer")
@@ -331,10 +333,11 @@ class Site:
         # In a symmetric layout every draft stands for itself and its mirror images: each is checked.
         self.mirror = mirror if mirror is not None else Mirror()
         self._members: dict[int, tuple[Draft, list]] = {}  # members of the drafts asked for, by id (``members``)
+        self._others: dict[tuple, tuple[list, Packed]] = {}  # the others of a state beside one void (``others``)
 
     def __getstate__(self) -> dict:
         state = dict(self.__dict__)
-        state["_members"] = {}  # a cache: not sent along
+        state["_members"], state["_others"] = {}, {}  # caches: not sent along
         return state
 
     def __setstate__(self, state: dict) -> None:
@@ -364,6 +367,21 @@ class Site:
             self._members.clear()
         self._members[id(draft)] = (draft, got)  # the draft is held too, so its id is not taken by another
         return got
+
+    def others(self, state: list[Draft], i: int) -> Packed:
+        """The members of every draft of ``state`` but item ``i`` (and None), and the openings, remembered per state
+        and void: the shape optimisation and the placing try one void several times beside the same others (the
+        state is held with them, so the drafts' ids in the key stay theirs)."""
+        key = (i, tuple(map(id, state)))
+        held = self._others.get(key)
+        if held is not None:
+            return held[1]
+        packed = Packed([m for j, d in enumerate(state) if j != i and d is not None for m in self.members(d)]
+                        + self.openings)
+        if len(self._others) >= OTHERS_HELD:
+            self._others.clear()
+        self._others[key] = (list(state), packed)
+        return packed
 
     def inside(self, shape) -> bool:
         return bool(self.inner.covers(shape))
@@ -441,8 +459,7 @@ class Site:
         mid-line only moves along it."""
         if not self.big_enough(trial) or not self.mirror.keeps(trial):
             return None
-        others = Packed([m for j, d in enumerate(state) if j != i and d is not None for m in self.members(d)]
-                        + self.openings)
+        others = self.others(state, i)
         offsets = self.offsets(trial.size) if move else [(0.0, 0.0)]
         trial.extent(), trial.reach()  # worked out once, carried by every moved copy
         for dx, dy in self.mirror.along(trial, offsets):

@@ -23,6 +23,11 @@ from .measure import following, preceding
 # Arcs are flattened to chords no further than this off the true arc when a void becomes a shapely polygon,
 # so the checks on the flattened shape are out by at most this much (mm).
 CHORD_TOL_MM = 0.01
+# Slots' and bores' radii about their cores (``Draft.radii``), kept by family, width and point count: measured
+# on the first outline, widened by this (mm) for another's rounding; at most this many kept.
+_RADII: dict[tuple, tuple[float, float]] = {}
+RADII_SLACK_MM = 1e-9
+RADII_HELD = 4096
 
 
 @dataclass(frozen=True)
@@ -171,11 +176,21 @@ class Draft:
         got = self.__dict__.get("_radii")
         if got is None:
             if self.family in ("slot", "bore"):
-                ax, ay, bx, by = self.core()
                 xy = shapely.get_coordinates(self.shape())
-                outer = float(np.max(point_segment_distances(xy[:, 0], xy[:, 1], ax, ay, bx, by)))
-                inner = float(np.min(segment_distances(ax, ay, bx, by, xy[:-1, 0], xy[:-1, 1], xy[1:, 0], xy[1:, 1])))
-                got = (inner, outer)
+                # Every slot of one width drawn with as many points is the same outline moved and turned, its
+                # straight part apart (its arcs are flattened to the same chords): its bounds are measured once,
+                # widened past any rounding of another's (they only decide which pairs are measured exactly).
+                key = (self.family, self.size, len(xy))
+                got = _RADII.get(key)
+                if got is None:
+                    ax, ay, bx, by = self.core()
+                    outer = float(np.max(point_segment_distances(xy[:, 0], xy[:, 1], ax, ay, bx, by)))
+                    inner = float(np.min(segment_distances(ax, ay, bx, by, xy[:-1, 0], xy[:-1, 1], xy[1:, 0],
+                                                           xy[1:, 1])))
+                    got = (inner - RADII_SLACK_MM, outer + RADII_SLACK_MM)
+                    if len(_RADII) >= RADII_HELD:
+                        _RADII.clear()
+                    _RADII[key] = got
             else:
                 got = (-1.0, self.reach())
             object.__setattr__(self, "_radii", got)
