@@ -922,6 +922,61 @@ def test_the_web_check_between_slots_and_bores_is_the_exact_distances(few, monke
                 assert site.clear(site.members(a)[0], others) == (least >= web + SAFETY_MM)
 
 
+def _eased_ngons(count: int, seed: int):
+    """Convex n-gons of our own, regular and irregular, with radius and chamfer corners, at random places."""
+    from toolkit.voids.outline import Draft
+
+    rng = np.random.default_rng(seed)
+    out = []
+    for k in range(count):
+        n = int(rng.integers(4, 9))
+        turn = np.sort(rng.uniform(0, 2 * np.pi, n)) if k % 2 else 2 * np.pi * np.arange(n) / n
+        radius = float(rng.uniform(30, 90))
+        rel = radius * np.column_stack([np.cos(turn), np.sin(turn)])
+        hull = shapely.convex_hull(shapely.multipoints(rel))
+        rel = np.asarray(hull.exterior.coords)[:-1]
+        rel = rel - np.asarray(hull.centroid.coords[0])
+        corner = "radius" if k % 3 else "chamfer"
+        out.append(Draft(family="polygon", centre=(float(rng.uniform(0, 600)), float(rng.uniform(0, 300))),
+                         size=2.0 * float(np.max(np.linalg.norm(rel, axis=1))), source=k,
+                         corners=tuple(map(tuple, rel.tolist())), corner=corner,
+                         corner_mm=float(rng.uniform(2.0, 15.0)), regular=not k % 2))
+    return out
+
+
+def test_the_web_check_between_eased_ngons_is_the_exact_distances():
+    # Site.clear decides a pair with an eased n-gon by the sharp n-gons first (the outlines' distance lies between
+    # theirs and that plus the corners' stand-off) and measures the drawn outlines only inside that band: the
+    # answer must be the exact distance's, for webs a ten-thousandth of a millimetre either side of a pair's exact
+    # distance and across the band; beside slots, bores and an opening too.
+    from toolkit.voids.layout import SAFETY_MM, Site, _hull_of
+
+    drafts = _eased_ngons(18, 11) + _slots_and_bores(9, 5)
+    opening = box(250, 120, 330, 170)
+    region = box(-500, -500, 1200, 900)
+    checked = banded = 0
+    for i, a in enumerate(drafts):
+        assert _hull_of(a)[0].buffer(1e-9).covers(a.shape())  # to rounding: a chamfer's corners lie on the sides
+        for b in drafts[i + 1:] + [opening]:
+            shape_b = b if b is opening else b.shape()
+            exact = float(shapely.distance(a.shape(), shape_b))
+            for web in (5.0, 40.0, exact - SAFETY_MM - 1e-4, exact - SAFETY_MM + 1e-4, exact - SAFETY_MM - 0.5,
+                        exact - SAFETY_MM + 0.5, exact - SAFETY_MM - 2.0, exact - SAFETY_MM + 2.0):
+                if web <= 0.0:
+                    continue
+                if b is opening:
+                    site = Site(region, web, 5.0, web_ratio=1e-9, openings=[opening])
+                    got = site.clear(site.members(a)[0], [])
+                else:
+                    site = Site(region, web, 5.0)
+                    got = site.clear(site.members(a)[0], site.members(b))
+                assert got == (exact >= web + SAFETY_MM), (a, b, web, exact)
+                checked += 1
+                hull_gap = float(shapely.distance(_hull_of(a)[0], _hull_of(b)[0] if b is not opening else opening))
+                banded += hull_gap < web + SAFETY_MM <= exact
+    assert checked > 2000 and banded > 50
+
+
 def test_segment_distances_are_shapelys():
     # Random segments, points among them, crossing, touching and on one line: the distances shapely measures, by
     # the array form and by the one-pair form.

@@ -287,16 +287,21 @@ OTHERS_HELD = 64
 
 
 _PACKED = ("ext", "x", "y", "reach", "ax", "ay", "bx", "by", "inner", "outer")
+_HULL, _SLACK = len(_PACKED) + 1, len(_PACKED) + 2  # a member's hull and its slack (``Site.__init__``)
 
 
 class Packed:
     """Members (``Site.__init__``) as arrays, made once for the many moved copies of one trial: shapes, extents,
-    centres' x and y, the radii of the circles round them, and their cores (``Draft.core``, ``Draft.radii``)."""
+    centres' x and y, the radii of the circles round them, their cores (``Draft.core``, ``Draft.radii``), their
+    hulls and slacks."""
 
     def __init__(self, members: list):
         self.members = members
         self.shapes = np.empty(len(members), dtype=object)
         self.shapes[:] = [m[0] for m in members]
+        self.hulls = np.empty(len(members), dtype=object)
+        self.hulls[:] = [m[_HULL] for m in members]
+        self.slack = np.array([m[_SLACK] for m in members], dtype=float)
         for k, name in enumerate(_PACKED, 1):
             setattr(self, name, np.array([m[k] for m in members], dtype=float))
 
@@ -306,7 +311,7 @@ class Packed:
             return self
         extra, out = Packed(list(more)), Packed.__new__(Packed)
         out.members = self.members + extra.members
-        for name in ("shapes",) + _PACKED:
+        for name in ("shapes", "hulls", "slack") + _PACKED:
             setattr(out, name, np.concatenate([getattr(self, name), getattr(extra, name)]))
         return out
 
@@ -328,7 +333,9 @@ class Site:
         # The allowed region already keeps min_web from the openings; a web ratio also ties that web to the
         # larger of the void and the opening, which only a per-void test can say. Each other void or opening is
         # a member: (shape, extent, centre x, centre y, radius of a circle about the centre holding it, then its
-        # core segment's ends and its inner and outer radii about it: ``Draft.core``, ``Draft.radii``).
+        # core segment's ends and its inner and outer radii about it: ``Draft.core``, ``Draft.radii``; then its
+        # hull, a shape of few points holding it, and the slack, how far the hull reaches past it: an n-gon's sharp
+        # corners round its eased outline, the shape itself and 0 for the others: ``_hull_of``).
         self.openings = [_member_of(o) for o in openings] if web_ratio > 0.0 else []
         # In a symmetric layout every draft stands for itself and its mirror images: each is checked.
         self.mirror = mirror if mirror is not None else Mirror()
@@ -361,7 +368,7 @@ class Site:
         held = self._members.get(id(draft))
         if held is not None and held[0] is draft:
             return held[1]
-        got = [(d.shape(), d.extent(), d.centre[0], d.centre[1], d.reach()) + d.core() + d.radii()
+        got = [(d.shape(), d.extent(), d.centre[0], d.centre[1], d.reach()) + d.core() + d.radii() + _hull_of(d)
                for d in self.mirror.orbit(draft)]
         if len(self._members) >= MEMBERS_HELD:
             self._members.clear()
@@ -394,7 +401,7 @@ class Site:
         packed = others if isinstance(others, Packed) else Packed(list(others) + self.openings)
         if not packed.members:
             return True
-        shape, own, cx, cy, radius, ax, ay, bx, by, inner, outer = member
+        shape, own, cx, cy, radius, ax, ay, bx, by, inner, outer, hull, slack = member
         need = np.full(len(packed.members), self.web)
         if self.ratio > 0.0:
             need = np.maximum(need, self.ratio * np.maximum(packed.ext, own))
@@ -420,6 +427,18 @@ class Site:
             if np.any(upper < need[close] - CORE_MARGIN_MM):
                 return False
             close = close[cores - outer - packed.outer[close] < need[close] + CORE_MARGIN_MM]
+            if not close.size:
+                return True
+        # Eased n-gons (some 80 points each) by their sharp hulls first: the outlines' distance lies between the hulls'
+        # and that plus both slacks. Only a pair whose band holds the web (to CORE_MARGIN_MM) is measured exactly.
+        spare = slack + packed.slack[close]
+        rough = spare > 0.0
+        if rough.any():
+            pairs = close[rough]
+            lower = shapely.distance(hull, packed.hulls[pairs])
+            if np.any(lower + spare[rough] < need[pairs] - CORE_MARGIN_MM):
+                return False
+            close = np.concatenate([close[~rough], pairs[lower < need[pairs] + CORE_MARGIN_MM]])
             if not close.size:
                 return True
         return bool(np.all(shapely.distance(shape, packed.shapes[close]) >= need[close]))
@@ -653,7 +672,21 @@ def _member_of(shape) -> tuple:
     centre = circle.centroid
     radius = float(shapely.minimum_bounding_radius(shape))
     reach = radius * (1.0 + 1e-9) + 1e-9
-    return (shape, 2.0 * radius, centre.x, centre.y, reach, centre.x, centre.y, centre.x, centre.y, -1.0, reach)
+    return (shape, 2.0 * radius, centre.x, centre.y, reach, centre.x, centre.y, centre.x, centre.y, -1.0, reach, shape,
+            0.0)
+
+
+def _hull_of(d: Draft) -> tuple:
+    """(hull, slack) of a draft as a member (``Site.__init__``): an eased n-gon's sharp n-gon, which holds its
+    outline (the easing cuts into the corners), and the furthest its corners stand off that outline (the sharp
+    n-gon is convex, so the furthest of its points is a corner: no point of it is further from the outline); the
+    draft's own shape and 0 for a sharp n-gon, a slot, a bore."""
+    shape = d.shape()
+    if d.family != "polygon" or d.corner == "none" or d.corner_mm <= 0.0:
+        return shape, 0.0
+    sharp = d.sharp
+    slack = float(np.max(shapely.distance(shapely.points(sharp), shape)))
+    return shapely.polygons(sharp), slack * (1.0 + 1e-9) + 1e-9
 
 
 class Room:
