@@ -51,7 +51,7 @@ from .measure import FreeformVoid, clean, inscribed_width
 from .outline import Draft, segment_distance, segment_distances
 from .shape import GROW_RATE, shape_ok
 from .settings import CORNERS, FAMILIES, VoidOptions
-from .standardise import size_groups, snap_centres, standardise_sizes
+from .standardise import align_centres, size_groups, snap_centres, standardise_sizes
 from .symmetry import (Mirror, fold, layout_mirror, split_centre, symmetric_bores, symmetric_polygon,
                        symmetric_slot)
 
@@ -282,6 +282,10 @@ CORE_MARGIN_MM = 1e-6
 FEW_PAIRS = 12
 # Members (``Site.members``) remembered at most, before the memory is emptied and filled again.
 MEMBERS_HELD = 20_000
+# Centres within this many snap steps of each other along x (or y) are lined up into one column (row) where the
+# rules allow (``standardise.align_centres``): a house choice, no source; two steps join the 326 / 328 / 330 mm
+# column of a wall leaf of the examples and leave neighbouring columns (a void's width apart at least) alone.
+ALIGN_STEPS = 2.0
 # The others of a state beside one void (``Site.others``) remembered at most.
 OTHERS_HELD = 64
 
@@ -1863,6 +1867,15 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
             placed = unsnapped
             snap_recs = [(i, "not snapped to the grid", f"the {r.snap_mm:g} mm grid would make the panel softer "
                           "than the freeform layout") for i, d in enumerate(unsnapped) if d is not None]
+    # Centres that nearly share a column or a row are lined up (within two grid steps), kept where the panel stays
+    # no softer than the freeform layout.
+    if r.snap_mm > 0.0:
+        lined, moved = align_centres(placed, ALIGN_STEPS * r.snap_mm,
+                                     lambda t, i, s: site.fits(t, i, s, move=False))
+        if moved and not softer(lined):
+            placed = lined
+            notes.append(f"{moved} void centre(s) lined up with their neighbours' in columns and rows (within "
+                         f"{ALIGN_STEPS * r.snap_mm:g} mm), the rules kept.")
     # Change records point at drafts; follow each to the final draft of the same void.
     final_of = {(d.source, d.part): d for d in placed if d is not None}
     records = [((d.source, d.part), what, why) for d, what, why in change_recs]
