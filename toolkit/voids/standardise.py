@@ -260,10 +260,11 @@ def align_centres(drafts: list[Draft], tolerance: float, fits: Callable[[Draft, 
     web can keep a void off the grid point its neighbours took: a column at 325.7, 328.3 and 330 mm).
 
     For x, then y: the centres sorted along the axis fall into runs no longer than ``tolerance`` from their first
-    (a run ends where the next centre is further); each run's voids move to the value most of them stand on (a tie:
-    the one nearest the run's median), one by one, each only where ``fits`` keeps it there unmoved. A void on a
-    mirror line and an irregular n-gon (its corners are on the grid, not its centre) keep their places. Returns the
-    drafts and how many moved."""
+    (a run ends where the next centre is further). Each value a run's voids stand on is tried as the line, the
+    value most stand on first (a tie: the one nearest the run's median): every other void of the run moves to it,
+    one by one, each only where ``fits`` keeps it there unmoved; the line that ends with most voids on it is
+    taken (the first of equals). A void on a mirror line and an irregular n-gon (its corners are on the grid, not
+    its centre) keep their places. Returns the drafts and how many moved."""
     state = list(drafts)
     moved: set[int] = set()
     if tolerance <= 0.0:
@@ -286,15 +287,24 @@ def align_centres(drafts: list[Draft], tolerance: float, fits: Callable[[Draft, 
             counts: dict[float, int] = {}
             for v in values:
                 counts[round(v, 6)] = counts.get(round(v, 6), 0) + 1
-            target = max(counts, key=lambda v: (counts[v], -abs(v - middle), -v))
-            for i in run:
-                d = state[i]
-                if abs(d.centre[axis] - target) <= 1e-6:
-                    continue
-                centre = (target, d.centre[1]) if axis == 0 else (d.centre[0], target)
-                trial = d.at(centre)
-                placed = fits(trial, i, state)
-                if placed is not None and placed.centre == trial.centre:
-                    state[i] = placed
-                    moved.add(i)
+            if len(counts) < 2:
+                continue
+            best: tuple[int, list[Draft], set[int]] | None = None
+            for target in sorted(counts, key=lambda v: (-counts[v], abs(v - middle), v)):
+                trial_state, shifted = list(state), set()
+                for i in run:
+                    d = trial_state[i]
+                    if abs(d.centre[axis] - target) <= 1e-6:
+                        continue
+                    centre = (target, d.centre[1]) if axis == 0 else (d.centre[0], target)
+                    trial = d.at(centre)
+                    placed = fits(trial, i, trial_state)
+                    if placed is not None and placed.centre == trial.centre:
+                        trial_state[i] = placed
+                        shifted.add(i)
+                on_line = sum(abs(trial_state[i].centre[axis] - target) <= 1e-6 for i in run)
+                if best is None or on_line > best[0]:
+                    best = (on_line, trial_state, shifted)
+            state = best[1]
+            moved |= best[2]
     return state, len(moved)
