@@ -285,12 +285,16 @@ def align_centres(drafts: list[Draft], tolerance: float, fits: Callable[[Draft, 
             values = [state[i].centre[axis] for i in run]
             middle = float(np.median(values))
             counts: dict[float, int] = {}
+            line_at: dict[float, float] = {}  # each value to the micrometre: the first void's own, to the bit
             for v in values:
-                counts[round(v, 6)] = counts.get(round(v, 6), 0) + 1
+                key = round(v, 6)
+                counts[key] = counts.get(key, 0) + 1
+                line_at.setdefault(key, v)
             if len(counts) < 2:
                 continue
             best: tuple[int, list[Draft], set[int]] | None = None
-            for target in sorted(counts, key=lambda v: (-counts[v], abs(v - middle), v)):
+            for key in sorted(counts, key=lambda v: (-counts[v], abs(v - middle), v)):
+                target = line_at[key]
                 trial_state, shifted = list(state), set()
                 for i in run:
                     d = trial_state[i]
@@ -302,7 +306,7 @@ def align_centres(drafts: list[Draft], tolerance: float, fits: Callable[[Draft, 
                     if placed is not None and placed.centre == trial.centre:
                         trial_state[i] = placed
                         shifted.add(i)
-                on_line = sum(abs(trial_state[i].centre[axis] - target) <= 1e-6 for i in run)
+                on_line = sum(round(trial_state[i].centre[axis], 6) == key for i in run)
                 if best is None or on_line > best[0]:
                     best = (on_line, trial_state, shifted)
             state = best[1]
