@@ -306,6 +306,38 @@ def test_the_honeycomb_weighed_in_the_helper_gives_the_layout_made_here(process,
     assert taken == [(True, True), (True, True)]
 
 
+@pytest.mark.parametrize("broken", [False, True], ids=["stand-in", "broken"])
+def test_a_honeycomb_not_taken_in_the_helper_leaves_the_first_fits_layout(broken, monkeypatch):
+    # With the large honeycombs alone (LATTICE_FINE emptied in this process, so a stand-in helper), the half-MBB
+    # plate's honeycomb is weighed in the helper and not taken: the first fit's layout, finished meanwhile, is kept,
+    # with the voids, notes and analyses counted of the run without a helper (the helper's counted as in sequence).
+    from panels import half_mbb_plate
+    from toolkit import pipeline
+    from toolkit.voids import layout
+
+    monkeypatch.setattr(layout, "LATTICE_FINE", ())
+    panel, job = half_mbb_plate()
+    run = pipeline.optimize_panel(panel, job)
+    options = replace(job.voids, optimize_symmetry=job.optimize.symmetry)
+    energy = (run.solid.grid, pipeline.strain_energy_density(run.solid, panel))
+    alone = rationalise(panel, list(run.freeform), options, run.rules, energy=energy)
+    stand_in = _Stand_in(broken=broken)
+    sent = []
+    submit = stand_in.submit
+
+    def recording(fn, *args):
+        sent.append(fn.__name__)
+        return submit(fn, *args)
+
+    monkeypatch.setattr(stand_in, "submit", recording)
+    shared = rationalise(panel, list(run.freeform), options, run.rules, energy=energy, helper=stand_in)
+    assert "honeycomb_elsewhere" in sent
+    assert not any("honeycomb" in n for n in alone.notes)
+    assert [repr(v) for v in shared.voids] == [repr(v) for v in alone.voids]
+    assert shared.notes == alone.notes and shared.layouts == alone.layouts
+    assert shared.shape.analyses == alone.shape.analyses
+
+
 def test_a_honeycomb_taken_stops_the_first_fits_finishing_at_its_next_analysis(monkeypatch):
     # The glulam beam's honeycomb is taken: once the helper's answer is in, the first fit's layout (shaped as if it
     # were not) stops at its next analysis instead of being finished and thrown away; the layout is the one made
