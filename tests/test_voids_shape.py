@@ -289,3 +289,11 @@ def test_a_regular_ngon_stepped_through_zero_size_is_no_shape():
     flipped = with_params(d, p * np.array([1.0, 1.0, -1.0, 1.0]))
     assert flipped.size < 0 and flipped.shape().area == pytest.approx(d.shape().area)
     assert shape_ok(d, 5.0) and not shape_ok(flipped, 5.0)
+
+
+def test_a_drafts_shape_check_is_kept_per_feature_size():
+    # shape_ok is remembered on the draft: asked again with another least feature it answers for that one.
+    from toolkit.voids.shape import shape_ok
+
+    hexagon = _regular(213.7, 97.3, 43.1, 0.137)  # sides of 43.1 mm
+    assert shape_ok(hexagon, 20.0) and not shape_ok(hexagon, 50.0) and shape_ok(hexagon, 20.0)

@@ -286,7 +286,17 @@ def gradients(grid, energy: np.ndarray, drafts, orbit: Callable | None = None
 
 def shape_ok(d: Draft, feature: float) -> bool:
     """Whether the draft is still a shape the shop can make: of a size above zero; a convex n-gon with sides of
-    at least ``feature`` and corners neither flat nor sharp; a slot at least as long as it is wide."""
+    at least ``feature`` and corners neither flat nor sharp; a slot at least as long as it is wide. Kept per draft
+    and feature (a trial step is asked here and again by the rules' ``fits``)."""
+    held = d.__dict__.get("_shape_ok")
+    if held is not None and held[0] == feature:
+        return held[1]
+    got = _shape_ok(d, feature)
+    object.__setattr__(d, "_shape_ok", (feature, got))
+    return got
+
+
+def _shape_ok(d: Draft, feature: float) -> bool:
     if not d.size > 0.0:
         # a step through zero: a regular n-gon of negative circumradius draws the same corners turned half a turn
         return False
