@@ -271,7 +271,7 @@ def gradients(grid, energy: np.ndarray, drafts, orbit: Callable | None = None
     flat = [j for group in members for j in group if j is not None]
     gv = compliance_gradient(grid, energy, [v for v, _ in flat]) if flat else []
     out, k = [], 0
-    for group in members:
+    for d, group in zip(drafts, members):
         if any(j is None for j in group):
             out.append(None)
             continue
@@ -280,6 +280,10 @@ def gradients(grid, energy: np.ndarray, drafts, orbit: Callable | None = None
             gc = gc + J.T @ gv[k].ravel()
             ga = ga + J.T @ area_gradient(v).ravel()
             k += 1
+        if d.family == "bore":
+            # A bore's numbers are its centre, which moves its area nowhere: its area gradient is zero, not the
+            # rounding left of a sum of opposite terms (stage 1 divides by its square: the noise chose the step).
+            ga = np.zeros_like(gc)
         out.append((gc, ga, group[0][1]))
     return out
 
