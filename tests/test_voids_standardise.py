@@ -156,6 +156,14 @@ def test_centres_that_nearly_share_a_column_or_row_are_lined_up_where_the_rules_
     lined, moved = align_centres(drafts, 10.0, lambda t, i, s: None if i == 3 and t.centre[0] < 329.0 else t)
     xs, _ = xs_ys(lined)
     assert xs[:4] == [330.0] * 4 and moved == 5
+    # With the 5 mm grid: of lines that take as many voids, one on a grid point, then one a void stood on: the
+    # column on 330 and the row on 500; where a stand-in rule holds the first of the column at x <= 328, on 325.
+    lined, moved = align_centres(drafts, 10.0, lambda t, i, s: t, snap=5.0)
+    xs, ys = xs_ys(lined)
+    assert xs[:4] == [330.0] * 4 and ys[4:7] == [500.0] * 3 and moved == 5
+    lined, moved = align_centres(drafts, 10.0, lambda t, i, s: None if i == 0 and t.centre[0] > 328.0 else t,
+                                 snap=5.0)
+    assert [d.centre[0] for d in lined][:4] == [325.0] * 4
     # Where the rules keep every void where it is, nothing moves; no snap, no lining up.
     lined, moved = align_centres(drafts, 10.0, lambda t, i, s: t if t.centre == s[i].centre else None)
     assert moved == 0 and lined == drafts

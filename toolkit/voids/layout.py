@@ -1871,7 +1871,7 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
     # no softer than the freeform layout.
     if r.snap_mm > 0.0:
         lined, moved = align_centres(placed, ALIGN_STEPS * r.snap_mm,
-                                     lambda t, i, s: site.fits(t, i, s, move=False))
+                                     lambda t, i, s: site.fits(t, i, s, move=False), r.snap_mm, mirror.origin)
         if moved and not softer(lined):
             placed = lined
             notes.append(f"{moved} void centre(s) lined up with their neighbours' in columns and rows (within "

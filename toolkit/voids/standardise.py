@@ -253,18 +253,19 @@ def snap_centres(drafts: list[Draft], snap: float, fits: Callable[[Draft, int, l
     return state, changes
 
 
-def align_centres(drafts: list[Draft], tolerance: float, fits: Callable[[Draft, int, list[Draft]], Draft | None]
-                  ) -> tuple[list[Draft], int]:
+def align_centres(drafts: list[Draft], tolerance: float, fits: Callable[[Draft, int, list[Draft]], Draft | None],
+                  snap: float = 0.0, origin: tuple[float, float] = (0.0, 0.0)) -> tuple[list[Draft], int]:
     """Centres that nearly share a column or a row put on one line, where the rules allow: the setting-out a
     detailer draws and a shop marks (a honeycomb's voids are placed and moved one by one, and the edge cover or a
     web can keep a void off the grid point its neighbours took: a column at 325.7, 328.3 and 330 mm).
 
     For x, then y: the centres sorted along the axis fall into runs no longer than ``tolerance`` from their first
-    (a run ends where the next centre is further). Each value a run's voids stand on is tried as the line, the
-    value most stand on first (a tie: the one nearest the run's median): every other void of the run moves to it,
-    one by one, each only where ``fits`` keeps it there unmoved; the line that ends with most voids on it is
-    taken (the first of equals). A void on a mirror line and an irregular n-gon (its corners are on the grid, not
-    its centre) keep their places. Returns the drafts and how many moved."""
+    (a run ends where the next centre is further). Each value a run's voids stand on, and each point of the
+    ``snap`` grid through ``origin`` within half a step of the run, is tried as the line: every void of the run moves to it, one by
+    one, each only where ``fits`` keeps it there unmoved. The line that ends with most voids on it is taken; of
+    equals, one on the grid, then the value most voids stood on, then the one nearest the run's median. A void on
+    a mirror line and an irregular n-gon (its corners are on the grid, not its centre) keep their places. Returns
+    the drafts and how many moved."""
     state = list(drafts)
     moved: set[int] = set()
     if tolerance <= 0.0:
@@ -284,21 +285,27 @@ def align_centres(drafts: list[Draft], tolerance: float, fits: Callable[[Draft, 
                 continue
             values = [state[i].centre[axis] for i in run]
             middle = float(np.median(values))
-            counts: dict[float, int] = {}
-            line_at: dict[float, float] = {}  # each value to the micrometre: the first void's own, to the bit
+            # each line to the micrometre, with the value it is drawn at (a void's own, to the bit, or a grid point)
+            lines: dict[float, tuple[float, int, bool]] = {}
             for v in values:
                 key = round(v, 6)
-                counts[key] = counts.get(key, 0) + 1
-                line_at.setdefault(key, v)
-            if len(counts) < 2:
+                at, count, _ = lines.get(key, (v, 0, False))
+                lines[key] = (at, count + 1, False)
+            if snap > 0.0:
+                o = origin[axis]
+                for k in range(math.floor((min(values) - o) / snap), math.ceil((max(values) - o) / snap) + 1):
+                    at = o + k * snap
+                    if min(values) - 0.5 * snap <= at <= max(values) + 0.5 * snap:
+                        key = round(at, 6)
+                        lines[key] = (lines.get(key, (at, 0, True))[0], lines.get(key, (at, 0, True))[1], True)
+            if len(lines) < 2:
                 continue
-            best: tuple[int, list[Draft], set[int]] | None = None
-            for key in sorted(counts, key=lambda v: (-counts[v], abs(v - middle), v)):
-                target = line_at[key]
+            best: tuple[tuple, list[Draft], set[int]] | None = None
+            for key, (target, count, on_grid) in lines.items():
                 trial_state, shifted = list(state), set()
                 for i in run:
                     d = trial_state[i]
-                    if abs(d.centre[axis] - target) <= 1e-6:
+                    if d.centre[axis] == target:
                         continue
                     centre = (target, d.centre[1]) if axis == 0 else (d.centre[0], target)
                     trial = d.at(centre)
@@ -306,9 +313,11 @@ def align_centres(drafts: list[Draft], tolerance: float, fits: Callable[[Draft, 
                     if placed is not None and placed.centre == trial.centre:
                         trial_state[i] = placed
                         shifted.add(i)
-                on_line = sum(round(trial_state[i].centre[axis], 6) == key for i in run)
-                if best is None or on_line > best[0]:
-                    best = (on_line, trial_state, shifted)
-            state = best[1]
-            moved |= best[2]
+                on_line = sum(trial_state[i].centre[axis] == target for i in run)
+                rank = (on_line, on_grid, count, -abs(target - middle), -target)
+                if best is None or rank > best[0]:
+                    best = (rank, trial_state, shifted)
+            if best[0][0] >= 2:
+                state = best[1]
+                moved |= best[2]
     return state, len(moved)
