@@ -168,3 +168,28 @@ def test_centres_that_nearly_share_a_column_or_row_are_lined_up_where_the_rules_
     lined, moved = align_centres(drafts, 10.0, lambda t, i, s: t if t.centre == s[i].centre else None)
     assert moved == 0 and lined == drafts
     assert align_centres(drafts, 0.0, lambda t, i, s: t) == (drafts, 0)
+
+
+def test_slots_of_one_width_whose_directions_nearly_agree_are_turned_to_one():
+    # Slots of our own, 40 mm wide: at 156, 160.3, 164, 164 degrees (one run), at 178.5 and 2 (neighbours across
+    # 180: one run), one as long as it is wide (a round hole: no direction), one on a mirror line; and a 60 mm slot
+    # at 160 (another cutter: left alone).
+    from toolkit.voids.outline import Draft
+    from toolkit.voids.standardise import align_turns
+
+    def slot(angle, k, width=40.0, length=120.0, fixed=()):
+        return Draft(family="slot", centre=(100.0 * k, 50.0), size=width, length=length, angle_deg=angle, source=k,
+                     fixed=fixed)
+
+    drafts = [slot(156.0, 0), slot(160.3, 1), slot(164.0, 2), slot(164.0, 3), slot(178.5, 4), slot(2.0, 5),
+              slot(30.0, 6, length=40.0), slot(163.0, 7, fixed=("x",)), slot(160.0, 8, width=60.0)]
+    turned, count = align_turns(drafts, 10.0, lambda t, i, s: t)
+    angles = [d.angle_deg for d in turned]
+    assert angles[:4] == [164.0] * 4                                  # to the direction two lay at
+    assert {angles[4], angles[5]} in ({178.5}, {2.0})                 # across 180 degrees, to one of the two
+    assert turned[6:] == drafts[6:] and count == 3                    # a round hole, a mirror line, another width
+    assert all(t.centre == d.centre and t.length == d.length for t, d in zip(turned, drafts))
+    # A rule that holds the slot at 156 degrees where it is: the line where most end up is then its own.
+    turned, count = align_turns(drafts, 10.0, lambda t, i, s: None if i == 0 else t)
+    assert [d.angle_deg for d in turned][:4] == [156.0] * 4 and count == 4
+    assert align_turns(drafts, 0.0, lambda t, i, s: t) == (drafts, 0)

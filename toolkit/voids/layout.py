@@ -51,7 +51,7 @@ from .measure import FreeformVoid, clean, inscribed_width
 from .outline import Draft, segment_distance, segment_distances
 from .shape import GROW_RATE, shape_ok
 from .settings import CORNERS, FAMILIES, VoidOptions
-from .standardise import align_centres, size_groups, snap_centres, standardise_sizes
+from .standardise import align_centres, align_turns, size_groups, snap_centres, standardise_sizes
 from .symmetry import (Mirror, fold, layout_mirror, split_centre, symmetric_bores, symmetric_polygon,
                        symmetric_slot)
 
@@ -286,6 +286,9 @@ MEMBERS_HELD = 20_000
 # rules allow (``standardise.align_centres``): a house choice, no source; two steps join the 326 / 328 / 330 mm
 # column of a wall leaf of the examples and leave neighbouring columns (a void's width apart at least) alone.
 ALIGN_STEPS = 2.0
+# Slots of one width whose directions lie within this many degrees of each other are turned to one where the rules
+# allow (``standardise.align_turns``): a house choice, no source; it joins the wall leaf's 156-164 degree slots.
+ALIGN_TURN_DEG = 10.0
 # The others of a state beside one void (``Site.others``) remembered at most.
 OTHERS_HELD = 64
 
@@ -1876,6 +1879,12 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
             placed = lined
             notes.append(f"{moved} void centre(s) lined up with their neighbours' in columns and rows (within "
                          f"{ALIGN_STEPS * r.snap_mm:g} mm), the rules kept.")
+    # Slots of one width whose directions nearly agree turned to one, kept where the panel stays no softer.
+    turned_to, turned = align_turns(placed, ALIGN_TURN_DEG, lambda t, i, s: site.fits(t, i, s, move=False))
+    if turned and not softer(turned_to):
+        placed = turned_to
+        notes.append(f"{turned} slot(s) turned to the direction of their neighbours of the same width (within "
+                     f"{ALIGN_TURN_DEG:g} degrees), the rules kept.")
     # Change records point at drafts; follow each to the final draft of the same void.
     final_of = {(d.source, d.part): d for d in placed if d is not None}
     records = [((d.source, d.part), what, why) for d, what, why in change_recs]

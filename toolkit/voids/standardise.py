@@ -18,6 +18,7 @@ the stock sizes in the group's range.
 from __future__ import annotations
 
 import math
+from dataclasses import replace
 from typing import Callable, Collection, Sequence
 
 import numpy as np
@@ -321,3 +322,71 @@ def align_centres(drafts: list[Draft], tolerance: float, fits: Callable[[Draft, 
                 state = best[1]
                 moved |= best[2]
     return state, len(moved)
+
+
+def align_turns(drafts: list[Draft], tolerance_deg: float, fits: Callable[[Draft, int, list[Draft]], Draft | None]
+                ) -> tuple[list[Draft], int]:
+    """Slots of one width whose directions nearly agree turned to one direction, where the rules allow: the
+    shape optimisation turns each slot its own way (156 to 164 degrees among a wall leaf's slots of one cutter),
+    and a drawing, a jig and a router's setting-out read better with one.
+
+    Per slot width: the directions (taken modulo 180 degrees, the circle cut at its widest gap, so that 178 and
+    2 degrees are neighbours) sorted fall into runs no wider than ``tolerance_deg`` from their first. Each direction
+    a run's slots lie at is tried: every slot of the run turns to it about its centre, one by one, each only where
+    ``fits`` keeps it so, unmoved; the direction that ends with most slots at it is taken (of equals, the one most
+    lay at, then the one nearest the run's median). A slot no longer than it is wide (to half a millimetre: a round
+    hole) or on a mirror line keeps its own. Returns the drafts and how many turned."""
+    state = list(drafts)
+    turned: set[int] = set()
+    if tolerance_deg <= 0.0:
+        return state, 0
+    widths = sorted({d.size for d in state if d is not None and d.family == "slot"})
+    for width in widths:
+        slots = [i for i, d in enumerate(state) if d is not None and d.family == "slot" and d.size == width
+                 and not d.fixed and d.length - d.size >= 0.5]
+        if len(slots) < 2:
+            continue
+        at = {i: state[i].angle_deg % 180.0 for i in slots}
+        order = sorted(slots, key=lambda i: (at[i], i))
+        gaps = [(at[order[(k + 1) % len(order)]] - at[order[k]]) % 180.0 for k in range(len(order))]
+        cut = max(range(len(order)), key=lambda k: (gaps[k], -k))
+        order = order[cut + 1:] + order[:cut + 1]
+        base = at[order[0]]
+        unwrapped = {i: base + (at[i] - base) % 180.0 for i in order}
+        runs: list[list[int]] = []
+        for i in order:
+            if runs and unwrapped[i] - unwrapped[runs[-1][0]] <= tolerance_deg:
+                runs[-1].append(i)
+            else:
+                runs.append([i])
+        for run in runs:
+            values = [unwrapped[i] for i in run]
+            middle = float(np.median(values))
+            lines: dict[float, tuple[float, int]] = {}
+            for i, v in zip(run, values):
+                key = round(v % 180.0, 6)
+                target, count = lines.get(key, (state[i].angle_deg % 180.0, 0))
+                lines[key] = (target, count + 1)
+            if len(run) < 2 or len(lines) < 2:
+                continue
+            best: tuple[tuple, list[Draft], set[int]] | None = None
+            for key, (target, count) in lines.items():
+                trial_state, shifted = list(state), set()
+                for i in run:
+                    d = trial_state[i]
+                    if d.angle_deg % 180.0 == target:
+                        continue
+                    trial = replace(d, angle_deg=target)
+                    placed = fits(trial, i, trial_state)
+                    if placed is not None and placed.centre == trial.centre and placed.angle_deg == target:
+                        trial_state[i] = placed
+                        shifted.add(i)
+                on_line = sum(trial_state[i].angle_deg % 180.0 == target for i in run)
+                near = abs(((target - middle + 90.0) % 180.0) - 90.0)
+                rank = (on_line, count, -near, -target)
+                if best is None or rank > best[0]:
+                    best = (rank, trial_state, shifted)
+            if best[0][0] >= 2:
+                state = best[1]
+                turned |= best[2]
+    return state, len(turned)
