@@ -301,27 +301,39 @@ def align_centres(drafts: list[Draft], tolerance: float, fits: Callable[[Draft, 
                         lines[key] = (lines.get(key, (at, 0, True))[0], lines.get(key, (at, 0, True))[1], True)
             if len(lines) < 2:
                 continue
-            best: tuple[tuple, list[Draft], set[int]] | None = None
-            for key, (target, count, on_grid) in lines.items():
-                trial_state, shifted = list(state), set()
-                for i in run:
-                    d = trial_state[i]
-                    if d.centre[axis] == target:
-                        continue
-                    centre = (target, d.centre[1]) if axis == 0 else (d.centre[0], target)
-                    trial = d.at(centre)
-                    placed = fits(trial, i, trial_state)
-                    if placed is not None and placed.centre == trial.centre:
-                        trial_state[i] = placed
-                        shifted.add(i)
-                on_line = sum(trial_state[i].centre[axis] == target for i in run)
-                rank = (on_line, on_grid, count, -abs(target - middle), -target)
-                if best is None or rank > best[0]:
-                    best = (rank, trial_state, shifted)
+            ax = axis
+
+            def onto(d: Draft, target: float) -> Draft:
+                return d.at((target, d.centre[1]) if ax == 0 else (d.centre[0], target))
+
+            best = _best_line(state, run, [(t, (g, c, -abs(t - middle), -t)) for t, c, g in lines.values()],
+                              onto, lambda d, target: d.centre[ax] == target, fits)
             if best[0][0] >= 2:
                 state = best[1]
                 moved |= best[2]
     return state, len(moved)
+
+
+def _best_line(state: list[Draft], run: list[int], lines: list[tuple[float, tuple]], onto, on, fits):
+    """Of ``lines`` ((value, rank after the count)), the one that ends with most of ``run`` on it: every void of
+    the run is moved onto each (``onto(draft, value)``) one by one, kept only where ``fits`` keeps it unmoved;
+    ``on(draft, value)`` tells a void on the line. Returns (rank, drafts, the voids moved)."""
+    best: tuple[tuple, list[Draft], set[int]] | None = None
+    for target, rank_after in lines:
+        trial_state, shifted = list(state), set()
+        for i in run:
+            d = trial_state[i]
+            if on(d, target):
+                continue
+            trial = onto(d, target)
+            placed = fits(trial, i, trial_state)
+            if placed is not None and placed.centre == trial.centre and on(placed, target):
+                trial_state[i] = placed
+                shifted.add(i)
+        rank = (sum(on(trial_state[i], target) for i in run),) + rank_after
+        if best is None or rank > best[0]:
+            best = (rank, trial_state, shifted)
+    return best
 
 
 def align_turns(drafts: list[Draft], tolerance_deg: float, fits: Callable[[Draft, int, list[Draft]], Draft | None]
@@ -369,23 +381,10 @@ def align_turns(drafts: list[Draft], tolerance_deg: float, fits: Callable[[Draft
                 lines[key] = (target, count + 1)
             if len(run) < 2 or len(lines) < 2:
                 continue
-            best: tuple[tuple, list[Draft], set[int]] | None = None
-            for key, (target, count) in lines.items():
-                trial_state, shifted = list(state), set()
-                for i in run:
-                    d = trial_state[i]
-                    if d.angle_deg % 180.0 == target:
-                        continue
-                    trial = replace(d, angle_deg=target)
-                    placed = fits(trial, i, trial_state)
-                    if placed is not None and placed.centre == trial.centre and placed.angle_deg == target:
-                        trial_state[i] = placed
-                        shifted.add(i)
-                on_line = sum(trial_state[i].angle_deg % 180.0 == target for i in run)
-                near = abs(((target - middle + 90.0) % 180.0) - 90.0)
-                rank = (on_line, count, -near, -target)
-                if best is None or rank > best[0]:
-                    best = (rank, trial_state, shifted)
+            best = _best_line(state, run,
+                              [(t, (c, -abs(((t - middle + 90.0) % 180.0) - 90.0), -t)) for t, c in lines.values()],
+                              lambda d, target: replace(d, angle_deg=target),
+                              lambda d, target: d.angle_deg % 180.0 == target, fits)
             if best[0][0] >= 2:
                 state = best[1]
                 turned |= best[2]
