@@ -262,11 +262,11 @@ def align_centres(drafts: list[Draft], tolerance: float, fits: Callable[[Draft, 
 
     For x, then y: the centres sorted along the axis fall into runs no longer than ``tolerance`` from their first
     (a run ends where the next centre is further). Each value a run's voids stand on, and each point of the
-    ``snap`` grid through ``origin`` within half a step of the run, is tried as the line: every void of the run moves to it, one by
-    one, each only where ``fits`` keeps it there unmoved. The line that ends with most voids on it is taken; of
-    equals, one on the grid, then the value most voids stood on, then the one nearest the run's median. A void on
-    a mirror line and an irregular n-gon (its corners are on the grid, not its centre) keep their places. Returns
-    the drafts and how many moved."""
+    ``snap`` grid through ``origin`` within half a step of the run, is tried as the line: every void of the run
+    moves to it, one by one, each only where ``fits`` keeps it there unmoved. The line that ends with most voids on
+    it is taken; of equals, one on the grid, then the value most voids stood on, then the one nearest the run's
+    median. A void on a mirror line and an irregular n-gon (its corners are on the grid, not its centre) keep their
+    places. Returns the drafts and how many moved."""
     state = list(drafts)
     moved: set[int] = set()
     if tolerance <= 0.0:
@@ -298,7 +298,8 @@ def align_centres(drafts: list[Draft], tolerance: float, fits: Callable[[Draft, 
                     at = o + k * snap
                     if min(values) - 0.5 * snap <= at <= max(values) + 0.5 * snap:
                         key = round(at, 6)
-                        lines[key] = (lines.get(key, (at, 0, True))[0], lines.get(key, (at, 0, True))[1], True)
+                        drawn_at, count, _ = lines.get(key, (at, 0, True))
+                        lines[key] = (drawn_at, count, True)
             if len(lines) < 2:
                 continue
             ax = axis
