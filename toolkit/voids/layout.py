@@ -496,6 +496,10 @@ class Site:
                 return cand
         return None
 
+    def keeps(self, trial: Draft, i: int, state: list[Draft]) -> Draft | None:
+        """``fits`` with the trial where it is, unmoved: the later stages' test of a void they have placed."""
+        return self.fits(trial, i, state, move=False)
+
     def why(self, d: Draft, r: Resolved) -> str:
         """Why ``d`` does not fit where it is, in words."""
         shapes = self.shapes(d)
@@ -1129,7 +1133,7 @@ def _fill(placed: list[Draft], allowed, site: Site, r: Resolved, score, evaluate
     state = list(placed)
     added = []
     for d in extra:
-        got = site.fits(d, -1, state, move=False)
+        got = site.keeps(d, -1, state)
         if got is not None:
             state.append(got)
             added.append(got)
@@ -1305,7 +1309,7 @@ def honeycomb_within_cap(allowed, families, r: Resolved, score, bound, openings,
                 c_fit > cap or sum(d.shape().area for d in other[0]) > LATTICE_GAIN * area_fit):
             within = _within_cap(other[0], evaluate, cap,
                                  floor_mm2=LATTICE_GAIN * area_fit if c_fit <= cap else 0.0,
-                                 fits=lambda t, i, s: site.fits(t, i, s, move=False),
+                                 fits=site.keeps,
                                  smaller=lambda d: _a_size_smaller(d, r))
         answers.append((other, within))
     return answers[0], answers[1]
@@ -1716,11 +1720,8 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
         if shape_steps and evaluate is not None and placed:
             from .shape import optimise
 
-            def keeps(t, i, s):
-                return site.fits(t, i, s, move=False)
-
             def shaped_from(drafts, analysis):
-                return optimise(drafts, evaluate, keeps, rho=rho, target_area_mm2=sum(g.area for g in free_shapes),
+                return optimise(drafts, evaluate, site.keeps, rho=rho, target_area_mm2=sum(g.area for g in free_shapes),
                                 feature_mm=r.least_feature_mm, step_mm=max(grid.dx, grid.dy), steps=shape_steps,
                                 cap_Nmm=cap, first=analysis)
 
@@ -1856,7 +1857,7 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
 
     def snapped(inward_only: bool = False):
         return snap_centres(unsnapped, r.snap_mm,
-                            lambda t, i, s: site.fits(t, i, s, move=False) if shape_ok(t, r.least_feature_mm) else None,
+                            lambda t, i, s: site.keeps(t, i, s) if shape_ok(t, r.least_feature_mm) else None,
                             origin=mirror.origin, inward_only=inward_only)
 
     # Snapping moves centres and corners by up to a grid step, and a corner snapped to its nearest grid point may
@@ -1873,14 +1874,13 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
     # Centres that nearly share a column or a row are lined up (within two grid steps), kept where the panel stays
     # no softer than the freeform layout.
     if r.snap_mm > 0.0:
-        lined, moved = align_centres(placed, ALIGN_STEPS * r.snap_mm,
-                                     lambda t, i, s: site.fits(t, i, s, move=False), r.snap_mm, mirror.origin)
+        lined, moved = align_centres(placed, ALIGN_STEPS * r.snap_mm, site.keeps, r.snap_mm, mirror.origin)
         if moved and not softer(lined):
             placed = lined
             notes.append(f"{moved} void centre(s) lined up with their neighbours' in columns and rows (within "
                          f"{ALIGN_STEPS * r.snap_mm:g} mm), the rules kept.")
     # Slots of one width whose directions nearly agree turned to one, kept where the panel stays no softer.
-    turned_to, turned = align_turns(placed, ALIGN_TURN_DEG, lambda t, i, s: site.fits(t, i, s, move=False))
+    turned_to, turned = align_turns(placed, ALIGN_TURN_DEG, site.keeps)
     if turned and not softer(turned_to):
         placed = turned_to
         notes.append(f"{turned} slot(s) turned to the direction of their neighbours of the same width (within "

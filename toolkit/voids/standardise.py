@@ -275,13 +275,7 @@ def align_centres(drafts: list[Draft], tolerance: float, fits: Callable[[Draft, 
         free = [i for i, d in enumerate(state) if d is not None and not d.fixed
                 and not (d.family == "polygon" and not d.regular)]
         free.sort(key=lambda i: (state[i].centre[axis], i))
-        runs: list[list[int]] = []
-        for i in free:
-            if runs and state[i].centre[axis] - state[runs[-1][0]].centre[axis] <= tolerance:
-                runs[-1].append(i)
-            else:
-                runs.append([i])
-        for run in runs:
+        for run in _runs(free, {i: state[i].centre[axis] for i in free}, tolerance):
             if len(run) < 2:
                 continue
             values = [state[i].centre[axis] for i in run]
@@ -313,6 +307,17 @@ def align_centres(drafts: list[Draft], tolerance: float, fits: Callable[[Draft, 
                 state = best[1]
                 moved |= best[2]
     return state, len(moved)
+
+
+def _runs(order: list[int], value: dict[int, float], tolerance: float) -> list[list[int]]:
+    """``order`` (sorted by ``value``) cut into runs no longer than ``tolerance`` from their first."""
+    runs: list[list[int]] = []
+    for i in order:
+        if runs and value[i] - value[runs[-1][0]] <= tolerance:
+            runs[-1].append(i)
+        else:
+            runs.append([i])
+    return runs
 
 
 def _best_line(state: list[Draft], run: list[int], lines: list[tuple[float, tuple]], onto, on, fits):
@@ -366,13 +371,7 @@ def align_turns(drafts: list[Draft], tolerance_deg: float, fits: Callable[[Draft
         order = order[cut + 1:] + order[:cut + 1]
         base = at[order[0]]
         unwrapped = {i: base + (at[i] - base) % 180.0 for i in order}
-        runs: list[list[int]] = []
-        for i in order:
-            if runs and unwrapped[i] - unwrapped[runs[-1][0]] <= tolerance_deg:
-                runs[-1].append(i)
-            else:
-                runs.append([i])
-        for run in runs:
+        for run in _runs(order, unwrapped, tolerance_deg):
             values = [unwrapped[i] for i in run]
             middle = float(np.median(values))
             lines: dict[float, tuple[float, int]] = {}
