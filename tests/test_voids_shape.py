@@ -77,7 +77,7 @@ def test_the_outline_jacobian_of_slots_and_bores_matches_central_differences_of_
     # The closed forms (a move, a turn about the centre, each end moving half a change of length) against central
     # differences of the flattened outline itself (h = 1e-4 mm and rad): rigid moves are exact up to rounding and
     # the turn's truncation is O(h^2 |v - c|), so 1e-6 of the column's norm holds (measured 1.7e-9 at most here,
-    # 2026-12-03).
+    # 2026-12-03; the 1e-6 is a house tolerance, no source; the drafts are our own).
     v0, J = jacobian(draft)
     p = params(draft)
     for j in range(p.size):
