@@ -319,3 +319,35 @@ def test_a_bores_step_follows_its_compliance_gradient_alone():
     assert not ga.any()
     step = _direction(1, g, rho=1.0)
     assert float(step @ -gc) == pytest.approx(np.linalg.norm(step) * np.linalg.norm(gc), rel=1e-9)
+
+
+@pytest.mark.parametrize("allowed_share, expected_share, tests", [
+    (0.05, None, 2),      # even a sixteenth of the reach breaks the rule: the void stays, after two tests
+    (0.30, 0.25, 6),      # the bisection's answer: a quarter of the reach (a half, 3/8 and 5/16 break it)
+    (1.00, 1.00, 1),      # the whole reach keeps the rules
+    (0.0625, 0.0625, 5),  # the sixteenth alone: found as the bisection finds it, not tested twice
+])
+def test_a_growth_step_goes_as_far_as_the_rules_let_it_in_halvings_of_its_reach(allowed_share, expected_share,
+                                                                                   tests):
+    # Stage 2 tries a void's whole reach, then its smallest step (a sixteenth), then halves between: a stand-in
+    # rule that keeps the void within a share of the reach of where it was, counting the tests.
+    from toolkit.voids.shape import _grow_step
+
+    grid = make_grid(PANEL.width_mm, PANEL.height_mm, PANEL.element_size_mm)
+    d = DRAFTS["bore"]
+    _, energy = Evaluator(PANEL, grid)([d])
+    grads = gradients(grid, energy, [d])
+    reach = 40.0
+    asked = []
+
+    def fits(t, i, state):
+        asked.append(t)
+        travel = math.dist(t.centre, d.centre)
+        return t if travel <= allowed_share * reach * (1 + 1e-12) else None
+
+    state, moves = _grow_step([d], grads, 1.0, fits, 5.0, reach)
+    assert len(asked) == tests
+    if expected_share is None:
+        assert state == [d] and not moves
+    else:
+        assert math.dist(state[0].centre, d.centre) == pytest.approx(expected_share * reach, rel=1e-9)
