@@ -271,10 +271,11 @@ def _honeycomb_cases():
 
 @pytest.mark.parametrize("process", ["helper process", "stand-in", "broken"])
 def test_the_honeycomb_weighed_in_the_helper_gives_the_layout_made_here(process, request, monkeypatch):
-    # The honeycomb over the region is laid, placed and cut down to the stiffness cap in the helper while this
-    # process shapes the first fit as if it were not taken; where it is taken that work is done again from it.
-    # Either way the layout, the notes and the analyses counted are those of the run without a helper; a helper
-    # that fails leaves the honeycomb to this process, with the same outcome.
+    # The large honeycomb over the region is laid, placed and cut down to the stiffness cap in the helper, which
+    # then finishes the layout the stage starts from (the honeycomb's where it is taken, else the first fit's),
+    # while this process weighs and finishes the finer honeycomb. The layout, the notes and the analyses counted
+    # are those of the run without a helper; a helper that fails leaves its work to this process, with the same
+    # outcome.
     helper = request.getfixturevalue("ready_helper") if process == "helper process" else \
         _Stand_in(broken=process == "broken")
     sent = []
@@ -288,13 +289,20 @@ def test_the_honeycomb_weighed_in_the_helper_gives_the_layout_made_here(process,
     monkeypatch.setattr(helper, "submit", recording)
     taken = []
     for run, panel, options, energy in _honeycomb_cases():
-        alone = rationalise(panel, list(run.freeform), options, run.rules, energy=energy)
+        told_alone, told_shared = [], []
+        alone = rationalise(panel, list(run.freeform), options, run.rules, energy=energy,
+                            on_first_fit=lambda layouts, sizes: told_alone.append(layouts))
         sent.clear()
-        shared = rationalise(panel, list(run.freeform), options, run.rules, energy=energy, helper=helper)
-        weighed = [f for name, f in sent if name == "honeycomb_elsewhere"]
+        shared = rationalise(panel, list(run.freeform), options, run.rules, energy=energy, helper=helper,
+                             on_first_fit=lambda layouts, sizes: told_shared.append(layouts))
+        # the limiting rule's refits are last told of the layout made, and told no more often than in sequence
+        assert told_shared[-1] == shared.layouts == told_alone[-1]
+        assert len(told_shared) <= len(told_alone)
+        weighed = [f for name, f in sent if name == "finished_elsewhere"]
         assert len(weighed) == 1
         if process != "broken":
-            assert weighed[0].result()[0][1] is not None and weighed[0].result()[2] >= 1  # analysed there
+            honey, done, analyses = weighed[0].result()
+            assert honey[1] is not None and done.shaped is not None and analyses >= 2  # weighed and shaped there
         assert [repr(v) for v in shared.voids] == [repr(v) for v in alone.voids]
         assert shared.notes == alone.notes and shared.layouts == alone.layouts
         assert shared.shape.analyses == alone.shape.analyses
@@ -331,43 +339,10 @@ def test_a_honeycomb_not_taken_in_the_helper_leaves_the_first_fits_layout(broken
 
     monkeypatch.setattr(stand_in, "submit", recording)
     shared = rationalise(panel, list(run.freeform), options, run.rules, energy=energy, helper=stand_in)
-    assert "honeycomb_elsewhere" in sent
+    assert "finished_elsewhere" in sent
     assert not any("honeycomb" in n for n in alone.notes)
     assert [repr(v) for v in shared.voids] == [repr(v) for v in alone.voids]
     assert shared.notes == alone.notes and shared.layouts == alone.layouts
-    assert shared.shape.analyses == alone.shape.analyses
-
-
-def test_a_honeycomb_taken_stops_the_first_fits_finishing_at_its_next_analysis(monkeypatch):
-    # The glulam beam's honeycomb is taken: once the helper's answer is in, the first fit's layout (shaped as if it
-    # were not) stops at its next analysis instead of being finished and thrown away; the layout is the one made
-    # without a helper.
-    from toolkit.voids import layout as L
-    from toolkit.voids import shape as S
-
-    run, panel, options, energy = next(_honeycomb_cases())
-    alone = rationalise(panel, list(run.freeform), options, run.rules, energy=energy)
-    stopped, analyses = [], []
-    made = L._superseded_by
-
-    def spying(*args):
-        check = made(*args)
-
-        def spied():
-            try:
-                check()
-            except L._Superseded:
-                stopped.append(len(analyses))
-                raise
-
-        return spied
-
-    shapes = S.Evaluator.shapes
-    monkeypatch.setattr(L, "_superseded_by", spying)
-    monkeypatch.setattr(S.Evaluator, "shapes", lambda self, s: analyses.append(1) or shapes(self, s))
-    shared = rationalise(panel, list(run.freeform), options, run.rules, energy=energy, helper=_Stand_in())
-    assert len(stopped) == 1  # the stand-in answers at once: stopped at the first analysis of the finishing
-    assert [repr(v) for v in shared.voids] == [repr(v) for v in alone.voids] and shared.notes == alone.notes
     assert shared.shape.analyses == alone.shape.analyses
 
 
@@ -401,9 +376,9 @@ def test_the_evaluator_made_ahead_in_the_helper_serves_the_honeycomb_and_answers
 
 def test_a_job_whose_honeycomb_is_taken_after_the_helper_weighed_it_is_the_job_made_alone(monkeypatch):
     # The whole job with the helper on the glulam beam at 8 mm elements (28,125: the helper starts), n-gons: the
-    # honeycomb weighed there is taken, so the layout is shaped again from it, and the limiting rule's refits sent
-    # for the first try are dropped and sent again for the honeycomb's. Voids, notes and the limiting rule's
-    # sentence are those of the job made without the helper.
+    # honeycomb weighed there is taken, so the layout the helper finishes is the honeycomb's, and the limiting
+    # rule's refits are sent for it alone. Voids, notes and the limiting rule's sentence are those of the job made
+    # without the helper.
     if may_start():
         pytest.skip(f"no helper process on this machine: {may_start()}")
     from test_voids_layout import _glulam_case
@@ -425,8 +400,10 @@ def test_a_job_whose_honeycomb_is_taken_after_the_helper_weighed_it_is_the_job_m
     monkeypatch.setattr(pipeline, "limit_trials", lambda *a: asked.append(1) or trials(*a))
     shared = pipeline.optimize_panel(panel, job, helper=True)
     assert any(n.startswith("the voids are laid as a honeycomb") for n in alone.rationalised.notes)
-    assert "honeycomb_elsewhere" in sent and "first_fit_area" in sent
-    assert len(asked) == 3  # told twice: the first fit, then the honeycomb taken after all; then the checks
+    assert "finished_elsewhere" in sent and "first_fit_area" in sent
+    # told once, of the layout the helper finished (the honeycomb, taken there before any refit was sent); then the
+    # checks
+    assert len(asked) == 2
     assert [repr(v) for v in shared.voids] == [repr(v) for v in alone.voids]
     assert shared.rationalised.notes == alone.rationalised.notes and shared.limit == alone.limit
     assert shared.rationalised.shape == alone.rationalised.shape

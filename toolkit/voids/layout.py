@@ -30,6 +30,7 @@ from __future__ import annotations
 import hashlib
 import math
 import pickle
+import threading
 from dataclasses import dataclass, replace
 from typing import Callable
 
@@ -1285,7 +1286,99 @@ class _Done:
     kinds: dict
     first_fit_mm2: float
     shaped: object
-    told: tuple | None = None  # what ``on_first_fit`` was told for this layout
+    told: tuple | None = None  # what ``on_first_fit`` is told for this layout (``rationalise``)
+    sent: bool = False  # ``on_first_fit`` was told as the layout was made
+
+
+@dataclass
+class _Finisher:
+    """The last stages from a first fit (``_Stage``), or the honeycomb taken instead: the largest-first fit where it
+    removes more, the shape optimisation and the fill. Every value of the run it reads is a field, so the helper
+    process can finish one layout while this process finishes another."""
+
+    r: Resolved
+    site: Site
+    allowed: object
+    openings: list
+    score: object  # the later stages' worth and bound (``rationalise``)
+    bound: object
+    rho: float | None
+    step_mm: float  # the shape optimisation's step: the grid's element
+    shape_steps: int
+    kinds: dict  # the first fit's choice of layout per void
+    first_fit_mm2: float
+    big: tuple | None  # the largest-first fit (drafts, change records, drop records) where it is weighed, else None
+    wheres: dict  # {freeform void: where it is, in words}
+    mirrored: bool
+
+    def where(self, source: int) -> str:
+        return self.wheres.get(source, "a void of the honeycomb over the region open to voids")
+
+    def __call__(self, start: _Stage, evaluate, cap, free_shapes, *, helper=None,
+                 tell: Callable[[tuple, list], None] | None = None) -> _Done:
+        """``start`` finished, nothing of the run changed; ``tell`` (``rationalise``'s ``on_first_fit``), where
+        given, is told the layout's choice per void and its sizes before it is shaped; ``helper`` may take part of
+        the fill's honeycomb."""
+        r, site = self.r, self.site
+        placed, change_recs, drop_recs, first = start.placed, start.change_recs, start.drop_recs, start.first
+        notes_now = list(start.notes)
+        kinds_now = dict(self.kinds if start.kinds is None else start.kinds)
+        fit_mm2 = self.first_fit_mm2 if start.first_fit_mm2 is None else start.first_fit_mm2
+        if evaluate is not None and self.big is not None:
+            # Largest first: fewer, larger voids, each keeping the web its size asks (``largest_first``), taken
+            # where it removes clearly more (LARGEST_GAIN), no softer than the freeform layout, and costs no more
+            # stiffness for it than the shape optimisation's growth may (GROW_RATE).
+            big, big_changes, big_drops = (list(part) for part in self.big)
+            area_now, area_big = sum(d.shape().area for d in placed), sum(d.shape().area for d in big)
+            if big and area_big > LARGEST_GAIN * area_now:
+                c_now = first[0]
+                c_big, e_big = evaluate(big)
+                worth_it = area_now <= 0.0 or \
+                    (area_big - area_now) / area_now >= GROW_RATE * max(c_big - c_now, 0.0) / c_now
+                if c_big <= cap and worth_it:
+                    notes_now.append(f"the voids are fitted largest first, each keeping the web its size asks: "
+                                     f"fewer, larger voids keep more of the saving than every freeform void kept "
+                                     f"small ({area_big:.0f} against {area_now:.0f} mm2 removed, no softer than the "
+                                     "freeform layout).")
+                    placed, change_recs, drop_recs, first = big, big_changes, big_drops, (c_big, e_big)
+                    fit_mm2 = site.area(big)
+                    kinds_now[-1] = (r.family, LARGEST_FIRST)  # the limiting rule's refits follow it
+        dropped_now = [f"{self.where(source)}: {reason}; dropped." for source, reason in drop_recs]
+        # now: the shaping ahead is mostly analyses here, and the helper takes this work after the honeycomb
+        told = (tuple((i, f, kind) for i, (f, kind) in kinds_now.items()),
+                [_extent(g) for d in placed for g in site.shapes(d)])
+        if tell is not None:
+            tell(*told)
+        shaped = None
+        if self.shape_steps and evaluate is not None and placed:
+            from .shape import optimise
+
+            def shaped_from(drafts, analysis):
+                return optimise(drafts, evaluate, site.keeps, rho=self.rho,
+                                target_area_mm2=sum(g.area for g in free_shapes), feature_mm=r.least_feature_mm,
+                                step_mm=self.step_mm, steps=self.shape_steps, cap_Nmm=cap, first=analysis)
+
+            shaped = shaped_from(placed, first)
+            notes_now += list(shaped.notes)
+            placed = list(shaped.drafts)
+            if not self.mirrored:
+                placed, filled, filled_at = _fill(placed, self.allowed, site, r, self.score, evaluate, cap,
+                                                  self.openings, self.bound, helper)
+                if filled:
+                    notes_now.append(f"{filled} more void(s) placed in the room the layout left, where the material "
+                                     "works least, the panel staying no softer than the freeform layout.")
+                    # The new voids are fitted to their cells and the voids grown before them stopped where the
+                    # cap or a rule held them; the cap often leaves stiffness to spend, so the whole layout is shaped
+                    # again from the fill's analysis (``optimise`` never returns a worse layout).
+                    again = shaped_from(placed, filled_at)
+                    shaped = replace(shaped, analyses=again.analyses)
+                    placed = list(again.drafts)  # the same, or stiffer at the same material, or grown under the cap
+                    if again.area_mm2[-1] > again.area_mm2[0] * (1.0 + GROWN_NOTE):  # else no growth to speak of
+                        notes_now.append(f"the layout with them shaped and grown again: {again.area_mm2[-1]:.0f} "
+                                         f"against {again.area_mm2[0]:.0f} mm2 removed, no softer than the freeform "
+                                         "layout.")
+        return _Done(placed, change_recs, notes_now, dropped_now, kinds_now, fit_mm2, shaped, told,
+                     sent=tell is not None)
 
 
 def honeycomb_within_cap(allowed, families, r: Resolved, score, bound, openings, site: Site, evaluate, cap: float,
@@ -1298,21 +1391,29 @@ def honeycomb_within_cap(allowed, families, r: Resolved, score, bound, openings,
     The worth that chooses among the honeycombs of the sizes tried is first order (the solid panel's energy under
     each cell): it favours large cells, and a cell as deep as the region cuts through load paths the analysis then
     finds. So the finer honeycomb (``LATTICE_FINE``) is weighed on its own too; whether it is taken is settled once
-    it is shaped and grown (``_or_finer``): it ends at the cap where the first fit still has room to grow."""
-    answers = []
-    for scales in (LATTICE_SCALES, LATTICE_FINE):
-        grid_drafts = _lattice_of(allowed, families, r, score, openings=openings, bound=bound, helper=helper,
-                                  scales=scales)
-        other = place(grid_drafts, site, r) if grid_drafts else None
-        within = None
-        if other is not None and other[0] and (
-                c_fit > cap or sum(d.shape().area for d in other[0]) > LATTICE_GAIN * area_fit):
-            within = _within_cap(other[0], evaluate, cap,
-                                 floor_mm2=LATTICE_GAIN * area_fit if c_fit <= cap else 0.0,
-                                 fits=site.keeps,
-                                 smaller=lambda d: _a_size_smaller(d, r))
-        answers.append((other, within))
-    return answers[0], answers[1]
+    it is shaped, grown, filled and given standard sizes beside the layout otherwise made (``_removing_more``): it
+    ends at the cap where the first fit still has room to grow. Taken at the cut-down, where it removes more than the
+    first fit, it lost on two beams of the examples with bores under the steel-cut rules (the first fit, stiffer
+    there, grew further: 22.5 against 20.2 % of the panel, 2026-12-03)."""
+    args = (allowed, families, r, score, bound, openings, site, evaluate, cap, c_fit, area_fit)
+    return (honeycomb_at(LATTICE_SCALES, *args, helper=helper), honeycomb_at(LATTICE_FINE, *args, helper=helper))
+
+
+def honeycomb_at(scales: tuple[float, ...], allowed, families, r: Resolved, score, bound, openings, site: Site,
+                 evaluate, cap: float, c_fit: float, area_fit: float, helper=None):
+    """One of ``honeycomb_within_cap``'s pairs: the honeycomb of the cell sizes ``scales`` (of the web's), placed,
+    and cut down to the cap where it could be taken."""
+    grid_drafts = _lattice_of(allowed, families, r, score, openings=openings, bound=bound, helper=helper,
+                              scales=scales)
+    other = place(grid_drafts, site, r) if grid_drafts else None
+    within = None
+    if other is not None and other[0] and (
+            c_fit > cap or sum(d.shape().area for d in other[0]) > LATTICE_GAIN * area_fit):
+        within = _within_cap(other[0], evaluate, cap,
+                             floor_mm2=LATTICE_GAIN * area_fit if c_fit <= cap else 0.0,
+                             fits=site.keeps,
+                             smaller=lambda d: _a_size_smaller(d, r))
+    return other, within
 
 
 # In the helper process: the Evaluator made ahead for a job (``warm_evaluator``), by the digest of what it was made
@@ -1326,7 +1427,7 @@ def _warm_key(panel: Panel, nx: int, ny: int, dx: float, dy: float, backend: str
 
 def warm_evaluator(panel: Panel, nx: int, ny: int, dx: float, dy: float, backend: str) -> bool:
     """Made in the helper process while the optimiser runs (its core is idle then): the Evaluator of the panel as
-    drawn, its solver analysed and factorised, kept for ``honeycomb_elsewhere`` (whose analyses are then refactors:
+    drawn, its solver analysed and factorised, kept for ``finished_elsewhere`` (whose analyses are then refactors:
     its set-up, 0.8 s of the helper's at 300 x 100 elements, is off the job's path)."""
     _WARM.clear()
     evaluate = _helper_evaluator(panel, nx, ny, dx, dy, backend)
@@ -1345,44 +1446,32 @@ def _helper_evaluator(panel: Panel, nx: int, ny: int, dx: float, dy: float, back
     return Evaluator(panel, Grid(nx, ny, dx, dy), shared=SharedSolver(backend))
 
 
-def honeycomb_elsewhere(panel: Panel, nx: int, ny: int, dx: float, dy: float, backend: str, *args):
-    """``honeycomb_within_cap(*args)`` analysed on a solver of its own (the helper process runs it; on the one
-    ``warm_evaluator`` made where it did): its answer and the analyses it made. A solver's factor of a matrix is
-    the same to the bit whether made for it or refactored from another of the same pattern."""
+def finished_elsewhere(panel: Panel, nx: int, ny: int, dx: float, dy: float, backend: str, fitted: _Stage,
+                       finisher: _Finisher, cap: float, free_shapes, *honey_args):
+    """``_finished`` on a solver of its own (the helper process runs it, on the Evaluator ``warm_evaluator`` made
+    there where it did): the large honeycomb weighed and the layout the stage starts from finished, while this
+    process weighs and finishes the finer honeycomb. A solver's factor of a matrix is the same to the bit whether
+    made for it or refactored from another of the same pattern, so the answer is the one made here."""
     evaluate = _WARM.pop(_warm_key(panel, nx, ny, dx, dy, backend), None)
     _WARM.clear()
     if evaluate is None:
         evaluate = _helper_evaluator(panel, nx, ny, dx, dy, backend)
-    honey, finer = honeycomb_within_cap(*args[:7], evaluate, *args[7:])
-    evaluate.shared.release()
-    return honey, finer, evaluate.analyses
+    try:
+        return _finished(evaluate, fitted, finisher, cap, free_shapes, honey_args)
+    finally:
+        evaluate.shared.release()
 
 
-class _Superseded(Exception):
-    """The layout being finished is not the one the void stage will take (``_superseded_by``)."""
-
-
-def _superseded_by(future, fitted: _Stage, cap: float, c_fit: float, area_fit: float) -> Callable[[], None]:
-    """A check (``Evaluator.before``) that raises ``_Superseded`` once the helper's honeycomb (``future``, of
-    ``honeycomb_elsewhere``) has come back and is taken instead of ``fitted`` (``_with_honeycomb``); until then,
-    and where the helper failed (the honeycomb is then made here afterwards), it lets the work go on."""
-    decided: list[bool] = []
-
-    def check() -> None:
-        if not decided and future.done():
-            decided.append(not future.cancelled() and future.exception() is None
-                           and _with_honeycomb(fitted, future.result()[0], cap, c_fit, area_fit) is not None)
-        if decided and decided[0]:
-            raise _Superseded
-
-    return check
-
-
-def _honeycomb_here(evaluate, args):
-    """``honeycomb_elsewhere``'s answer made in this process, on the job's ``evaluate``."""
+def _finished(evaluate, fitted: _Stage, finisher: _Finisher, cap: float, free_shapes, honey_args, helper=None):
+    """The large honeycomb over the region (``honeycomb_at`` with ``LATTICE_SCALES``; ``honey_args`` its arguments
+    but the scales and the Evaluator), and the honeycomb's layout where it is taken instead of ``fitted``, else
+    ``fitted``, finished (``_Finisher``): (the honeycomb's answer, the ``_Done``, the analyses made)."""
     before = evaluate.analyses
-    honey, finer = honeycomb_within_cap(*args[:7], evaluate, *args[7:])
-    return honey, finer, evaluate.analyses - before
+    honey = honeycomb_at(LATTICE_SCALES, *honey_args[:7], evaluate, *honey_args[7:], helper=helper)
+    c_fit, area_fit = honey_args[-2:]
+    start = _with_honeycomb(fitted, honey, cap, c_fit, area_fit) or fitted
+    done = finisher(start, evaluate, cap, free_shapes, helper=helper)
+    return honey, done, evaluate.analyses - before
 
 
 def _with_honeycomb(fitted: _Stage, honey, cap: float, c_fit: float, area_fit: float) -> _Stage | None:
@@ -1427,7 +1516,7 @@ def _stock(r: Resolved) -> dict[str, tuple[float, ...]]:
 
 
 def _mixed_or_ngons(done: _Done, chosen: dict, best: dict, site: Site, r: Resolved, evaluate, cap: float,
-                    free_shapes, finish, on_first_fit) -> _Done:
+                    free_shapes, finish: _Finisher, on_first_fit, helper=None) -> _Done:
     """``mixed``: the layout ``done`` made from the first fit's choice of family per void, or the same voids made
     as n-gons wherever an n-gon fits (the others as chosen) where that removes more once both are shaped, grown and
     filled. The choice is made at the first
@@ -1443,22 +1532,10 @@ def _mixed_or_ngons(done: _Done, chosen: dict, best: dict, site: Site, r: Resolv
     if not placed:
         return done
     start = _Stage(placed, change_recs, drop_recs, evaluate(placed), kinds=kinds, first_fit_mm2=site.area(placed))
-    other = finish(start, evaluate, cap, free_shapes)
+    other = finish(start, evaluate, cap, free_shapes, helper=helper, tell=on_first_fit)
     return _removing_more(done, other, site, r, evaluate, on_first_fit,
                           "the voids made as n-gons wherever one fits remove more than with the family chosen per void "
                           "at the first fit")
-
-
-def _or_finer(done: _Done, start: _Stage, site: Site, r: Resolved, evaluate, cap: float, free_shapes, finish,
-              on_first_fit) -> _Done:
-    """The layout ``done``, or the finer honeycomb's (``start``, ``honeycomb_within_cap``) where it removes more
-    once both are shaped, grown, filled and given standard sizes. Taken at the cut-down, where it removes more than
-    the first fit, it lost on two beams of the examples with bores under the steel-cut rules (the first fit, stiffer
-    there, grew further: 22.5 against 20.2 % of the panel, 2026-12-03)."""
-    other = finish(start, evaluate, cap, free_shapes)
-    return _removing_more(done, other, site, r, evaluate, on_first_fit,
-                          "the finer honeycomb over the region open to voids removes more than the layout otherwise "
-                          "made")
 
 
 def _standard_area(drafts, site: Site, r: Resolved) -> float:
@@ -1479,12 +1556,14 @@ def _removing_more(done: _Done, other: _Done, site: Site, r: Resolved, evaluate,
     counted are all the stage made."""
     ours, theirs = _standard_area(done.placed, site, r), _standard_area(other.placed, site, r)
     if theirs > ours * (1.0 + 1e-9):
+        if on_first_fit is not None and other.told is not None and not other.sent:
+            on_first_fit(*other.told)  # the limiting rule's refits follow the layout taken
         note = (f"{what} ({theirs:.0f} against {ours:.0f} mm2 once shaped, grown and given standard sizes, both no "
                 "softer than the freeform layout): taken.")
         return replace(other, notes=other.notes + [note], shaped=replace(other.shaped, analyses=evaluate.analyses)
                        if other.shaped is not None else None)
-    if on_first_fit is not None and done.told is not None:
-        on_first_fit(*done.told)  # the limiting rule's refits follow the layout kept
+    if on_first_fit is not None and done.told is not None and other.sent:
+        on_first_fit(*done.told)  # the limiting rule's refits follow the layout kept, told since of ``other``'s
     if done.shaped is not None:
         done = replace(done, shaped=replace(done.shaped, analyses=evaluate.analyses))
     return done
@@ -1674,76 +1753,11 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
                             notes=tuple(notes), first_fit_mm2=first_fit_mm2,
                             layouts=tuple((i, f, kind) for i, (f, kind) in kinds.items()))
 
-    largest_made: list[tuple] = []
-
-    def largest() -> tuple[list[Draft], list, list]:
-        """The largest-first fit (``largest_first``), made once: every layout ``finish`` starts from compares with
-        the same one (made again, it was 0.33 s of the 300 x 100 bench plate's void stage on one core)."""
-        if not largest_made:
-            largest_made.append(result_or(big_ahead, largest_first, kept, allowed, site, r, opening_shapes,
-                                          first_score, first_bound))
-        return tuple(list(part) for part in largest_made[0])
-
-    def finish(start: _Stage, evaluate, cap, free_shapes) -> _Done:
-        """From a first fit (or the honeycomb taken instead): the largest-first fit where it removes more, the
-        shape optimisation and the fill; nothing of the enclosing run changed but the helper's work handed on."""
-        placed, change_recs, drop_recs, first = start.placed, start.change_recs, start.drop_recs, start.first
-        notes_now = list(start.notes)
-        kinds_now = dict(kinds if start.kinds is None else start.kinds)
-        fit_mm2 = first_fit_mm2 if start.first_fit_mm2 is None else start.first_fit_mm2
-        if evaluate is not None and largest_wanted:
-            # Largest first: fewer, larger voids, each keeping the web its size asks (``largest_first``), taken
-            # where it removes clearly more (LARGEST_GAIN), no softer than the freeform layout, and costs no more
-            # stiffness for it than the shape optimisation's growth may (GROW_RATE).
-            big, big_changes, big_drops = largest()
-            area_now, area_big = sum(d.shape().area for d in placed), sum(d.shape().area for d in big)
-            if big and area_big > LARGEST_GAIN * area_now:
-                c_now = first[0]
-                c_big, e_big = evaluate(big)
-                worth_it = area_now <= 0.0 or \
-                    (area_big - area_now) / area_now >= GROW_RATE * max(c_big - c_now, 0.0) / c_now
-                if c_big <= cap and worth_it:
-                    notes_now.append(f"the voids are fitted largest first, each keeping the web its size asks: "
-                                     f"fewer, larger voids keep more of the saving than every freeform void kept "
-                                     f"small ({area_big:.0f} against {area_now:.0f} mm2 removed, no softer than the "
-                                     "freeform layout).")
-                    placed, change_recs, drop_recs, first = big, big_changes, big_drops, (c_big, e_big)
-                    fit_mm2 = site.area(big)
-                    kinds_now[-1] = (r.family, LARGEST_FIRST)  # the limiting rule's refits follow it
-        dropped_now = [f"{where(source)}: {reason}; dropped." for source, reason in drop_recs]
-        # now: the shaping ahead is mostly analyses here, and the helper takes this work after the honeycomb
-        told = (tuple((i, f, kind) for i, (f, kind) in kinds_now.items()),
-                [_extent(g) for d in placed for g in site.shapes(d)])
-        if on_first_fit is not None:
-            on_first_fit(*told)
-        shaped = None
-        if shape_steps and evaluate is not None and placed:
-            from .shape import optimise
-
-            def shaped_from(drafts, analysis):
-                return optimise(drafts, evaluate, site.keeps, rho=rho, target_area_mm2=sum(g.area for g in free_shapes),
-                                feature_mm=r.least_feature_mm, step_mm=max(grid.dx, grid.dy), steps=shape_steps,
-                                cap_Nmm=cap, first=analysis)
-
-            shaped = shaped_from(placed, first)
-            notes_now += list(shaped.notes)
-            placed = list(shaped.drafts)
-            if not mirror.axes:
-                placed, filled, filled_at = _fill(placed, allowed, site, r, score, evaluate, cap, opening_shapes,
-                                                  bound, helper)
-                if filled:
-                    notes_now.append(f"{filled} more void(s) placed in the room the layout left, where the material "
-                                     "works least, the panel staying no softer than the freeform layout.")
-                    # The new voids are fitted to their cells and the voids grown before them stopped where the
-                    # cap or a rule held them; the cap often leaves stiffness to spend, so the whole layout is shaped
-                    # again from the fill's analysis (``optimise`` never returns a worse layout).
-                    again = shaped_from(placed, filled_at)
-                    shaped = replace(shaped, analyses=again.analyses)
-                    placed = list(again.drafts)  # the same, or stiffer at the same material, or grown under the cap
-                    if again.area_mm2[-1] > again.area_mm2[0] * (1.0 + GROWN_NOTE):  # else no growth to speak of
-                        notes_now.append(f"the layout with them shaped and grown again: {again.area_mm2[-1]:.0f} against "
-                                         f"{again.area_mm2[0]:.0f} mm2 removed, no softer than the freeform layout.")
-        return _Done(placed, change_recs, notes_now, dropped_now, kinds_now, fit_mm2, shaped, told)
+    def finisher(big: tuple | None = None) -> _Finisher:
+        """The last stages with the run's values as they stand (the worth repriced once the layout is analysed)."""
+        return _Finisher(r, site, allowed, opening_shapes, score, bound, rho,
+                         max(grid.dx, grid.dy) if grid is not None else 0.0, shape_steps, kinds, first_fit_mm2, big,
+                         {i: where(i) for i in by_source}, bool(mirror.axes))
 
     analysed = None  # (evaluator, cap) where the layout is analysed
     if grid is not None and kept and rho is not None:
@@ -1762,57 +1776,73 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
         c_fit, e_fit = evaluate(placed)
         area_fit = sum(d.shape().area for d in placed)
         fitted = _Stage(placed, change_recs, drop_recs, (c_fit, e_fit))
+        # The largest-first fit (``largest_first``, ranked by the first fit's worth), made once: every layout
+        # finished compares with the same one.
+        big = None
+        if largest_wanted:
+            big = result_or(big_ahead, largest_first, kept, allowed, site, r, opening_shapes, first_score,
+                            first_bound)
+        finish = finisher(big)
         # The honeycomb over the whole region is not laid symmetric: a symmetric layout keeps its own voids.
         # ``mixed``: the families the fitted voids chose (all three when none was), one family per honeycomb.
         lattice_families = (sorted({d.family for d in placed}) or list(families)[: r.max_types]) \
             if r.family == "mixed" else [r.family]
         honey_args = (allowed, lattice_families, r, score, bound, opening_shapes, site, cap, c_fit, area_fit)
-        honey_ahead = None
+        ahead = None
         if not mirror.axes and helper is not None and helper.ready and analysis_fits_elsewhere(grid):
-            # Laid, placed and cut down to the cap in the helper process while this one finishes the first fit's
-            # layout as if the honeycomb were not taken (what it usually is not); where it is, that work is done
-            # again from the honeycomb: the same layout as in sequence either way.
+            # The helper process weighs the large honeycomb and finishes the layout the stage starts from (the
+            # first fit's, or the honeycomb's where it is taken) while this one weighs and finishes the finer
+            # honeycomb: the same layouts, notes and analyses counted as in sequence.
             try:
-                honey_ahead = helper.submit(honeycomb_elsewhere, panel, grid.nx, grid.ny, grid.dx, grid.dy,
-                                            evaluate.shared.backend, *honey_args)
+                ahead = helper.submit(finished_elsewhere, panel, grid.nx, grid.ny, grid.dx, grid.dy,
+                                      evaluate.shared.backend, fitted, finish, cap, free_shapes, *honey_args)
             except Exception:  # noqa: BLE001 - a broken helper: made here below
-                honey_ahead = None
-        analyses_before = evaluate.analyses
-        if honey_ahead is None:
+                ahead = None
+        if ahead is None:
             honey, finer = honeycomb_within_cap(*honey_args[:-3], evaluate, *honey_args[-3:], helper=helper) \
                 if not mirror.axes else ((None, None), None)
             start = _with_honeycomb(fitted, honey, cap, c_fit, area_fit) or fitted
-            done = finish(start, evaluate, cap, free_shapes)
+            done = finish(start, evaluate, cap, free_shapes, helper=helper, tell=on_first_fit)
+            finer_start = _with_honeycomb(fitted, finer, cap, c_fit, area_fit) if finer is not None else None
+            other = finish(finer_start, evaluate, cap, free_shapes, helper=helper, tell=on_first_fit) \
+                if finer_start is not None else None
         else:
-            # Where the helper's honeycomb comes back taken while the first fit's layout is being finished, that
-            # work stops at its next analysis (it would be thrown away): 0.9 s of the slotted bench plate's 3.2 s.
-            evaluate.before = _superseded_by(honey_ahead, fitted, cap, c_fit, area_fit)
-            try:
-                done = finish(fitted, evaluate, cap, free_shapes)
-            except _Superseded:
-                done = None
-            finally:
-                evaluate.before = None
-            finishing = evaluate.analyses - analyses_before  # the first fit's, as far as it went
-            honey, finer, honey_analyses = result_or(honey_ahead, _honeycomb_here, evaluate, honey_args)
-            taken = _with_honeycomb(fitted, honey, cap, c_fit, area_fit)
-            # The analyses counted as in sequence, the honeycomb's first.
-            if taken is not None:  # redone from the honeycomb
-                evaluate.analyses = analyses_before + honey_analyses
-                done = finish(taken, evaluate, cap, free_shapes)
-            elif done is None:  # cannot be: it stopped only for a honeycomb taken
-                raise AssertionError("the first fit's layout was left unfinished for a honeycomb not taken")
+            # The limiting rule's refits (``on_first_fit``) follow the finer honeycomb's layout as it is shaped
+            # (where there is one it is mostly the one taken: 8 of the 11 example runs that finished one), else the
+            # helper's as soon as it is in.
+            finer = honeycomb_at(LATTICE_FINE, *honey_args[:-3], evaluate, *honey_args[-3:], helper=helper)
+            finer_start = _with_honeycomb(fitted, finer, cap, c_fit, area_fit)
+            told = threading.Event()
+            if finer_start is None and on_first_fit is not None:
+                def tell_ahead(future) -> None:
+                    try:
+                        if not future.cancelled() and future.exception() is None:
+                            on_first_fit(*future.result()[1].told)
+                    finally:
+                        told.set()
+
+                ahead.add_done_callback(tell_ahead)
             else:
-                evaluate.analyses = analyses_before + honey_analyses + finishing
-                if done.shaped is not None:
-                    done = replace(done, shaped=replace(done.shaped, analyses=done.shaped.analyses + honey_analyses))
-        finer_start = _with_honeycomb(fitted, finer, cap, c_fit, area_fit) if finer is not None else None
-        if finer_start is not None:
-            done = _or_finer(done, finer_start, site, r, evaluate, cap, free_shapes, finish, on_first_fit)
+                told.set()
+            other = finish(finer_start, evaluate, cap, free_shapes, helper=helper, tell=on_first_fit) \
+                if finer_start is not None else None
+            _, done, elsewhere = result_or(ahead, _finished, evaluate, fitted, finish, cap, free_shapes, honey_args)
+            told.wait()
+            if not ahead.cancelled() and ahead.exception() is None:  # made there: its analyses counted here
+                evaluate.analyses += elsewhere
+                if other is None and done.shaped is not None:
+                    done = replace(done, shaped=replace(done.shaped, analyses=evaluate.analyses))
+            elif on_first_fit is not None and other is None:  # made here instead
+                on_first_fit(*done.told)
+        if other is not None:
+            done = _removing_more(done, other, site, r, evaluate, on_first_fit,
+                                  "the finer honeycomb over the region open to voids removes more than the layout "
+                                  "otherwise made")
         if r.family == "mixed":
-            done = _mixed_or_ngons(done, chosen, best, site, r, evaluate, cap, free_shapes, finish, on_first_fit)
+            done = _mixed_or_ngons(done, chosen, best, site, r, evaluate, cap, free_shapes, finish, on_first_fit,
+                                   helper)
     else:
-        done = finish(_Stage(placed, change_recs, drop_recs, None), None, None, [])
+        done = finisher()(_Stage(placed, change_recs, drop_recs, None), None, None, [], tell=on_first_fit)
     placed, change_recs, shaped = done.placed, done.change_recs, done.shaped
     notes += done.notes
     dropped += done.dropped

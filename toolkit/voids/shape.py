@@ -101,17 +101,12 @@ class Evaluator:
         self.solid = solid
         self.solver: LinearSolver | None = None
         self.analyses = 0
-        # Called before each analysis where set: a caller's check that may raise to stop the work in hand (the void
-        # stage stops finishing a layout the helper's honeycomb has replaced, ``layout._superseded_by``).
-        self.before: Callable[[], None] | None = None
 
     def __call__(self, drafts) -> tuple[float, np.ndarray]:
         return self.shapes([m.shape() for d in drafts for m in self.orbit(d)])
 
     def shapes(self, shapes) -> tuple[float, np.ndarray]:
         """Compliance and element energies with ``shapes`` (shapely polygons) cut out."""
-        if self.before is not None:
-            self.before()
         f = self.fractions(shapes)
         K = self.assembler.matrix(self.ke, np.maximum(f, EMPTY_SHARE))
         if self.solver is None:
