@@ -28,7 +28,9 @@ Ids are "V1", "V2", ... in order of the final centres, left to right and, for eq
 from __future__ import annotations
 
 import hashlib
+import itertools
 import math
+import os
 import pickle
 import threading
 from dataclasses import dataclass, replace
@@ -1416,6 +1418,11 @@ def honeycomb_at(scales: tuple[float, ...], allowed, families, r: Resolved, scor
     return other, within
 
 
+# In the helper process: the largest-first fit made ahead for the layout it finishes (``largest_ahead``), by a
+# token of the run; one at a time.
+_LARGEST: dict = {}
+_TOKENS = itertools.count()
+
 # In the helper process: the Evaluator made ahead for a job (``warm_evaluator``), by the digest of what it was made
 # from; one at a time.
 _WARM: dict = {}
@@ -1447,11 +1454,14 @@ def _helper_evaluator(panel: Panel, nx: int, ny: int, dx: float, dy: float, back
 
 
 def finished_elsewhere(panel: Panel, nx: int, ny: int, dx: float, dy: float, backend: str, fitted: _Stage,
-                       finisher: _Finisher, cap: float, free_shapes, *honey_args):
+                       finisher: _Finisher, big_token: str, cap: float, free_shapes, *honey_args):
     """``_finished`` on a solver of its own (the helper process runs it, on the Evaluator ``warm_evaluator`` made
     there where it did): the large honeycomb weighed and the layout the stage starts from finished, while this
     process weighs and finishes the finer honeycomb. A solver's factor of a matrix is the same to the bit whether
-    made for it or refactored from another of the same pattern, so the answer is the one made here."""
+    made for it or refactored from another of the same pattern, so the answer is the one made here. ``big_token``:
+    the largest-first fit is the one ``largest_ahead`` made here under it (else the finisher's own)."""
+    if big_token:
+        finisher = replace(finisher, big=_LARGEST.pop(big_token))
     evaluate = _WARM.pop(_warm_key(panel, nx, ny, dx, dy, backend), None)
     _WARM.clear()
     if evaluate is None:
@@ -1460,6 +1470,14 @@ def finished_elsewhere(panel: Panel, nx: int, ny: int, dx: float, dy: float, bac
         return _finished(evaluate, fitted, finisher, cap, free_shapes, honey_args)
     finally:
         evaluate.shared.release()
+
+
+def largest_ahead(token: str, *args) -> tuple:
+    """``largest_first(*args)`` made in the helper process and kept there under ``token`` for the layout it
+    finishes next (``finished_elsewhere``); one at a time."""
+    _LARGEST.clear()
+    _LARGEST[token] = made = largest_first(*args)
+    return made
 
 
 def _finished(evaluate, fitted: _Stage, finisher: _Finisher, cap: float, free_shapes, honey_args, helper=None):
@@ -1705,20 +1723,21 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
         family, kind = (layouts or {}).get(v.index, (None, None))
         options[v.index] = None  # its place in the order; filled below
         jobs[v.index] = (room, (family,) if kind is not None else families, r, score, bound, kind)
-    # The largest-first fit (below) needs nothing of the candidates: where the helper is ready it is made there
-    # first, then the helper takes its share of the candidates.
+    # Each void's candidates alone, shared with the helper process where there is one (the same answers).
+    options.update(share_out(helper, _void_candidates, jobs,
+                             cost=lambda i: jobs[i][0].region.area if jobs[i][0].region is not None else 0.0))
+    # The largest-first fit (below) needs nothing of the candidates: where the helper is ready it is made there next,
+    # while this process places and analyses the first fit (kept there for the layout it finishes, ``largest_ahead``).
     grid = energy[0] if isinstance(energy, tuple) else None
     largest_wanted = not mirror.axes and r.family in ("polygon", "slot", "mixed") and r.web_ratio > 0.0
-    big_ahead = None
+    big_ahead, big_token = None, ""
     if (largest_wanted and helper is not None and helper.ready and not first_fit_only and grid is not None
             and rho is not None):
+        big_token = f"{os.getpid()}-{next(_TOKENS)}"
         try:
-            big_ahead = helper.submit(largest_first, kept, allowed, site, r, opening_shapes, score, bound)
+            big_ahead = helper.submit(largest_ahead, big_token, kept, allowed, site, r, opening_shapes, score, bound)
         except Exception:  # noqa: BLE001 - a broken helper: made here below
-            big_ahead = None
-    # Each void's candidates alone, shared with the helper process where there is one (the same answers).
-    options.update(share_out(helper, _void_candidates, jobs, busy_ok=big_ahead is not None,
-                             cost=lambda i: jobs[i][0].region.area if jobs[i][0].region is not None else 0.0))
+            big_ahead, big_token = None, ""
     best = {i: {f: _choose_layout(layouts, score) for f, layouts in fams.items()} for i, fams in options.items()}
 
     pick_score = score.at(score.rho / MIXED_PRICE) if isinstance(score, Worth) else score
@@ -1776,13 +1795,14 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
         c_fit, e_fit = evaluate(placed)
         area_fit = sum(d.shape().area for d in placed)
         fitted = _Stage(placed, change_recs, drop_recs, (c_fit, e_fit))
-        # The largest-first fit (``largest_first``, ranked by the first fit's worth), made once: every layout
-        # finished compares with the same one.
-        big = None
-        if largest_wanted:
-            big = result_or(big_ahead, largest_first, kept, allowed, site, r, opening_shapes, first_score,
-                            first_bound)
-        finish = finisher(big)
+        def largest() -> tuple | None:
+            """The largest-first fit (``largest_first``, ranked by the first fit's worth), the same for every layout
+            finished; None where it is not weighed."""
+            if not largest_wanted:
+                return None
+            return result_or(big_ahead, largest_first, kept, allowed, site, r, opening_shapes, first_score,
+                             first_bound)
+
         # The honeycomb over the whole region is not laid symmetric: a symmetric layout keeps its own voids.
         # ``mixed``: the families the fitted voids chose (all three when none was), one family per honeycomb.
         lattice_families = (sorted({d.family for d in placed}) or list(families)[: r.max_types]) \
@@ -1794,11 +1814,14 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
             # first fit's, or the honeycomb's where it is taken) while this one weighs and finishes the finer
             # honeycomb: the same layouts, notes and analyses counted as in sequence.
             try:
+                # the largest-first fit is the one made there (by ``big_token``) where it was sent there
+                sent = finisher(None if big_token else largest())
                 ahead = helper.submit(finished_elsewhere, panel, grid.nx, grid.ny, grid.dx, grid.dy,
-                                      evaluate.shared.backend, fitted, finish, cap, free_shapes, *honey_args)
+                                      evaluate.shared.backend, fitted, sent, big_token, cap, free_shapes, *honey_args)
             except Exception:  # noqa: BLE001 - a broken helper: made here below
                 ahead = None
         if ahead is None:
+            finish = finisher(largest())
             honey, finer = honeycomb_within_cap(*honey_args[:-3], evaluate, *honey_args[-3:], helper=helper) \
                 if not mirror.axes else ((None, None), None)
             start = _with_honeycomb(fitted, honey, cap, c_fit, area_fit) or fitted
@@ -1812,6 +1835,7 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
             # helper's as soon as it is in.
             finer = honeycomb_at(LATTICE_FINE, *honey_args[:-3], evaluate, *honey_args[-3:], helper=helper)
             finer_start = _with_honeycomb(fitted, finer, cap, c_fit, area_fit)
+            finish = finisher(largest())
             told = threading.Event()
             if finer_start is None and on_first_fit is not None:
                 def tell_ahead(future) -> None:
