@@ -172,6 +172,30 @@ def test_multifrontal_gives_the_superlu_displacements_on_an_optimiser_like_desig
 
 
 @pytest.mark.skipif(not PARDISO_PLATFORM, reason="pypardiso is a dependency on x86-64 Linux and Windows only")
+def test_the_assembled_matrix_says_its_rows_are_sorted_and_they_are():
+    # The assembler marks its CSC matrix sorted without the check (the solvers would repeat it every call): the
+    # same arrays given to scipy afresh are found sorted, and sorting them changes nothing.
+    g = Grid(7, 5, 1.0, 1.0)
+    K = Assembler(g).matrix(q4_stiffness(1, 1, 1, 0.3, 1), np.linspace(0.1, 1.0, g.n_elements))
+    fresh = sp.csc_matrix((K.data.copy(), K.indices.copy(), K.indptr.copy()), shape=K.shape)
+    assert K.has_sorted_indices and fresh.has_sorted_indices
+    fresh.has_sorted_indices = False
+    fresh.sort_indices()
+    assert np.array_equal(fresh.indices, K.indices) and np.array_equal(fresh.data, K.data)
+
+
+@pytest.mark.skipif(not pardiso_available(), reason="PARDISO is not installed here")
+def test_pardiso_keeps_the_diagonal_of_each_matrix_it_refactors():
+    # The diagonal for the refinement's residual comes from positions found at the symbolic analysis: after
+    # refactors with other values it is each new matrix's own, to the bit.
+    g, a, ke, fixed, rng, F = _held_at_left(9, 6, seed=7, cases=1)
+    solver = LinearSolver(a.matrix(ke), ~fixed, grid=g, backend="pardiso")
+    for _ in range(3):
+        solver.refactor(a.matrix(ke, rng.uniform(1e-3, 1.0, g.n_elements)))
+        held = solver._pardiso
+        assert np.array_equal(held._diagonal, held._A.diagonal())
+
+
 def test_pardiso_refinement_takes_the_residual_of_the_matrix_solved(monkeypatch):
     # solve() refines on the residual b - A x, A x formed from the upper triangle PARDISO holds (fe/solve.py,
     # REFINE_ABOVE). Made to refine every time, the answer must stay numpy's dense solution: with PARDISO in the

@@ -75,4 +75,8 @@ class Assembler:
         factors = np.ones(self.grid.n_elements) if scale is None else np.asarray(scale, dtype=float)
         data = scatter @ factors
         n = self.grid.n_dofs
-        return sp.csc_matrix((data, self.indices, self.indptr), shape=(n, n))
+        K = sp.csc_matrix((data, self.indices, self.indptr), shape=(n, n))
+        # Each column's rows are in rising order by construction (the keys above): said so, rather than checked
+        # again by every solver that takes K (0.75 ms a matrix at 300 x 100 elements, twice an iteration).
+        K.has_sorted_indices = True
+        return K
