@@ -1011,8 +1011,9 @@ def lattice_layout(allowed, family: str, r: Resolved, score, *, source: int = -1
 
     def weigh(k: int, drafts: list[Draft]) -> None:
         nonlocal best
-        worth = [d for d in drafts if score(d.shape()) > 0.0]
-        total = sum(score(d.shape()) for d in worth)
+        scores = [score(d.shape()) for d in drafts]  # each once
+        worth = [d for d, v in zip(drafts, scores) if v > 0.0]
+        total = sum(v for v in scores if v > 0.0)
         # the first of equal worth in the plain order, as a search of every honeycomb would keep
         if total > best[0] or (total == best[0] and total > 0.0 and k < best[1]):
             best = (total, k, worth)
