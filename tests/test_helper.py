@@ -51,6 +51,54 @@ def test_shared_work_gives_every_answer_in_the_order_of_the_tasks():
             assert stand_in.sent >= 1  # the helper was given work (and, broken, it was done here instead)
 
 
+class _Lockstep:
+    """A helper that finishes the oldest piece handed to it each time this process finishes one of its own: its
+    pieces are begun as handed over (they cannot be taken back), as in a process pool."""
+
+    ready = idle = True
+
+    def __init__(self):
+        self.pending, self.sent, self.done = [], 0, []
+
+    def submit(self, fn, *args):
+        future: Future = Future()
+        future.set_running_or_notify_cancel()
+        self.pending.append((future, fn, args))
+        self.sent += 1
+        return future
+
+    def finish_one(self):
+        if self.pending:
+            future, fn, args = self.pending.pop(0)
+            self.done.append(args[0])
+            future.set_result(fn(*args, here=False))
+
+
+def test_shared_work_leaves_the_helper_no_piece_queued_once_few_are_left():
+    # With two pieces in flight to the end, the helper would hold one queued that this process, out of work, must
+    # wait for; once no more than two are left it takes one at a time. In lockstep the six pieces split three and
+    # three, and the sharing ends without waiting on a piece nobody runs.
+    import threading
+
+    helper = _Lockstep()
+
+    def work(x, here=True):
+        if here:
+            helper.finish_one()
+        return x * x
+
+    tasks = {k: (k,) for k in range(6)}
+    got = {}
+    runner = threading.Thread(target=lambda: got.update(share_out(helper, work, tasks)))
+    runner.start()
+    runner.join(timeout=10)
+    while helper.pending:  # a piece left queued there: let the sharing end, then fail below
+        helper.finish_one()
+    runner.join()
+    assert got == {k: k * k for k in range(6)}
+    assert sorted(helper.done) == [3, 4, 5] and not helper.pending
+
+
 def test_a_busy_helper_shares_only_when_the_caller_allows_it():
     tasks = {f"t{k}": (k,) for k in (5, 3, 9, 1)}
     busy = _Stand_in()

@@ -161,7 +161,8 @@ def share_out(helper: Helper | None, fn: Callable, tasks: dict[Hashable, tuple],
               cost: Callable[[Hashable], float] | None = None, busy_ok: bool = False) -> dict:
     """``{key: fn(*tasks[key])}``, in the order of ``tasks``. With an idle ``helper`` the tasks are shared: this
     process takes them from the costliest down (by ``cost``), the helper from the cheapest up, two at a time in
-    flight so that it never waits for the next; a task the helper could not do is done here. ``fn`` must be a
+    flight so that it never waits for the next, one once no more than two are left (a task queued there cannot
+    be taken back once this process runs out); a task the helper could not do is done here. ``fn`` must be a
     module-level function and the tasks picklable. ``busy_ok``: share with a ready helper that still has work
     (given by the caller, who knows it is short): its tasks wait behind that work, and those it has not begun
     when this process runs out are done here."""
@@ -170,12 +171,18 @@ def share_out(helper: Helper | None, fn: Callable, tasks: dict[Hashable, tuple],
         return {k: fn(*tasks[k]) for k in keys}
     order = sorted(keys, key=lambda k: -cost(k)) if cost is not None else keys
     lock = threading.Lock()
-    state = {"front": 0, "back": len(order) - 1, "stop": False}
+    state = {"front": 0, "back": len(order) - 1, "stop": False, "flying": 0}
     remote: dict = {}
 
-    def send(_=None) -> None:
+    def landed(_) -> None:
         with lock:
-            if state["stop"] or state["back"] < state["front"]:
+            state["flying"] -= 1
+        send()
+
+    def send() -> None:
+        with lock:
+            left = state["back"] - state["front"] + 1
+            if state["stop"] or left <= 0 or (state["flying"] >= 1 and left <= 2):
                 return
             k = order[state["back"]]
             try:
@@ -184,8 +191,9 @@ def share_out(helper: Helper | None, fn: Callable, tasks: dict[Hashable, tuple],
                 state["stop"] = True
                 return
             state["back"] -= 1
+            state["flying"] += 1
             remote[k] = future
-        future.add_done_callback(send)
+        future.add_done_callback(landed)
 
     send()
     send()
