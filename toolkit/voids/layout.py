@@ -1484,12 +1484,16 @@ def largest_ahead(token: str, *args) -> tuple:
 def _finished(evaluate, fitted: _Stage, finisher: _Finisher, cap: float, free_shapes, honey_args, helper=None):
     """The large honeycomb over the region (``honeycomb_at`` with ``LATTICE_SCALES``; ``honey_args`` its arguments
     but the scales and the Evaluator), and the honeycomb's layout where it is taken instead of ``fitted``, else
-    ``fitted``, finished (``_Finisher``): (the honeycomb's answer, the ``_Done``, the analyses made)."""
+    ``fitted``, finished (``_Finisher``): (the honeycomb's answer, the ``_Done``, the analyses made). The
+    ``_Done``'s shape optimisation counts the analyses made here up to its end (a fill given up after it made some
+    is not counted there, as in sequence): the caller adds those it made before."""
     before = evaluate.analyses
     honey = honeycomb_at(LATTICE_SCALES, *honey_args[:7], evaluate, *honey_args[7:], helper=helper)
     c_fit, area_fit = honey_args[-2:]
     start = _with_honeycomb(fitted, honey, cap, c_fit, area_fit) or fitted
     done = finisher(start, evaluate, cap, free_shapes, helper=helper)
+    if done.shaped is not None:
+        done = replace(done, shaped=replace(done.shaped, analyses=done.shaped.analyses - before))
     return honey, done, evaluate.analyses - before
 
 
@@ -1855,10 +1859,11 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
             told.wait()
             if not ahead.cancelled() and ahead.exception() is None:  # made there: its analyses counted here
                 evaluate.analyses += elsewhere
-                if other is None and done.shaped is not None:
-                    done = replace(done, shaped=replace(done.shaped, analyses=evaluate.analyses))
             elif on_first_fit is not None and other is None:  # made here instead
                 on_first_fit(*done.told)
+            if done.shaped is not None:  # counted as in sequence: this process's analyses, then the finishing's
+                done = replace(done, shaped=replace(done.shaped, analyses=evaluate.analyses - elsewhere
+                                                    + done.shaped.analyses))
         if other is not None:
             done = _removing_more(done, other, site, r, evaluate, on_first_fit,
                                   "the finer honeycomb over the region open to voids removes more than the layout "
