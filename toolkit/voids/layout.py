@@ -1347,7 +1347,7 @@ class _Finisher:
                     fit_mm2 = site.area(big)
                     kinds_now[-1] = (r.family, LARGEST_FIRST)  # the limiting rule's refits follow it
         dropped_now = [f"{self.where(source)}: {reason}; dropped." for source, reason in drop_recs]
-        # now: the shaping ahead is mostly analyses here, and the helper takes this work after the honeycomb
+        # told before the shaping (mostly analyses), so that the limiting rule's refits can run meanwhile
         told = (tuple((i, f, kind) for i, (f, kind) in kinds_now.items()),
                 [_extent(g) for d in placed for g in site.shapes(d)])
         if tell is not None:
