@@ -186,13 +186,15 @@ def test_the_assembled_matrix_says_its_rows_are_sorted_and_they_are():
 
 @pytest.mark.skipif(not pardiso_available(), reason="PARDISO is not installed here")
 def test_pardiso_keeps_the_diagonal_of_each_matrix_it_refactors():
-    # The diagonal for the refinement's residual comes from positions found at the symbolic analysis: after
-    # refactors with other values it is each new matrix's own, to the bit.
+    # The diagonal for the refinement's residual comes from positions found at the symbolic analysis (each row's
+    # first entry of the sorted upper triangle, with no array as long as the nonzeros): after refactors with other
+    # values it is each new matrix's own, to the bit.
     g, a, ke, fixed, rng, F = _held_at_left(9, 6, seed=7, cases=1)
     solver = LinearSolver(a.matrix(ke), ~fixed, grid=g, backend="pardiso")
     for _ in range(3):
         solver.refactor(a.matrix(ke, rng.uniform(1e-3, 1.0, g.n_elements)))
         held = solver._pardiso
+        assert held._diagonal_at[1] is None  # the rows' first entries
         assert np.array_equal(held._diagonal, held._A.diagonal())
 
 
