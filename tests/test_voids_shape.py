@@ -350,4 +350,5 @@ def test_a_growth_step_goes_as_far_as_the_rules_let_it_in_halvings_of_its_reach(
     if expected_share is None:
         assert state == [d] and not moves
     else:
+        # to rounding (1e-9: a house tolerance, no source; the rule and the draft are our own)
         assert math.dist(state[0].centre, d.centre) == pytest.approx(expected_share * reach, rel=1e-9)

@@ -300,6 +300,11 @@ def edge_stresses_shared(panel: Panel, voids, final, solid, helper, *, refine: f
     return tuple(done[i] for i in range(len(voids)))
 
 
+def _window_margin(radius, grid):
+    """How far a void's local model reaches beyond the circle round it (mm; ``radius`` a number or an array)."""
+    return np.maximum(WINDOW_RADII * radius, WINDOW_CELLS * math.hypot(grid.dx, grid.dy))
+
+
 def _model_weights(voids: tuple, grid) -> list[float]:
     """A rough measure of each void's local model's work, for sharing them out (the largest first, so that the
     last to finish are small): the voids in its window, each an edge to mesh, plus three for its own edge and the
@@ -309,7 +314,7 @@ def _model_weights(voids: tuple, grid) -> list[float]:
     shapes = np.array([v.shape for v in voids], dtype=object)
     radius = shapely.minimum_bounding_radius(shapes)
     centre = shapely.get_coordinates(shapely.centroid(shapely.minimum_bounding_circle(shapes)))
-    reach = radius + np.maximum(WINDOW_RADII * radius, WINDOW_CELLS * math.hypot(grid.dx, grid.dy))
+    reach = radius + _window_margin(radius, grid)
     windows = shapely.box(centre[:, 0] - reach, centre[:, 1] - reach, centre[:, 0] + reach, centre[:, 1] + reach)
     hits = shapely.STRtree(shapes).query(windows, predicate="intersects")[0]
     return (np.bincount(hits, minlength=len(voids)) + 2.0).tolist()
@@ -446,7 +451,7 @@ def _local_model(panel: Panel, void: Void, others, final, solid, refine: float) 
     centre = np.asarray(circle.centroid.coords[0])
     radius = float(shapely.minimum_bounding_radius(shape))
     g = final.grid
-    margin = max(WINDOW_RADII * radius, WINDOW_CELLS * math.hypot(g.dx, g.dy))
+    margin = _window_margin(radius, g)
     window = box(*(centre - radius - margin), *(centre + radius + margin))
     src_xy, src_h, h_edge, sharp = _outline_sources(shape, EDGE_ELEMENTS, ARC_STEP_RAD, refine)
     cases = final.cases

@@ -447,7 +447,7 @@ class _Pardiso:
         self._getdiag.restype = None
         self._controller = ThreadpoolController()
         self._indices = (None, None, None, None)  # (size, nonzeros, one-based int32 indptr and indices)
-        self._diagonal_at = None  # ((size, nonzeros), rows, positions) of the analysed pattern's diagonal entries
+        self._diagonal_at = None  # ((size, nonzeros), positions or None) of the analysed pattern's diagonal entries
         self._analysed = False
         self._holds = False  # MKL may hold memory for this solver (a factorisation was attempted)
         self._A: sp.csr_matrix | None = None
@@ -504,19 +504,13 @@ class _Pardiso:
         held = self._diagonal_at
         n = A.shape[0]
         if not analysed or held is None or held[0] != (n, A.nnz):
+            # the upper triangle, sorted: each row's first entry is its diagonal (found with no array as long as the
+            # nonzeros: at a million elements one would be 0.15 GB at the first factorisation); else scipy's search
             first = A.indptr[:-1]
-            if A.has_canonical_format and np.all(first < A.indptr[1:]) and np.array_equal(A.indices[first],
-                                                                                         np.arange(n)):
-                # the upper triangle, sorted: each row's first entry is its diagonal (no nonzeros-long arrays made:
-                # at a million elements they would be 0.15 GB at the first factorisation)
-                held = self._diagonal_at = ((n, A.nnz), None, first.copy())
-            else:
-                rows = np.repeat(np.arange(n), np.diff(A.indptr))
-                on = np.flatnonzero(A.indices == rows)
-                held = self._diagonal_at = ((n, A.nnz), rows[on], on)
-        if held[1] is None:
-            return A.data[held[2]]
-        return np.bincount(held[1], weights=A.data[held[2]], minlength=n)
+            at_first = (A.has_canonical_format and np.all(first < A.indptr[1:])
+                        and np.array_equal(A.indices[first], np.arange(n)))
+            held = self._diagonal_at = ((n, A.nnz), first.copy() if at_first else None)
+        return A.data[held[1]] if held[1] is not None else A.diagonal()
 
     def solve(self, rhs: np.ndarray) -> np.ndarray:
         """x with A x = rhs (n, k): by substitution, then refined (x += A^-1 r on the residual r) while some

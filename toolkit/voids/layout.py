@@ -1800,13 +1800,17 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
         c_fit, e_fit = evaluate(placed)
         area_fit = sum(d.shape().area for d in placed)
         fitted = _Stage(placed, change_recs, drop_recs, (c_fit, e_fit))
+        largest_made: list = []
+
         def largest() -> tuple | None:
-            """The largest-first fit (``largest_first``, ranked by the first fit's worth), the same for every layout
-            finished; None where it is not weighed."""
+            """The largest-first fit (``largest_first``, ranked by the first fit's worth), made once and the same for
+            every layout finished; None where it is not weighed."""
             if not largest_wanted:
                 return None
-            return result_or(big_ahead, largest_first, kept, allowed, site, r, opening_shapes, first_score,
-                             first_bound)
+            if not largest_made:
+                largest_made.append(result_or(big_ahead, largest_first, kept, allowed, site, r, opening_shapes,
+                                              first_score, first_bound))
+            return largest_made[0]
 
         # The honeycomb over the whole region is not laid symmetric: a symmetric layout keeps its own voids.
         # ``mixed``: the families the fitted voids chose (all three when none was), one family per honeycomb.
