@@ -503,6 +503,21 @@ def test_text_on_opening_layer_is_ignored_with_a_warning():
     assert d.openings == () and any("annotation ignored" in w for w in d.warnings)
 
 
+def test_closed_shapes_inside_the_panel_on_a_layer_not_read_are_named():
+    # A cable duct drawn on "OPENINGS" (not the openings layer) would be left solid without a word: a warning names
+    # the layer and the job key. Nothing is said of an open line, a shape outside the panel, or lacuna's own layers.
+    doc = _panel_doc()
+    msp = doc.modelspace()
+    duct = msp.add_circle((900, 250), 60, dxfattribs={"layer": "OPENINGS"})
+    msp.add_lwpolyline([(100, 100), (300, 100), (300, 300)], dxfattribs={"layer": "SERVICES"})
+    msp.add_lwpolyline([(5000, 0), (5400, 0), (5400, 300)], close=True, dxfattribs={"layer": "TITLE"})
+    msp.add_circle((1500, 250), 40, dxfattribs={"layer": "LACUNA-VOID-BORE"})
+    d = _read(doc)
+    named = [w for w in d.warnings if "does not read" in w]
+    assert len(named) == 1 and "'OPENINGS'" in named[0] and f"CIRCLE {duct.dxf.handle}" in named[0]
+    assert "[layers] openings" in named[0] and d.openings == ()
+
+
 @pytest.mark.parametrize("kind", ["POINT", "open LWPOLYLINE"])
 def test_unsupported_entity_on_opening_layer(kind):
     doc = _panel_doc()

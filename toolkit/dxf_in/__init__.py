@@ -100,6 +100,7 @@ def _read(doc, layers: Layers, path: str, join_mm: float, chord_mm: float, warni
                    layers.keep, "keep zone", width, height, r)
     found_supports = supports(by_layer.get(layers.support.casefold(), []), layers.support, width, height, openings, r)
     found_loads = loads(by_layer.get(layers.load.casefold(), []), layers.load, width, height, openings, r)
+    r.warnings.extend(_closed_shapes_elsewhere(doc, layers, markers, path, outline_items))
     return Drawing(
         path=path,
         unit=unit,
@@ -113,6 +114,49 @@ def _read(doc, layers: Layers, path: str, join_mm: float, chord_mm: float, warni
         loads=found_loads,
         warnings=tuple(r.warnings),
     )
+
+
+# Closed shapes a drafter draws an opening or a zone with: found on a layer lacuna does not read, inside the panel,
+# they are named in a warning (an opening on a layer called "OPENINGS" would otherwise be left solid unsaid).
+# Layers of lacuna's own output (voids to make, freeform outlines, marks: shared/CONTRACT.md) are read where they
+# are meant to be (``lacuna check``) and never named.
+CLOSED_KINDS = ("CIRCLE", "ELLIPSE", "LWPOLYLINE", "POLYLINE", "SPLINE")
+OWN_LAYER_PREFIX = "LACUNA-"
+
+
+def _closed_shapes_elsewhere(doc, layers: Layers, markers: list[str], path: str, outline_items: list[Item]
+                             ) -> list[str]:
+    """A warning per layer not read that holds closed shapes within the outline's extents."""
+    read = {name.casefold() for name in (layers.outline, layers.openings, layers.keep, *markers)}
+    try:
+        panel = bbox.extents([item.entity for item in outline_items], fast=True)
+    except ENTITY_DATA_ERRORS:
+        return []
+    if not panel.has_data:
+        return []
+    found: dict[str, list[str]] = {}
+    for item in model_items(doc, markers, path, []):
+        entity = item.entity
+        kind = entity.dxftype()
+        if (item.layer.casefold() in read or item.layer.upper().startswith(OWN_LAYER_PREFIX)
+                or kind not in CLOSED_KINDS):
+            continue
+        closed = kind == "CIRCLE" or (kind == "ELLIPSE" and math.isclose(
+            abs(entity.dxf.end_param - entity.dxf.start_param), math.tau, rel_tol=1e-9))
+        if kind in ("LWPOLYLINE", "POLYLINE", "SPLINE"):
+            closed = bool(getattr(entity, "closed", False) or getattr(entity, "is_closed", False))
+        if not closed:
+            continue
+        try:
+            box = bbox.extents([entity], fast=True)
+        except ENTITY_DATA_ERRORS:
+            continue
+        if box.has_data and panel.inside(box.extmin) and panel.inside(box.extmax):
+            found.setdefault(item.layer, []).append(f"{kind} {item.handle}")
+    return [f"{path}, layer {layer!r}: {len(shapes)} closed shape(s) inside the panel ({', '.join(shapes[:5])}"
+            f"{', ...' if len(shapes) > 5 else ''}) on a layer lacuna does not read; ignored. Openings are read from "
+            f"layer {layers.openings!r} and zones kept solid from {layers.keep!r}: if these are openings, name "
+            "their layer under [layers] openings in the job file." for layer, shapes in sorted(found.items())]
 
 
 def _reference_point(items: list[Item]) -> np.ndarray:
