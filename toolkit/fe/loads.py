@@ -95,21 +95,29 @@ def load_matrix(
             _add_line_load(F, grid, column, load, solid, fractions, tol, frame)
         else:
             raise LacunaError(f"unknown kind of load: {load!r}.")
-    if panel.self_weight:
-        density = panel.material.density_kg_m3
-        if not density:
-            raise LacunaError(
-                "self-weight was asked for but the material has no density.",
-                where="[material] density_kg_m3",
-                hint="Give the density in kg/m3, or leave self-weight off.",
-            )
-        # kg/m3 -> kg/mm3 is 1e-9; N = kg mm/s2 / 1000.
-        weight = density * 1e-9 * G_MM_S2 / 1000.0 * panel.thickness_mm * grid.element_area * fractions
+    weight = element_weights(grid, panel, fractions)
+    if weight is not None:
         # A uniform body force on a rectangle goes a quarter to each corner node (consistent loads).
         nodal = np.zeros(grid.n_nodes)
         np.add.at(nodal, grid.enodes.ravel(), np.repeat(weight / 4.0, 4))
         F[1::2, :] -= nodal[:, None]
     return F
+
+
+def element_weights(grid: Grid, panel: Panel, fractions: np.ndarray) -> np.ndarray | None:
+    """Each element's own weight in N (ne,), toward local -y, in proportion to its solid fraction; None when
+    the panel carries no self-weight. LacunaError when self-weight is asked for without a density."""
+    if not panel.self_weight:
+        return None
+    density = panel.material.density_kg_m3
+    if not density:
+        raise LacunaError(
+            "self-weight was asked for but the material has no density.",
+            where="[material] density_kg_m3",
+            hint="Give the density in kg/m3, or leave self-weight off.",
+        )
+    # kg/m3 -> kg/mm3 is 1e-9; N = kg mm/s2 / 1000.
+    return density * 1e-9 * G_MM_S2 / 1000.0 * panel.thickness_mm * grid.element_area * np.asarray(fractions)
 
 
 def _add_line_load(F, grid, column, load: LineLoad, solid, fractions, tol, frame):

@@ -24,6 +24,8 @@ class Problem:
     - ``loads`` (ndof, ncases): nodal forces, N, one column per load case; ``weights`` (ncases,) their weights.
     - ``design`` (ne,): True where BESO decides; every other element keeps its drawn fraction.
     - ``zones``: the masks the design region came from (for reports and drawings), when built from a panel.
+    - ``self_weight_N`` (ne,): each element's own weight as drawn, N toward local -y, already in ``loads`` (every
+      case); None without self-weight. The optimiser moves a design element's share with its state (``run_beso``).
     """
 
     grid: Grid
@@ -35,6 +37,7 @@ class Problem:
     design: np.ndarray
     cases: tuple[str, ...] = ("main",)
     zones: Zones | None = None
+    self_weight_N: np.ndarray | None = None
 
     @property
     def passive(self) -> np.ndarray:
@@ -53,7 +56,7 @@ def build_problem(panel: Panel, zones: ZoneSettings, element_size_mm: float | No
     from ..fe.boundary import check_mechanism, fixed_dofs
     from ..fe.element import q4_stiffness
     from ..fe.fractions import solid_fractions
-    from ..fe.loads import load_matrix
+    from ..fe.loads import element_weights, load_matrix
 
     size = element_size_mm if element_size_mm is not None else panel.element_size_mm
     grid = grid_within_memory(panel.width_mm, panel.height_mm, size)
@@ -74,7 +77,7 @@ def build_problem(panel: Panel, zones: ZoneSettings, element_size_mm: float | No
     design = z.design & (fractions >= 1.0)
     return Problem(
         grid=grid, ke=ke, fractions=fractions, fixed=fixed, loads=F, weights=weights, design=design,
-        cases=tuple(panel.cases), zones=z,
+        cases=tuple(panel.cases), zones=z, self_weight_N=element_weights(grid, panel, fractions),
     )
 
 

@@ -134,10 +134,11 @@ def vertex_area_gradient(grid: Grid, vertices) -> sp.csr_matrix:
 def compliance_gradient(grid: Grid, energy: np.ndarray, vertices):
     """dC/d(vertex), N mm / mm, (n, 2) for one void outline, or a list of such arrays for a list of outlines.
 
-    ``energy`` is :func:`element_energy` of the design analysed. Each void is a hole cut from the panel:
+    ``energy`` is :func:`element_energy` of the design analysed, or with self-weight the energies
+    ``shape.Evaluator`` returns (each element's u^T k0 u plus half its weight times the sum of its nodal u_y, which
+    brings in the term 2 U . dF/dp of the weight a void takes away). Each void is a hole cut from the panel:
     moving its boundary outward removes material and raises the compliance. The voids must not overlap each
-    other or the panel's other openings (an overlap would be counted twice). Loads are taken as independent
-    of the design: with self-weight on, the term 2 U . dF/dp is missing.
+    other or the panel's other openings (an overlap would be counted twice).
     """
     energy = np.asarray(energy, dtype=float)
     if energy.shape != (grid.n_elements,):

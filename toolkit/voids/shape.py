@@ -39,7 +39,7 @@ import shapely
 from ..fe.boundary import fixed_dofs
 from ..fe.element import q4_stiffness
 from ..fe.fractions import covered_fractions, solid_fractions
-from ..fe.loads import load_matrix
+from ..fe.loads import element_weights, load_matrix
 from ..fe.solve import LinearSolver, SharedSolver
 from ..model import Panel
 from .cover import MIN_INTERIOR_DEG, MIN_TURN_DEG, corner_measures
@@ -96,6 +96,8 @@ class Evaluator:
         self.fixed = fixed_dofs(grid, panel.supports, solid=solid, active_nodes=grid.active_nodes(base > 0),
                                 frame=panel.frame)
         self.F = load_matrix(grid, panel, fractions=base, solid=solid)
+        # With self-weight the loads follow the layout: a cut element weighs its fraction (``shapes``).
+        self.unit_weight = element_weights(grid, panel, np.ones(grid.n_elements))
         self.weights = np.array([panel.case_weight(c) for c in panel.cases], dtype=float)
         self.assembler = self.shared.assembler(grid)
         self.solid = solid
@@ -113,10 +115,26 @@ class Evaluator:
             self.solver = self.shared.factor(K, ~self.fixed, self.grid, threads=self.threads)
         else:
             self.solver.refactor(K)
-        U = self.solver.solve(self.F)
+        F = self.F if self.unit_weight is None else self.loads(f)
+        U = self.solver.solve(F)
         self.analyses += 1
-        c = float(self.weights @ np.einsum("ic,ic->c", self.F, U))
-        return c, element_energy(self.grid, U, self.ke, self.weights)
+        c = float(self.weights @ np.einsum("ic,ic->c", F, U))
+        energy = element_energy(self.grid, U, self.ke, self.weights)
+        if self.unit_weight is not None:
+            # dC/df_e = -(u^T k0 u) + 2 u^T g_e, g_e the element's weight a quarter down at each node: the energies
+            # the gradients take (sensitivity.compliance_gradient) are u^T k0 u + (W_e / 2) sum of its nodal u_y
+            uy = U[self.grid.edof[:, 1::2]].sum(axis=1) @ self.weights
+            energy = energy + 0.5 * self.unit_weight * uy
+        return c, energy
+
+    def loads(self, f: np.ndarray) -> np.ndarray:
+        """The loads with the elements at fractions ``f``: the drawn loads, less the weight the voids took away (a
+        void element keeps no weight on its trace of stiffness: the optimiser's parasitic effect, beso.py)."""
+        lift = self.unit_weight * (self.base - f)
+        nodal = np.bincount(self.grid.enodes.ravel(), weights=np.repeat(0.25 * lift, 4), minlength=self.grid.n_nodes)
+        F = self.F.copy()
+        F[1::2, :] += nodal[:, None]
+        return F
 
     def fractions(self, shapes) -> np.ndarray:
         """Solid fraction of each element with ``shapes`` cut out. The voids keep clear of each other and of the
