@@ -1,7 +1,7 @@
 """The shipped examples (fixtures/examples/, made by fixtures/make_examples.py): the first cases a practitioner
 checks, each held to the outcome the trade expects of it.
 
-Each example runs the whole job once (voids to make, local edge models, every file: 40 s for the six on two
+Each example runs the whole job once (voids to make, local edge models, every file: 45 s for the seven on two
 cores); the layout measures read the optimiser's layout of that run. The pin-and-roller variants run the
 optimiser alone.
 
@@ -220,6 +220,28 @@ def test_beam_under_a_travelling_load(layouts):
     assert other.max() > 1.5 * other.min()
 
 
+def test_leaf_under_its_own_weight_keeps_whole_members_and_tapers(layouts, runs):
+    problem, result = layouts["leaf-under-its-own-weight"]
+    solid = design_solid(problem, result)
+    inside = problem.design.reshape(solid.shape)
+    third = solid.shape[1] // 3
+    root = solid[:, :third].sum() / inside[:, :third].sum()
+    tip = solid[:, -third:].sum() / inside[:, -third:].sum()
+    # The moment of a cantilever's own weight grows as the square of the distance from the tip (statics), and the
+    # tip material mostly weighs: the root third keeps at least 0.3 more of its design region than the tip third
+    # (our margin; measured here: 0.91 against 0.29). Members, not specks: at most 12 freeform voids (measured
+    # here: 6), and the lighter leaf no more than half again as soft as the solid one (measured here: 1.08 times).
+    # Before the weight went with the material (docs/optimize.md, "Self-weight") the optimiser alone (as beso_only
+    # runs it) gave this leaf 58 specks, much the same share at root and tip (0.64, 0.59) and a compliance 9.8
+    # times the solid's: every measure fails there.
+    assert root >= tip + 0.3
+    assert 1 <= len(freeform_voids(problem.grid, result.densities)) <= 12
+    assert result.compliance_Nmm[-1] <= 1.5 * result.compliance_Nmm[0]
+    # the voids to make are no softer than the freeform layout they come from, weighed alike
+    s = runs["leaf-under-its-own-weight"].summary
+    assert s["compliance_rationalized_Nmm"] <= s["compliance_freeform_Nmm"]
+
+
 def weighted_compliances(problem, densities, penalty=3.0):
     """F.U of each case for a density field (soft-kill stiffness x^p), by our own assembly and solver."""
     from toolkit.fe.assembly import Assembler
@@ -236,8 +258,10 @@ def test_whole_job_on_every_example(runs):
         assert s["converged"], name
         assert s["rules"]["violations"] == [], name
         assert s["voids"], name  # each example lightens its panel
-        # Taking material away never stiffens the panel (a consequence of the mathematics).
-        assert s["compliance_rationalized_Nmm"] >= s["compliance_solid_Nmm"], name
+        # Under fixed loads, taking material away never stiffens the panel (a consequence of the mathematics); under
+        # its own weight it may (the weight goes too).
+        if name != "leaf-under-its-own-weight":
+            assert s["compliance_rationalized_Nmm"] >= s["compliance_solid_Nmm"], name
         written = {Path(p).name for p in s["outputs"]}
         for suffix in ("result.svg", "report.md", "optimize.json", "lacuna.dxf"):
             assert f"{name}-{suffix}" in written and all(Path(p).is_file() for p in s["outputs"]), (name, suffix)
