@@ -240,6 +240,12 @@ def test_leaf_under_its_own_weight_keeps_whole_members_and_tapers(layouts, runs)
     # the voids to make are no softer than the freeform layout they come from, weighed alike
     s = runs["leaf-under-its-own-weight"].summary
     assert s["compliance_rationalized_Nmm"] <= s["compliance_freeform_Nmm"]
+    # the JSON and the report say the weight is in: rho g t A of the leaf as drawn, 5.29 kN (statics)
+    weight = 2450.0 * 9.81 * 0.150 * 2.4 * 0.6 / 1000.0
+    assert s["solid"]["self_weight_kN"] == pytest.approx(weight, rel=1e-12)
+    (report,) = [Path(p) for p in s["outputs"] if p.endswith("-report.md")]
+    assert f"**Self-weight** is included: {weight:.4g} kN" in report.read_text()
+    assert runs["beam-central-load"].summary["solid"]["self_weight_kN"] is None
 
 
 def weighted_compliances(problem, densities, penalty=3.0):

@@ -52,7 +52,8 @@ def _figure_lines(s: dict) -> list[str]:
         f"  largest deflection    {s['max_deflection_mm']:.4g} mm",
         f"  largest von Mises     {s['max_von_mises_MPa']:.4g} MPa",
         f"  loads / reactions     [{s['load_sum_kN'][0]:.4g}, {s['load_sum_kN'][1]:.4g}] / "
-        f"[{s['reaction_sum_kN'][0]:.4g}, {s['reaction_sum_kN'][1]:.4g}] kN",
+        f"[{s['reaction_sum_kN'][0]:.4g}, {s['reaction_sum_kN'][1]:.4g}] kN"
+        + (f" (self-weight {s['self_weight_kN']:.4g} kN among the loads)" if s.get("self_weight_kN") else ""),
     ]
 
 
@@ -69,6 +70,9 @@ def _optimize_lines(s: dict) -> list[str]:
                  f"{s['mass_removed_percent']:12.1f} %")
     if s.get("capture_percent") is not None:
         lines.append(f"  {'kept of the saving':22s}{'':14s}{'':14s}{s['capture_percent']:12.1f} %")
+    if sol.get("self_weight_kN"):
+        lines.append(f"  self-weight {sol['self_weight_kN']:.4g} kN as drawn, in every case; the optimiser weighs only "
+                     "the material it keeps")
     lines.append(f"  {len(s['voids'])} voids; rules {s['rules']['profile']}: "
                  f"{len(s['rules']['violations'])} violations")
     edged = [v for v in s["voids"] if v.get("peak_stress_MPa") is not None]

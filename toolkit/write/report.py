@@ -21,6 +21,16 @@ def _len(value: float, unit: str) -> str:
     return f"{value:.{_REPORT_DECIMALS.get(unit, 4)}f}"
 
 
+def _self_weight_lines(s: dict) -> list[str]:
+    """The panel's own weight, where the job includes it: how much, and how the optimiser treats it."""
+    weight = s.get("solid", {}).get("self_weight_kN")
+    if not weight:
+        return []
+    return [f"**Self-weight** is included: {weight:.4g} kN for the panel as drawn, down the panel in every load case. "
+            "The optimiser and the voids' shape optimisation weigh only the material they keep, so a lighter panel "
+            "carries less of it (and may even be stiffer than the solid one).", ""]
+
+
 def _limit_and_shape(s: dict) -> list[str]:
     """What held the layout back, and the shape optimisation's before and after."""
     out = []
@@ -31,7 +41,8 @@ def _limit_and_shape(s: dict) -> list[str]:
     if shape:
         out += [
             "**Shape optimisation of the voids to make** (its own analyses: emptied elements at a trace of stiffness, "
-            "the solid panel's loads):",
+            + ("the panel's loads, its own weight less the voids'" if s.get("solid", {}).get("self_weight_kN")
+               else "the panel's loads") + "):",
             "",
             "| | first fit | same material, moved | grown |",
             "|---|---:|---:|---:|",
@@ -159,6 +170,7 @@ def report_markdown(summary: dict, *, result_svg: str, convergence_svg: str, sch
         f"({'converged' if s['converged'] else 'stopped at the iteration limit, NOT converged'}); the volume "
         f"target {s['volume_fraction_target']:g} is the {s['volume_fraction_basis']}.",
         "",
+        *_self_weight_lines(s),
         *_limit_and_shape(s),
         *_travel_lines(s),
         f"![Voids to make: the panel as it will be made, ordinates from the datum]({result_svg})",

@@ -64,6 +64,7 @@ def analysis_summary(panel: Panel, drawing: Drawing | None, result: Analysis) ->
         "max_von_mises_case": result.max_von_mises_case,
         "reaction_sum_kN": drawing_kN(panel, result.reaction_sum_N.sum(axis=0)),
         "load_sum_kN": drawing_kN(panel, result.load_sum_N.sum(axis=0)),
+        "self_weight_kN": self_weight_kN(panel),
         "cases": cases,
         "moving_loads": travel_summary(panel, {"solid": result}),
         "warnings": list((drawing.warnings if drawing else ()) + result.warnings),
@@ -71,6 +72,16 @@ def analysis_summary(panel: Panel, drawing: Drawing | None, result: Analysis) ->
         "outputs": [],
     }
     return summary
+
+
+def self_weight_kN(panel: Panel) -> float | None:
+    """The weight of the panel as drawn, kN (in every load case's loads), or None without self-weight."""
+    from ..fe.loads import G_MM_S2
+
+    density = panel.material.density_kg_m3
+    if not (panel.self_weight and density):
+        return None
+    return float(density * 1e-9 * G_MM_S2 / 1000.0 * panel.thickness_mm * panel.solid.area / 1000.0)
 
 
 def _void_json(panel: Panel, void) -> dict:
