@@ -249,6 +249,23 @@ def test_a_circle_on_the_slot_layer_is_a_slot_as_long_as_it_is_wide(tmp_path):
         assert not any("drawn as a bore" in n for n in got.summary["warnings"])
 
 
+def test_voids_on_a_layer_of_their_own_are_named_with_the_option_that_checks_them(tmp_path):
+    # A drafter puts hand-drawn holes on "HOLES": without --layers nothing is checked, and the warning names the
+    # option that would check them (not only the job key that would make them openings); with --layers HOLES they
+    # are checked and no warning calls them unread.
+    spot = tuple(check_drawing(FIX / "clean.dxf", JOB).panel.frame.to_drawing((3600.0, 900.0)))
+    doc = ezdxf.readfile(FIX / "clean.dxf")
+    doc.layers.add("HOLES")
+    doc.modelspace().add_circle(spot, 50.0, dxfattribs={"layer": "HOLES"})
+    path = tmp_path / "holes.dxf"
+    doc.saveas(path)
+    unread = [w for w in check_drawing(path, JOB).summary["warnings"] if "'HOLES'" in w]
+    assert len(unread) == 1 and "pass --layers HOLES" in unread[0]
+    got = check_drawing(path, JOB, layers="HOLES")
+    assert any(math.dist(v.centre, (3600.0, 900.0)) < 1e-6 for v in got.voids)
+    assert not any("'HOLES'" in w for w in got.summary["warnings"])
+
+
 def test_the_fixtures_are_what_the_generator_writes(tmp_path):
     handles = MAKE.main(tmp_path)
     assert handles == HANDLES

@@ -113,3 +113,16 @@ def test_whole_panel_fraction_below_the_zones():
     with pytest.raises(LacunaError) as e:
         design_fraction_for_panel(prob, 0.2)
     assert "20.0%" in e.value.message and "28.0%" in e.value.message and e.value.where == "[optimize] volume_fraction"
+
+
+def test_a_zone_edge_a_hair_across_a_grid_line_takes_no_element_beyond_it():
+    # A KEEP block of a drawing rotated into the panel's frame has its edges on grid lines to round-off: 1e-13 mm
+    # across one takes a sliver of the next element, which is no shared area (zones.SLIVER); a real overlap of a
+    # millionth of an element still is.
+    g = Grid(40, 20, 10.0, 10.0)
+    hair = box(300.0 - 1e-13, 60.0 - 1e-13, 340.0 + 1e-13, 140.0 + 1e-13)
+    z = non_design_zones(g, panel(keep=(Region(shape=hair, layer="KEEP"),)), ZoneSettings())
+    assert z.keep.sum() == 4 * 8
+    real = box(300.0 - 1e-5, 60.0, 340.0, 140.0)  # 1e-4 mm2 of each element left of it: 1e-6 of an element
+    z = non_design_zones(g, panel(keep=(Region(shape=real, layer="KEEP"),)), ZoneSettings())
+    assert z.keep.sum() == 5 * 8

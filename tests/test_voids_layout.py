@@ -1039,10 +1039,11 @@ def test_mixed_keeps_about_what_the_best_single_family_keeps(example, voids, sha
 
 
 def test_after_the_fill_the_layout_is_shaped_and_grown_again(tmp_path):
-    # The sample panel in metres with steel-cut slots (tests/same_outputs.py): the fill adds a void in the room the
-    # grown layout left, with stiffness to spare under the freeform layout's; shaping the whole layout again from
-    # there grows it (2026-12-03: 99,786 -> 102,419 mm2, 72 -> 74 % of the saving kept), no softer than the
-    # freeform layout.
+    # The sample panel in metres with steel-cut slots (tests/same_outputs.py) at half its volume: the fill adds a
+    # void in the room the grown layout left, with stiffness to spare under the freeform layout's; shaping the whole
+    # layout again from there grows it (2026-12-04: 122,379 -> 125,377 mm2), no softer than the freeform layout.
+    # (At the sample's own 0.6 it did until the zones stopped counting round-off slivers, 2026-12-04: its design
+    # region grew by four elements and its layout needs no fill now.)
     import re
 
     from drawings import sample_drawing
@@ -1050,7 +1051,9 @@ def test_after_the_fill_the_layout_is_shaped_and_grown_again(tmp_path):
     from toolkit.api import optimize_file
 
     dxf = sample_drawing(tmp_path, "m")
-    (tmp_path / "job.toml").write_text(METRES_JOB)
+    job = METRES_JOB.replace("volume_fraction = 0.6", "volume_fraction = 0.5")
+    assert job != METRES_JOB
+    (tmp_path / "job.toml").write_text(job)
     run = optimize_file(dxf, tmp_path / "job.toml", out_dir=tmp_path / "out").run
     notes = run.rationalised.notes
     assert any("more void(s) placed in the room the layout left" in n for n in notes), notes

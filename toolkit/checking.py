@@ -98,7 +98,7 @@ def check_drawing(dxf_path, job_path=None, *, profile: str | None = None,
     void_layers = _void_layers(layers, job)
 
     doc, warnings = open_document(path)
-    drawing = read_document(doc, job.layers, path=path)
+    drawing = read_document(doc, job.layers, path=path, voids_on=tuple(void_layers))
     warnings = list(job.warnings) + warnings + list(drawing.warnings)
     thickness_known = job.panel.thickness_mm is not None
     panel_job = job if thickness_known else dataclasses.replace(

@@ -46,12 +46,16 @@ def read_document(
     path: str = "<document>",
     join_tolerance_mm: float = 0.5,
     chord_tolerance_mm: float = 0.1,
+    voids_on: tuple[str, ...] | None = None,
 ) -> Drawing:
-    """Read the panel drawn in an ezdxf document already in memory; ``path`` only names it in messages."""
-    return _read(doc, layers, path, join_tolerance_mm, chord_tolerance_mm, [])
+    """Read the panel drawn in an ezdxf document already in memory; ``path`` only names it in messages.
+    ``voids_on``: layers the caller reads voids from itself (``lacuna check``): closed shapes there are not named
+    as unread, and those on a layer read by nobody are named with --layers as a way to check them."""
+    return _read(doc, layers, path, join_tolerance_mm, chord_tolerance_mm, [], voids_on)
 
 
-def _read(doc, layers: Layers, path: str, join_mm: float, chord_mm: float, warnings: list[str]) -> Drawing:
+def _read(doc, layers: Layers, path: str, join_mm: float, chord_mm: float, warnings: list[str],
+          voids_on: tuple[str, ...] | None = None) -> Drawing:
     for name, value in (("join_tolerance_mm", join_mm), ("chord_tolerance_mm", chord_mm)):
         if not (isinstance(value, (int, float)) and math.isfinite(value) and value > 0):
             raise LacunaError(f"{name} must be a positive length in mm, got {value!r}.", where=name)
@@ -100,7 +104,7 @@ def _read(doc, layers: Layers, path: str, join_mm: float, chord_mm: float, warni
                    layers.keep, "keep zone", width, height, r)
     found_supports = supports(by_layer.get(layers.support.casefold(), []), layers.support, width, height, openings, r)
     found_loads = loads(by_layer.get(layers.load.casefold(), []), layers.load, width, height, openings, r)
-    r.warnings.extend(_closed_shapes_elsewhere(doc, layers, markers, path, outline_items))
+    r.warnings.extend(_closed_shapes_elsewhere(doc, layers, markers, path, outline_items, voids_on))
     return Drawing(
         path=path,
         unit=unit,
@@ -124,10 +128,11 @@ CLOSED_KINDS = ("CIRCLE", "ELLIPSE", "LWPOLYLINE", "POLYLINE", "SPLINE")
 OWN_LAYER_PREFIX = "LACUNA-"
 
 
-def _closed_shapes_elsewhere(doc, layers: Layers, markers: list[str], path: str, outline_items: list[Item]
-                             ) -> list[str]:
-    """A warning per layer not read that holds closed shapes within the outline's extents."""
-    read = {name.casefold() for name in (layers.outline, layers.openings, layers.keep, *markers)}
+def _closed_shapes_elsewhere(doc, layers: Layers, markers: list[str], path: str, outline_items: list[Item],
+                             voids_on: tuple[str, ...] | None = None) -> list[str]:
+    """A warning per layer not read that holds closed shapes within the outline's extents. ``voids_on``: the layers
+    ``lacuna check`` reads voids from (None: the drawing is read for a job, which reads none)."""
+    read = {name.casefold() for name in (layers.outline, layers.openings, layers.keep, *markers, *(voids_on or ()))}
     try:
         panel = bbox.extents([item.entity for item in outline_items], fast=True)
     except ENTITY_DATA_ERRORS:
@@ -156,7 +161,9 @@ def _closed_shapes_elsewhere(doc, layers: Layers, markers: list[str], path: str,
     return [f"{path}, layer {layer!r}: {len(shapes)} closed shape(s) inside the panel ({', '.join(shapes[:5])}"
             f"{', ...' if len(shapes) > 5 else ''}) on a layer lacuna does not read; ignored. Openings are read from "
             f"layer {layers.openings!r} and zones kept solid from {layers.keep!r}: if these are openings, name "
-            "their layer under [layers] openings in the job file." for layer, shapes in sorted(found.items())]
+            "their layer under [layers] openings in the job file"
+            + (f"; if they are voids to check, pass --layers {layer}." if voids_on is not None else ".")
+            for layer, shapes in sorted(found.items())]
 
 
 def _reference_point(items: list[Item]) -> np.ndarray:

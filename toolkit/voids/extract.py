@@ -96,8 +96,12 @@ def _pieces(grid: Grid, nodal: np.ndarray, level: float) -> np.ndarray:
     parts = []
     full = np.flatnonzero(case == 15)
     if full.size:
+        # corners from the same slots as the partial cells': x0 + dx is not always (I + 1) dx in floating point
+        # (234 x 12.7 + 12.7 against 235 x 12.7 on a half-inch grid), and a box a bit off its neighbour's edge
+        # left the coverage union below with zero-width spikes and a false island in a wholly void region
         x0, y0 = slot_xy["c0"][0][full], slot_xy["c0"][1][full]
-        parts.append(shapely.box(x0, y0, x0 + dx, y0 + dy))
+        x1, y1 = slot_xy["c2"][0][full], slot_xy["c2"][1][full]
+        parts.append(shapely.box(x0, y0, x1, y1))
     for (c, joined), polys in _CASES.items():
         cells = np.flatnonzero((case == c) & (centre_below == joined))
         if cells.size == 0:
