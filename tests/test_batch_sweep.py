@@ -22,7 +22,8 @@ from click.testing import CliRunner
 from toolkit import CAUTION
 from toolkit.api import demo_files
 from toolkit.cli import main
-from toolkit.sweep import knee_index
+from toolkit.sweep import dominated_by, knee_index
+from toolkit.write.tradeoff_plot import tradeoff_svg
 
 ROOT = Path(__file__).resolve().parent.parent
 BAD = ROOT / "fixtures" / "bad"
@@ -342,3 +343,35 @@ def test_sweep_plot_labels_its_points_to_three_figures():
     marked = sorted(float(m.get("data-volume-fraction")) for g in root.iter(f"{SVG}g")
                     if g.get("id") == "compliance-1" for m in g if m.get("data-volume-fraction"))
     assert marked == pytest.approx([0.4, 0.9 - 1.0 / 3, 0.9 - 0.5 / 3, 0.9], rel=1e-5)
+
+
+# A sweep of the shipped leaf under its own weight (fixtures/examples/leaf-under-its-own-weight, 2026-12-04): made mass
+# kg and compliance N mm at volume fractions 0.9 ... 0.4. Down to 0.7 it gets stiffer as it gets lighter (its weight
+# goes too), so 0.9 and 0.8 are heavier and softer than 0.7.
+LEAF_SWEEP = [(0.9, 519.1, 11810.6), (0.8, 473.9, 11670.1), (0.7, 447.5, 11627.7), (0.6, 394.8, 12508.5),
+              (0.5, 362.5, 13373.2), (0.4, 313.9, 15982.3)]
+
+
+def test_points_beaten_on_both_counts_are_named_and_left_out_of_the_knee():
+    mass = [m for _, m, _ in LEAF_SWEEP]
+    compliance = [c for _, _, c in LEAF_SWEEP]
+    assert dominated_by(mass, compliance) == [2, 2, None, None, None, None]
+    # the knee among the rest (0.7 ... 0.4): the cost of a kilogram in compliance runs 16.7, 26.8, 53.7 N mm from
+    # 0.7 down, so the knee is 0.5; over all six points it would be 0.6, a point chosen against two nobody would take
+    front = [2, 3, 4, 5]
+    assert front[knee_index([mass[i] for i in front], [compliance[i] for i in front])] == 4
+    assert knee_index(mass, compliance) == 3
+    # ties: an equal point beats nothing; a lighter one of equal compliance does
+    assert dominated_by([1.0, 1.0, 2.0], [5.0, 5.0, 5.0]) == [None, None, 0]
+
+
+def test_the_plot_draws_points_beaten_on_both_counts_hollow():
+    rows = [{"profile": "custom", "volume_fraction": v, "made_mass_kg": m, "compliance_Nmm": c,
+             "max_deflection_mm": 0.8, "knee": v == 0.5, "dominated_by": 0.7 if v > 0.7 else None}
+            for v, m, c in LEAF_SWEEP]
+    root = ET.fromstring(tradeoff_svg(rows, title="leaf"))
+    line = {g.get("id"): g for g in root.iter(f"{SVG}g")}["compliance-1"]
+    fills = {float(m.get("data-volume-fraction")): m.get("fill") for m in line
+             if m.get("data-volume-fraction") and not m.get("id")}
+    assert {v for v, f in fills.items() if f == "white"} == {0.9, 0.8}
+    assert "heavier and of more compliance than another point" in " ".join("".join(t.itertext()) for t in root.iter(f"{SVG}text"))

@@ -6,6 +6,12 @@ a 'Kneedle' in a haystack: detecting knee points in system behavior", ICDCS work
 to [0, 1] over the points, and the knee is the inner point farthest from the chord joining the two end points, on
 the side of diminishing returns (below the chord: stiffer than the straight trade between the ends). With the
 axes scaled, this is the point past which each further kilogram buys least stiffness. See docs/batch.md.
+
+A point another point of its profile beats on both counts (no heavier and of no more compliance, lighter or of
+less) is **dominated**: no one would choose it. Under fixed loads that happens only where the voids to make fall out
+unevenly; under self-weight the panel may get stiffer as it gets lighter (the weight goes too), and the heavy end
+of the curve is dominated as a rule. Such points are named with the point that beats them, and the knee is looked
+for among the others.
 """
 
 from __future__ import annotations
@@ -103,6 +109,18 @@ def knee_index(x, y) -> int | None:
     return int(order[k]) if below[k] > 1e-9 else None
 
 
+def dominated_by(mass, compliance) -> list[int | None]:
+    """For each point, the index of the point of least compliance among those no heavier and of no more compliance
+    that are lighter or of less (ties to the lighter, then the first), or None where no point is."""
+    m = np.asarray(mass, dtype=float)
+    c = np.asarray(compliance, dtype=float)
+    out: list[int | None] = []
+    for i in range(m.size):
+        beats = np.flatnonzero((m <= m[i]) & (c <= c[i]) & ((m < m[i]) | (c < c[i])))
+        out.append(int(min(beats, key=lambda j: (c[j], m[j], j))) if beats.size else None)
+    return out
+
+
 @dataclass
 class SweepResult(JobsResult):
     """What :func:`sweep_file` did: one row per point (profile by profile, volumes in the order given)."""
@@ -118,7 +136,9 @@ class SweepResult(JobsResult):
             fig = lambda v, f: "" if v is None else f.format(v)  # noqa: E731
             lines.append(f"  {r['profile']:16s}{r['volume_fraction']:8.3f}{fig(m, '{:24.4g}')}"
                          f"{fig(r['compliance_Nmm'], '{:18.6g}')}{fig(r['max_deflection_mm'], '{:16.4g}')}  "
-                         f"{r['status']}{'  <- knee' if r['knee'] else ''}")
+                         f"{r['status']}{'  <- knee' if r['knee'] else ''}"
+                         + (f"  (heavier and of more compliance than {r['dominated_by']:.3g})" if r["dominated_by"] is not None
+                            else ""))
             if r["message"]:
                 lines.append(f"    {r['message']}")
         lines.append(f"  knee: {s['knee_method']}")
@@ -184,9 +204,13 @@ def sweep_file(drawing, job_path=None, *, volumes, profiles=None, out_dir=None, 
     rows = [_row(r, p, v, f, job.rules.profile, solid_kg) for r, (p, v), f in zip(results, points, folders)]
     for label in dict.fromkeys(r["profile"] for r in rows):
         done = [r for r in rows if r["profile"] == label and r["status"] in (DONE, VIOLATED)]
-        k = knee_index([r["made_mass_percent"] for r in done], [r["compliance_Nmm"] for r in done])
+        beaten = dominated_by([r["made_mass_percent"] for r in done], [r["compliance_Nmm"] for r in done])
+        for r, b in zip(done, beaten):
+            r["dominated_by"] = None if b is None else done[b]["volume_fraction"]
+        front = [r for r, b in zip(done, beaten) if b is None]
+        k = knee_index([r["made_mass_percent"] for r in front], [r["compliance_Nmm"] for r in front])
         if k is not None:
-            done[k]["knee"] = True
+            front[k]["knee"] = True
     summary = {
         "command": "sweep",
         "lacuna_version": __version__,
@@ -211,8 +235,8 @@ def sweep_file(drawing, job_path=None, *, volumes, profiles=None, out_dir=None, 
 
 
 KNEE_METHOD = ("largest distance below the chord of the curve of compliance against made mass, both axes scaled "
-               "to [0, 1] over the profile's points (the Kneedle idea, Satopaa et al. 2011); none where no inner "
-               "point lies below the chord")
+               "to [0, 1] over the profile's points that no other point beats on both counts (the Kneedle idea, "
+               "Satopaa et al. 2011); none where no inner point lies below the chord")
 
 
 def _checked_volumes(volumes) -> list[float]:
@@ -251,6 +275,7 @@ def _row(result: dict, profile, volume: float, folder: Path, job_profile, solid_
         "voids": f.get("voids"),
         "violations": f.get("violations"),
         "knee": False,
+        "dominated_by": None,  # the volume fraction of the point that beats this one on both counts
         "message": result.get("message", ""),
         "folder": str(folder),
     }
@@ -259,7 +284,7 @@ def _row(result: dict, profile, volume: float, folder: Path, job_profile, solid_
 SWEEP_COLUMNS = ("profile", "volume_fraction", "status", "exit_code", "volume_fraction_final", "made_mass_percent",
                  "made_mass_kg", "mass_removed_percent", "mass_removed_freeform_percent", "compliance_Nmm",
                  "compliance_solid_Nmm", "stiffness_loss_percent", "max_deflection_mm", "max_deflection_solid_mm",
-                 "capture_percent", "voids", "violations", "knee", "message", "folder")
+                 "capture_percent", "voids", "violations", "knee", "dominated_by", "message", "folder")
 
 
 def sweep_csv(rows: list[dict]) -> str:

@@ -59,6 +59,11 @@ def tradeoff_svg(rows, *, title: str, mass_unit: str = "kg") -> str:
     legend.add(dwg.circle(center=(fmt(lx + 2), fmt(MARGIN + 15.1)), r="1.8", fill="none", stroke=INK,
                           stroke_width="0.35"))
     text(legend, "knee", (lx + 5.0, MARGIN + 16.0), 2.5)
+    if any(r.get("dominated_by") is not None for r in rows):
+        lx += 16.0
+        legend.add(dwg.circle(center=(fmt(lx + 2), fmt(MARGIN + 15.1)), r="0.9", fill="white", stroke=INK,
+                              stroke_width="0.35"))
+        text(legend, "heavier and of more compliance than another point", (lx + 5.0, MARGIN + 16.0), 2.5)
 
     if not drawn:
         text(group("empty"), "No point gave figures: see the CSV for each point's message.", (x0, 60.0), 3.0)
@@ -106,8 +111,10 @@ def tradeoff_svg(rows, *, title: str, mass_unit: str = "kg") -> str:
             pts = [(round(px(r[key]), 3), round(py(r[field_key]), 3)) for r in mine]
             g.add(dwg.polyline(points=pts, stroke_width="0.5"))
             for r, (x, y) in zip(mine, pts):
-                g.add(_marker(dwg, shape, x, y, 0.9, fill=ink, stroke="none",
-                              **{"data-volume-fraction": f"{r['volume_fraction']:g}"}))
+                # a point another beats on both counts (toolkit.sweep.dominated_by) drawn hollow
+                look = {"fill": "white", "stroke": ink, "stroke_width": "0.35"} \
+                    if r.get("dominated_by") is not None else {"fill": ink, "stroke": "none"}
+                g.add(_marker(dwg, shape, x, y, 0.9, **look, **{"data-volume-fraction": f"{r['volume_fraction']:g}"}))
                 # three figures, as the printed table gives them (0.9:0.4:4 runs 0.7333..., labelled 0.733)
                 text(g, f"{float(r['volume_fraction']):.3g}", (x + 1.6, y - 1.4), 2.0, fill=ink)
                 if r.get("knee"):
