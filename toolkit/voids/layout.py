@@ -133,6 +133,9 @@ class Rationalised:
     # the first fit's choice for each freeform void fitted one by one: (index, family, Layout.kind) each, and
     # (-1, family, LARGEST_FIRST) when the first fit taken was made largest first
     layouts: tuple[tuple[int, str, str], ...] = ()
+    # area the voids removed as shaped, before their sizes were standardised (mm2, mirror images counted; 0 where
+    # no layout reached that step)
+    shaped_mm2: float = 0.0
 
 
 @dataclass(frozen=True)
@@ -1883,6 +1886,7 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
     kinds, first_fit_mm2 = done.kinds, done.first_fit_mm2
 
     before = list(placed)
+    shaped_mm2 = site.area(before)
 
     def standard(most_material: bool, upward: bool = False, held=()):
         return standardise_sizes(before, r.max_types, r.snap_mm, _stock(r), r.min_void_mm, site.fits,
@@ -1990,4 +1994,4 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
     violations = tuple(rule_check.check_layout(panel, list(voids), rules))
     return Rationalised(voids=voids, changes=changes, dropped=tuple(dropped), fit_errors=tuple(errors),
                         violations=violations, notes=tuple(notes), shape=shaped, first_fit_mm2=first_fit_mm2,
-                        layouts=tuple((i, f, kind) for i, (f, kind) in kinds.items()))
+                        layouts=tuple((i, f, kind) for i, (f, kind) in kinds.items()), shaped_mm2=shaped_mm2)
