@@ -277,3 +277,31 @@ def test_a_grid_too_coarse_for_any_void_says_which_element_size_would_do(tmp_pat
     said = [w for w in s["warnings"] if "left no void wider than the grid resolves" in w]
     assert said and "3 elements across the panel's 0.3 m" in said[0], s["warnings"]
     assert "element_size to at most 0.015 m (20 elements across it)" in said[0]
+
+
+def test_a_drawing_in_inches_gets_its_deflections_in_inches_too(tmp_path):
+    # A 60 x 15 in header of our own, drawn in inches: the report's table and the command's lines give the largest
+    # deflections in inches beside the millimetres (1 in = 25.4 mm exactly, by definition since 1959); the JSON keys
+    # stay in mm (CONTRACT.md). A drawing in mm gets no inch row (the demo's report: tests/same_outputs.py).
+    from toolkit.api import _optimize_lines, optimize_file
+
+    doc = ezdxf.new("R2010")
+    doc.header["$INSUNITS"] = 1
+    doc.layers.add("PANEL")
+    doc.modelspace().add_lwpolyline([(0, 0), (60, 0), (60, 15), (0, 15)], close=True, dxfattribs={"layer": "PANEL"})
+    doc.saveas(tmp_path / "header.dxf")
+    (tmp_path / "job.toml").write_text('units = "in"\n[panel]\nthickness = 3.5\nelement_size = 1\n[material]\n'
+                                       'E_MPa = 13800\nnu = 0.3\n[[support]]\nat = [0, 0]\n[[support]]\nat = [60, 0]\n'
+                                       'fix = "y"\n[[load]]\nat = [30, 15]\nfy_kN = -10\n[rules]\n'
+                                       'profile = "timber-bored"\n')
+    outcome = optimize_file(tmp_path / "header.dxf", tmp_path / "job.toml", out_dir=tmp_path / "out")
+    s = outcome.summary
+    assert s["units"] == "in"
+    inches = [s[k] / 25.4 for k in ("max_deflection_freeform_mm", "max_deflection_rationalized_mm")]
+    (report,) = [p for p in s["outputs"] if p.endswith("-report.md")]
+    (row,) = [line for line in Path(report).read_text().splitlines() if line.startswith("| largest deflection, in")]
+    cells = [float(c) for c in row.strip("|").split("|")[1:]]
+    assert cells == pytest.approx([s["solid"]["max_deflection_mm"] / 25.4] + inches, rel=1e-3)
+    (line,) = [t for t in _optimize_lines(s) if "largest deflection, in" in t]
+    assert [float(v) for v in line.split()[3:]] == pytest.approx([s["solid"]["max_deflection_mm"] / 25.4] + inches,
+                                                                 rel=1e-3)

@@ -18,7 +18,7 @@ from .model import Panel
 from .pipeline import OptimizeRun, optimize_panel
 from .write.analysis_figure import analysis_svg
 from .write.files import default_out_dir, plan_outputs, write_outputs
-from .write.report import report_markdown
+from .write.report import IMPERIAL, MM_PER_INCH, report_markdown
 from .write.schedule import schedule_csv
 from .write.summary import analysis_summary, drawing_notes, optimize_summary
 
@@ -49,7 +49,8 @@ class Outcome:
 def _figure_lines(s: dict) -> list[str]:
     return [
         f"  compliance            {s['compliance_Nmm']:.6g} N mm",
-        f"  largest deflection    {s['max_deflection_mm']:.4g} mm",
+        f"  largest deflection    {s['max_deflection_mm']:.4g} mm"
+        + (f" ({s['max_deflection_mm'] / MM_PER_INCH:.4g} in)" if s.get("units") in IMPERIAL else ""),
         f"  largest von Mises     {s['max_von_mises_MPa']:.4g} MPa",
         f"  loads / reactions     [{s['load_sum_kN'][0]:.4g}, {s['load_sum_kN'][1]:.4g}] / "
         f"[{s['reaction_sum_kN'][0]:.4g}, {s['reaction_sum_kN'][1]:.4g}] kN"
@@ -66,6 +67,10 @@ def _optimize_lines(s: dict) -> list[str]:
                  f"{s['compliance_rationalized_Nmm']:14.6g}")
     lines.append(f"  {'largest deflection, mm':22s}{sol['max_deflection_mm']:14.4g}"
                  f"{s['max_deflection_freeform_mm']:14.4g}{s['max_deflection_rationalized_mm']:14.4g}")
+    if s.get("units") in IMPERIAL:
+        lines.append(f"  {'largest deflection, in':22s}{sol['max_deflection_mm'] / MM_PER_INCH:14.4g}"
+                     f"{s['max_deflection_freeform_mm'] / MM_PER_INCH:14.4g}"
+                     f"{s['max_deflection_rationalized_mm'] / MM_PER_INCH:14.4g}")
     lines.append(f"  {'material removed':22s}{'0 %':>14s}{s['mass_removed_freeform_percent']:12.1f} %"
                  f"{s['mass_removed_percent']:12.1f} %")
     if s.get("capture_percent") is not None:

@@ -31,6 +31,11 @@ def _self_weight_lines(s: dict) -> list[str]:
             "carries less of it (and may even be stiffer than the solid one).", ""]
 
 
+# Drawings in inches or feet get the deflections in inches beside the millimetres (the JSON keys stay in mm).
+IMPERIAL = ("in", "ft")
+MM_PER_INCH = 25.4
+
+
 def _limit_and_shape(s: dict) -> list[str]:
     """What held the layout back, and the shape optimisation's before and after."""
     out = []
@@ -150,6 +155,9 @@ def report_markdown(summary: dict, *, result_svg: str, convergence_svg: str, sch
         f"| {_num(s['compliance_rationalized_Nmm'], 6)} |",
         f"| largest deflection, mm | {_num(sol['max_deflection_mm'])} | {_num(s['max_deflection_freeform_mm'])} | "
         f"{_num(s['max_deflection_rationalized_mm'])} |",
+        *([f"| largest deflection, in | {_num(sol['max_deflection_mm'] / MM_PER_INCH)} | "
+           f"{_num(s['max_deflection_freeform_mm'] / MM_PER_INCH)} | "
+           f"{_num(s['max_deflection_rationalized_mm'] / MM_PER_INCH)} |"] if s.get("units") in IMPERIAL else []),
         f"| largest von Mises stress on the grid, MPa | {_num(sol['max_von_mises_MPa'])} | | "
         f"{_num(s['max_von_mises_rationalized_MPa'])} |",
         *([f"| largest stress at a void's edge (local models), MPa | | | {_num(top)} |"]
