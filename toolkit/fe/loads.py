@@ -104,20 +104,41 @@ def load_matrix(
     return F
 
 
+def weight_per_area(panel: Panel) -> float:
+    """The panel's own weight per mm2 of its face, N/mm2 (density g thickness)."""
+    # kg/m3 -> kg/mm3 is 1e-9; N = kg mm/s2 / 1000.
+    return panel.material.density_kg_m3 * 1e-9 * G_MM_S2 / 1000.0 * panel.thickness_mm
+
+
 def element_weights(grid: Grid, panel: Panel, fractions: np.ndarray) -> np.ndarray | None:
     """Each element's own weight in N (ne,), toward local -y, in proportion to its solid fraction; None when
     the panel carries no self-weight. LacunaError when self-weight is asked for without a density."""
     if not panel.self_weight:
         return None
-    density = panel.material.density_kg_m3
-    if not density:
+    if not panel.material.density_kg_m3:
         raise LacunaError(
             "self-weight was asked for but the material has no density.",
             where="[material] density_kg_m3",
             hint="Give the density in kg/m3, or leave self-weight off.",
         )
-    # kg/m3 -> kg/mm3 is 1e-9; N = kg mm/s2 / 1000.
-    return density * 1e-9 * G_MM_S2 / 1000.0 * panel.thickness_mm * grid.element_area * np.asarray(fractions)
+    return weight_per_area(panel) * grid.element_area * np.asarray(fractions)
+
+
+def weight_lifted(F: np.ndarray, grid: Grid, lift: np.ndarray) -> np.ndarray:
+    """The loads ``F`` with ``lift`` (N per element, ne) of the elements' weight taken off again, a quarter at each
+    of an element's nodes (a new array; ``F`` itself where nothing is lifted)."""
+    if not lift.any():
+        return F
+    nodal = np.bincount(grid.enodes.ravel(), weights=np.repeat(0.25 * lift, 4), minlength=grid.n_nodes)
+    out = F.copy()
+    out[1::2, :] += nodal[:, None]
+    return out
+
+
+def weight_work(weight: np.ndarray, Ue: np.ndarray, case_weights: np.ndarray) -> np.ndarray:
+    """Per element, -u_e . g_e summed over the cases with ``case_weights``: ``weight`` (ne,) the elements' weight in
+    N, a quarter down at each node, ``Ue`` (ne, 8, ncases) their displacements (x, y per node)."""
+    return (0.25 * weight) * (Ue[:, 1::2, :].sum(axis=1) @ case_weights)
 
 
 def _add_line_load(F, grid, column, load: LineLoad, solid, fractions, tol, frame):

@@ -42,6 +42,7 @@ from typing import Callable
 import numpy as np
 
 from ..errors import LacunaError
+from ..fe.loads import weight_lifted, weight_work
 from ..fe.solve import SharedSolver
 from ..overlap import side_threads
 from .filters import SensitivityFilter
@@ -160,13 +161,7 @@ def weight_scale(x: np.ndarray, p: float, loose: np.ndarray | None, x_min: float
 def loads_at(F: np.ndarray, grid, moving: np.ndarray, scale: np.ndarray) -> np.ndarray:
     """The loads ``F`` (drawn: every element's weight in full) with each element's weight ``moving`` (N, ne)
     scaled by ``scale`` (``weight_scale``): the share 1 - scale of it taken off again, a quarter at each node."""
-    lift = moving * (1.0 - scale)
-    if not lift.any():
-        return F
-    nodal = np.bincount(grid.enodes.ravel(), weights=np.repeat(0.25 * lift, 4), minlength=grid.n_nodes)
-    out = F.copy()
-    out[1::2, :] += nodal[:, None]
-    return out
+    return weight_lifted(F, grid, moving * (1.0 - scale))
 
 
 def sensitivity_numbers(x: np.ndarray, p: float, base: np.ndarray, energy: np.ndarray, Ue: np.ndarray,
@@ -176,7 +171,7 @@ def sensitivity_numbers(x: np.ndarray, p: float, base: np.ndarray, energy: np.nd
     ``weight`` (ne,) their weight in N where self-weight goes with the design (module text), else None."""
     alpha = 0.5 * x ** (p - 1.0) * base * (energy @ w)
     if weight is not None:
-        alpha = alpha + x ** (p - 1.0) * (0.25 * weight) * (Ue[:, 1::2, :].sum(axis=1) @ w)
+        alpha = alpha + weight_work(x ** (p - 1.0) * weight, Ue, w)
     return alpha
 
 

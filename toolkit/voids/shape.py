@@ -39,7 +39,7 @@ import shapely
 from ..fe.boundary import fixed_dofs
 from ..fe.element import q4_stiffness
 from ..fe.fractions import covered_fractions, solid_fractions
-from ..fe.loads import element_weights, load_matrix
+from ..fe.loads import element_weights, load_matrix, weight_lifted, weight_work
 from ..fe.solve import LinearSolver, SharedSolver
 from ..model import Panel
 from .cover import MIN_INTERIOR_DEG, MIN_TURN_DEG, corner_measures
@@ -123,18 +123,13 @@ class Evaluator:
         if self.unit_weight is not None:
             # dC/df_e = -(u^T k0 u) + 2 u^T g_e, g_e the element's weight a quarter down at each node: the energies
             # the gradients take (sensitivity.compliance_gradient) are u^T k0 u + (W_e / 2) sum of its nodal u_y
-            uy = U[self.grid.edof[:, 1::2]].sum(axis=1) @ self.weights
-            energy = energy + 0.5 * self.unit_weight * uy
+            energy = energy + 2.0 * weight_work(self.unit_weight, U[self.grid.edof], self.weights)
         return c, energy
 
     def loads(self, f: np.ndarray) -> np.ndarray:
         """The loads with the elements at fractions ``f``: the drawn loads, less the weight the voids took away (a
         void element keeps no weight on its trace of stiffness: the optimiser's parasitic effect, beso.py)."""
-        lift = self.unit_weight * (self.base - f)
-        nodal = np.bincount(self.grid.enodes.ravel(), weights=np.repeat(0.25 * lift, 4), minlength=self.grid.n_nodes)
-        F = self.F.copy()
-        F[1::2, :] += nodal[:, None]
-        return F
+        return weight_lifted(self.F, self.grid, self.unit_weight * (self.base - f))
 
     def fractions(self, shapes) -> np.ndarray:
         """Solid fraction of each element with ``shapes`` cut out. The voids keep clear of each other and of the

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from ..about import CAUTION
+from ..units import MM_PER_UNIT
 
 
 def _num(value, digits: int = 4) -> str:
@@ -33,7 +34,7 @@ def _self_weight_lines(s: dict) -> list[str]:
 
 # Drawings in inches or feet get the deflections in inches beside the millimetres (the JSON keys stay in mm).
 IMPERIAL = ("in", "ft")
-MM_PER_INCH = 25.4
+MM_PER_INCH = MM_PER_UNIT["in"]
 
 
 def _limit_and_shape(s: dict) -> list[str]:

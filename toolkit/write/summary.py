@@ -76,12 +76,11 @@ def analysis_summary(panel: Panel, drawing: Drawing | None, result: Analysis) ->
 
 def self_weight_kN(panel: Panel) -> float | None:
     """The weight of the panel as drawn, kN (in every load case's loads), or None without self-weight."""
-    from ..fe.loads import G_MM_S2
+    from ..fe.loads import weight_per_area
 
-    density = panel.material.density_kg_m3
-    if not (panel.self_weight and density):
+    if not (panel.self_weight and panel.material.density_kg_m3):
         return None
-    return float(density * 1e-9 * G_MM_S2 / 1000.0 * panel.thickness_mm * panel.solid.area / 1000.0)
+    return float(weight_per_area(panel) * panel.solid.area / 1000.0)
 
 
 def _void_json(panel: Panel, void) -> dict:
