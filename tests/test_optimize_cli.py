@@ -281,8 +281,9 @@ def test_a_grid_too_coarse_for_any_void_says_which_element_size_would_do(tmp_pat
 
 def test_a_drawing_in_inches_gets_its_deflections_in_inches_too(tmp_path):
     # A 60 x 15 in header of our own, drawn in inches: the report's table and the command's lines give the largest
-    # deflections in inches beside the millimetres (1 in = 25.4 mm exactly, by definition since 1959); the JSON keys
-    # stay in mm (CONTRACT.md). A drawing in mm gets no inch row (the demo's report: tests/same_outputs.py).
+    # deflections in inches beside the millimetres (1 in = 25.4 mm exactly: the international inch of 1959, from
+    # memory); the JSON keys stay in mm (CONTRACT.md). A drawing in mm gets no inch row (the demo's report:
+    # tests/same_outputs.py).
     from toolkit.api import _optimize_lines, optimize_file
 
     doc = ezdxf.new("R2010")
@@ -300,6 +301,7 @@ def test_a_drawing_in_inches_gets_its_deflections_in_inches_too(tmp_path):
     inches = [s[k] / 25.4 for k in ("max_deflection_freeform_mm", "max_deflection_rationalized_mm")]
     (report,) = [p for p in s["outputs"] if p.endswith("-report.md")]
     (row,) = [line for line in Path(report).read_text().splitlines() if line.startswith("| largest deflection, in")]
+    # to 1e-3: the report and the lines print four significant figures (house tolerance, no source)
     cells = [float(c) for c in row.strip("|").split("|")[1:]]
     assert cells == pytest.approx([s["solid"]["max_deflection_mm"] / 25.4] + inches, rel=1e-3)
     (line,) = [t for t in _optimize_lines(s) if "largest deflection, in" in t]
