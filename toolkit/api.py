@@ -94,6 +94,8 @@ def _optimize_lines(s: dict) -> list[str]:
                      f"{t['compliance_rationalized_max_Nmm']:.6g} N mm (solid / freeform / to make)")
     if s.get("limit"):
         lines.append(f"  limit: {s['limit']}")
+    if s.get("capture_ceiling"):
+        lines.append(f"  ceiling: {s['capture_ceiling']}")
     return lines
 
 

@@ -30,6 +30,7 @@ from .optimize import BesoResult, OptimizeSettings, ZoneSettings, build_problem,
 from .optimize.beso import optimiser_threads, sensitivity_filter
 from .rules.check import impossible_rules, least_void_by_thickness, least_void_size
 from .rules.profiles import rules_for
+from .voids.ceiling import Ceiling, ceiling
 from .voids.extract import freeform_voids
 from .voids.layout import (FIT_RTOL, Rationalised, analysis_threads, first_fit_area, rationalise,
                            refuse_impossible, resolve_settings, warm_evaluator)
@@ -62,6 +63,7 @@ class OptimizeRun:
     limit: str = ""  # the rule that stopped the made layout short, and what relaxing it would give
     edge: tuple = ()  # edge_stress.EdgeStress of each void to make, in ``voids`` order (local models)
     edge_limit_MPa: float | None = None  # [rules] max_edge_stress_MPa, when the job gives it
+    ceiling: Ceiling | None = None  # the most the family's voids can open under the spacing rules (voids/ceiling.py)
 
     @property
     def capture_percent(self) -> float | None:
@@ -310,7 +312,17 @@ def optimize_panel(
         panel=panel, rules=rules, settings=settings, solid=solid, beso=beso, freeform=freeform,
         rationalised=rationalised, final=final, freeform_analysis=freeform_analysis, warnings=tuple(warnings),
         timings_s=timings, limit=limit, edge=edge, edge_limit_MPa=edge_limit,
+        ceiling=rules_ceiling(void_options, rules, panel.thickness_mm),
     )
+
+
+def rules_ceiling(void_options, rules: Rules, thickness_mm: float = 0.0) -> Ceiling | None:
+    """The most the job's void families can open of the ground they stand on under its spacing rules and stock
+    sizes (``voids.ceiling``; None where nothing bounds it)."""
+    r = resolve_settings(void_options, rules, thickness_mm)
+    families = ("polygon", "slot", "bore")[:max(1, r.max_types)] if r.family == "mixed" else (r.family,)
+    return ceiling(families, min_web_mm=r.min_web_mm, web_ratio=r.web_ratio, slot_widths_mm=r.slot_widths_mm,
+                   bore_diameters_mm=r.bore_diameters_mm, min_void_mm=r.min_void_mm)
 
 
 # The optimiser's default filter radius (three elements) is a length of the grid, not of the rules: where the

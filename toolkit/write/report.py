@@ -43,6 +43,9 @@ def _limit_and_shape(s: dict) -> list[str]:
     if s.get("limit"):
         limit = s["limit"]
         out += [f"**What held the layout back.** {limit[:1].upper()}{limit[1:]}", ""]
+    if s.get("capture_ceiling"):
+        words = s["capture_ceiling"]
+        out += [f"**The rules' ceiling.** {words[:1].upper()}{words[1:]}", ""]
     shape = s.get("shape_optimisation")
     if shape:
         out += [

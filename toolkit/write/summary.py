@@ -10,6 +10,7 @@ import numpy as np
 from ..about import CAUTION, __version__
 from ..edge_stress import edge_json
 from ..model import Drawing, Panel, lengths_in_unit
+from ..voids.ceiling import ceiling_sentence
 
 if TYPE_CHECKING:
     from ..analysis import Analysis
@@ -183,6 +184,10 @@ def optimize_summary(run: OptimizeRun, drawing: Drawing | None) -> dict:
         "mass_removed_percent": run.mass_removed_percent,
         "mass_removed_kg": run.mass_removed_kg,
         "capture_percent": run.capture_percent,
+        # the most the family's voids can open of the ground they stand on under the spacing rules, and why
+        "capture_ceiling_percent": 100.0 * run.ceiling.share if run.ceiling is not None else None,
+        "capture_ceiling": lengths_in_unit(ceiling_sentence(run.ceiling), f)
+        if run.ceiling is not None else "",
         "limit": lengths_in_unit(run.limit, f),
         "shape_optimisation": _shape_json(run),
         # Each travelling load's stops with the compliance of each in the three analyses (docs/moving-loads.md).
