@@ -55,26 +55,22 @@ def family_ceiling(family: str, *, min_web_mm: float, web_ratio: float = 0.0, sl
         if web_ratio <= 0:
             return None
         return Ceiling(_convex(web_ratio), f"n-gons with webs of {web_ratio:g} x the larger void's size between them")
+    if family not in ("bore", "slot"):
+        raise ValueError(f"no void family {family!r}")
+    stock = [s for s in (bore_diameters_mm if family == "bore" else slot_widths_mm) if s >= min_void_mm and s > 0]
+    if not stock:
+        return None
+    # a bore's share of its grown self is (d / (d + g))^2, a slot's at most w / (w + g): both rise with size / web
+    size = max(stock, key=lambda s: (round(s / (s + _web(min_web_mm, web_ratio, s)), 12), s))
+    web = _web(min_web_mm, web_ratio, size)
+    share = size / (size + web)
     if family == "bore":
-        stock = [d for d in bore_diameters_mm if d >= min_void_mm and d > 0]
-        if not stock:
-            return None
-        d = max(stock, key=lambda d: (round(d / (d + _web(min_web_mm, web_ratio, d)), 12), d))
-        web = _web(min_web_mm, web_ratio, d)
-        return Ceiling((d / (d + web)) ** 2, f"bores of the stock diameters (at best {d:g} mm across, with a "
-                       f"web of at least {web:g} mm between them)")
-    if family == "slot":
-        stock = [w for w in slot_widths_mm if w >= min_void_mm and w > 0]
-        if not stock:
-            return None
-        w = max(stock, key=lambda w: (round(w / (w + _web(min_web_mm, web_ratio, w)), 12), w))
-        web = _web(min_web_mm, web_ratio, w)
-        if web_ratio > 0 and _convex(web_ratio) < w / (w + web):  # a slot's extent is its length, not its width
-            return Ceiling(_convex(web_ratio), f"slots with webs of {web_ratio:g} x the larger slot's length "
-                           "between them")
-        return Ceiling(w / (w + web), f"slots of the stock widths (at best {w:g} mm wide, with a web of at "
+        return Ceiling(share ** 2, f"bores of the stock diameters (at best {size:g} mm across, with a web of at "
                        f"least {web:g} mm between them)")
-    raise ValueError(f"no void family {family!r}")
+    if web_ratio > 0 and _convex(web_ratio) < share:  # a slot's extent is its length, not its width
+        return Ceiling(_convex(web_ratio), f"slots with webs of {web_ratio:g} x the larger slot's length between them")
+    return Ceiling(share, f"slots of the stock widths (at best {size:g} mm wide, with a web of at least {web:g} mm "
+                   "between them)")
 
 
 def ceiling(families, **rules) -> Ceiling | None:
