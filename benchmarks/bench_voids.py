@@ -1,11 +1,12 @@
 """How much of the optimiser's saving the made voids keep, what it costs, and how long each stage takes.
 
 Runs the whole job in memory on the scenarios of benchmarks/scenarios.py (our own panels) and prints, per panel:
-material removed by the freeform layout and by the voids to make, the share kept, compliance solid / freeform /
-made, the shape optimisation's compliance at the first fit and at the same material after it, the rule that held
-the layout back, and the seconds of each stage. With --ref PATH (the plain numpy/scipy BESO port kept beside the
-project, ../shared/ref_beso.py), the plate's whole job is timed against that port's BESO alone at the same
-iteration count, in the same run. Prints figures; asserts nothing.
+material removed by the freeform layout and by the voids to make, the share kept, the rules' ceiling
+(toolkit/voids/ceiling.py), compliance solid / freeform / made, the shape optimisation's compliance at the first
+fit and at the same material after it, the rule that held the layout back, and the seconds of each stage. With
+--ref PATH (the plain numpy/scipy BESO port kept beside the project, ../shared/ref_beso.py), the plate's whole job
+is timed against that port's BESO alone at the same iteration count, in the same run. Prints figures; asserts
+nothing.
 
     python benchmarks/bench_voids.py                     # every scenario
     python benchmarks/bench_voids.py plate --ref ../shared/ref_beso.py
@@ -51,7 +52,8 @@ def main() -> None:
             free, made = run.freeform_removed_percent, run.mass_removed_percent
             print(f"\n{name}")
             print(f"  removed: freeform {free:.1f} %, made {made:.1f} % ({len(run.voids)} voids); "
-                  f"kept of the saving {run.capture_percent or 0:.0f} %")
+                  f"kept of the saving {run.capture_percent or 0:.0f} %; the rules' ceiling "
+                  + (f"{100 * run.ceiling.share:.0f} % ({run.ceiling.why})" if run.ceiling else "none"))
             print(f"  compliance N mm: solid {run.solid.compliance_Nmm:.6g}, freeform "
                   f"{run.freeform_analysis.compliance_Nmm:.6g}, made {run.final.compliance_Nmm:.6g}")
             if shape is not None:
@@ -64,13 +66,14 @@ def main() -> None:
                 print(f"  limit: {run.limit}")
             print("  seconds: " + ", ".join(f"{k} {v:.2f}" for k, v in run.timings_s.items())
                   + f"; whole job {total:.2f} ({run.beso.iterations} BESO iterations)")
-    print("\n| panel | freeform removed | made removed | kept of the saving | C made <= C freeform | "
-          "stiffer than first fit | voids s |")
-    print("|---|---:|---:|---:|---|---|---:|")
+    print("\n| panel | freeform removed | made removed | kept of the saving | the rules' ceiling | "
+          "C made <= C freeform | stiffer than first fit | voids s |")
+    print("|---|---:|---:|---:|---:|---|---|---:|")
     for name, run, total, shape in rows:
         stiffer = "n/a" if shape is None else ("yes" if shape.compliance_Nmm[1] <= shape.compliance_Nmm[0] else "no")
         print(f"| {name} | {run.freeform_removed_percent:.1f} % | {run.mass_removed_percent:.1f} % | "
               f"{run.capture_percent or 0:.0f} % | "
+              f"{f'{100 * run.ceiling.share:.0f} %' if run.ceiling else 'none'} | "
               f"{'yes' if run.final.compliance_Nmm <= run.freeform_analysis.compliance_Nmm else 'no'} | {stiffer} | "
               f"{run.timings_s.get('voids', 0):.1f} |")
     if args.ref:
