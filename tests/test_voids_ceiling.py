@@ -86,3 +86,23 @@ def test_sentence_names_the_share_and_the_rule():
     words = ceiling_sentence(c)
     assert "at most 71 % of the ground" in words and "250 mm wide" in words and "100 mm" in words
     assert math.isclose(c.share, 250 / 350)
+
+
+def test_profiles_listing_gives_each_familys_ceiling():
+    """`lacuna profiles` gives the ceilings from each profile's own values, read here from its TOML file."""
+    import tomllib
+    from pathlib import Path
+
+    from toolkit.rules.profiles import profiles_table, profiles_text
+
+    folder = Path(__file__).resolve().parents[1] / "toolkit" / "rules" / "profiles"
+    table = {p["name"]: p for p in profiles_table()["profiles"]}
+    precast = tomllib.loads((folder / "precast-formed.toml").read_text())
+    w, g = max(precast["slot_widths"]["values_mm"]), precast["min_web"]["value_mm"]
+    d = max(precast["bore_diameters"]["values_mm"])
+    assert table["precast-formed"]["ceiling_percent"] == {
+        "polygon": None, "slot": round(100 * w / (w + g), 1), "bore": round(100 * (d / (d + g)) ** 2, 1)}
+    steel = tomllib.loads((folder / "steel-cut.toml").read_text())
+    k = steel["web_ratio"]["ratio"]
+    assert table["steel-cut"]["ceiling_percent"]["polygon"] == round(100 / (1 + k) ** 2, 1)
+    assert "n-gons no bound, slots 71 %, bores 64 %" in profiles_text()

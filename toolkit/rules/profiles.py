@@ -389,8 +389,24 @@ def profiles_table(directory: Path | str | None = None) -> dict:
         m = p.material
         material = {"name": m.name, "E_MPa": m.E_MPa, "nu": m.nu, "density_kg_m3": m.density_kg_m3,
                     "source": m.source}
-        out.append({"name": p.name, "description": p.description, "material": material, "rules": rules})
+        out.append({"name": p.name, "description": p.description, "material": material, "rules": rules,
+                    "ceiling_percent": _ceilings(rules_for(name, directory=directory))})
     return {"profiles": out}
+
+
+def _ceilings(rules: Rules) -> dict:
+    """The most any layout of each family opens of the ground its voids stand on under ``rules`` (per cent; None
+    where the rules set no bound), ``voids.ceiling``: the profile's own stock lists, slots cut at the bore sizes
+    where it has no slot widths."""
+    from ..voids.ceiling import family_ceiling
+
+    out = {}
+    for family in ("polygon", "slot", "bore"):
+        c = family_ceiling(family, min_web_mm=rules.min_web_mm, web_ratio=float(rules.web_ratio or 0.0),
+                           slot_widths_mm=rules.slot_widths_mm or rules.bore_diameters_mm,
+                           bore_diameters_mm=rules.bore_diameters_mm, min_void_mm=rules.min_void_mm)
+        out[family] = round(100.0 * c.share, 1) if c is not None else None
+    return out
 
 
 def _show(value, unit: str) -> str:
@@ -421,5 +437,11 @@ def profiles_text(table: dict | None = None) -> str:
             lines.append(f"  {rule:<{width}}  {_show(entry['value'], entry['unit'])}  [{entry['source']}]")
             if entry.get("series"):
                 lines.append(f"  {'':<{width}}  sizes: {entry['series']}")
+        ceilings = p.get("ceiling_percent")
+        if ceilings:
+            shares = ", ".join(f"{words} {'no bound' if ceilings[f] is None else f'{ceilings[f]:.0f} %'}"
+                               for f, words in (("polygon", "n-gons"), ("slot", "slots"), ("bore", "bores")))
+            lines.append(f"  {'ceiling':<{width}}  any layout opens at most: {shares} of the ground its voids stand "
+                         "on (docs/voids.md)")
         lines.append("")
     return "\n".join(lines).rstrip() + "\n"
