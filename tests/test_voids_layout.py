@@ -826,9 +826,40 @@ def test_a_least_void_that_drops_narrow_freeform_voids_is_named_with_the_figure_
     monkeypatch.setattr(pipeline, "first_fit_area", lambda panel, freeform, options, rules, *args, **kwargs:
                         2000.0 if pipeline.least_void_size(rules, panel.thickness_mm) < 60.0 else 0.0)
     alone = pipeline.limiting_rule(panel, [narrow[1]], VoidOptions(family="polygon"), rules, [], 0.0, 100.0)
-    assert alone.startswith("the least void size (150 mm: 1.5 x the 100 mm thickness) left no void to make"), alone
+    assert alone.startswith("the least void size (150 mm: 1.5 x the 100 mm thickness) left no void to fit in the "
+                            "freeform voids (the freeform layout removed"), alone
     assert f"with a least void size of 48 mm the freeform voids, fitted again, remove about " \
-           f"{100 * 2000.0 / panel.solid.area:.1f} % of it" in alone
+           f"{100 * 2000.0 / panel.solid.area:.1f} % of the panel" in alone
+
+
+def test_stock_sizes_too_large_for_the_freeform_voids_are_named_with_smaller_ones_that_fit(monkeypatch):
+    # Slots of 300 and 400 mm only, freeform voids 100 and 200 mm wide (a least void of 20 mm): no slot fits one.
+    # The refit that adds the two largest preferred widths up to 0.8 of the widest such void (125 and 160 mm) is
+    # named, as is, where the least void is also too large, the least void with the slots it needs. A stand-in
+    # refit answers by the smallest slot the rules it is given hold (the real one would fit the voids).
+    from toolkit import pipeline
+
+    def refit(panel, freeform, options, rules, *args, **kwargs):
+        r = pipeline.resolve_settings(options, rules, panel.thickness_mm)
+        return 3000.0 if min(w for w in r.slot_widths_mm if w >= r.min_void_mm) <= 160.0 else 0.0
+
+    monkeypatch.setattr(pipeline, "first_fit_area", refit)
+    panel = make_panel()
+    rules = Rules(min_web_mm=25, edge_cover_mm=25, min_void_mm=20)
+    freeform = [box(100, 100, 200, 400), box(500, 100, 700, 400)]
+    options = VoidOptions(family="slot", slot_widths_mm=(300.0, 400.0))
+    said = pipeline.limiting_rule(panel, freeform, options, rules, [], 500.0, 1000.0)
+    assert said.startswith("the smallest stock slot (300 mm, wider than 2 of the freeform voids) left no void to "
+                           "fit in the freeform voids (the voids to make, laid over the region instead, remove"), said
+    assert "with slots of 125 and 160 mm added the freeform voids, fitted again, remove about" in said
+    assert "[voids] slot_widths" in said
+    # a least void of 300 mm as well: halving it admits nothing without smaller slots, so they come with it
+    strict = replace(rules, min_void_mm=300.0)
+    said = pipeline.limiting_rule(panel, freeform, options, strict, [], 0.0, 1000.0)
+    assert said.startswith("the least void size (300 mm) left no void to fit in the freeform voids (the freeform "
+                           "layout removed"), said
+    assert "with a least void size of 150 mm (slots of 160 mm added)" in said
+    assert "[rules] min_void and [voids] slot_widths" in said
 
 
 def test_dropped_voids_are_placed_in_drawing_coordinates():

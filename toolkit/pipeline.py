@@ -495,14 +495,29 @@ def larger_stock(largest: float, count: int = 2) -> tuple[float, ...]:
     return tuple(out)
 
 
-def relaxed_rules(rules: Rules, void_options=None, *, thickness_mm: float = 0.0, narrow_mm: float = 0.0
-                  ) -> list[Relaxed]:
+def smaller_stock(least: float, most: float, count: int = 2) -> tuple[float, ...]:
+    """The largest ``count`` R10 preferred numbers from ``least`` to ``most`` (mm), rising; () where none lies there."""
+    if not 0 < least <= most:
+        return ()
+    out: list[float] = []
+    decade = 10.0 ** (math.floor(math.log10(least)) - 1)
+    while decade * R10[0] <= most:
+        out += [round(m * decade, 6) for m in R10 if least * (1 - 1e-9) <= m * decade <= most * (1 + 1e-9)]
+        decade *= 10.0
+    return tuple(sorted(set(out))[-count:])
+
+
+def relaxed_rules(rules: Rules, void_options=None, *, thickness_mm: float = 0.0, narrow_mm: float = 0.0,
+                  widths_mm=()) -> list[Relaxed]:
     """The rules a limiting-rule refit may relax: the web ratio and the minimum web halved where they are set;
     where some freeform void is narrower than the least void size in force for a panel ``thickness_mm`` thick
     (``narrow_mm``: the widest of those, the diameter of its largest inscribed circle), the least void size halved,
     or brought to 0.8 of that width where halving would still leave it out; and, given the job's
     ``void_options``, the stock list of the family's slots or bores with two larger preferred sizes added (the
-    widest slot bounds a slot's width however wide the freeform void is)."""
+    widest slot bounds a slot's width however wide the freeform void is), and, where some freeform void
+    (``widths_mm``: the diameters of their largest inscribed circles) admits the least void but no stock size, two
+    smaller preferred sizes added, up to 0.8 of the widest such void (the smallest slot bounds what a narrow
+    freeform void can take)."""
     spacing = "the profile's value has its source, check it before changing it"
     trials = []
     least = least_void_size(rules, thickness_mm)
@@ -511,13 +526,32 @@ def relaxed_rules(rules: Rules, void_options=None, *, thickness_mm: float = 0.0,
         by_thickness = least_void_by_thickness(rules, thickness_mm)
         less = min(least / 2.0, math.floor(0.8 * narrow_mm))
         if less > 0:
+            relaxed = dataclasses.replace(rules, min_void_mm=min(rules.min_void_mm, less),
+                                          min_void_per_thickness=per_t * less / least)
+            # Slots and bores need a stock size the narrow voids can hold, or a smaller least void admits none:
+            # preferred sizes from the new least void to 0.8 of the widest narrow void are added where the list
+            # has none there.
+            added, where = [], []
+            for family, field_name, key, tool in (("slot", "slot_widths_mm", "slot_widths", "slots"),
+                                                  ("bore", "bore_diameters_mm", "bore_diameters", "bores")):
+                r = resolve_settings(void_options, relaxed) if void_options is not None else None
+                if r is None or r.family not in (family, "mixed"):
+                    continue
+                stock = getattr(r, field_name)
+                if any(less <= size <= narrow_mm for size in stock):
+                    continue
+                extra = smaller_stock(less, 0.8 * narrow_mm)
+                if extra:
+                    relaxed = dataclasses.replace(relaxed, **{field_name: tuple(sorted(set(stock) | set(extra)))})
+                    added.append(f"{tool} of {' and '.join(f'{e:g}' for e in extra)} mm added")
+                    where.append(f"[voids] {key}")
             trials.append(Relaxed(
-                "min_void", dataclasses.replace(rules, min_void_mm=min(rules.min_void_mm, less),
-                                                min_void_per_thickness=per_t * less / least),
+                "min_void", relaxed,
                 f"the least void size ({least:g} mm" + (f": {per_t:g} x the {thickness_mm:g} mm thickness)"
                                                         if by_thickness else ")"),
-                f"a least void size of {less:g} mm",
-                f"the profile {rules.profile}'s min_void_per_thickness" if by_thickness else "[rules] min_void",
+                f"a least void size of {less:g} mm" + (f" ({', '.join(added)})" if added else ""),
+                (f"the profile {rules.profile}'s min_void_per_thickness" if by_thickness else "[rules] min_void")
+                + "".join(f" and {w}" for w in where),
                 "smaller voids are harder to make cleanly; " + spacing))
     if rules.web_ratio:
         trials.append(Relaxed("web_ratio", dataclasses.replace(rules, web_ratio=rules.web_ratio / 2.0),
@@ -541,6 +575,15 @@ def relaxed_rules(rules: Rules, void_options=None, *, thickness_mm: float = 0.0,
                                   f"{tool} up to {more[-1]:g} mm {measure} (stock sizes of "
                                   f"{' and '.join(f'{m:g}' for m in more)} mm added)",
                                   f"[voids] {key}", "a larger cutter, bit or former must be at hand"))
+            admitted = [size for size in stock if size >= least]
+            between = [w for w in widths_mm if least <= w < min(admitted, default=0.0)]
+            fewer = smaller_stock(least, 0.8 * max(between)) if between else ()
+            if fewer:
+                trials.append(Relaxed(f"{key}_smaller", dataclasses.replace(
+                    rules, **{field_name: tuple(sorted(set(stock) | set(fewer)))}),
+                    f"the smallest stock {tool[:-1]} ({min(admitted):g} mm, wider than {len(between)} of the freeform "
+                    f"voids)", f"{tool} of {' and '.join(f'{m:g}' for m in fewer)} mm added", f"[voids] {key}",
+                    "a smaller cutter, bit or former must be at hand"))
     return trials
 
 
@@ -574,9 +617,9 @@ def limit_trials(rules: Rules, void_options, sizes, panel: Panel | None = None, 
     sizes = sorted(sizes) or [0.0]
     thickness = panel.thickness_mm if panel is not None else 0.0
     least = least_void_size(rules, thickness)
-    widths = [inscribed_width(g, FIT_RTOL) for g in freeform] if least > 0 else []
-    narrow = max([w for w in widths if w < least], default=0.0)
-    return [t for t in relaxed_rules(rules, void_options, thickness_mm=thickness, narrow_mm=narrow)
+    widths = [inscribed_width(g, FIT_RTOL) for g in freeform]
+    narrow = max([w for w in widths if w < least], default=0.0) if least > 0 else 0.0
+    return [t for t in relaxed_rules(rules, void_options, thickness_mm=thickness, narrow_mm=narrow, widths_mm=widths)
             if t.key != "min_web" or rules.min_web_mm >= rules.web_ratio * sizes[len(sizes) // 2]]
 
 
@@ -615,9 +658,12 @@ def limiting_rule(panel: Panel, freeform, void_options, rules: Rules, made_voids
     share = 100.0 * made_mm2 / free_mm2
     if best is not None and base <= 0 < best[0]:
         area, trial = best
-        return (f"{trial.name} left no void to make (the freeform layout removed {100 * free_mm2 / solid:.1f} % of "
-                f"the panel); with {trial.change} the freeform voids, fitted again, remove about "
-                f"{100 * area / solid:.1f} % of it before the voids are shaped and checked ({trial.where}; "
+        made_words = (f"the voids to make, laid over the region instead, remove {100 * made_mm2 / solid:.1f} % of "
+                      f"the panel, {share:.0f} % of the freeform saving of {100 * free_mm2 / solid:.1f} %"
+                      if made_mm2 > 0 else f"the freeform layout removed {100 * free_mm2 / solid:.1f} % of the panel")
+        return (f"{trial.name} left no void to fit in the freeform voids ({made_words}); with {trial.change} the "
+                "freeform voids, fitted again, remove about "
+                f"{100 * area / solid:.1f} % of the panel before the voids are shaped and checked ({trial.where}; "
                 f"{trial.caution}).")
     if best is None or base <= 0 or best[0] <= base * 1.02:
         sized = _standard_sizes_held(void_options, rules, made_mm2, free_mm2, shaped_mm2, solid, 0.0)
@@ -630,7 +676,8 @@ def limiting_rule(panel: Panel, freeform, void_options, rules: Rules, made_voids
             return (f"the voids to make keep {share:.0f} % of the freeform saving; no web rule or stock list is set "
                     "that a refit could relax: the least void, the least feature and the stiffness of the freeform "
                     "layout (which the voids to make must not fall below) hold them back.")
-        tried = ([" or ".join(spacing) + " halved"] if spacing else []) + (["larger stock sizes"] if stock else [])
+        other = "larger or smaller" if any(t.key.endswith("_smaller") for t in trials) else "larger"
+        tried = ([" or ".join(spacing) + " halved"] if spacing else []) + ([f"{other} stock sizes"] if stock else [])
         return (f"the voids to make keep {share:.0f} % of the freeform saving; fitted again with "
                 f"{', or with '.join(tried)}, the same layout keeps less than 2 % more, so no such rule is what holds "
                 f"them back: {'' if stock else 'the stock sizes, '}the least feature and the stiffness of the freeform "
