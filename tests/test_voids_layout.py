@@ -860,6 +860,11 @@ def test_stock_sizes_too_large_for_the_freeform_voids_are_named_with_smaller_one
                            "layout removed"), said
     assert "with a least void size of 150 mm (slots of 160 mm added)" in said
     assert "[rules] min_void and [voids] slot_widths" in said
+    # narrow voids holding under NARROW_SHARE of the freeform area are not worth a refit of their own
+    wide = [box(100, 100, 1100, 600), box(1500, 100, 1600, 400)]  # 500 x 1000 and 100 x 300 mm: 5.7 % narrow
+    keys = [t.key for t in pipeline.limit_trials(rules, options, [300.0], panel, wide)]
+    assert "slot_widths_smaller" not in keys and "slot_widths" in keys
+    assert "slot_widths_smaller" in [t.key for t in pipeline.limit_trials(rules, options, [300.0], panel, freeform)]
 
 
 def test_dropped_voids_are_placed_in_drawing_coordinates():
