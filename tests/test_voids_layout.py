@@ -1181,7 +1181,8 @@ def test_a_default_filter_far_finer_than_the_minimum_web_is_named_with_the_radiu
         kept[name] = s["capture_percent"]
         assert bool(fine) == (name == "default"), fine
         if fine:
-            assert "Set [optimize] filter_radius = 100" in fine[0] and f"keep {kept[name]:.0f} %" in fine[0]
+            assert "Set [optimize] filter_radius to the minimum web, 100 mm" in fine[0]
+            assert f"keep {kept[name]:.0f} %" in fine[0]
     assert kept["set"] > 1.5 * kept["default"]
 
 

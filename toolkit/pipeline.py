@@ -345,8 +345,8 @@ def _members_finer_than_the_rules(settings: OptimizeSettings, rules: Rules, radi
         return ""
     return (f"the optimiser's filter radius, three elements ({radius_mm:.3g} mm, the default), is well under the "
             f"rules' minimum web ({rules.min_web_mm:g} mm): its members come out finer than the rules can make, and "
-            f"the voids to make keep {100 * kept:.0f} % of its saving. Set [optimize] filter_radius = "
-            f"{rules.min_web_mm:g} (the minimum web) for members of a width the rules can make.")
+            f"the voids to make keep {100 * kept:.0f} % of its saving. Set [optimize] filter_radius to the minimum "
+            f"web, {rules.min_web_mm:g} mm, for members of a width the rules can make.")
 
 
 def _to_voids(panel: Panel, job: Job, rules: Rules, settings, void_region, void_options, shared: SharedSolver,
