@@ -91,6 +91,7 @@ def test_batch_rows_carry_each_panels_own_figures(batch_run):
         assert row["drawing"] == f"drawings/{stem}.dxf" and row["job"] == f"drawings/{stem}.toml"
         assert row["mass_removed_percent"] == own["mass_removed_percent"]
         assert row["capture_percent"] == own["capture_percent"]
+        assert row["capture_ceiling_percent"] == own["capture_ceiling_percent"]
         # stiffness lost: the compliance rise of the panel to make against the solid one
         rise = 100.0 * (own["compliance_rationalized_Nmm"] / own["solid"]["compliance_Nmm"] - 1.0)
         assert row["stiffness_loss_percent"] == pytest.approx(rise, rel=1e-12)
@@ -112,7 +113,7 @@ def test_batch_summary_tables(batch_run):
     assert [r["status"] for r in table] == ["done", "refused", "done"]
     assert [r["exit_code"] for r in table] == ["0", "2", "0"]
     for line, row in zip(table, rows):
-        for key in ("mass_removed_percent", "stiffness_loss_percent", "capture_percent"):
+        for key in ("mass_removed_percent", "stiffness_loss_percent", "capture_percent", "capture_ceiling_percent"):
             if row[key] is None:
                 assert line[key] == ""
             else:
@@ -219,6 +220,7 @@ def test_sweep_rows_csv_and_knee(sweep_run):
         assert row["made_mass_kg"] == pytest.approx(solid_kg - own["mass_removed_kg"], rel=1e-9)
         assert row["compliance_Nmm"] == own["compliance_rationalized_Nmm"]
         assert row["max_deflection_mm"] == own["max_deflection_rationalized_mm"]
+        assert row["capture_ceiling_percent"] == own["capture_ceiling_percent"]
         assert float(line["made_mass_kg"]) == pytest.approx(row["made_mass_kg"], rel=1e-5)
         assert line["knee"] == ("yes" if row["knee"] else "no")
     # Direction: the volume fraction is the share of the design region KEPT, so a larger one removes less. The

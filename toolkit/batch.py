@@ -177,7 +177,7 @@ def _figures(s: dict) -> dict:
     keys = ("panel", "units", "iterations", "converged", "volume_fraction_target", "volume_fraction_final",
             "compliance_solid_Nmm", "compliance_rationalized_Nmm", "stiffness_loss_percent",
             "max_deflection_rationalized_mm", "mass_removed_percent", "mass_removed_freeform_percent",
-            "mass_removed_kg", "capture_percent", "outputs")
+            "mass_removed_kg", "capture_percent", "capture_ceiling_percent", "outputs")
     out = {k: s.get(k) for k in keys}
     out["max_deflection_solid_mm"] = s["solid"]["max_deflection_mm"]
     out["voids"] = len(s["voids"])
@@ -344,6 +344,7 @@ def _flat(row: dict) -> dict:
         "mass_removed_kg": figures.get("mass_removed_kg"),
         "stiffness_loss_percent": figures.get("stiffness_loss_percent"),
         "capture_percent": figures.get("capture_percent"),
+        "capture_ceiling_percent": figures.get("capture_ceiling_percent"),
         "compliance_solid_Nmm": figures.get("compliance_solid_Nmm"),
         "compliance_rationalized_Nmm": figures.get("compliance_rationalized_Nmm"),
         "max_deflection_rationalized_mm": figures.get("max_deflection_rationalized_mm"),
@@ -375,9 +376,9 @@ def batch_summary(rows: list[dict]) -> dict:
 
 
 CSV_COLUMNS = ("panel", "name", "drawing", "job", "status", "exit_code", "mass_removed_percent", "mass_removed_kg",
-               "stiffness_loss_percent", "capture_percent", "compliance_solid_Nmm", "compliance_rationalized_Nmm",
-               "max_deflection_rationalized_mm", "voids", "profile", "violations", "rules", "message", "folder",
-               "seconds")
+               "stiffness_loss_percent", "capture_percent", "capture_ceiling_percent", "compliance_solid_Nmm",
+               "compliance_rationalized_Nmm", "max_deflection_rationalized_mm", "voids", "profile", "violations",
+               "rules", "message", "folder", "seconds")
 
 
 def _cell(value, digits: int = 4) -> str:

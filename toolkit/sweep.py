@@ -272,6 +272,7 @@ def _row(result: dict, profile, volume: float, folder: Path, job_profile, solid_
         "max_deflection_mm": f.get("max_deflection_rationalized_mm"),
         "max_deflection_solid_mm": f.get("max_deflection_solid_mm"),
         "capture_percent": f.get("capture_percent"),
+        "capture_ceiling_percent": f.get("capture_ceiling_percent"),
         "voids": f.get("voids"),
         "violations": f.get("violations"),
         "knee": False,
@@ -284,7 +285,8 @@ def _row(result: dict, profile, volume: float, folder: Path, job_profile, solid_
 SWEEP_COLUMNS = ("profile", "volume_fraction", "status", "exit_code", "volume_fraction_final", "made_mass_percent",
                  "made_mass_kg", "mass_removed_percent", "mass_removed_freeform_percent", "compliance_Nmm",
                  "compliance_solid_Nmm", "stiffness_loss_percent", "max_deflection_mm", "max_deflection_solid_mm",
-                 "capture_percent", "voids", "violations", "knee", "dominated_by", "message", "folder")
+                 "capture_percent", "capture_ceiling_percent", "voids", "violations", "knee", "dominated_by",
+                 "message", "folder")
 
 
 def sweep_csv(rows: list[dict]) -> str:
