@@ -834,7 +834,8 @@ def test_a_least_void_that_drops_narrow_freeform_voids_is_named_with_the_figure_
 
 def test_stock_sizes_too_large_for_the_freeform_voids_are_named_with_smaller_ones_that_fit(monkeypatch):
     # Slots of 300 and 400 mm only, freeform voids 100 and 200 mm wide (a least void of 20 mm): no slot fits one.
-    # The refit that adds the two largest preferred widths up to 0.8 of the widest such void (125 and 160 mm) is
+    # The refit that adds the two largest preferred widths up to 0.8 of the widest such void (125 and 160 mm: ISO 3
+    # series R10, ..., 100, 125, 160, 200, ...; from memory) is
     # named, as is, where the least void is also too large, the least void with the slots it needs. A stand-in
     # refit answers by the smallest slot the rules it is given hold (the real one would fit the voids).
     from toolkit import pipeline

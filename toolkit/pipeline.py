@@ -514,21 +514,21 @@ def smaller_stock(least: float, most: float, count: int = 2) -> tuple[float, ...
     return tuple(sorted(set(out))[-count:])
 
 
-def relaxed_rules(rules: Rules, void_options=None, *, thickness_mm: float = 0.0, narrow_mm: float = 0.0,
-                  widths_mm=(), areas_mm2=()) -> list[Relaxed]:
+def relaxed_rules(rules: Rules, void_options=None, *, thickness_mm: float = 0.0, widths_mm=(), areas_mm2=()
+                  ) -> list[Relaxed]:
     """The rules a limiting-rule refit may relax: the web ratio and the minimum web halved where they are set;
-    where some freeform void is narrower than the least void size in force for a panel ``thickness_mm`` thick
-    (``narrow_mm``: the widest of those, the diameter of its largest inscribed circle), the least void size halved,
-    or brought to 0.8 of that width where halving would still leave it out; and, given the job's
-    ``void_options``, the stock list of the family's slots or bores with two larger preferred sizes added (the
-    widest slot bounds a slot's width however wide the freeform void is), and, where some freeform void
-    (``widths_mm``: the diameters of their largest inscribed circles) admits the least void but no stock size, and
-    such voids hold at least ``NARROW_SHARE`` of the freeform voids' area (``areas_mm2``), two smaller preferred
-    sizes added, up to 0.8 of the widest such void (the smallest slot bounds what a narrow freeform void can
-    take)."""
+    where some freeform void (``widths_mm``: the diameters of their largest inscribed circles, ``areas_mm2``: their
+    areas) is narrower than the least void size in force for a panel ``thickness_mm`` thick, the least void size
+    halved, or brought to 0.8 of the widest such void's width where halving would still leave it out; and, given
+    the job's ``void_options``, the stock list of the family's slots or bores with two larger preferred sizes added
+    (the widest slot bounds a slot's width however wide the freeform void is), and, where some freeform void admits
+    the least void but no stock size, and such voids hold at least ``NARROW_SHARE`` of the freeform voids' area,
+    two smaller preferred sizes added, up to 0.8 of the widest such void (the smallest slot bounds what a narrow
+    freeform void can take)."""
     spacing = "the profile's value has its source, check it before changing it"
     trials = []
     least = least_void_size(rules, thickness_mm)
+    narrow_mm = max([w for w in widths_mm if w < least], default=0.0)
     if narrow_mm > 0 and least > 0:
         per_t = float(rules.min_void_per_thickness or 0.0)
         by_thickness = least_void_by_thickness(rules, thickness_mm)
@@ -540,9 +540,9 @@ def relaxed_rules(rules: Rules, void_options=None, *, thickness_mm: float = 0.0,
             # preferred sizes from the new least void to 0.8 of the widest narrow void are added where the list
             # has none there.
             added, where = [], []
+            r = resolve_settings(void_options, relaxed) if void_options is not None else None
             for family, field_name, key, tool in (("slot", "slot_widths_mm", "slot_widths", "slots"),
                                                   ("bore", "bore_diameters_mm", "bore_diameters", "bores")):
-                r = resolve_settings(void_options, relaxed) if void_options is not None else None
                 if r is None or r.family not in (family, "mixed"):
                     continue
                 stock = getattr(r, field_name)
@@ -626,10 +626,8 @@ def limit_trials(rules: Rules, void_options, sizes, panel: Panel | None = None, 
     own)."""
     sizes = sorted(sizes) or [0.0]
     thickness = panel.thickness_mm if panel is not None else 0.0
-    least = least_void_size(rules, thickness)
     widths = [inscribed_width(g, FIT_RTOL) for g in freeform]
-    narrow = max([w for w in widths if w < least], default=0.0) if least > 0 else 0.0
-    return [t for t in relaxed_rules(rules, void_options, thickness_mm=thickness, narrow_mm=narrow, widths_mm=widths,
+    return [t for t in relaxed_rules(rules, void_options, thickness_mm=thickness, widths_mm=widths,
                                      areas_mm2=[g.area for g in freeform])
             if t.key != "min_web" or rules.min_web_mm >= rules.web_ratio * sizes[len(sizes) // 2]]
 

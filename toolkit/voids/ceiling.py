@@ -28,9 +28,6 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-FAMILY_WORDS = {"polygon": "n-gons", "slot": "slots", "bore": "bores"}
-
-
 @dataclass(frozen=True)
 class Ceiling:
     """The most a family's voids can open of the ground they stand on (``share``, 0-1), and why, in words."""
