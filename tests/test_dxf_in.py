@@ -256,6 +256,30 @@ def test_unitless_is_mm_with_a_warning():
     assert any("unitless" in w and "millimetres" in w for w in d.warnings)
 
 
+def test_a_file_without_a_header_is_unitless_not_metres(tmp_path):
+    # An R12 export of the entities alone, written here tag by tag (no HEADER, no TABLES: DXF reference, "DXF
+    # file structure", a minimal file is an ENTITIES section and EOF; from memory). ezdxf gives such a file its
+    # new-drawing header, whose $INSUNITS is 6 (metres); the drawing says nothing of its unit, so it is read as a
+    # unitless one: millimetres, with the warning, not a 3.6 km beam.
+    tags = ["0", "SECTION", "2", "ENTITIES", "0", "POLYLINE", "8", "PANEL", "66", "1", "70", "1"]
+    for x, y in ((0, 0), (3600, 0), (3600, 750), (0, 750)):
+        tags += ["0", "VERTEX", "8", "PANEL", "10", f"{x:.1f}", "20", f"{y:.1f}", "30", "0.0"]
+    tags += ["0", "SEQEND", "8", "PANEL", "0", "ENDSEC", "0", "EOF"]
+    path = tmp_path / "entities-only.dxf"
+    path.write_text("\n".join(tags) + "\n")
+    assert ezdxf.readfile(path).header.get("$INSUNITS") == 6  # what ezdxf alone would say
+    d = read_drawing(path)
+    assert d.unit == "mm" and (d.width_mm, d.height_mm) == pytest.approx((3600, 750), rel=1e-12)
+    assert any("no length unit" in w and "millimetres" in w for w in d.warnings)
+    # a file with a header keeps its unit: the same entities in metres, written with their header by ezdxf
+    doc = ezdxf.new("R2000", units=6)
+    doc.modelspace().add_lwpolyline([(0, 0), (3.6, 0), (3.6, 0.75), (0, 0.75)], close=True,
+                                    dxfattribs={"layer": "PANEL"})
+    doc.saveas(tmp_path / "metres.dxf")
+    d = read_drawing(tmp_path / "metres.dxf")
+    assert d.unit == "m" and (d.width_mm, d.height_mm) == pytest.approx((3600, 750), rel=1e-12)
+
+
 def test_unknown_unit_code():
     doc = _panel_doc()
     doc.header["$INSUNITS"] = 14  # decimetres in the DXF reference: not one of ours

@@ -97,7 +97,7 @@ def open_document(path: str) -> tuple[DxfDocument, list[str]]:
         except DAMAGED_FILE_ERRORS:
             pass  # damaged: the recover reader below says what it had to repair
         else:
-            return doc, []
+            return _units_as_written(doc, path), []
     try:
         with _bulk_load():
             doc, auditor = recover.readfile(path)
@@ -111,7 +111,25 @@ def open_document(path: str) -> tuple[DxfDocument, list[str]]:
     warnings = [f"{where}: {RECOVERED}."]
     warnings += _audit_lines(auditor.fixes, f"{where}: repaired")
     warnings += _audit_lines(auditor.errors, f"{where}: damage left as found")
-    return doc, warnings
+    return _units_as_written(doc, path), warnings
+
+
+def _units_as_written(doc: DxfDocument, path: str) -> DxfDocument:
+    """``doc`` without the length unit ezdxf gives a file that has no HEADER section (its new-drawing default,
+    $INSUNITS = 6, metres): such a file, an R12 export of the entities alone, says nothing of its unit, and is read
+    as one that is unitless (``drawing_unit``). Found 2026-12-04: a 3600 mm beam written that way was read as
+    3.6 km."""
+    if "$INSUNITS" in doc.header and not validator.is_binary_dxf_file(path) and not _has_header_section(path):
+        del doc.header["$INSUNITS"]
+    return doc
+
+
+def _has_header_section(path: str) -> bool:
+    """Whether an ASCII DXF file holds a HEADER section (group code 2, value HEADER) in its first megabyte, where
+    the first section starts."""
+    with open(path, "rb") as fp:
+        head = fp.read(1 << 20)
+    return re.search(rb"(?m)^[ \t]*2[ \t]*\r?\n[ \t]*HEADER[ \t]*\r?$", head) is not None
 
 
 def _audit_lines(entries, lead: str) -> list[str]:
