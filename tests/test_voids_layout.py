@@ -1247,3 +1247,56 @@ def test_standard_sizes_that_take_most_of_the_layout_are_named_as_what_held_it_b
             assert shaped > 1.5 * left
             assert "max_types = 1" in run.limit and "Of the rules" in run.limit
     assert removed[3] > 1.5 * removed[1]
+
+
+def _beside(crowd, trials, gap: float):
+    """Each trial moved to stand ``gap`` (to 0.01 mm) from a member of ``crowd``, along the line of their centres."""
+    out = []
+    for k, (a, t) in enumerate(zip(crowd, trials)):
+        u = np.array([math.cos(k), math.sin(k)])
+        lo, hi = 0.0, 400.0
+        for _ in range(40):
+            mid = 0.5 * (lo + hi)
+            c = np.asarray(a.centre) + mid * u
+            moved = t.moved(float(c[0] - t.centre[0]), float(c[1] - t.centre[1]))
+            lo, hi = (mid, hi) if float(shapely.distance(moved.shape(), a.shape())) < gap else (lo, mid)
+        out.append(moved)
+    return out
+
+
+@pytest.mark.parametrize("crowd", ["ngons", "slots"])
+def test_moved_copies_ruled_out_at_once_leave_the_answer_of_the_one_by_one_tests(crowd):
+    # Site.fits weeds out the moved copies of a trial that reach outside the region or whose sharp hulls or cores
+    # already break a web (Site._not_ruled_out, vectorised) before testing the rest one by one: the copy it returns
+    # must be the first the one-by-one tests (inside, then clear, on each copy in order) take, or None with them.
+    from toolkit.voids.layout import Site
+
+    crowd_drafts = []  # voids of our own at least 60 mm apart, so that copies placed beside one may fit
+    for d in (_eased_ngons(60, 3) if crowd == "ngons" else _slots_and_bores(60, 4)):
+        if all(shapely.distance(d.shape(), e.shape()) >= 60.0 for e in crowd_drafts):
+            crowd_drafts.append(d)
+    trials = _eased_ngons(14, 8) + _slots_and_bores(14, 9)
+    region = box(-40, -40, 660, 340)
+    outcomes = {"moved": 0, "where it stood": 0, "none": 0}
+    weeded = 0
+    for ratio, web in ((0.0, 12.0), (0.5, 12.0), (0.0, 40.0), (0.0, 21.0), (0.25, 30.0), (0.0, 55.0)):
+        site = Site(region, web, 5.0, web_ratio=ratio, openings=[box(250, 120, 330, 170)])
+        for t in trials + _beside(crowd_drafts, trials, web + 1.0):
+            got = site.fits(t, -1, crowd_drafts)
+            others = site.others(crowd_drafts, -1)
+            moves = site.mirror.along(t, site.offsets(t.size))
+            expected = None
+            for dx, dy in moves:
+                cand = t.moved(dx, dy) if (dx or dy) else t
+                if site.big_enough(cand) and site.inside(cand.shape()) and site.clear(site.members(cand)[0], others):
+                    expected = cand
+                    break
+            assert (got is None) == (expected is None), (crowd, ratio, web, t)
+            if got is not None:
+                assert got.centre == expected.centre
+                outcomes["moved" if got.centre != t.centre else "where it stood"] += 1
+            else:
+                outcomes["none"] += 1
+            weeded += len(moves) - len(site._not_ruled_out(t, moves, others))
+    assert all(outcomes.values()), outcomes  # each kind of answer came up
+    assert weeded > 500 and len(crowd_drafts) >= 5

@@ -494,13 +494,58 @@ class Site:
         others = self.others(state, i)
         offsets = self.offsets(trial.size) if move else [(0.0, 0.0)]
         trial.extent(), trial.reach()  # worked out once, carried by every moved copy
-        for dx, dy in self.mirror.along(trial, offsets):
+        moves = self.mirror.along(trial, offsets)
+        if len(moves) > 1 and not self.mirror.axes:
+            moves = self._not_ruled_out(trial, moves, others)
+        for dx, dy in moves:
             cand = trial.moved(dx, dy) if (dx or dy) else trial
             members = self.members(cand)
             if all(self.inside(m[0]) for m in members) and all(self.clear(m, others.plus(members[:k]))
                                                                for k, m in enumerate(members)):
                 return cand
         return None
+
+    def _not_ruled_out(self, trial: Draft, moves: list, packed: Packed) -> list:
+        """The ``moves`` of ``trial`` (no mirror images) less those whose copy the tests of ``fits`` would refuse
+        for a reason found for all the copies at once: reaching outside the region open to voids; for an eased
+        n-gon beside n-gons and openings, a sharp hull closer to another's than the web less both slacks; for a slot
+        or bore, a core closer to another slot's or bore's than the web plus both inner radii (``clear``'s first
+        refusals, the hulls' on the same numbers, the cores' with a margin twice ``clear``'s, so that no rounding
+        of the vectorised distances refuses a copy ``clear`` would take). What is left is tested one by one as
+        before, so ``fits`` answers as it did; most of the placing's moved copies are refused (bench plate: 7,100 of
+        7,500), each once costing a member built and two GEOS calls."""
+        shape = trial.shape()
+        n = len(shapely.get_coordinates(shape))
+        d = np.asarray(moves, dtype=float)
+        copies = shapely.transform(np.full(len(moves), shape, dtype=object), lambda c: c + np.repeat(d, n, 0))
+        keep = shapely.covers(self.inner, copies)
+        if packed.members:
+            need = np.full(len(packed.members), self.web)
+            if self.ratio > 0.0:
+                need = np.maximum(need, self.ratio * np.maximum(packed.ext, trial.extent()))
+            need = need + SAFETY_MM
+            cx = trial.centre[0] + d[:, 0]
+            cy = trial.centre[1] + d[:, 1]
+            apart = np.hypot(packed.x[None, :] - cx[:, None], packed.y[None, :] - cy[:, None]) - packed.reach \
+                - trial.reach()
+            close = (apart < need) & keep[:, None]
+            inner = trial.radii()[0]
+            if inner >= 0.0:  # a slot or a bore
+                k, j = np.nonzero(close & (packed.inner >= 0.0)[None, :])
+                if len(k):
+                    ax, ay, bx, by = trial.core()
+                    cores = segment_distances(ax + d[k, 0], ay + d[k, 1], bx + d[k, 0], by + d[k, 1], packed.ax[j],
+                                              packed.ay[j], packed.bx[j], packed.by[j])
+                    keep[k[cores - inner - packed.inner[j] < need[j] - 2.0 * CORE_MARGIN_MM]] = False
+            elif trial.family == "polygon" and not (packed.inner >= 0.0).any():
+                hull, slack = _hull_of(trial)
+                k, j = np.nonzero(close) if slack > 0.0 else ((), ())
+                if len(k):
+                    hulls = shapely.polygons(np.asarray(trial.corners, dtype=float)[None, :, :]
+                                             + np.column_stack([cx, cy])[:, None, :])
+                    lower = shapely.distance(hulls[k], packed.hulls[j])
+                    keep[k[lower + (slack + packed.slack[j]) < need[j] - CORE_MARGIN_MM]] = False
+        return [m for m, k in zip(moves, keep.tolist()) if k]
 
     def keeps(self, trial: Draft, i: int, state: list[Draft]) -> Draft | None:
         """``fits`` with the trial where it is, unmoved: the later stages' test of a void they have placed."""
@@ -697,13 +742,18 @@ def _hull_of(d: Draft) -> tuple:
     """(hull, slack) of a draft as a member (``Site.__init__``): an eased n-gon's sharp n-gon, which holds its
     outline (the easing cuts into the corners), and the furthest its corners stand off that outline (the sharp
     n-gon is convex, so the furthest of its points is a corner: no point of it is further from the outline); the
-    draft's own shape and 0 for a sharp n-gon, a slot, a bore."""
+    draft's own shape and 0 for a sharp n-gon, a slot, a bore. The slack is kept on the draft and carried by its
+    moved and mirrored copies (``outline._carry``): a move or a mirror changes no distance, and measuring it again
+    for each of the placing's moved copies was a fifth of the time spent testing them (bench plate, 7,500 copies)."""
     shape = d.shape()
     if d.family != "polygon" or d.corner == "none" or d.corner_mm <= 0.0:
         return shape, 0.0
     sharp = d.sharp
-    slack = float(np.max(shapely.distance(shapely.points(sharp), shape)))
-    return shapely.polygons(sharp), slack * (1.0 + 1e-9) + 1e-9
+    slack = d.__dict__.get("_slack")
+    if slack is None:
+        slack = float(np.max(shapely.distance(shapely.points(sharp), shape))) * (1.0 + 1e-9) + 1e-9
+        object.__setattr__(d, "_slack", slack)
+    return shapely.polygons(sharp), slack
 
 
 class Room:

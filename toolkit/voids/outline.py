@@ -289,7 +289,7 @@ def _carry(source: Draft, target: Draft, move, turn: bool = False) -> None:
     """Hand ``source``'s kept extent and reach to ``target`` (a moved or mirrored copy: both unchanged), and its
     shape with its coordinates mapped by ``move`` (no re-flattening of the arcs); ``turn``: the map is a mirror,
     so the outline is turned back counter-clockwise."""
-    for key in ("_extent", "_reach", "_radii"):
+    for key in ("_extent", "_reach", "_radii", "_slack"):  # _slack: how far an n-gon's sharp corners stand off it
         if key in source.__dict__:
             object.__setattr__(target, key, source.__dict__[key])
     shape = source.__dict__.get("_shape")
