@@ -963,9 +963,14 @@ def _void_candidates(room: Room, families, r: Resolved, score, bound, only) -> d
 def candidates(room: Room, family: str, r: Resolved, *, trials: int = 2, score=None, bound=None,
                only: str | None = None) -> list[Layout]:
     """The layouts one freeform void could become in one family: the whole void; split into 2 to ``MAX_PIECES``
-    voids along its length; a honeycomb of smaller voids (a web tied to the void's size is narrower between small
-    voids); bores packed into it. The honeycombs are ranked by the area of their pieces and only the best
-    ``trials`` are fitted.
+    voids along its length; slots side by side; bores packed into it; and, for the ``mixed`` family, a honeycomb of
+    smaller voids (a web tied to the void's size is narrower between small voids), the honeycombs ranked by the
+    area of their pieces and only the best ``trials`` fitted. A single family gets its honeycombs over the whole
+    region open to voids (``lattice_layout``) and in the room a layout leaves (``_fill``), not in each freeform
+    void: over copies of the bench panels a micrometre apart (benchmarks/bench_spread.py) each void's own
+    honeycombs kept no more of the saving on average and cost a tenth of the void stage; with ``mixed`` they are the
+    small n-gons that compete with bores and slots in a void, and without them the examples' beam loaded at 0.7 of
+    its span kept 76 instead of 90 % of the saving under the precast-formed rules (docs/voids.md).
 
     With ``score`` (a layout's worth, as ``rationalise`` takes it) and ``bound`` (an upper bound of the worth of
     anything fitted inside a region), the layouts are fitted in falling order of their pieces' bound and the
@@ -992,7 +997,7 @@ def candidates(room: Room, family: str, r: Resolved, *, trials: int = 2, score=N
         layouts.append((f"split {k}", pieces))
     angle = major_axis_deg(room.region)
     combs = []
-    for s, size in enumerate(_pitches(room, r)):
+    for s, size in enumerate(_pitches(room, r) if r.family == "mixed" or (only or "").startswith("comb ") else ()):
         web = r.web(size)
         for o, offset in enumerate(((0.0, 0.0), (0.5, 0.5))):
             if not wanted(f"comb {s} {o}"):
