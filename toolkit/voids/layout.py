@@ -545,7 +545,7 @@ class Site:
                                              + np.column_stack([cx, cy])[:, None, :])
                     lower = shapely.distance(hulls[k], packed.hulls[j])
                     keep[k[lower + (slack + packed.slack[j]) < need[j] - CORE_MARGIN_MM]] = False
-        return [m for m, k in zip(moves, keep.tolist()) if k]
+        return [m for m, ok in zip(moves, keep.tolist()) if ok]
 
     def keeps(self, trial: Draft, i: int, state: list[Draft]) -> Draft | None:
         """``fits`` with the trial where it is, unmoved: the later stages' test of a void they have placed."""
