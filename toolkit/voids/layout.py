@@ -97,8 +97,11 @@ LATTICE_FINE = (0.3, 0.2)
 # A honeycomb a little softer than the freeform layout has its voids made this much smaller per round
 # (``_within_cap``), rather than a fifth of them dropped.
 CAP_SHRINK = 0.98
-# The most voids one freeform void is split into along its length.
-MAX_PIECES = 4
+# The most voids one freeform void is split into along its length. Four was tried until 2026-12-04: a split into
+# four never won on the bench panels (the same layouts over six copies each a micrometre apart, bench_spread.py)
+# and its fits cost 0.1-0.3 s of the plate's void stage; of the 24 example runs two moved without it, both ways in
+# one run but up over six copies (wall leaf, precast-formed: n-gons 76.1 -> 82.9 %, slots 59.8 -> 63.2 % kept).
+MAX_PIECES = 3
 # ``mixed`` picks each void's family at this share of the optimiser's price of stiffness (the worth's rho made
 # 1 / MIXED_PRICE times larger), the price the shape optimisation's growth first lowers to (x 4) while the panel
 # is stiffer than the freeform layout: most made layouts end well inside that cap, so a family chosen at the
