@@ -332,6 +332,12 @@ class Packed:
         return out
 
 
+def _apart(packed: Packed, cx, cy, radius: float):
+    """How far apart the circles round ``packed`` and a void's circle (centre ``cx``, ``cy``, ``radius``) are at
+    least: the shapes lie within their circles. ``cx``, ``cy`` may be columns, one row per moved copy."""
+    return np.hypot(packed.x - cx, packed.y - cy) - packed.reach - radius
+
+
 class Site:
     """Where void material may go and how far apart voids stay: answers "may this void stand here?"."""
 
@@ -409,6 +415,14 @@ class Site:
     def inside(self, shape) -> bool:
         return bool(self.inner.covers(shape))
 
+    def _webs(self, packed: Packed, extent: float) -> np.ndarray:
+        """The web each of ``packed`` asks of a void of ``extent`` (with a web ratio, times the larger extent), plus
+        the margin kept to spare."""
+        need = np.full(len(packed.members), self.web)
+        if self.ratio > 0.0:
+            need = np.maximum(need, self.ratio * np.maximum(packed.ext, extent))
+        return need + SAFETY_MM
+
     def clear(self, member, others) -> bool:
         """At least the web from every other void and opening; with a web ratio, that times the larger one's
         extent (the diameter of its smallest enclosing circle, as rules.check measures it). ``member``: the void
@@ -418,13 +432,8 @@ class Site:
         if not packed.members:
             return True
         shape, own, cx, cy, radius, ax, ay, bx, by, inner, outer, hull, slack = member
-        need = np.full(len(packed.members), self.web)
-        if self.ratio > 0.0:
-            need = np.maximum(need, self.ratio * np.maximum(packed.ext, own))
-        need = need + SAFETY_MM
-        # The shapes lie within their circles: they are at least this far apart.
-        apart = np.hypot(packed.x - cx, packed.y - cy) - packed.reach - radius
-        close = np.flatnonzero(apart < need)
+        need = self._webs(packed, own)
+        close = np.flatnonzero(_apart(packed, cx, cy, radius) < need)
         if not close.size:
             return True
         if inner >= 0.0 or (packed.inner[close] >= 0.0).any():
@@ -523,15 +532,10 @@ class Site:
         copies = shapely.transform(np.full(len(moves), shape, dtype=object), lambda c: c + np.repeat(d, n, 0))
         keep = shapely.covers(self.inner, copies)
         if packed.members:
-            need = np.full(len(packed.members), self.web)
-            if self.ratio > 0.0:
-                need = np.maximum(need, self.ratio * np.maximum(packed.ext, trial.extent()))
-            need = need + SAFETY_MM
+            need = self._webs(packed, trial.extent())
             cx = trial.centre[0] + d[:, 0]
             cy = trial.centre[1] + d[:, 1]
-            apart = np.hypot(packed.x[None, :] - cx[:, None], packed.y[None, :] - cy[:, None]) - packed.reach \
-                - trial.reach()
-            close = (apart < need) & keep[:, None]
+            close = (_apart(packed, cx[:, None], cy[:, None], trial.reach()) < need) & keep[:, None]
             inner = trial.radii()[0]
             if inner >= 0.0:  # a slot or a bore
                 k, j = np.nonzero(close & (packed.inner >= 0.0)[None, :])
@@ -541,7 +545,7 @@ class Site:
                                               packed.ay[j], packed.bx[j], packed.by[j])
                     keep[k[cores - inner - packed.inner[j] < need[j] - 2.0 * CORE_MARGIN_MM]] = False
             elif trial.family == "polygon" and not (packed.inner >= 0.0).any():
-                hull, slack = _hull_of(trial)
+                slack = _hull_of(trial)[1]
                 k, j = np.nonzero(close) if slack > 0.0 else ((), ())
                 if len(k):
                     hulls = shapely.polygons(np.asarray(trial.corners, dtype=float)[None, :, :]
