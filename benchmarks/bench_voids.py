@@ -5,25 +5,105 @@ material removed by the freeform layout and by the voids to make, the share kept
 (toolkit/voids/ceiling.py), compliance solid / freeform / made, the shape optimisation's compliance at the first
 fit and at the same material after it, the rule that held the layout back, and the seconds of each stage. With
 --ref PATH (the plain numpy/scipy BESO port kept beside the project, ../shared/ref_beso.py), the plate's whole job
-is timed against that port's BESO alone at the same iteration count, in the same run. Prints figures; asserts
-nothing.
+is timed against that port's BESO alone at the same iteration count, in the same run. With --split, the void
+stage's seconds are split by step (``VOID_STEPS``: each step's own seconds, the steps it calls taken out), the FE
+analyses of the shape optimisation and the weighing counted apart. Prints figures; asserts nothing.
 
     python benchmarks/bench_voids.py                     # every scenario
     python benchmarks/bench_voids.py plate --ref ../shared/ref_beso.py
     python benchmarks/bench_voids.py --helper            # with the second process the lacuna commands use
+    python benchmarks/bench_voids.py plate --split       # where the void stage's seconds go
 """
 
 from __future__ import annotations
 
 import argparse
+import contextlib
+import functools
+import importlib
 import subprocess
 import sys
+import threading
 import time
 from pathlib import Path
 
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
 sys.path.insert(0, str(ROOT / "benchmarks"))
+
+
+# The void stage's steps timed by --split: (module, attribute, what the table calls it). Each is looked up by name
+# where it is called, so wrapping the module's attribute times every call; a step's seconds are its own, those of
+# the steps it calls taken out.
+VOID_STEPS = (
+    ("toolkit.voids.layout", "candidates", "fitting each freeform void's layouts"),
+    ("toolkit.voids.layout", "place", "placing (moves and smaller sizes)"),
+    ("toolkit.voids.layout", "largest_first", "largest-first fit"),
+    ("toolkit.voids.layout", "honeycomb_at", "honeycombs over the region"),
+    ("toolkit.voids.layout", "_fill", "fill of the room left"),
+    ("toolkit.voids.shape", "optimise", "shape optimisation (its rules and geometry)"),
+    ("toolkit.voids.shape", "Evaluator.shapes", "FE analyses (assembly, refactor, solve)"),
+    ("toolkit.voids.layout", "standardise_sizes", "standard sizes"),
+    ("toolkit.voids.layout", "snap_centres", "snapping"),
+    ("toolkit.rules.check", "check_layout", "proof of the rules"),
+)
+
+
+@contextlib.contextmanager
+def split_seconds(totals: dict[str, list]):
+    """Wrap ``VOID_STEPS`` for the duration: ``totals[name]`` becomes [own seconds, calls], counted in the thread
+    that runs the void stage (``pipeline._to_voids``) while it runs (the limiting rule's refits in the checks call
+    some of the same steps)."""
+    stack: list[list[float]] = []  # per open call: seconds of the wrapped calls inside it
+    stage = {"thread": None}
+    undo = []
+
+    def counted() -> bool:
+        return stage["thread"] == threading.get_ident()
+
+    def timer(fn, name):
+        @functools.wraps(fn)
+        def timed(*args, **kwargs):
+            if not counted():
+                return fn(*args, **kwargs)
+            stack.append([0.0])
+            start = time.perf_counter()
+            try:
+                return fn(*args, **kwargs)
+            finally:
+                spent = time.perf_counter() - start
+                inner = stack.pop()[0]
+                if stack:
+                    stack[-1][0] += spent
+                row = totals.setdefault(name, [0.0, 0])
+                row[0] += spent - inner
+                row[1] += 1
+        return timed
+
+    def gate(fn):
+        @functools.wraps(fn)
+        def gated(*args, **kwargs):
+            stage["thread"] = threading.get_ident()
+            try:
+                return fn(*args, **kwargs)
+            finally:
+                stage["thread"] = None
+        return gated
+
+    wraps = [(module, attr, lambda fn, name=name: timer(fn, name)) for module, attr, name in VOID_STEPS]
+    for module, attr, wrap in wraps + [("toolkit.pipeline", "_to_voids", gate)]:
+        owner = importlib.import_module(module)
+        *path, last = attr.split(".")
+        for part in path:
+            owner = getattr(owner, part)
+        fn = getattr(owner, last)
+        undo.append((owner, last, fn))
+        setattr(owner, last, wrap(fn))
+    try:
+        yield totals
+    finally:
+        for owner, last, fn in reversed(undo):
+            setattr(owner, last, fn)
 
 
 def main() -> None:
@@ -37,6 +117,8 @@ def main() -> None:
     ap.add_argument("--ref", help="path of the plain BESO port to time against (plate scenario)")
     ap.add_argument("--helper", action="store_true",
                     help="with the helper process the lacuna commands start (toolkit/helper.py); default one core")
+    ap.add_argument("--split", action="store_true",
+                    help="split the void stage's seconds by step (one core: the helper's share is not seen)")
     args = ap.parse_args()
     rows = []
     with threadpool_limits(1):  # one core, as the targets are stated
@@ -44,9 +126,11 @@ def main() -> None:
             if args.only not in name:
                 continue
             panel, job = make()
-            t0 = time.perf_counter()
-            run = optimize_panel(panel, job, helper=args.helper)
-            total = time.perf_counter() - t0
+            steps: dict[str, list] = {}
+            with split_seconds(steps) if args.split else contextlib.nullcontext():
+                t0 = time.perf_counter()
+                run = optimize_panel(panel, job, helper=args.helper)
+                total = time.perf_counter() - t0
             shape = run.rationalised.shape
             rows.append((name, run, total, shape))
             free, made = run.freeform_removed_percent, run.mass_removed_percent
@@ -66,6 +150,14 @@ def main() -> None:
                 print(f"  limit: {run.limit}")
             print("  seconds: " + ", ".join(f"{k} {v:.2f}" for k, v in run.timings_s.items())
                   + f"; whole job {total:.2f} ({run.beso.iterations} BESO iterations)")
+            if args.split:
+                voids = run.timings_s.get("voids", 0.0)
+                named = {name for _, _, name in VOID_STEPS}
+                print(f"  void stage {voids:.2f} s by step (own seconds, calls):")
+                for name in [n for _, _, n in VOID_STEPS if n in steps]:
+                    own, calls = steps[name]
+                    print(f"    {name:45s} {own:6.2f} s  {calls:5d}")
+                print(f"    {'the rest of the stage':45s} {voids - sum(v[0] for k, v in steps.items() if k in named):6.2f} s")
     print("\n| panel | freeform removed | made removed | kept of the saving | the rules' ceiling | "
           "C made <= C freeform | stiffer than first fit | voids s |")
     print("|---|---:|---:|---:|---:|---|---|---:|")
