@@ -46,6 +46,7 @@ VOID_STEPS = (
     ("toolkit.voids.layout", "standardise_sizes", "standard sizes"),
     ("toolkit.voids.layout", "snap_centres", "snapping"),
     ("toolkit.rules.check", "check_layout", "proof of the rules"),
+    ("toolkit.voids.layout", "result_or", "waiting for the helper's answers (--helper)"),
 )
 
 

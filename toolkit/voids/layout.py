@@ -2046,13 +2046,25 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
         source, _, g = key
         return source, tuple(a for a in g if a not in comp_fixed.get(source, ()))
 
-    errors = []
+    # The voids of one piece share its error, measured once (a honeycomb's dozens of voids are one piece).
+    pieces: dict = {}
     for (_, key), v in zip(entries, voids):
-        group = shapely.union_all([w.shape for (_, k), w in zip(entries, voids) if piece(k) == piece(key)])
-        source, g = piece(key)
-        target = by_source[source].shape if source in by_source else shapely.union_all([k.shape for k in kept])
-        errors.append((v.id, round(fit_error(group, mirror.geometry(target, g)), 6)) if not target.is_empty
-                      else (v.id, 1.0))
+        pieces.setdefault(piece(key), []).append(v.shape)
+    whole = None  # the kept freeform voids together, the target of voids fitted to no one of them
+
+    def error_of(source, g) -> float:
+        nonlocal whole
+        if source in by_source:
+            target = by_source[source].shape
+        else:
+            whole = whole if whole is not None else shapely.union_all([k.shape for k in kept])
+            target = whole
+        if target.is_empty:
+            return 1.0
+        return round(fit_error(shapely.union_all(pieces[(source, g)]), mirror.geometry(target, g)), 6)
+
+    error_by_piece = {key: error_of(*key) for key in pieces}
+    errors = [(v.id, error_by_piece[piece(key)]) for (_, key), v in zip(entries, voids)]
     violations = tuple(rule_check.check_layout(panel, list(voids), rules))
     return Rationalised(voids=voids, changes=changes, dropped=tuple(dropped), fit_errors=tuple(errors),
                         violations=violations, notes=tuple(notes), shape=shaped, first_fit_mm2=first_fit_mm2,
