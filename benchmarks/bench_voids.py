@@ -119,7 +119,8 @@ def main() -> None:
     ap.add_argument("--helper", action="store_true",
                     help="with the helper process the lacuna commands start (toolkit/helper.py); default one core")
     ap.add_argument("--split", action="store_true",
-                    help="split the void stage's seconds by step (one core: the helper's share is not seen)")
+                    help="split the void stage's seconds by step (with --helper: this process's steps and its wait "
+                         "for the helper; the helper's own work is not seen)")
     args = ap.parse_args()
     rows = []
     with threadpool_limits(1):  # one core, as the targets are stated
@@ -158,7 +159,8 @@ def main() -> None:
                 for name in [n for _, _, n in VOID_STEPS if n in steps]:
                     own, calls = steps[name]
                     print(f"    {name:45s} {own:6.2f} s  {calls:5d}")
-                print(f"    {'the rest of the stage':45s} {voids - sum(v[0] for k, v in steps.items() if k in named):6.2f} s")
+                rest = voids - sum(v[0] for k, v in steps.items() if k in named)
+                print(f"    {'the rest of the stage':45s} {rest:6.2f} s")
     print("\n| panel | freeform removed | made removed | kept of the saving | the rules' ceiling | "
           "C made <= C freeform | stiffer than first fit | voids s |")
     print("|---|---:|---:|---:|---:|---|---|---:|")
