@@ -510,6 +510,60 @@ def test_void_ids_never_overlap_each_other_other_voids_or_a_point_load():
             assert v.shape.boundary.distance(P(leader[0])) < 1e-6
 
 
+
+def test_a_void_id_with_no_leader_stands_clearly_nearer_its_void_than_an_opening():
+    # A 5.4 x 0.9 m precast lintel of our own with a duct opening and a pipe sleeve, and the ten pentagons lacuna
+    # made in it (their sharp corners as the schedule gave them, mm). Placed just outside its void, an id with no
+    # leader must stand at most LABEL_NEARER as far from its void as from any other void or opening; before that
+    # rule V8's id stood above the sleeve, 0.95 as far from V8 as from it, and read as the sleeve's. No id or leader
+    # crosses an opening.
+    import shapely
+    from shapely.geometry import Point as P
+    from shapely.geometry import Polygon as Poly
+
+    from toolkit.model import Material, Panel, Region, Support, Void
+    from toolkit.write.result_sheet import LABEL_NEARER, LABEL_SIZE, _label_spots, label_box
+    from toolkit.write.sheet import Figure
+
+    corners = {
+        "V1": [(225, 415), (230, 820), (80, 805), (80, 420), (135, 385)],
+        "V2": [(540, 790), (420, 830), (330, 765), (335, 565), (435, 540)],
+        "V3": [(760, 745), (760, 825), (665, 820), (615, 705), (675, 680)],
+        "V4": [(935, 310), (875, 355), (805, 395), (750, 305), (900, 220)],
+        "V5": [(1670, 530), (1775, 635), (1665, 640), (1555, 630), (1590, 515)],
+        "V6": [(2385, 440), (2385, 625), (2240, 635), (1910, 375), (2210, 285)],
+        "V7": [(3300, 295), (3430, 338), (3084, 643), (2487, 639), (2485, 272)],
+        "V8": [(3880, 460), (3505, 655), (3325, 615), (3410, 495), (3615, 300)],
+        "V9": [(5065, 760), (4985, 825), (4845, 795), (4985, 575), (5075, 595)],
+        "V10": [(5320, 435), (5320, 805), (5175, 820), (5180, 410), (5265, 395)],
+    }
+    duct = Poly([(1200, 350), (1400, 350), *[(1400 + 100 * np.sin(t), 450 - 100 * np.cos(t))
+                                              for t in np.linspace(0, np.pi, 17)[1:-1]], (1400, 550), (1200, 550)])
+    sleeve = P(4100, 450).buffer(80, quad_segs=16)
+    panel = Panel(width_mm=5400, height_mm=900, thickness_mm=200, element_size_mm=15,
+                  material=Material(E_MPa=30000, nu=0.2),
+                  supports=(Support(((0, 0), (250, 0)), "xy"), Support(((5150, 0), (5400, 0)), "y")),
+                  openings=(Region(duct, "OPENING"), Region(sleeve, "OPENING")), name="garage lintel")
+    voids = []
+    for vid, pts in corners.items():
+        shape = Poly(pts)
+        c = shape.centroid
+        voids.append(Void(id=vid, family="polygon", centre=(c.x, c.y), size_mm=float(shape.length / 3), shape=shape,
+                          sides=5))
+    fig = Figure(panel)
+    spots = _label_spots(fig, voids, LABEL_SIZE)
+    drawn = [v.shape for v in voids] + [duct, sleeve]
+    for k, (v, (at, leader)) in enumerate(zip(voids, spots)):
+        box = label_box(fig, v.id, at, LABEL_SIZE)
+        assert not box.intersects(duct) and not box.intersects(sleeve), v.id
+        if leader is not None:
+            line = shapely.LineString(leader)
+            assert not line.intersects(duct) and not line.intersects(sleeve), v.id
+        elif not v.shape.covers(box):
+            others = [g for j, g in enumerate(drawn) if j != k]
+            assert box.distance(v.shape) <= LABEL_NEARER * min(box.distance(g) for g in others) + 1e-9, v.id
+
+
 # The sheets letter in DejaVu Sans first (toolkit/write/sheet.py, FONT); the glyphs' ink boxes and advance widths are
 # read here from the font files themselves with Pillow, not from the writer's estimate of them.
 DEJAVU = {False: "/usr/share/fonts/truetype/dejavu/DejaVuSans.ttf",
