@@ -72,6 +72,17 @@ LABEL_SIZE = 2.3
 LABEL_NEARER = 0.5
 
 
+def _drawn_blocked(fig: Figure, voids: Sequence[Void]) -> Labels:
+    """A placer for the sheet keeping lettering and leaders off the voids (each void's own id may stand in it) and
+    off the panel's openings."""
+    labels = Labels(fig)
+    for void in voids:
+        labels.block(void.shape, owner=void.id)
+    for opening in fig.panel.openings:
+        labels.block(opening.shape)
+    return labels
+
+
 def label_box(fig: Figure, text: str, at, size: float):
     """The box (local mm) a void id of ``size`` paper mm started at ``at`` (its baseline) covers."""
     return text_box(fig, text, at, size, bold=True)
@@ -79,21 +90,18 @@ def label_box(fig: Figure, text: str, at, size: float):
 
 def _label_spots(fig: Figure, voids: Sequence[Void], size: float, labels: Labels | None = None):
     """Where each void's id goes so that no two ids overlap, and no id covers another void, or what ``labels``
-    already holds (the loads' arrows and figures, supports, ordinates): inside the void, above its centre cross (or
-    below, right or left of it), when it fits with room to spare; else just outside it in the first of sixteen directions
-    (up-right first) that is clear; further out with a leader line (itself crossing no other void or label) when
-    none is; in a crowd that leaves no such spot, further out still with a leader that may cross another void's
-    outline but no label. An id just outside its void with no leader stands at most ``LABEL_NEARER`` as far from
-    its own void as from any other void or opening (about as near to another, a reader takes it for that one's). Returns [(baseline start (local mm), leader segment or None)] in
+    already holds (the loads' arrows and figures, supports, ordinates; by default the voids and openings): inside
+    the void, above its centre cross (or below, right or left of it), when it fits with room to spare; else just
+    outside it in the first of sixteen directions (up-right first) that is clear; further out with a leader line
+    (itself crossing no other void or label) when none is; in a crowd that leaves no such spot, further out still
+    with a leader that may cross another void's outline but no label. An id just outside its void with no leader
+    stands at most ``LABEL_NEARER`` as far from its own void as from any other void or opening (about as near to
+    another, a reader takes it for that one's). Returns [(baseline start (local mm), leader segment or None)] in
     ``voids`` order."""
     p = fig.paper
     panel = fig.panel
     if labels is None:
-        labels = Labels(fig)
-        for void in voids:
-            labels.block(void.shape, owner=void.id)
-        for opening in panel.openings:
-            labels.block(opening.shape)
+        labels = _drawn_blocked(fig, voids)
     # Ids stay inside the panel, clear of the edge band where arrows and bearing marks stand.
     inner = shapely.box(0.0, 0.0, panel.width_mm, panel.height_mm).buffer(-p(1.0), join_style="mitre")
     # A point load's arrow and its figure stand at its point: ids keep a square of 12 paper mm clear round it.
@@ -488,11 +496,7 @@ def result_svg(
     groups = _result_groups(fig)
     # One placer for every label: the loads' figures keep off the voids, ordinates and supports; the void ids
     # then keep off all of that and the loads' arrows and figures.
-    labels = Labels(fig)
-    for void in voids:
-        labels.block(void.shape, owner=void.id)
-    for opening in panel.openings:  # no lettering or leader over an opening either
-        labels.block(opening.shape)
+    labels = _drawn_blocked(fig, voids)
     if underlay == "made":
         _draw_ordinates(fig, groups[_DIM_GROUP], voids, labels)
     draw_supports(fig, panel, labels)
