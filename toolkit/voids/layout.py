@@ -545,7 +545,7 @@ class Site:
                                               packed.ay[j], packed.bx[j], packed.by[j])
                     keep[k[cores - inner - packed.inner[j] < need[j] - 2.0 * CORE_MARGIN_MM]] = False
             elif trial.family == "polygon" and not (packed.inner >= 0.0).any():
-                slack = _hull_of(trial)[1]
+                slack = _slack_of(trial)
                 k, j = np.nonzero(close) if slack > 0.0 else ((), ())
                 if len(k):
                     hulls = shapely.polygons(np.asarray(trial.corners, dtype=float)[None, :, :]
@@ -752,15 +752,19 @@ def _hull_of(d: Draft) -> tuple:
     draft's own shape and 0 for a sharp n-gon, a slot, a bore. The slack is kept on the draft and carried by its
     moved and mirrored copies (``outline._carry``): a move or a mirror changes no distance, and measuring it again
     for each of the placing's moved copies was a fifth of the time spent testing them (bench plate, 7,500 copies)."""
-    shape = d.shape()
+    slack = _slack_of(d)
+    return (shapely.polygons(d.sharp), slack) if slack > 0.0 else (d.shape(), 0.0)
+
+
+def _slack_of(d: Draft) -> float:
+    """``_hull_of``'s slack alone: how far an eased n-gon's sharp corners stand off its outline (0: no easing)."""
     if d.family != "polygon" or d.corner == "none" or d.corner_mm <= 0.0:
-        return shape, 0.0
-    sharp = d.sharp
+        return 0.0
     slack = d.__dict__.get("_slack")
     if slack is None:
-        slack = float(np.max(shapely.distance(shapely.points(sharp), shape))) * (1.0 + 1e-9) + 1e-9
+        slack = float(np.max(shapely.distance(shapely.points(d.sharp), d.shape()))) * (1.0 + 1e-9) + 1e-9
         object.__setattr__(d, "_slack", slack)
-    return shapely.polygons(sharp), slack
+    return slack
 
 
 class Room:
