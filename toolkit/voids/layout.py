@@ -2054,15 +2054,11 @@ def rationalise(panel: Panel, freeform, settings: VoidOptions, rules: Rules, *, 
     pieces: dict = {}
     for (_, key), v in zip(entries, voids):
         pieces.setdefault(piece(key), []).append(v.shape)
-    whole = None  # the kept freeform voids together, the target of voids fitted to no one of them
+    # the kept freeform voids together: the target of voids fitted to no one of them (a honeycomb's)
+    whole = shapely.union_all([k.shape for k in kept]) if any(s not in by_source for s, _ in pieces) else None
 
     def error_of(source, g) -> float:
-        nonlocal whole
-        if source in by_source:
-            target = by_source[source].shape
-        else:
-            whole = whole if whole is not None else shapely.union_all([k.shape for k in kept])
-            target = whole
+        target = by_source[source].shape if source in by_source else whole
         if target.is_empty:
             return 1.0
         return round(fit_error(shapely.union_all(pieces[(source, g)]), mirror.geometry(target, g)), 6)
